@@ -1,0 +1,535 @@
+"""One shaded-pole design: dataclasses (SI inside), reading from TOML (mm, Hz, A rms) and validation.
+
+Geometry (DESIGN.md): axis z along the pole, pole face at z = 0, core in z < 0, target in z > 0.
+
+* pole: solid cylinder r <= R_p, -L <= z <= 0, with the ring's groove cut out of its face;
+* ring: r_i <= r <= r_o, -depth <= z <= 0 (inlaid flush, filling its groove);
+* coil: r_ci <= r <= r_co, -(setback + length) <= z <= -setback;
+* target: r_ti <= r <= r_t, gap <= z <= gap + thickness.
+"""
+
+from __future__ import annotations
+
+import math
+import tomllib
+from dataclasses import dataclass, field
+from pathlib import Path
+
+from models.errors import DesignError, nearest
+from models.materials import MATERIALS, get_material
+
+__all__ = [
+    "Pole",
+    "Coil",
+    "Drive",
+    "Ring",
+    "Target",
+    "Design",
+    "load_design",
+    "design_from_dict",
+    "with_value",
+    "DESIGN_KEYS",
+    "MIN_WALL_MM",
+    "DEFAULT_FILL_FACTOR",
+]
+
+MM = 1e-3
+#: Steel left on each side of the groove [mm] (common practice, no source: a thinner wall is not
+#: machinable and does not hold the ring).
+MIN_WALL_MM = 0.2
+#: Copper fill of the coil window when no wire diameter is given (common practice, no source).
+DEFAULT_FILL_FACTOR = 0.6
+
+
+@dataclass(frozen=True)
+class Pole:
+    """Steel pole: radius [m], length [m], relative permeability [-], conductivity [S/m] (0 = laminated),
+    saturation flux density [T] (None if unknown)."""
+
+    radius: float
+    length: float
+    relative_permeability: float
+    conductivity: float
+    material: str | None = None
+    saturation_flux_density: float | None = None
+
+    @property
+    def laminated(self) -> bool:
+        return self.conductivity == 0.0
+
+
+@dataclass(frozen=True)
+class Coil:
+    """Stranded coil; lengths [m]; conductivity of the wire [S/m] at 20 degC; temperature coefficient
+    [1/K]; wire_diameter [m] (None: derived from DEFAULT_FILL_FACTOR)."""
+
+    inner_radius: float
+    outer_radius: float
+    setback: float
+    length: float
+    turns: int
+    wire_diameter: float | None
+    conductivity: float
+    temperature_coefficient: float
+    material: str = "copper"
+
+    @property
+    def z_front(self) -> float:
+        return -self.setback
+
+    @property
+    def z_back(self) -> float:
+        return -(self.setback + self.length)
+
+    @property
+    def window_area(self) -> float:
+        return (self.outer_radius - self.inner_radius) * self.length
+
+    @property
+    def mean_radius(self) -> float:
+        return 0.5 * (self.inner_radius + self.outer_radius)
+
+    @property
+    def wire_area(self) -> float:
+        """Copper cross-section of one turn [m^2]."""
+        if self.wire_diameter is not None:
+            return math.pi * self.wire_diameter**2 / 4.0
+        return DEFAULT_FILL_FACTOR * self.window_area / self.turns
+
+    def resistance(self, temperature_C: float = 20.0) -> float:
+        """DC resistance of the winding [Ohm] at ``temperature_C``: rho(T) N 2 pi r_mean / A_wire."""
+        rho = (1.0 + self.temperature_coefficient * (temperature_C - 20.0)) / self.conductivity
+        return rho * self.turns * 2.0 * math.pi * self.mean_radius / self.wire_area
+
+
+@dataclass(frozen=True)
+class Drive:
+    """Supply: frequency [Hz]; exactly one of current [A rms] and voltage [V rms]."""
+
+    frequency: float
+    current: float | None = None
+    voltage: float | None = None
+
+    @property
+    def omega(self) -> float:
+        return 2.0 * math.pi * self.frequency
+
+
+@dataclass(frozen=True)
+class Ring:
+    """Shading ring inlaid flush in the pole face: radii and depth [m]; conductivity [S/m] at 20 degC."""
+
+    inner_radius: float
+    outer_radius: float
+    depth: float
+    conductivity: float
+    temperature_coefficient: float
+    material: str | None = None
+    density: float = 8890.0
+
+    @property
+    def width(self) -> float:
+        return self.outer_radius - self.inner_radius
+
+
+@dataclass(frozen=True)
+class Target:
+    """Target disc or washer: radii, thickness, gap [m]; conductivity [S/m] at 20 degC; density
+    [kg/m^3]."""
+
+    radius: float
+    thickness: float
+    gap: float
+    conductivity: float
+    temperature_coefficient: float
+    density: float
+    inner_radius: float = 0.0
+    material: str | None = None
+
+    @property
+    def volume(self) -> float:
+        return math.pi * (self.radius**2 - self.inner_radius**2) * self.thickness
+
+
+@dataclass(frozen=True)
+class Design:
+    """A complete design. ``source`` keeps the file's own values (mm, Hz, A) for sweeps and hand-off."""
+
+    pole: Pole
+    coil: Coil
+    drive: Drive
+    target: Target
+    ring: Ring | None = None
+    name: str = "design"
+    source: dict = field(default_factory=dict, compare=False, repr=False)
+
+
+# ----------------------------------------------------------------------------------------------
+# File keys: table -> key -> (kind, required). Kinds: "pos" > 0, "nonneg" >= 0, "int" positive
+# integer, "str" string, "num" any finite number.
+DESIGN_KEYS: dict[str, dict[str, tuple[str, bool]]] = {
+    "pole": {
+        "radius_mm": ("pos", True),
+        "length_mm": ("pos", True),
+        "material": ("str", False),
+        "relative_permeability": ("pos", False),
+        "conductivity_S_per_m": ("nonneg", False),
+        "saturation_flux_density_T": ("pos", False),
+    },
+    "coil": {
+        "inner_radius_mm": ("pos", True),
+        "outer_radius_mm": ("pos", True),
+        "setback_mm": ("nonneg", True),
+        "length_mm": ("pos", True),
+        "turns": ("int", True),
+        "wire_diameter_mm": ("pos", False),
+        "material": ("str", False),
+    },
+    "drive": {
+        "frequency_Hz": ("pos", True),
+        "current_A": ("pos", False),
+        "voltage_V": ("pos", False),
+    },
+    "ring": {
+        "inner_radius_mm": ("pos", True),
+        "outer_radius_mm": ("pos", True),
+        "depth_mm": ("pos", True),
+        "material": ("str", False),
+        "conductivity_S_per_m": ("pos", False),
+    },
+    "target": {
+        "radius_mm": ("pos", True),
+        "thickness_mm": ("pos", True),
+        "gap_mm": ("pos", True),
+        "inner_radius_mm": ("nonneg", False),
+        "material": ("str", False),
+        "conductivity_S_per_m": ("pos", False),
+        "density_kg_per_m3": ("pos", False),
+    },
+}
+_TOP_KEYS = {"name": "str", "description": "str"}
+_REQUIRED_TABLES = ("pole", "coil", "drive", "target")
+_ALLOWED = {
+    "pos": "a number > 0",
+    "nonneg": "a number >= 0",
+    "int": "a whole number >= 1",
+    "str": "a string",
+}
+
+
+def _check_value(where: str, value, kind: str, problems: list[str]):
+    """Return the checked value or None (with a line appended to ``problems``)."""
+    if kind == "str":
+        if isinstance(value, str):
+            return value
+    elif kind == "int":
+        if isinstance(value, int) and not isinstance(value, bool) and value >= 1:
+            return value
+    elif isinstance(value, (int, float)) and not isinstance(value, bool) and math.isfinite(value):
+        if (kind == "pos" and value > 0) or (kind == "nonneg" and value >= 0):
+            return float(value)
+    problems.append(f"{where} = {value!r}: must be {_ALLOWED[kind]}")
+    return None
+
+
+def _conductor(table: str, t: dict, problems: list[str], default: str | None):
+    """Conductivity [S/m], temperature coefficient, density and name of a conductor's material."""
+    name = t.get("material")
+    sigma = t.get("conductivity_S_per_m")
+    if name is not None and sigma is not None:
+        problems.append(
+            f"{table}.conductivity_S_per_m = {sigma!r}: give either material or "
+            "conductivity_S_per_m, not both"
+        )
+        return None
+    if sigma is not None:
+        # An explicit conductivity (value at 20 degC) takes the copper temperature coefficient only
+        # if it is copper-like; with no material named the coefficient is unknown: take 0.
+        return sigma, 0.0, None, None
+    name = name if name is not None else default
+    if name is None:
+        problems.append(f"{table}.material: missing; give material or conductivity_S_per_m")
+        return None
+    try:
+        m = get_material(name, f"{table}.material")
+    except DesignError as err:
+        problems.extend(err.problems)
+        return None
+    if m.conductivity <= 0:
+        problems.append(
+            f"{table}.material = {name!r}: conductivity is 0 (a laminated steel); "
+            f"a {table} needs a conductor, e.g. 'copper'"
+        )
+        return None
+    return m.conductivity, m.temperature_coefficient, m.density, name
+
+
+def design_from_dict(data: dict, name: str = "design") -> Design:
+    """Build and validate a design from a dict in file units (mm, Hz, A rms, V rms).
+
+    Raises
+    ------
+    DesignError
+        With one line per violation: the field, the value and what is allowed.
+    """
+    problems: list[str] = []
+    if not isinstance(data, dict):
+        raise DesignError(f"design = {data!r}: must be a table of tables")
+    for key, value in data.items():
+        if key in DESIGN_KEYS:
+            if not isinstance(value, dict):
+                problems.append(f"{key} = {value!r}: must be a table [{key}]")
+        elif key in _TOP_KEYS:
+            _check_value(key, value, _TOP_KEYS[key], problems)
+        else:
+            problems.append(
+                f"{key}: unknown table or key; allowed: {', '.join([*DESIGN_KEYS, *_TOP_KEYS])}"
+                f"{nearest(key, [*DESIGN_KEYS, *_TOP_KEYS])}"
+            )
+    for table in _REQUIRED_TABLES:
+        if table not in data:
+            problems.append(f"[{table}]: missing table")
+    if problems:
+        raise DesignError(problems)
+
+    vals: dict[str, dict] = {}
+    for table, keys in DESIGN_KEYS.items():
+        t = data.get(table)
+        if t is None:
+            continue
+        out = {}
+        for key, value in t.items():
+            if key not in keys:
+                problems.append(
+                    f"{table}.{key}: unknown key; allowed: {', '.join(keys)}{nearest(key, keys)}"
+                )
+                continue
+            checked = _check_value(f"{table}.{key}", value, keys[key][0], problems)
+            if checked is not None:
+                out[key] = checked
+        for key, (_, required) in keys.items():
+            if required and key not in t:
+                problems.append(f"{table}.{key}: missing; must be {_ALLOWED[keys[key][0]]}")
+        vals[table] = out
+    if problems:
+        raise DesignError(problems)
+
+    p, c, d, g = vals["pole"], vals["coil"], vals["drive"], vals["target"]
+    r = vals.get("ring")
+
+    # --- pole material
+    mu_r = p.get("relative_permeability")
+    sigma_p = p.get("conductivity_S_per_m")
+    bsat = p.get("saturation_flux_density_T")
+    pole_mat = p.get("material")
+    if pole_mat is not None:
+        if mu_r is not None or sigma_p is not None:
+            problems.append(
+                "pole.material = "
+                f"{pole_mat!r}: give either material or relative_permeability and "
+                "conductivity_S_per_m, not both"
+            )
+        else:
+            try:
+                m = get_material(pole_mat, "pole.material")
+                if not m.is_magnetic:
+                    problems.append(
+                        f"pole.material = {pole_mat!r}: not a magnetic steel; allowed: "
+                        + ", ".join(k for k, v in MATERIALS.items() if v.is_magnetic)
+                    )
+                mu_r, sigma_p = m.relative_permeability, m.conductivity
+                bsat = bsat if bsat is not None else m.saturation_flux_density
+            except DesignError as err:
+                problems.extend(err.problems)
+    elif mu_r is None or sigma_p is None:
+        problems.append(
+            "pole: give material, or both relative_permeability and conductivity_S_per_m "
+            "(0 = laminated)"
+        )
+    if mu_r is not None and mu_r < 1.0:
+        problems.append(f"pole.relative_permeability = {mu_r!r}: must be >= 1 (a magnetic steel)")
+
+    # --- drive
+    if ("current_A" in d) == ("voltage_V" in d):
+        problems.append(
+            "drive: give exactly one of current_A (rms) and voltage_V (rms); "
+            f"got {'both' if 'current_A' in d else 'neither'}"
+        )
+
+    # --- coil wire
+    coil_sigma, coil_alpha = None, None
+    coil_mat = c.get("material", "copper")
+    try:
+        cm = get_material(coil_mat, "coil.material")
+        if cm.conductivity <= 0:
+            problems.append(f"coil.material = {coil_mat!r}: the winding needs a conductor")
+        coil_sigma, coil_alpha = cm.conductivity, cm.temperature_coefficient
+    except DesignError as err:
+        problems.extend(err.problems)
+
+    ring_cond = _conductor("ring", r, problems, "copper") if r is not None else None
+    target_cond = _conductor("target", g, problems, None)
+
+    # --- geometry
+    Rp, L = p["radius_mm"], p["length_mm"]
+    if c["inner_radius_mm"] < Rp:
+        problems.append(
+            f"coil.inner_radius_mm = {c['inner_radius_mm']!r}: must be >= pole.radius_mm "
+            f"(= {Rp!r}); the coil sits outside the pole"
+        )
+    if c["outer_radius_mm"] <= c["inner_radius_mm"]:
+        problems.append(
+            f"coil.outer_radius_mm = {c['outer_radius_mm']!r}: must be > coil.inner_radius_mm "
+            f"(= {c['inner_radius_mm']!r})"
+        )
+    if c["setback_mm"] + c["length_mm"] > L:
+        problems.append(
+            f"coil.length_mm = {c['length_mm']!r}: setback_mm + length_mm must be <= "
+            f"pole.length_mm (= {L!r}); the coil sits along the pole"
+        )
+    if "wire_diameter_mm" in c:
+        wire_area = math.pi * c["wire_diameter_mm"] ** 2 / 4
+        window = (c["outer_radius_mm"] - c["inner_radius_mm"]) * c["length_mm"]
+        if window > 0 and c["turns"] * wire_area > window * math.pi / 4 * 1.0001:
+            problems.append(
+                f"coil.wire_diameter_mm = {c['wire_diameter_mm']!r}: {c['turns']} turns do not "
+                f"fit the {window:.4g} mm^2 window; must be <= "
+                f"{math.sqrt(window / c['turns']):.4g} mm"
+            )
+    if r is not None:
+        ri, ro, depth = r["inner_radius_mm"], r["outer_radius_mm"], r["depth_mm"]
+        if ro <= ri:
+            problems.append(
+                f"ring.outer_radius_mm = {ro!r}: must be > ring.inner_radius_mm (= {ri!r})"
+            )
+        if ro > Rp - MIN_WALL_MM:
+            problems.append(
+                f"ring.outer_radius_mm = {ro!r}: must be <= pole.radius_mm - {MIN_WALL_MM} "
+                f"(= {Rp - MIN_WALL_MM:.4g}); the ring sits inside the pole with a wall of steel left"
+            )
+        if ri < MIN_WALL_MM:
+            problems.append(
+                f"ring.inner_radius_mm = {ri!r}: must be >= {MIN_WALL_MM} mm; a post of steel "
+                "stays inside the ring"
+            )
+        if depth >= L:
+            problems.append(
+                f"ring.depth_mm = {depth!r}: must be < pole.length_mm (= {L!r})"
+            )
+    tri = g.get("inner_radius_mm", 0.0)
+    if tri >= g["radius_mm"]:
+        problems.append(
+            f"target.inner_radius_mm = {tri!r}: must be < target.radius_mm (= {g['radius_mm']!r})"
+        )
+    density = g.get("density_kg_per_m3")
+    if density is None and target_cond is not None:
+        density = target_cond[2]
+        if density is None:
+            problems.append(
+                "target.density_kg_per_m3: missing; needed with an explicit conductivity_S_per_m"
+            )
+    if problems:
+        raise DesignError(problems)
+
+    pole = Pole(
+        radius=Rp * MM,
+        length=L * MM,
+        relative_permeability=float(mu_r),
+        conductivity=float(sigma_p),
+        material=pole_mat,
+        saturation_flux_density=bsat,
+    )
+    coil = Coil(
+        inner_radius=c["inner_radius_mm"] * MM,
+        outer_radius=c["outer_radius_mm"] * MM,
+        setback=c["setback_mm"] * MM,
+        length=c["length_mm"] * MM,
+        turns=c["turns"],
+        wire_diameter=c["wire_diameter_mm"] * MM if "wire_diameter_mm" in c else None,
+        conductivity=coil_sigma,
+        temperature_coefficient=coil_alpha,
+        material=coil_mat,
+    )
+    drive = Drive(frequency=d["frequency_Hz"], current=d.get("current_A"), voltage=d.get("voltage_V"))
+    ring = None
+    if r is not None:
+        sigma, alpha, rho_m, mname = ring_cond
+        ring = Ring(
+            inner_radius=r["inner_radius_mm"] * MM,
+            outer_radius=r["outer_radius_mm"] * MM,
+            depth=r["depth_mm"] * MM,
+            conductivity=sigma,
+            temperature_coefficient=alpha,
+            material=mname,
+            density=rho_m if rho_m is not None else 8890.0,
+        )
+    sigma, alpha, _, mname = target_cond
+    target = Target(
+        radius=g["radius_mm"] * MM,
+        thickness=g["thickness_mm"] * MM,
+        gap=g["gap_mm"] * MM,
+        conductivity=sigma,
+        temperature_coefficient=alpha,
+        density=float(density),
+        inner_radius=tri * MM,
+        material=mname,
+    )
+    return Design(
+        pole=pole,
+        coil=coil,
+        drive=drive,
+        target=target,
+        ring=ring,
+        name=str(data.get("name", name)),
+        source=_deep_copy(data),
+    )
+
+
+def _deep_copy(data: dict) -> dict:
+    return {k: (_deep_copy(v) if isinstance(v, dict) else v) for k, v in data.items()}
+
+
+def load_design(path) -> Design:
+    """Read and validate a design TOML file (mm, Hz, A rms, V rms).
+
+    Raises
+    ------
+    DesignError
+        The file is missing, not TOML, or breaks a rule (one line per violation).
+    """
+    path = Path(path)
+    try:
+        text = path.read_text(encoding="utf-8")
+    except OSError as err:
+        raise DesignError(f"design file {str(path)!r}: cannot be read ({err.strerror})") from None
+    try:
+        data = tomllib.loads(text)
+    except tomllib.TOMLDecodeError as err:
+        raise DesignError(f"design file {str(path)!r}: not valid TOML ({err})") from None
+    return design_from_dict(data, name=path.stem)
+
+
+def with_value(design: Design, key: str, value) -> Design:
+    """A copy of ``design`` with one file key changed (``"gap_mm"`` or ``"target.gap_mm"``).
+
+    A bare key must name exactly one key of the design's tables.
+    """
+    data = _deep_copy(design.source)
+    if "." in key:
+        table, k = key.split(".", 1)
+        if table not in DESIGN_KEYS or k not in DESIGN_KEYS[table]:
+            flat = [f"{t}.{kk}" for t, ks in DESIGN_KEYS.items() for kk in ks]
+            raise DesignError(f"{key}: not a design key{nearest(key, flat)}")
+    else:
+        tables = [t for t in DESIGN_KEYS if key in DESIGN_KEYS[t] and (t in data or t == "ring")]
+        tables = [t for t in tables if t in data] or tables
+        if len(tables) != 1:
+            flat = sorted({kk for ks in DESIGN_KEYS.values() for kk in ks})
+            if not tables:
+                raise DesignError(f"{key}: not a design key{nearest(key, flat)}")
+            raise DesignError(
+                f"{key}: ambiguous; write one of {', '.join(t + '.' + key for t in tables)}"
+            )
+        table, k = tables[0], key
+    data.setdefault(table, {})[k] = value
+    return design_from_dict(data, name=design.name)

@@ -1,0 +1,24 @@
+"""The one error class of eddypull and its message helpers."""
+
+from __future__ import annotations
+
+import difflib
+
+__all__ = ["DesignError", "nearest"]
+
+
+class DesignError(ValueError):
+    """Input that no model can evaluate: every line of the message names the field, the value and
+    what is allowed."""
+
+    def __init__(self, problems):
+        if isinstance(problems, str):
+            problems = [problems]
+        self.problems = list(problems)
+        super().__init__("\n".join(self.problems))
+
+
+def nearest(name: str, valid) -> str:
+    """A ' (did you mean X?)' suffix for the closest valid name, or ''."""
+    match = difflib.get_close_matches(name, list(valid), n=1, cutoff=0.5)
+    return f" (did you mean {match[0]!r}?)" if match else ""

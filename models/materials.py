@@ -1,0 +1,193 @@
+"""Material library: electrical, thermal and magnetic properties with the source of every value.
+
+All values are SI. ``conductivity`` is the value at 20 degC; resistivity follows
+rho(T) = rho_20 (1 + alpha (T - 20 degC)). Every number carries its source in ``sources``; where the
+value is recalled from a handbook rather than read from it here, the source says "from memory".
+"""
+
+from __future__ import annotations
+
+from dataclasses import dataclass, field
+
+__all__ = ["Material", "MATERIALS", "get_material", "resistivity_at"]
+
+
+@dataclass(frozen=True)
+class Material:
+    """One material of the library.
+
+    Parameters
+    ----------
+    name : str
+        Library key, as used in design files (``material = "copper"``).
+    description : str
+        Grade and temper in words.
+    conductivity : float
+        Electrical conductivity at 20 degC [S/m]. 0 for laminated steel (no eddy currents in the bulk).
+    temperature_coefficient : float
+        Temperature coefficient of resistivity at 20 degC [1/K].
+    density : float
+        Mass density [kg/m^3].
+    specific_heat : float
+        Specific heat capacity [J/(kg K)].
+    thermal_conductivity : float
+        Thermal conductivity [W/(m K)].
+    relative_permeability : float
+        Linear relative permeability [-] (1 for non-magnetic metals).
+    saturation_flux_density : float or None
+        Flux density above which a linear model of this steel no longer holds [T]; None if non-magnetic.
+    sources : dict
+        Source of each value, by field name.
+    """
+
+    name: str
+    description: str
+    conductivity: float
+    temperature_coefficient: float
+    density: float
+    specific_heat: float
+    thermal_conductivity: float
+    relative_permeability: float = 1.0
+    saturation_flux_density: float | None = None
+    sources: dict = field(default_factory=dict)
+
+    @property
+    def is_magnetic(self) -> bool:
+        return self.relative_permeability > 1.0
+
+
+def resistivity_at(material_conductivity: float, temperature_coefficient: float, temperature_C: float):
+    """Resistivity at ``temperature_C`` [Ohm m] from the 20 degC conductivity [S/m].
+
+    Notes
+    -----
+    Linear law rho(T) = rho_20 (1 + alpha (T - 20)), as used in IEC 60028 for annealed copper.
+    """
+    return (1.0 + temperature_coefficient * (temperature_C - 20.0)) / material_conductivity
+
+
+_IEC60028 = "IEC 60028 (international annealed copper standard)"
+_FROM_MEMORY_HB = "from memory of handbook tables (ASM Metals Handbook / CRC Handbook); check before use"
+
+MATERIALS: dict[str, Material] = {
+    m.name: m
+    for m in [
+        Material(
+            name="copper",
+            description="annealed copper, 100 % IACS",
+            conductivity=58.0e6,
+            temperature_coefficient=0.00393,
+            density=8890.0,
+            specific_heat=385.0,
+            thermal_conductivity=390.0,
+            sources={
+                "conductivity": _IEC60028 + ": 1/58 Ohm mm^2/m at 20 degC",
+                "temperature_coefficient": _IEC60028 + ": 0.00393 /K at 20 degC",
+                "density": _IEC60028 + ": 8.89 g/cm^3 at 20 degC",
+                "specific_heat": _FROM_MEMORY_HB,
+                "thermal_conductivity": _FROM_MEMORY_HB,
+            },
+        ),
+        Material(
+            name="aluminium-1350",
+            description="electrical-conductor grade aluminium 1350 (EC grade), 61 % IACS",
+            conductivity=0.61 * 58.0e6,
+            temperature_coefficient=0.00403,
+            density=2703.0,
+            specific_heat=900.0,
+            thermal_conductivity=234.0,
+            sources={
+                "conductivity": "IEC 60889 (hard-drawn aluminium wire): 61 % IACS minimum, from memory",
+                "temperature_coefficient": "IEC 60889: 0.00403 /K at 20 degC, from memory",
+                "density": "IEC 60889: 2.703 g/cm^3, from memory",
+                "specific_heat": _FROM_MEMORY_HB,
+                "thermal_conductivity": _FROM_MEMORY_HB,
+            },
+        ),
+        Material(
+            name="aluminium-6061-t6",
+            description="aluminium alloy 6061 in temper T6, 43 % IACS",
+            conductivity=0.43 * 58.0e6,
+            temperature_coefficient=0.0036,
+            density=2700.0,
+            specific_heat=896.0,
+            thermal_conductivity=167.0,
+            sources={
+                "conductivity": "ASM Metals Handbook vol. 2, 6061-T6: 43 % IACS at 20 degC, from memory",
+                "temperature_coefficient": "from memory (typical of wrought Al alloys); uncertain +-10 %",
+                "density": _FROM_MEMORY_HB,
+                "specific_heat": _FROM_MEMORY_HB,
+                "thermal_conductivity": _FROM_MEMORY_HB,
+            },
+        ),
+        Material(
+            name="brass-c26000",
+            description="cartridge brass 70/30 (C26000), annealed, 28 % IACS",
+            conductivity=0.28 * 58.0e6,
+            temperature_coefficient=0.0016,
+            density=8530.0,
+            specific_heat=375.0,
+            thermal_conductivity=120.0,
+            sources={
+                "conductivity": "ASM Metals Handbook vol. 2, C26000: 28 % IACS, from memory",
+                "temperature_coefficient": "from memory (handbook range 0.0015-0.002 /K)",
+                "density": _FROM_MEMORY_HB,
+                "specific_heat": _FROM_MEMORY_HB,
+                "thermal_conductivity": _FROM_MEMORY_HB,
+            },
+        ),
+        Material(
+            name="electrical-steel-m400",
+            description="laminated non-oriented electrical steel, grade M400-50A, stacked pole",
+            conductivity=0.0,
+            temperature_coefficient=0.0,
+            density=7700.0,
+            specific_heat=460.0,
+            thermal_conductivity=28.0,
+            relative_permeability=2000.0,
+            saturation_flux_density=1.5,
+            sources={
+                "conductivity": "laminated: bulk eddy currents suppressed (common practice, no source)",
+                "density": "IEC 60404-8-4, grade M400-50A: 7.70 g/cm^3 conventional density, from memory",
+                "relative_permeability": "linear low-field value of non-oriented steel, from memory",
+                "saturation_flux_density": "IEC 60404-8-4, M400-50A: J at 2500 A/m >= 1.53 T, "
+                "from memory; linear model taken to hold below 1.5 T",
+                "specific_heat": _FROM_MEMORY_HB,
+                "thermal_conductivity": "in the plane of the sheets, from memory",
+            },
+        ),
+        Material(
+            name="steel-1010",
+            description="solid low-carbon steel AISI 1010 (conductive, not laminated)",
+            conductivity=7.0e6,
+            temperature_coefficient=0.005,
+            density=7870.0,
+            specific_heat=450.0,
+            thermal_conductivity=60.0,
+            relative_permeability=1000.0,
+            saturation_flux_density=1.6,
+            sources={
+                "conductivity": "ASM Metals Handbook vol. 1, AISI 1010: 0.143 uOhm m, from memory",
+                "temperature_coefficient": _FROM_MEMORY_HB,
+                "density": _FROM_MEMORY_HB,
+                "relative_permeability": "linear mid-field value, from memory; strongly field-dependent",
+                "saturation_flux_density": "from memory (knee of the B-H curve of mild steel)",
+                "specific_heat": _FROM_MEMORY_HB,
+                "thermal_conductivity": _FROM_MEMORY_HB,
+            },
+        ),
+    ]
+}
+
+
+def get_material(name: str, field_name: str = "material") -> Material:
+    """Look up a library material; unknown names raise a one-line DesignError naming the field."""
+    from models.errors import DesignError, nearest
+
+    try:
+        return MATERIALS[name]
+    except (KeyError, TypeError):
+        raise DesignError(
+            f"{field_name} = {name!r}: not in the material library; allowed: "
+            f"{', '.join(MATERIALS)}{nearest(str(name), MATERIALS)}"
+        ) from None
