@@ -1,0 +1,209 @@
+"""Assemble and solve the multi-loop circuit of one design (rms phasors, SI).
+
+Loops: every ring and target cell is a shorted loop; the coil is one loop of N turns spread over
+sub-cells of its window. The laminated pole enters through bound sheet currents on its contour that
+follow linearly from all free currents (models.pole), so it adds a real, symmetric inductance
+M_iron = M_cp P to the loop matrix. Loop equations (Kirchhoff's voltage law for each loop)::
+
+    (R + j omega (M + M_iron)) I = V,   V = 0 for cells, V = supply for the coil
+
+Time averages of rms phasors carry no factor 1/2: <P> = |I|^2 R.
+"""
+
+from __future__ import annotations
+
+from dataclasses import dataclass
+
+import numpy as np
+
+from models.discretize import Cells, Fineness, coil_filaments, conductor_cells
+from models.filaments import mutual, mutual_dz, self_inductance_rect
+
+__all__ = ["CircuitSolution", "build_cells", "solve_circuit", "cell_mutual_matrix"]
+
+RING, TARGET, COIL = 0, 1, 2
+
+# Two-point Gauss-Legendre abscissae on [-1/2, 1/2] (unit weights 1/2 each).
+_G2 = np.array([-0.5, 0.5]) / np.sqrt(3.0)
+
+
+def build_cells(design, fineness: Fineness) -> Cells:
+    """Cells of ring, target and coil window (coil cells carry part = COIL, conductivity 1)."""
+    f = design.drive.frequency
+    parts = []
+    if design.ring is not None:
+        ring = design.ring
+        parts.append(
+            conductor_cells(
+                ring.inner_radius, ring.outer_radius, -ring.depth, 0.0, ring.conductivity, f, RING,
+                fineness,
+            )
+        )
+    t = design.target
+    parts.append(
+        conductor_cells(
+            t.inner_radius, t.radius, t.gap, t.gap + t.thickness, t.conductivity, f, TARGET,
+            fineness, graded_r=(t.inner_radius > 0, True),
+        )
+    )
+    rc, zc, dr, dz = coil_filaments(design.coil, fineness)
+    parts.append(
+        Cells(
+            r0=rc - dr / 2, r1=rc + dr / 2, z0=zc - dz / 2, z1=zc + dz / 2,
+            conductivity=np.ones_like(rc), part=np.full(rc.size, COIL),
+        )
+    )
+    return Cells.concat(*parts)
+
+
+def _near_pairs(cells: Cells, reach=1.01):
+    """Index pairs (i < j) of cells whose rectangles are within one cell size of each other."""
+    rc, zc, dr, dz = cells.rc, cells.zc, cells.dr, cells.dz
+    gap_r = np.abs(rc[:, None] - rc[None, :]) - 0.5 * (dr[:, None] + dr[None, :])
+    gap_z = np.abs(zc[:, None] - zc[None, :]) - 0.5 * (dz[:, None] + dz[None, :])
+    size = np.maximum(np.maximum(dr[:, None], dr[None, :]), np.maximum(dz[:, None], dz[None, :]))
+    near = (np.maximum(gap_r, gap_z) < reach * size) & np.triu(np.ones_like(gap_r, bool), 1)
+    return np.nonzero(near)
+
+
+def _gauss_nodes(cells: Cells, idx):
+    """2 x 2 Gauss nodes of the cells ``idx``: (len(idx), 4) arrays of r and z."""
+    gr = cells.rc[idx, None] + cells.dr[idx, None] * np.repeat(_G2, 2)[None, :]
+    gz = cells.zc[idx, None] + cells.dz[idx, None] * np.tile(_G2, 2)[None, :]
+    return gr, gz
+
+
+def cell_mutual_matrix(cells: Cells):
+    """Inductance matrix of the cells (each a uniform-current ring) [H], and dM/dz_i [H/m].
+
+    Far pairs use Maxwell's formula between centres; pairs within one cell size average it over 2 x 2
+    Gauss nodes of both cells; the diagonal is the self-inductance of a rectangular-section ring
+    (models.filaments.self_inductance_rect). dMdz[i, j] is the derivative with respect to the axial
+    position of cell i.
+    """
+    rc, zc = cells.rc, cells.zc
+    M = mutual(rc[:, None], zc[:, None], rc[None, :], zc[None, :])
+    D = mutual_dz(rc[:, None], zc[:, None], rc[None, :], zc[None, :])
+    i, j = _near_pairs(cells)
+    if i.size:
+        ri, zi = _gauss_nodes(cells, i)
+        rj, zj = _gauss_nodes(cells, j)
+        args = (ri[:, :, None], zi[:, :, None], rj[:, None, :], zj[:, None, :])
+        m_near = mutual(*args).mean(axis=(1, 2))
+        d_near = mutual_dz(*args).mean(axis=(1, 2))
+        M[i, j] = m_near
+        M[j, i] = m_near
+        D[i, j] = d_near
+        D[j, i] = -d_near
+    np.fill_diagonal(M, self_inductance_rect(rc, cells.dr, cells.dz))
+    np.fill_diagonal(D, 0.0)
+    return M, D
+
+
+@dataclass(frozen=True)
+class CircuitSolution:
+    """Currents of one solved design (rms phasors, SI).
+
+    cells : the cells (ring, target, coil sub-cells); cell_current : complex current of each cell
+    [A] (a coil sub-cell carries its share of the ampere-turns); coil_current, coil_voltage [A, V];
+    panel_current : bound sheet currents of the pole's panels [A] (empty without iron);
+    M, dMdz : cell matrices [H], [H/m] (free part); panel_M, panel_dMdz : cells x panels [H], [H/m]
+    """
+
+    cells: Cells
+    cell_current: np.ndarray
+    coil_current: complex
+    coil_voltage: complex
+    coil_resistance: float
+    cell_resistance: np.ndarray
+    panel_current: np.ndarray
+    M: np.ndarray
+    dMdz: np.ndarray
+    panel_M: np.ndarray | None
+    panel_dMdz: np.ndarray | None
+    panels: object
+    omega: float
+
+
+def solve_circuit(design, fineness: Fineness, pole_model=None, temperatures=None) -> CircuitSolution:
+    """Solve the loop equations of ``design``.
+
+    Parameters
+    ----------
+    design : models.design.Design
+    fineness : Fineness
+    pole_model : object or None
+        Magnetised-pole model with ``panels`` and ``operator(r, z)`` (models.pole); None: no iron.
+    temperatures : dict or None
+        Part temperatures [degC] by "ring", "target", "coil"; None: all at 20 degC.
+    """
+    temps = {"ring": 20.0, "target": 20.0, "coil": 20.0, **(temperatures or {})}
+    cells = build_cells(design, fineness)
+    omega = design.drive.omega
+    M, D = cell_mutual_matrix(cells)
+
+    panels = None
+    panel_M = panel_D = None
+    P = None
+    if pole_model is not None:
+        from models.pole import panel_mutual, panel_mutual_dz
+
+        panels = pole_model.panels
+        P = pole_model.operator(cells.rc, cells.zc)  # (n_panels, n_cells)
+        panel_M = panel_mutual(panels, cells.rc, cells.zc)  # (n_cells, n_panels)
+        panel_D = panel_mutual_dz(panels, cells.rc, cells.zc)
+        M_iron = panel_M @ P
+        M_total = M + 0.5 * (M_iron + M_iron.T)
+    else:
+        M_total = M
+
+    # Incidence: loops = solid cells individually, then the coil.
+    coil_mask = cells.part == COIL
+    solid = np.flatnonzero(~coil_mask)
+    n_sub = int(coil_mask.sum())
+    turns = design.coil.turns
+    C = np.zeros((cells.n, solid.size + 1))
+    C[solid, np.arange(solid.size)] = 1.0
+    C[coil_mask, -1] = turns / n_sub
+    L_loop = C.T @ M_total @ C
+
+    r_cells = cells.resistance()
+    alpha = np.zeros(cells.n)
+    if design.ring is not None:
+        alpha[cells.part == RING] = design.ring.temperature_coefficient * (temps["ring"] - 20.0)
+    alpha[cells.part == TARGET] = design.target.temperature_coefficient * (temps["target"] - 20.0)
+    r_cells = r_cells * (1.0 + alpha)
+    r_coil = design.coil.resistance(temps["coil"])
+    R_loop = np.concatenate([r_cells[solid], [r_coil]])
+
+    Z = 1j * omega * L_loop
+    Z[np.diag_indices_from(Z)] += R_loop
+    n = solid.size
+    if design.drive.current is not None:
+        i0 = complex(design.drive.current)
+        i_solid = np.linalg.solve(Z[:n, :n], -Z[:n, n] * i0)
+        v0 = complex(Z[n, :n] @ i_solid + Z[n, n] * i0)
+    else:
+        v0 = complex(design.drive.voltage)
+        rhs = np.zeros(n + 1, complex)
+        rhs[n] = v0
+        x = np.linalg.solve(Z, rhs)
+        i_solid, i0 = x[:n], complex(x[n])
+    loop_current = np.concatenate([i_solid, [i0]])
+    cell_current = C @ loop_current
+    panel_current = P @ cell_current if P is not None else np.zeros(0, complex)
+    return CircuitSolution(
+        cells=cells,
+        cell_current=cell_current,
+        coil_current=i0,
+        coil_voltage=v0,
+        coil_resistance=r_coil,
+        cell_resistance=r_cells,
+        panel_current=panel_current,
+        M=M,
+        dMdz=D,
+        panel_M=panel_M,
+        panel_dMdz=panel_D,
+        panels=panels,
+        omega=omega,
+    )

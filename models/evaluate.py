@@ -1,0 +1,216 @@
+"""The one entry point of the fast model: design -> result."""
+
+from __future__ import annotations
+
+import math
+import time
+from dataclasses import asdict, dataclass, field
+
+import numpy as np
+from scipy.constants import g as standard_gravity
+
+from models.circuit import RING, TARGET, CircuitSolution, solve_circuit
+from models.design import Design
+from models.discretize import Fineness, skin_depth
+from models.errors import DesignError
+from models.filaments import loop_field
+from models.pull import pull_by_source
+
+__all__ = ["Result", "evaluate", "DEFAULT_FINENESS", "MODEL_VERSION"]
+
+MODEL_VERSION = "multiloop-1"
+DEFAULT_FINENESS = Fineness()
+
+
+@dataclass(frozen=True)
+class Result:
+    """Fast-model result of one design. Rms phasors; SI except where a name says otherwise.
+
+    pull_N : time-averaged axial force on the target, positive toward the face [N]
+    pull_by_source_N : its split into "coil", "pole" (magnetised iron) and "ring" [N]
+    target_loss_W, ring_loss_W, coil_loss_W : Joule losses [W]
+    input_power_W : Re(V conj(I)) at the coil terminals [W]
+    coil_current_A, coil_voltage_V : rms magnitudes [A], [V]; supply_VA : |V||I| [VA]
+    coil_impedance_ohm : (resistance, reactance) at the terminals [Ohm]
+    ring_current_A : rms magnitude of the ring's total current [A]; ring_phase_deg : its phase
+        relative to the coil current [deg]
+    core_peak_flux_density_T : largest peak |B| found inside the pole [T]
+    target_weight_N, lift_ratio : weight of the target [N] and pull / weight [-]
+    temperatures_C : temperature of each part used for the resistivities [degC]
+    warnings : where the linear model or its discretisation is outside its validated range
+    """
+
+    pull_N: float
+    pull_by_source_N: dict
+    target_loss_W: float
+    ring_loss_W: float
+    coil_loss_W: float
+    input_power_W: float
+    coil_current_A: float
+    coil_voltage_V: float
+    supply_VA: float
+    coil_impedance_ohm: tuple
+    ring_current_A: float
+    ring_phase_deg: float
+    core_peak_flux_density_T: float
+    target_weight_N: float
+    lift_ratio: float
+    temperatures_C: dict
+    warnings: list = field(default_factory=list)
+    n_cells: int = 0
+    n_panels: int = 0
+    run_time_s: float = 0.0
+    model: str = MODEL_VERSION
+
+    def to_dict(self) -> dict:
+        """Plain JSON-ready dict of every field."""
+        d = asdict(self)
+        d["coil_impedance_ohm"] = list(self.coil_impedance_ohm)
+        return d
+
+
+def _panel_size(design: Design, fineness: Fineness) -> float:
+    """Iron panel size at the face [m]: a fraction of the smallest feature near it."""
+    features = [design.pole.radius, 2.0 * design.target.gap, design.target.radius]
+    if design.ring is not None:
+        features += [design.ring.width, design.ring.depth, design.ring.inner_radius]
+    return fineness.panel_size * min(features)
+
+
+def pole_model_for(design: Design, fineness: Fineness):
+    """The magnetised-pole model of ``design`` (None if the pole is not magnetic)."""
+    if design.pole.relative_permeability <= 1.0:
+        return None
+    from models.pole import MagnetisedPole, build_panels
+
+    panels = build_panels(design.pole, design.ring, panel_size=_panel_size(design, fineness))
+    return MagnetisedPole(panels, design.pole.relative_permeability)
+
+
+def _core_peak_flux_density(design: Design, sol: CircuitSolution) -> float:
+    """Largest peak |B| [T] on a grid of points inside the pole, away from its surface.
+
+    For rms phasors (B_r, B_z) the peak over a period of |B(t)| is
+    sqrt(|B_r|^2 + |B_z|^2 + |B_r^2 + B_z^2|) (the major axis of the field ellipse times sqrt 2).
+    """
+    if sol.panels is None:
+        return 0.0
+    from models.pole import panel_field
+
+    p = design.pole
+    margin = 0.08 * p.radius
+    r = np.linspace(0.0, p.radius - margin, 6)
+    z = np.linspace(-p.length + margin, -margin, 11)
+    R, Z = (a.ravel() for a in np.meshgrid(r, z, indexing="ij"))
+    if design.ring is not None:
+        g = design.ring
+        inside = (R > g.inner_radius - margin) & (R < g.outer_radius + margin) & (Z > -g.depth - margin)
+        R, Z = R[~inside], Z[~inside]
+    c = sol.cells
+    br_c, bz_c = loop_field(c.rc[None, :], c.zc[None, :], R[:, None], Z[:, None])
+    br = br_c @ sol.cell_current
+    bz = bz_c @ sol.cell_current
+    br_p, bz_p = panel_field(sol.panels, R, Z)
+    br = br + br_p @ sol.panel_current
+    bz = bz + bz_p @ sol.panel_current
+    peak = np.sqrt(np.abs(br) ** 2 + np.abs(bz) ** 2 + np.abs(br * br + bz * bz))
+    return float(peak.max())
+
+
+def _range_warnings(design: Design, sol: CircuitSolution, fineness: Fineness, b_peak: float):
+    out = []
+    bsat = design.pole.saturation_flux_density
+    if bsat is not None and b_peak > bsat:
+        out.append(
+            f"core peak flux density {b_peak:.3g} T exceeds the steel's linear limit {bsat:.3g} T: "
+            "saturation makes the linear model optimistic"
+        )
+    f = design.drive.frequency
+    for name, part, label in (("target", design.target, TARGET), ("ring", design.ring, RING)):
+        if part is None:
+            continue
+        delta = skin_depth(f, part.conductivity)
+        cells = sol.cells
+        sel = cells.part == label
+        finest = min(cells.dr[sel].min(), cells.dz[sel].min())
+        if finest > 1.01 * fineness.surface_cell * delta and finest > 0:
+            out.append(
+                f"{name} skin depth {delta * 1e3:.3g} mm is finer than its cells "
+                f"({finest * 1e3:.3g} mm): raise the cell limit for a converged answer"
+            )
+    return out
+
+
+def evaluate(
+    design: Design, isothermal: bool = True, fineness: Fineness | None = None, pole_model=None
+) -> Result:
+    """Evaluate one design with the fast multi-loop model.
+
+    Parameters
+    ----------
+    design : models.design.Design
+        A validated design (``load_design``).
+    isothermal : bool
+        Evaluate every part at 20 degC. (No thermal model is coupled yet, so False gives the same.)
+    fineness : Fineness, optional
+        Discretisation; DEFAULT_FINENESS converges the pull to about 1 %.
+    pole_model : optional
+        A prebuilt magnetised-pole model (reuse across designs that share the pole geometry).
+
+    Returns
+    -------
+    Result
+
+    Raises
+    ------
+    DesignError
+        For a conductive (solid) pole: the fast model covers laminated poles only.
+    """
+    t_start = time.perf_counter()
+    fineness = fineness or DEFAULT_FINENESS
+    if not design.pole.laminated:
+        raise DesignError(
+            f"pole.conductivity_S_per_m = {design.pole.conductivity:.4g}: the fast model covers "
+            "laminated poles only (0); check a solid pole with 'eddypull verify'"
+        )
+    if pole_model is None:
+        pole_model = pole_model_for(design, fineness)
+    temps = {"coil": 20.0, "ring": 20.0, "target": 20.0}
+    sol = solve_circuit(design, fineness, pole_model, temps)
+    split = pull_by_source(sol)
+    pull = sum(split.values())
+
+    cells = sol.cells
+    loss = np.abs(sol.cell_current) ** 2 * sol.cell_resistance
+    target_loss = float(loss[cells.part == TARGET].sum())
+    ring_loss = float(loss[cells.part == RING].sum())
+    coil_loss = abs(sol.coil_current) ** 2 * sol.coil_resistance
+    z_coil = sol.coil_voltage / sol.coil_current
+    ring_current = complex(sol.cell_current[cells.part == RING].sum())
+    ring_phase = (
+        math.degrees(np.angle(ring_current / sol.coil_current)) if design.ring is not None else 0.0
+    )
+    b_peak = _core_peak_flux_density(design, sol)
+    weight = design.target.density * design.target.volume * standard_gravity
+    return Result(
+        pull_N=pull,
+        pull_by_source_N=split,
+        target_loss_W=target_loss,
+        ring_loss_W=ring_loss,
+        coil_loss_W=float(coil_loss),
+        input_power_W=float(np.real(sol.coil_voltage * np.conj(sol.coil_current))),
+        coil_current_A=abs(sol.coil_current),
+        coil_voltage_V=abs(sol.coil_voltage),
+        supply_VA=abs(sol.coil_voltage) * abs(sol.coil_current),
+        coil_impedance_ohm=(float(z_coil.real), float(z_coil.imag)),
+        ring_current_A=abs(ring_current),
+        ring_phase_deg=ring_phase,
+        core_peak_flux_density_T=b_peak,
+        target_weight_N=weight,
+        lift_ratio=pull / weight,
+        temperatures_C=temps,
+        warnings=_range_warnings(design, sol, fineness, b_peak),
+        n_cells=int(cells.n),
+        n_panels=0 if sol.panels is None else int(sol.panels.n),
+        run_time_s=time.perf_counter() - t_start,
+    )

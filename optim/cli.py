@@ -1,0 +1,131 @@
+"""The eddypull command line: evaluate, verify, materials, demo.
+
+Exit codes: 0 success, 2 bad input (one line per problem, no traceback).
+"""
+
+from __future__ import annotations
+
+import argparse
+import json
+import sys
+from pathlib import Path
+
+from models.design import load_design
+from models.errors import DesignError
+from models.evaluate import evaluate
+
+__all__ = ["main"]
+
+DEMO_DESIGN = Path(__file__).resolve().parents[1] / "studies" / "demo_design.toml"
+
+
+def _cmd_evaluate(args) -> int:
+    from optim.summary import format_result
+
+    design = load_design(args.design)
+    if args.sweep:
+        from optim.sweep import format_sweep, parse_sweep, plot_sweep, run_sweep
+
+        key, values = parse_sweep(args.sweep)
+        rows = run_sweep(design, key, values, isothermal=args.isothermal)
+        if args.json:
+            print(json.dumps({"key": key, "rows": [{key: v, **r.to_dict()} for v, r in rows]}))
+        else:
+            print(format_sweep(key, rows))
+        if args.plot:
+            plot_sweep(key, rows, args.plot, title=design.name)
+            if not args.json:
+                print(f"plot written to {args.plot}")
+        return 0
+    if args.plot:
+        raise DesignError("--plot: needs --sweep KEY=START:STOP:COUNT")
+    result = evaluate(design, isothermal=args.isothermal)
+    if args.json:
+        print(json.dumps(result.to_dict()))
+    else:
+        print(format_result(design, result))
+    return 0
+
+
+def _cmd_verify(args) -> int:
+    from optim.verify import run_verify
+
+    design = load_design(args.design)
+    out = run_verify(design, refine=args.refine)
+    print(json.dumps(out["json"]) if args.json else out["text"])
+    return 0
+
+
+def _cmd_materials(args) -> int:
+    from optim.summary import format_materials
+
+    if args.json:
+        from dataclasses import asdict
+
+        from models.materials import MATERIALS
+
+        print(json.dumps({k: asdict(m) for k, m in MATERIALS.items()}))
+    else:
+        print(format_materials())
+    return 0
+
+
+def _cmd_demo(args) -> int:
+    import numpy as np
+
+    from optim.summary import format_result
+    from optim.sweep import format_sweep, run_sweep
+
+    design = load_design(DEMO_DESIGN)
+    print(f"demo design: {DEMO_DESIGN}")
+    print(format_result(design, evaluate(design)))
+    print("\nTarget size is critical: pull against target radius (same gap)")
+    rows = run_sweep(design, "target.radius_mm", np.linspace(2.0, 14.0, 13))
+    print(format_sweep("target.radius_mm", rows))
+    return 0
+
+
+def _parser() -> argparse.ArgumentParser:
+    p = argparse.ArgumentParser(
+        prog="eddypull",
+        description="Design AC shaded-pole electromagnets that pull non-ferrous parts.",
+    )
+    sub = p.add_subparsers(dest="command", required=True)
+
+    e = sub.add_parser("evaluate", help="evaluate one design file with the fast model")
+    e.add_argument("design", help="design TOML file")
+    e.add_argument("--json", action="store_true", help="print one JSON object")
+    e.add_argument(
+        "--isothermal", action="store_true", help="evaluate every part at 20 degC"
+    )
+    e.add_argument("--sweep", metavar="KEY=START:STOP:COUNT", help="sweep one numeric key")
+    e.add_argument("--plot", metavar="PNG", help="with --sweep: plot pull against the key")
+    e.set_defaults(func=_cmd_evaluate)
+
+    v = sub.add_parser("verify", help="check one design against the finite-element reference")
+    v.add_argument("design", help="design TOML file")
+    v.add_argument("--json", action="store_true", help="print one JSON object")
+    v.add_argument("--refine", type=float, default=1.0, help="FEM mesh refinement (default 1)")
+    v.set_defaults(func=_cmd_verify)
+
+    m = sub.add_parser("materials", help="list the material library with every value's source")
+    m.add_argument("--json", action="store_true", help="print one JSON object")
+    m.set_defaults(func=_cmd_materials)
+
+    d = sub.add_parser("demo", help="evaluate the demo design and its target-size sweep")
+    d.set_defaults(func=_cmd_demo)
+    return p
+
+
+def main(argv=None) -> int:
+    args = _parser().parse_args(argv)
+    try:
+        return args.func(args)
+    except DesignError as err:
+        for line in err.problems:
+            print(f"eddypull: error: {line}", file=sys.stderr)
+        return 2
+
+
+if __name__ == "__main__":
+    sys.exit(main())

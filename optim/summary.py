@@ -1,0 +1,67 @@
+"""Readable text for one fast-model result and the material library (the CLI's words)."""
+
+from __future__ import annotations
+
+from models.materials import MATERIALS
+
+__all__ = ["format_result", "format_materials"]
+
+
+def _w(x):
+    return f"{x:.4g}"
+
+
+def format_result(design, result) -> str:
+    """A few lines an engineer reads: pull and where it comes from, costs, validity."""
+    r = result
+    split = r.pull_by_source_N
+    verdict = "PULL (toward the face)" if r.pull_N > 0 else "PUSH (away from the face)"
+    lines = [
+        f"design {design.name}: {design.drive.frequency:g} Hz, "
+        f"{'ring' if design.ring is not None else 'plain pole (no ring)'}, "
+        f"target r = {design.target.radius * 1e3:g} mm at gap {design.target.gap * 1e3:g} mm",
+        f"  pull               {r.pull_N * 1e3:+.4g} mN   {verdict}",
+        f"    from coil        {split['coil'] * 1e3:+.4g} mN",
+        f"    from pole (iron) {split['pole'] * 1e3:+.4g} mN",
+        f"    from ring        {split['ring'] * 1e3:+.4g} mN",
+        f"  target weight      {r.target_weight_N * 1e3:.4g} mN   lift ratio {r.lift_ratio:+.3g}",
+        f"  losses             target {_w(r.target_loss_W)} W, ring {_w(r.ring_loss_W)} W, "
+        f"coil {_w(r.coil_loss_W)} W (input {_w(r.input_power_W)} W)",
+        f"  coil               {_w(r.coil_current_A)} A rms, {_w(r.coil_voltage_V)} V rms, "
+        f"{_w(r.supply_VA)} VA, Z = {r.coil_impedance_ohm[0]:.4g} + j{r.coil_impedance_ohm[1]:.4g} "
+        "Ohm",
+        f"  ring current       {_w(r.ring_current_A)} A rms at {r.ring_phase_deg:+.1f} deg to the "
+        "coil current",
+        f"  core peak flux     {r.core_peak_flux_density_T:.3g} T",
+        f"  temperatures       "
+        + ", ".join(f"{k} {v:g} degC" for k, v in r.temperatures_C.items()),
+        f"  model              {r.model}: {r.n_cells} cells, {r.n_panels} iron panels, "
+        f"{r.run_time_s * 1e3:.1f} ms",
+    ]
+    for w in r.warnings:
+        lines.append(f"  WARNING: {w}")
+    return "\n".join(lines)
+
+
+def format_materials() -> str:
+    """The material library, each value with its source."""
+    rows = []
+    labels = [
+        ("conductivity", "conductivity at 20 degC", "S/m"),
+        ("temperature_coefficient", "temperature coefficient", "1/K"),
+        ("density", "density", "kg/m^3"),
+        ("specific_heat", "specific heat", "J/(kg K)"),
+        ("thermal_conductivity", "thermal conductivity", "W/(m K)"),
+        ("relative_permeability", "relative permeability", "-"),
+        ("saturation_flux_density", "saturation flux density", "T"),
+    ]
+    for m in MATERIALS.values():
+        rows.append(f"{m.name}: {m.description}")
+        for key, label, unit in labels:
+            value = getattr(m, key)
+            if value is None or (key == "relative_permeability" and value == 1.0):
+                continue
+            src = m.sources.get(key, "non-magnetic metal (common practice, no source)")
+            rows.append(f"  {label:26s} {value:<10.4g} {unit:9s} {src}")
+        rows.append("")
+    return "\n".join(rows).rstrip()
