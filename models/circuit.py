@@ -35,22 +35,39 @@ def build_cells(design, fineness: Fineness) -> Cells:
         ring = design.ring
         parts.append(
             conductor_cells(
-                ring.inner_radius, ring.outer_radius, -ring.depth, 0.0, ring.conductivity, f, RING,
+                ring.inner_radius,
+                ring.outer_radius,
+                -ring.depth,
+                0.0,
+                ring.conductivity,
+                f,
+                RING,
                 fineness,
             )
         )
     t = design.target
     parts.append(
         conductor_cells(
-            t.inner_radius, t.radius, t.gap, t.gap + t.thickness, t.conductivity, f, TARGET,
-            fineness, graded_r=(t.inner_radius > 0, True),
+            t.inner_radius,
+            t.radius,
+            t.gap,
+            t.gap + t.thickness,
+            t.conductivity,
+            f,
+            TARGET,
+            fineness,
+            graded_r=(t.inner_radius > 0, True),
         )
     )
     rc, zc, dr, dz = coil_filaments(design.coil, fineness)
     parts.append(
         Cells(
-            r0=rc - dr / 2, r1=rc + dr / 2, z0=zc - dz / 2, z1=zc + dz / 2,
-            conductivity=np.ones_like(rc), part=np.full(rc.size, COIL),
+            r0=rc - dr / 2,
+            r1=rc + dr / 2,
+            z0=zc - dz / 2,
+            z1=zc + dz / 2,
+            conductivity=np.ones_like(rc),
+            part=np.full(rc.size, COIL),
         )
     )
     return Cells.concat(*parts)
@@ -125,7 +142,9 @@ class CircuitSolution:
     omega: float
 
 
-def solve_circuit(design, fineness: Fineness, pole_model=None, temperatures=None) -> CircuitSolution:
+def solve_circuit(
+    design, fineness: Fineness, pole_model=None, temperatures=None
+) -> CircuitSolution:
     """Solve the loop equations of ``design``.
 
     Parameters

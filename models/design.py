@@ -413,9 +413,7 @@ def design_from_dict(data: dict, name: str = "design") -> Design:
                 "stays inside the ring"
             )
         if depth >= L:
-            problems.append(
-                f"ring.depth_mm = {depth!r}: must be < pole.length_mm (= {L!r})"
-            )
+            problems.append(f"ring.depth_mm = {depth!r}: must be < pole.length_mm (= {L!r})")
     tri = g.get("inner_radius_mm", 0.0)
     if tri >= g["radius_mm"]:
         problems.append(
@@ -450,7 +448,9 @@ def design_from_dict(data: dict, name: str = "design") -> Design:
         temperature_coefficient=coil_alpha,
         material=coil_mat,
     )
-    drive = Drive(frequency=d["frequency_Hz"], current=d.get("current_A"), voltage=d.get("voltage_V"))
+    drive = Drive(
+        frequency=d["frequency_Hz"], current=d.get("current_A"), voltage=d.get("voltage_V")
+    )
     ring = None
     if r is not None:
         sigma, alpha, rho_m, mname = ring_cond

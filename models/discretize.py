@@ -19,7 +19,9 @@ __all__ = ["Cells", "skin_depth", "graded_edges", "conductor_cells", "coil_filam
 def skin_depth(frequency, conductivity, relative_permeability=1.0):
     """Skin depth delta = sqrt(2 / (omega mu sigma)) [m] (e.g. Jackson, Classical Electrodynamics,
     eq. 8.8). frequency [Hz], conductivity [S/m]."""
-    return math.sqrt(2.0 / (2.0 * math.pi * frequency * mu_0 * relative_permeability * conductivity))
+    return math.sqrt(
+        2.0 / (2.0 * math.pi * frequency * mu_0 * relative_permeability * conductivity)
+    )
 
 
 @dataclass(frozen=True)
@@ -144,7 +146,15 @@ class Cells:
 
 
 def conductor_cells(
-    r_in, r_out, z_lo, z_hi, conductivity, frequency, part, fineness: Fineness, graded_r=(True, True)
+    r_in,
+    r_out,
+    z_lo,
+    z_hi,
+    conductivity,
+    frequency,
+    part,
+    fineness: Fineness,
+    graded_r=(True, True),
 ) -> Cells:
     """Divide a rectangular conductor into cells graded on the skin depth.
 

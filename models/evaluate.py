@@ -104,7 +104,9 @@ def _core_peak_flux_density(design: Design, sol: CircuitSolution) -> float:
     R, Z = (a.ravel() for a in np.meshgrid(r, z, indexing="ij"))
     if design.ring is not None:
         g = design.ring
-        inside = (R > g.inner_radius - margin) & (R < g.outer_radius + margin) & (Z > -g.depth - margin)
+        inside = (
+            (R > g.inner_radius - margin) & (R < g.outer_radius + margin) & (Z > -g.depth - margin)
+        )
         R, Z = R[~inside], Z[~inside]
     c = sol.cells
     br_c, bz_c = loop_field(c.rc[None, :], c.zc[None, :], R[:, None], Z[:, None])

@@ -56,7 +56,9 @@ class Material:
         return self.relative_permeability > 1.0
 
 
-def resistivity_at(material_conductivity: float, temperature_coefficient: float, temperature_C: float):
+def resistivity_at(
+    material_conductivity: float, temperature_coefficient: float, temperature_C: float
+):
     """Resistivity at ``temperature_C`` [Ohm m] from the 20 degC conductivity [S/m].
 
     Notes
@@ -67,7 +69,9 @@ def resistivity_at(material_conductivity: float, temperature_coefficient: float,
 
 
 _IEC60028 = "IEC 60028 (international annealed copper standard)"
-_FROM_MEMORY_HB = "from memory of handbook tables (ASM Metals Handbook / CRC Handbook); check before use"
+_FROM_MEMORY_HB = (
+    "from memory of handbook tables (ASM Metals Handbook / CRC Handbook); check before use"
+)
 
 MATERIALS: dict[str, Material] = {
     m.name: m

@@ -33,7 +33,7 @@ def format_result(design, result) -> str:
         f"  ring current       {_w(r.ring_current_A)} A rms at {r.ring_phase_deg:+.1f} deg to the "
         "coil current",
         f"  core peak flux     {r.core_peak_flux_density_T:.3g} T",
-        f"  temperatures       "
+        "  temperatures       "
         + ", ".join(f"{k} {v:g} degC" for k, v in r.temperatures_C.items()),
         f"  model              {r.model}: {r.n_cells} cells, {r.n_panels} iron panels, "
         f"{r.run_time_s * 1e3:.1f} ms",
