@@ -82,11 +82,10 @@ def mutual(r1, z1, r2, z2):
     h2 = (z1 - z2) ** 2
     m = 4.0 * r1 * r2 / ((r1 + r2) ** 2 + h2)
     with np.errstate(divide="ignore", invalid="ignore"):
-        bracket = np.where(
-            m < _M_SERIES,
-            _bracket_series(np.minimum(m, _M_SERIES)),
-            (1.0 - 0.5 * m) * ellipk(m) - ellipe(m),
-        )
+        bracket = np.atleast_1d((1.0 - 0.5 * m) * ellipk(m) - ellipe(m)).reshape(m.shape).copy()
+        small = m < _M_SERIES
+        if np.any(small):
+            bracket[small] = _bracket_series(m[small])
         out = mu_0 * np.sqrt(r1 * r2) * 2.0 / np.sqrt(m) * bracket
     return np.where(m > 0, out, 0.0)
 
@@ -218,23 +217,24 @@ def self_inductance_rect(rc, dr, dz, subdivisions=4, _depth=2):
     distance within 0.6 %, Grover 1946 table 3), applied recursively to two levels.
     """
     rc, dr, dz = np.broadcast_arrays(*(np.asarray(x, dtype=float) for x in (rc, dr, dz)))
-    out = _thin_ring_rect(rc, dr, dz)
+    out = np.array(_thin_ring_rect(rc, dr, dz), dtype=float).reshape(rc.shape)
     big = (np.maximum(dr, dz) > 0.2 * rc).ravel()
     if _depth <= 0 or not np.any(big):
         return out
     n = subdivisions
-    flat = out.ravel().copy()
-    for idx in np.flatnonzero(big):
-        r0 = rc.ravel()[idx]
-        a = dr.ravel()[idx]
-        b = dz.ravel()[idx]
-        offs = (np.arange(n) + 0.5) / n - 0.5
-        sr = (r0 + a * offs)[:, None].repeat(n, 1).ravel()
-        sz = (b * offs)[None, :].repeat(n, 0).ravel()
-        sub_self = self_inductance_rect(
-            sr, np.full_like(sr, a / n), np.full_like(sr, b / n), n, _depth - 1
-        )
-        mm = mutual(sr[:, None], sz[:, None], sr[None, :], sz[None, :])
-        np.fill_diagonal(mm, 0.0)
-        flat[idx] = (sub_self.sum() + mm.sum()) / n**4
+    r0 = rc.ravel()[big]
+    a = dr.ravel()[big]
+    b = dz.ravel()[big]
+    offs = (np.arange(n) + 0.5) / n - 0.5
+    # Sub-cell centres of every big section: (n_big, n*n)
+    sr = (r0[:, None, None] + a[:, None, None] * offs[None, :, None]).repeat(n, 2).reshape(-1, n * n)
+    sz = (b[:, None, None] * offs[None, None, :]).repeat(n, 1).reshape(-1, n * n)
+    sub_a = np.repeat(a / n, n * n).reshape(-1, n * n)
+    sub_b = np.repeat(b / n, n * n).reshape(-1, n * n)
+    sub_self = self_inductance_rect(sr, sub_a, sub_b, n, _depth - 1)
+    mm = mutual(sr[:, :, None], sz[:, :, None], sr[:, None, :], sz[:, None, :])
+    idx = np.arange(n * n)
+    mm[:, idx, idx] = 0.0
+    flat = out.ravel()
+    flat[big] = (sub_self.sum(axis=1) + mm.sum(axis=(1, 2))) / n**4
     return flat.reshape(out.shape)
