@@ -41,7 +41,7 @@ class Fineness:
     surface_cell: float = 0.5
     max_cell_depths: float = 1.5
     growth: float = 1.5
-    min_cells: int = 3
+    min_cells: int = 6
     max_cells: int = 24
     coil_r: int = 4
     coil_z: int = 8

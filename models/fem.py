@@ -52,6 +52,7 @@ RESULT_KEYS = (
     "ring_loss_W",
     "pole_loss_W",
     "coil_loss_W",
+    "input_power_W",
     "coil_current_A",
     "coil_voltage_V",
     "coil_impedance_ohm",
@@ -210,12 +211,11 @@ class FieldSolution:
         """Psi / I [H] (complex when eddy currents take power: Z - R = j omega L)."""
         return self.flux_linkage / self.current
 
-    def vector_potential(self, r, z) -> np.ndarray:
-        """A_phi [Wb/m rms, complex] at points (r, z) [m] (arrays of one shape)."""
-        r = np.atleast_1d(np.asarray(r, dtype=float))
-        z = np.atleast_1d(np.asarray(z, dtype=float))
-        probe = self.basis.probes(np.vstack([r.ravel(), z.ravel()]))
-        return (probe @ self.potential).reshape(r.shape)
+    def vertex_potential(self) -> tuple[np.ndarray, np.ndarray]:
+        """Mesh vertices, shape (2, n) [m], and A_phi at them [Wb/m rms, complex] (needs
+        ``keep_field=True``)."""
+        mesh = self.basis.mesh
+        return mesh.p, self.potential[self.basis.nodal_dofs[0]]
 
     def scaled(self, factor: complex) -> FieldSolution:
         """The same solution with every source multiplied by ``factor`` (linear problem)."""
@@ -264,19 +264,19 @@ def _paint(regions, mid_r, mid_z):
 def _curl_curl(u, v, w):
     # nu (curl u).(curl v) 2 pi r with curl = (-du/dz, du/dr + u/r) for A = u e_phi.
     r = w.x[0]
-    cu = u.grad[0] + u.value / r
-    cv = v.grad[0] + v.value / r
-    return w["nu"] * (u.grad[1] * v.grad[1] + cu * cv) * 2.0 * np.pi * r
+    cu = u.grad[0] + np.asarray(u) / r
+    cv = v.grad[0] + np.asarray(v) / r
+    return np.asarray(w["nu"]) * (u.grad[1] * v.grad[1] + cu * cv) * 2.0 * np.pi * r
 
 
 @BilinearForm
 def _mass(u, v, w):
-    return w["sigma"] * u.value * v.value * 2.0 * np.pi * w.x[0]
+    return np.asarray(w["sigma"]) * np.asarray(u) * np.asarray(v) * 2.0 * np.pi * w.x[0]
 
 
 @LinearForm
 def _load(v, w):
-    return w["js"] * v.value * 2.0 * np.pi * w.x[0]
+    return np.asarray(w["js"]) * np.asarray(v) * 2.0 * np.pi * w.x[0]
 
 
 def solve_regions(
@@ -374,7 +374,9 @@ def solve_regions(
     for k in coils:  # a coil partly overridden by a later region would carry the wrong ampere-turns
         reg = regions[k]
         if not math.isclose(float(np.sum(cell_area[owner == k])), reg.area, rel_tol=1e-9):
-            raise DesignError(f"region {reg.role!r}: a coil must not be overlapped by a later region")
+            raise DesignError(
+                f"region {reg.role!r}: a coil must not be overlapped by a later region"
+            )
 
     basis = Basis(mesh, ElementQuad2(), intorder=_INTORDER)
     nqp = basis.X.shape[1]
@@ -395,14 +397,14 @@ def solve_regions(
     fixed = basis.get_dofs().all()  # the whole outline: axis and far boundary, A = 0
     free = np.setdiff1d(np.arange(basis.N), fixed)
     a = np.zeros(basis.N, dtype=complex)
-    lu = spla.splu(sp.csc_matrix(system[free][:, free]), permc_spec="COLAMD")
+    lu = spla.splu(sp.csc_matrix(system[free][:, free]), permc_spec="MMD_AT_PLUS_A")
     a[free] = lu.solve(f[free].astype(complex if conducting else float))
 
     # ---- post-processing at the quadrature points (unit current)
     af = basis.interpolate(a)
-    av = af.value
+    av = np.asarray(af)
     dadr, dadz = af.grad[0], af.grad[1]
-    x = basis.global_coordinates().value
+    x = np.asarray(basis.global_coordinates())
     r = x[0]
     dv = basis.dx * 2.0 * np.pi * r  # volume weights [m^3]
     da = basis.dx  # meridian area weights [m^2]
@@ -483,10 +485,19 @@ def design_regions(design) -> list[Region]:
     if design.ring is not None:
         ring = design.ring
         regions.append(
-            Region("ring", ring.inner_radius, ring.outer_radius, -ring.depth, 0.0, 1.0,
-                   ring.conductivity)
+            Region(
+                "ring",
+                ring.inner_radius,
+                ring.outer_radius,
+                -ring.depth,
+                0.0,
+                1.0,
+                ring.conductivity,
+            )
         )
-    regions.append(Region("coil", c.inner_radius, c.outer_radius, c.z_back, c.z_front, turns=c.turns))
+    regions.append(
+        Region("coil", c.inner_radius, c.outer_radius, c.z_back, c.z_front, turns=c.turns)
+    )
     regions.append(
         Region("target", g.inner_radius, g.radius, g.gap, g.gap + g.thickness, 1.0, g.conductivity)
     )
@@ -555,6 +566,7 @@ class FemResult:
             "ring_loss_W": float(self.ring_loss_W),
             "pole_loss_W": float(self.pole_loss_W),
             "coil_loss_W": float(self.coil_loss_W),
+            "input_power_W": float(np.real(self.coil_voltage_V * np.conj(self.coil_current_A))),
             "coil_current_A": float(abs(self.coil_current_A)),
             "coil_voltage_V": float(abs(self.coil_voltage_V)),
             "coil_impedance_ohm": _complex_pair(self.coil_impedance_ohm),
@@ -613,9 +625,13 @@ def solve(design, refine: float = 1.0, far_factor: float = 1.0, options: MeshOpt
     i_ring = sol.region_current_A.get("ring", 0.0j)
     phase = math.degrees(np.angle(i_ring / i_coil)) if design.ring is not None else math.nan
     pole = design.pole
-    z_line = sol.z_nodes[(sol.z_nodes >= -pole.length) & (sol.z_nodes <= 0.0)]
-    a_side = sol.vector_potential(np.full(z_line.shape, pole.radius), z_line)
-    b_pole = float(np.max(np.abs(a_side))) * 2.0 / pole.radius * math.sqrt(2.0)
+    p, a_vertex = sol.vertex_potential()
+    on_side = (
+        np.isclose(p[0], pole.radius, rtol=0.0, atol=1e-12)
+        & (p[1] >= -pole.length - 1e-12)
+        & (p[1] <= 1e-12)
+    )
+    b_pole = float(np.max(np.abs(a_vertex[on_side]))) * 2.0 / pole.radius * math.sqrt(2.0)
     return FemResult(
         pull_N=-sol.force_z_N.get("target", 0.0),
         target_loss_W=sol.loss_W.get("target", 0.0),
@@ -707,8 +723,12 @@ class ReferenceResult:
             "mesh_change": clean(self.mesh_change),
             "domain_change": clean(self.domain_change),
             "runs": [
-                {"refine": r.refine, "far_factor": r.far_factor, "n_dofs": r.n_dofs,
-                 "run_time_s": r.run_time_s}
+                {
+                    "refine": r.refine,
+                    "far_factor": r.far_factor,
+                    "n_dofs": r.n_dofs,
+                    "run_time_s": r.run_time_s,
+                }
                 for r in self.runs
             ],
             "run_time_s": self.run_time_s,

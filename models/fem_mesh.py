@@ -46,10 +46,10 @@ class MeshOptions:
 
     n_min: int = 4
     per_skin_depth: float = 3.0
-    slope: float = 0.3
+    slope: float = 0.4
     cap_fraction: float = 1.0 / 12.0
-    far_multiple: float = 8.0
-    edge_fraction: float = 1.0
+    far_multiple: float = 24.0
+    edge_fraction: float = 0.05
     edge_power: float = 1.0
 
 

@@ -28,7 +28,7 @@ from __future__ import annotations
 
 import numpy as np
 from scipy.constants import mu_0
-from scipy.special import ellipe, ellipk
+from scipy.special import ellipe, ellipk, ellipkm1
 
 __all__ = [
     "mutual",
@@ -40,7 +40,7 @@ __all__ = [
 ]
 
 # Below this parameter m the bracket (1 - m/2) K - E loses digits to cancellation; a series is used.
-_M_SERIES = 1e-3
+_M_SERIES = 1e-2
 
 
 def _bracket_series(m):
@@ -76,13 +76,16 @@ def mutual(r1, z1, r2, z2):
 
     Notes
     -----
-    Maxwell's elliptic-integral formula (module docstring); series for k^2 < 1e-3.
+    Maxwell's elliptic-integral formula (module docstring); series for k^2 < 1e-2.
     """
     r1, z1, r2, z2 = np.broadcast_arrays(*(np.asarray(x, dtype=float) for x in (r1, z1, r2, z2)))
     h2 = (z1 - z2) ** 2
-    m = 4.0 * r1 * r2 / ((r1 + r2) ** 2 + h2)
+    denom = (r1 + r2) ** 2 + h2
+    # 1 - k^2 formed without cancellation, so that nearly coincident filaments keep their digits.
+    p = ((r1 - r2) ** 2 + h2) / denom
+    m = np.minimum(4.0 * r1 * r2 / denom, 1.0)
     with np.errstate(divide="ignore", invalid="ignore"):
-        bracket = np.atleast_1d((1.0 - 0.5 * m) * ellipk(m) - ellipe(m)).reshape(m.shape).copy()
+        bracket = np.atleast_1d((1.0 - 0.5 * m) * ellipkm1(p) - ellipe(m)).reshape(m.shape).copy()
         small = m < _M_SERIES
         if np.any(small):
             bracket[small] = _bracket_series(m[small])
