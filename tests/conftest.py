@@ -3,10 +3,15 @@
 from __future__ import annotations
 
 import copy
+import os
 import tomllib
 from pathlib import Path
 
 import pytest
+
+# One BLAS thread, as the CLI runs it (optim/__init__.py): small dense matrices.
+for _var in ("OPENBLAS_NUM_THREADS", "OMP_NUM_THREADS", "MKL_NUM_THREADS"):
+    os.environ.setdefault(_var, "1")
 
 ROOT = Path(__file__).resolve().parents[1]
 DEMO = ROOT / "studies" / "demo_design.toml"

@@ -71,7 +71,7 @@ def test_bad_input_exits_2_with_one_line(argv, message, capsys):
 def test_bad_design_file_lists_each_problem(tmp_path, capsys):
     text = (
         DEMO.read_text()
-        .replace("gap_mm = 0.6", "gap_mm = -0.6")
+        .replace("gap_mm = 3.0", "gap_mm = -0.6")
         .replace("turns = 300", "turns = 0")
     )
     path = tmp_path / "bad.toml"

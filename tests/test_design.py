@@ -14,9 +14,9 @@ from tests.conftest import DEMO
 def test_demo_design_loads_in_si():
     d = load_design(DEMO)
     assert d.pole.radius == pytest.approx(10e-3)
-    assert d.target.gap == pytest.approx(0.6e-3)
+    assert d.target.gap == pytest.approx(3.0e-3)
     assert d.ring.conductivity == pytest.approx(58.0e6)  # IEC 60028: annealed copper, 58 MS/m
-    assert d.drive.current == 3.0
+    assert d.drive.current == 6.0
     assert d.pole.laminated
 
 
