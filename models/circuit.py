@@ -43,9 +43,13 @@ def build_cells(design, fineness: Fineness) -> Cells:
                 f,
                 RING,
                 fineness,
+                gap=design.target.gap,
             )
         )
     t = design.target
+    corners = [design.pole.radius]
+    if design.ring is not None:
+        corners += [design.ring.inner_radius, design.ring.outer_radius]
     parts.append(
         conductor_cells(
             t.inner_radius,
@@ -57,6 +61,8 @@ def build_cells(design, fineness: Fineness) -> Cells:
             TARGET,
             fineness,
             graded_r=(t.inner_radius > 0, True),
+            gap=t.gap,
+            corners_r=corners,
         )
     )
     rc, zc, dr, dz = coil_filaments(design.coil, fineness)
@@ -81,6 +87,38 @@ def _near_pairs(cells: Cells, reach=1.01):
     size = np.maximum(np.maximum(dr[:, None], dr[None, :]), np.maximum(dz[:, None], dz[None, :]))
     near = (np.maximum(gap_r, gap_z) < reach * size) & np.triu(np.ones_like(gap_r, bool), 1)
     return np.nonzero(near)
+
+
+def iron_nodes(cells: Cells, panels, order: int, reach: float = 1.5):
+    """Filament nodes that stand for the cells in their coupling to the iron's panels.
+
+    A cell within ``reach`` cell sizes of a panel is represented by order x order Gauss-Legendre
+    nodes (equal current share per node's weight); a farther one by its centre.
+
+    Returns
+    -------
+    (r, z, W)
+        Node radii and heights [m], and W (n_nodes, n_cells) with the weight of each node in its
+        cell (columns sum to 1): a cell quantity is W.T @ (node quantity).
+    """
+    size = np.maximum(cells.dr, cells.dz)
+    dist = np.hypot(
+        cells.rc[:, None] - panels.mid_r[None, :], cells.zc[:, None] - panels.mid_z[None, :]
+    ) - 0.5 * panels.length[None, :]
+    near = (dist.min(axis=1) < reach * size) if order > 1 else np.zeros(cells.n, bool)
+    x, w = np.polynomial.legendre.leggauss(max(order, 1))
+    x, w = 0.5 * x, 0.5 * w
+    xr, xz = np.repeat(x, x.size), np.tile(x, x.size)
+    ww = np.repeat(w, w.size) * np.tile(w, w.size)
+    far = np.flatnonzero(~near)
+    close = np.flatnonzero(near)
+    r = np.concatenate([cells.rc[far], (cells.rc[close, None] + cells.dr[close, None] * xr).ravel()])
+    z = np.concatenate([cells.zc[far], (cells.zc[close, None] + cells.dz[close, None] * xz).ravel()])
+    W = np.zeros((r.size, cells.n))
+    W[np.arange(far.size), far] = 1.0
+    rows = far.size + np.arange(close.size * ww.size)
+    W[rows, np.repeat(close, ww.size)] = np.tile(ww, close.size)
+    return r, z, W
 
 
 def _gauss_nodes(cells: Cells, idx):
@@ -168,9 +206,10 @@ def solve_circuit(
         from models.pole import panel_mutual, panel_mutual_dz
 
         panels = pole_model.panels
-        P = pole_model.operator(cells.rc, cells.zc)  # (n_panels, n_cells)
-        panel_M = panel_mutual(panels, cells.rc, cells.zc)  # (n_cells, n_panels)
-        panel_D = panel_mutual_dz(panels, cells.rc, cells.zc)
+        nr, nz, W = iron_nodes(cells, panels, fineness.iron_nodes)
+        P = pole_model.operator(nr, nz) @ W  # (n_panels, n_cells)
+        panel_M = W.T @ panel_mutual(panels, nr, nz)  # (n_cells, n_panels)
+        panel_D = W.T @ panel_mutual_dz(panels, nr, nz)
         M_iron = panel_M @ P
         M_total = M + 0.5 * (M_iron + M_iron.T)
     else:

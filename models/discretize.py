@@ -36,16 +36,20 @@ class Fineness:
     coil_r, coil_z : filaments across the coil window
     panel_size : iron panel size at the face, as a fraction of the smallest feature (groove width,
         depth, gap) -- read by the pole model
+    iron_nodes : Gauss-Legendre order per side with which a cell near the iron is coupled to it
+    gap_cell : largest first cell at a conductor surface, as a fraction of the gap to the face
     """
 
     surface_cell: float = 0.5
     max_cell_depths: float = 1.5
     growth: float = 1.5
-    min_cells: int = 6
+    min_cells: int = 8
     max_cells: int = 24
     coil_r: int = 4
     coil_z: int = 8
     panel_size: float = 0.25
+    iron_nodes: int = 2
+    gap_cell: float = 0.5
 
     def scaled(self, factor: float) -> Fineness:
         """A finer (factor > 1) or coarser (factor < 1) version of these settings."""
@@ -58,13 +62,16 @@ class Fineness:
             coil_r=max(2, round(self.coil_r * factor)),
             coil_z=max(2, round(self.coil_z * factor)),
             panel_size=self.panel_size / factor,
+            iron_nodes=self.iron_nodes,
+            gap_cell=self.gap_cell / factor,
         )
 
 
-def graded_edges(a, b, h_a, h_b, h_max, growth, min_cells=1, max_cells=10_000):
+def graded_edges(a, b, h_a, h_b, h_max, growth, min_cells=1, max_cells=10_000, focus=()):
     """Edges of a 1-D division of [a, b] [m] with cells of about h_a, h_b at the ends (None: no
     grading at that end), growing by about ``growth`` per cell toward the middle, never larger than
-    h_max; at least ``min_cells`` and at most ``max_cells`` cells.
+    h_max; at least ``min_cells`` and at most ``max_cells`` cells. ``focus`` is a sequence of
+    (x, h) pairs: interior places where the cells shrink to about h (e.g. under an iron corner).
 
     The target size is h(x) = min(h_max, h_a + (growth - 1) (x - a), h_b + (growth - 1) (b - x));
     the edges are equally spaced in the cell-count coordinate s(x) = integral of dx / h.
@@ -81,6 +88,9 @@ def graded_edges(a, b, h_a, h_b, h_max, growth, min_cells=1, max_cells=10_000):
         h = np.minimum(h, h_a + (growth - 1.0) * (x - a))
     if h_b is not None:
         h = np.minimum(h, h_b + (growth - 1.0) * (b - x))
+    for xf, hf in focus:
+        if a < xf < b:
+            h = np.minimum(h, hf + (growth - 1.0) * np.abs(x - xf))
     inv = 1.0 / h
     s = np.concatenate([[0.0], np.cumsum(0.5 * (inv[1:] + inv[:-1]) * np.diff(x))])
     n = int(min(max_cells, max(min_cells, math.ceil(s[-1] - 1e-9))))
@@ -155,6 +165,8 @@ def conductor_cells(
     part,
     fineness: Fineness,
     graded_r=(True, True),
+    gap=None,
+    corners_r=(),
 ) -> Cells:
     """Divide a rectangular conductor into cells graded on the skin depth.
 
@@ -172,14 +184,25 @@ def conductor_cells(
         Discretisation controls.
     graded_r : (bool, bool)
         Whether to grade toward the inner and outer radius (an axis is not a surface).
+    gap : float, optional
+        Distance to the nearest other body across the face [m]: the field there varies on that
+        scale, so the first cell is also kept below ``fineness.gap_cell`` times it.
+    corners_r : sequence of float
+        Radii of iron corners across the gap (pole edge, groove walls) [m]: with ``gap`` given, the
+        radial cells shrink to ``fineness.gap_cell * gap`` there as well.
     """
     delta = skin_depth(frequency, conductivity)
     f = fineness
     h0 = f.surface_cell * delta
+    if gap is not None:
+        h0 = min(h0, f.gap_cell * gap)
     hmax = f.max_cell_depths * delta
     inner = h0 if (graded_r[0] and r_in > 0) else None
     outer = h0 if graded_r[1] else None
-    re = graded_edges(r_in, r_out, inner, outer, hmax, f.growth, f.min_cells, f.max_cells)
+    focus = [(rf, f.gap_cell * gap) for rf in corners_r] if gap is not None else []
+    re = graded_edges(
+        r_in, r_out, inner, outer, hmax, f.growth, f.min_cells, f.max_cells, focus=focus
+    )
     ze = graded_edges(z_lo, z_hi, h0, h0, hmax, f.growth, f.min_cells, f.max_cells)
     R0, Z0 = np.meshgrid(re[:-1], ze[:-1], indexing="ij")
     R1, Z1 = np.meshgrid(re[1:], ze[1:], indexing="ij")

@@ -41,7 +41,15 @@ class MeshOptions:
         Largest element inside the bounding box of the parts, as a fraction of its largest side.
     far_multiple : float
         Distance from the bounding box of the parts to the far boundary, in multiples of the box's
-        largest side (multiplied by ``far_factor`` of the solver).
+        largest side (multiplied by ``far_factor`` of the solver). The Dirichlet truncation error
+        falls like (side / distance)^3 (dipole far field): about 1e-4 at 8, a few 1e-6 at 24,
+        measured on the demo design.
+    edge_fraction : float
+        Extra factor on the size wanted at every part edge; small values grade the mesh
+        geometrically toward the edges and corners, where the field of the iron's corners and of
+        the skin layers is singular or steep (0.05 measured as the best accuracy per unknown).
+    edge_power : float
+        The edge sizes scale like refine^-edge_power (1: uniform refinement of the same grading).
     """
 
     n_min: int = 4

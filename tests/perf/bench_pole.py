@@ -1,0 +1,106 @@
+"""Benchmark of the magnetised-pole model (models/pole.py): median time of each stage and of evaluate.
+
+Run on demand: ``OPENBLAS_NUM_THREADS=1 python tests/perf/bench_pole.py [--compare OLD_POLE_PY]``.
+With ``--compare`` another copy of ``models/pole.py`` (e.g. the version before a change) is timed
+in the same process, interleaved with the current one so that both see the same machine load.
+Prints a table; asserts nothing about time.
+"""
+
+from __future__ import annotations
+
+import argparse
+import importlib.util
+import os
+import statistics
+import sys
+import time
+from pathlib import Path
+
+import models.pole
+from models import load_design
+from models.circuit import build_cells
+from models.evaluate import DEFAULT_FINENESS, _panel_size, evaluate
+
+DEMO = Path(__file__).resolve().parents[2] / "studies" / "demo_design.toml"
+
+
+def _load(path):
+    spec = importlib.util.spec_from_file_location("pole_compare", path)
+    mod = importlib.util.module_from_spec(spec)
+    spec.loader.exec_module(mod)
+    return mod
+
+
+def _stages(pole, design):
+    """name -> zero-argument callable for each stage, using the implementation ``pole``."""
+    panels = pole.build_panels(
+        design.pole, design.ring, panel_size=_panel_size(design, DEFAULT_FINENESS)
+    )
+    mp = pole.MagnetisedPole(panels, design.pole.relative_permeability)
+    cells = build_cells(design, DEFAULT_FINENESS)
+    rc, zc = cells.rc, cells.zc
+    bt = mp.applied_tangential_field(rc, zc)
+
+    def run_evaluate():
+        saved = sys.modules["models.pole"]
+        sys.modules["models.pole"] = pole
+        try:
+            evaluate(design)
+        finally:
+            sys.modules["models.pole"] = saved
+
+    return {
+        "build_panels": lambda: pole.build_panels(
+            design.pole, design.ring, panel_size=_panel_size(design, DEFAULT_FINENESS)
+        ),
+        "MagnetisedPole()": lambda: pole.MagnetisedPole(panels, design.pole.relative_permeability),
+        "applied_tangential_field": lambda: mp.applied_tangential_field(rc, zc),
+        "response": lambda: mp.response(bt),
+        "operator": lambda: mp.operator(rc, zc),
+        "panel_mutual": lambda: pole.panel_mutual(panels, rc, zc),
+        "panel_mutual_dz": lambda: pole.panel_mutual_dz(panels, rc, zc),
+        "panel_field": lambda: pole.panel_field(panels, rc, zc),
+        "evaluate": run_evaluate,
+    }, panels.n, cells.n
+
+
+def main():
+    parser = argparse.ArgumentParser(description=__doc__.splitlines()[0])
+    parser.add_argument("--compare", help="path of another models/pole.py to time alongside")
+    parser.add_argument("--repeats", type=int, default=20)
+    args = parser.parse_args()
+    design = load_design(DEMO)
+    impls = {"current": models.pole}
+    if args.compare:
+        impls = {"compare": _load(args.compare), **impls}
+    stages = {}
+    for name, mod in impls.items():
+        stages[name], n_panels, n_cells = _stages(mod, design)
+    times = {name: {k: [] for k in s} for name, s in stages.items()}
+    for fns in stages.values():  # warm-up
+        for fn in fns.values():
+            fn()
+    for _ in range(args.repeats):
+        for name, fns in stages.items():
+            for stage, fn in fns.items():
+                t = time.perf_counter()
+                fn()
+                times[name][stage].append(time.perf_counter() - t)
+    print(
+        f"demo design: {n_panels} panels, {n_cells} cells; "
+        f"OPENBLAS_NUM_THREADS={os.environ.get('OPENBLAS_NUM_THREADS', 'unset')}; "
+        f"load average {' '.join(f'{x:.2f}' for x in os.getloadavg())}; "
+        f"median of {args.repeats} runs [ms]"
+    )
+    names = list(impls)
+    print(f"{'stage':<26s}" + "".join(f"{n:>10s}" for n in names) + ("   speed-up" if args.compare else ""))
+    for stage in stages["current"]:
+        med = [statistics.median(times[n][stage]) * 1e3 for n in names]
+        line = f"{stage:<26s}" + "".join(f"{m:10.2f}" for m in med)
+        if args.compare:
+            line += f"{med[0] / med[1]:10.1f}x"
+        print(line)
+
+
+if __name__ == "__main__":
+    main()
