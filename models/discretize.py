@@ -49,7 +49,7 @@ class Fineness:
     coil_z: int = 8
     panel_size: float = 0.25
     iron_nodes: int = 2
-    gap_cell: float = 0.5
+    gap_cell: float = 0.3
 
     def scaled(self, factor: float) -> Fineness:
         """A finer (factor > 1) or coarser (factor < 1) version of these settings."""

@@ -4,7 +4,13 @@ from __future__ import annotations
 
 from models.materials import MATERIALS
 
-__all__ = ["format_result", "format_materials"]
+__all__ = ["format_result", "format_materials", "CAUTION"]
+
+CAUTION = (
+    "Caution: model results only. Rings, parts and coils get hot; coils run at mains voltage; the "
+    "AC field can disturb implants. Follow local codes and have the design checked by a licensed "
+    "professional."
+)
 
 
 def _w(x):
@@ -33,13 +39,13 @@ def format_result(design, result) -> str:
         f"  ring current       {_w(r.ring_current_A)} A rms at {r.ring_phase_deg:+.1f} deg to the "
         "coil current",
         f"  core peak flux     {r.core_peak_flux_density_T:.3g} T",
-        "  temperatures       "
-        + ", ".join(f"{k} {v:g} degC" for k, v in r.temperatures_C.items()),
+        "  temperatures       " + ", ".join(f"{k} {v:g} degC" for k, v in r.temperatures_C.items()),
         f"  model              {r.model}: {r.n_cells} cells, {r.n_panels} iron panels, "
         f"{r.run_time_s * 1e3:.1f} ms",
     ]
     for w in r.warnings:
         lines.append(f"  WARNING: {w}")
+    lines.append(CAUTION)
     return "\n".join(lines)
 
 

@@ -229,7 +229,11 @@ def run_verify(design, refine: float = 1.0, far_factor: float = 1.0) -> dict:
         fast_error = str(err)
     ref = reference(design, refine=refine, far_factor=far_factor)
     rows = compare(fast, ref.result, ref.uncertainty)
-    text = format_table(rows, ref.run_time_s, fast_time)
+    from optim.summary import CAUTION
+
+    text = (
+        f"design {design.name}\n" + format_table(rows, ref.run_time_s, fast_time) + "\n" + CAUTION
+    )
     if fast_error:
         text = f"fast model: {fast_error}\n" + text
     out = to_json(rows, ref.run_time_s, fast_time, reference_result=ref, design_name=design.name)
