@@ -102,9 +102,12 @@ def iron_nodes(cells: Cells, panels, order: int, reach: float = 1.5):
         cell (columns sum to 1): a cell quantity is W.T @ (node quantity).
     """
     size = np.maximum(cells.dr, cells.dz)
-    dist = np.hypot(
-        cells.rc[:, None] - panels.mid_r[None, :], cells.zc[:, None] - panels.mid_z[None, :]
-    ) - 0.5 * panels.length[None, :]
+    dist = (
+        np.hypot(
+            cells.rc[:, None] - panels.mid_r[None, :], cells.zc[:, None] - panels.mid_z[None, :]
+        )
+        - 0.5 * panels.length[None, :]
+    )
     near = (dist.min(axis=1) < reach * size) if order > 1 else np.zeros(cells.n, bool)
     x, w = np.polynomial.legendre.leggauss(max(order, 1))
     x, w = 0.5 * x, 0.5 * w
@@ -112,8 +115,12 @@ def iron_nodes(cells: Cells, panels, order: int, reach: float = 1.5):
     ww = np.repeat(w, w.size) * np.tile(w, w.size)
     far = np.flatnonzero(~near)
     close = np.flatnonzero(near)
-    r = np.concatenate([cells.rc[far], (cells.rc[close, None] + cells.dr[close, None] * xr).ravel()])
-    z = np.concatenate([cells.zc[far], (cells.zc[close, None] + cells.dz[close, None] * xz).ravel()])
+    r = np.concatenate(
+        [cells.rc[far], (cells.rc[close, None] + cells.dr[close, None] * xr).ravel()]
+    )
+    z = np.concatenate(
+        [cells.zc[far], (cells.zc[close, None] + cells.dz[close, None] * xz).ravel()]
+    )
     W = np.zeros((r.size, cells.n))
     W[np.arange(far.size), far] = 1.0
     rows = far.size + np.arange(close.size * ww.size)

@@ -230,7 +230,9 @@ def self_inductance_rect(rc, dr, dz, subdivisions=4, _depth=2):
     b = dz.ravel()[big]
     offs = (np.arange(n) + 0.5) / n - 0.5
     # Sub-cell centres of every big section: (n_big, n*n)
-    sr = (r0[:, None, None] + a[:, None, None] * offs[None, :, None]).repeat(n, 2).reshape(-1, n * n)
+    sr = (
+        (r0[:, None, None] + a[:, None, None] * offs[None, :, None]).repeat(n, 2).reshape(-1, n * n)
+    )
     sz = (b[:, None, None] * offs[None, None, :]).repeat(n, 1).reshape(-1, n * n)
     sub_a = np.repeat(a / n, n * n).reshape(-1, n * n)
     sub_b = np.repeat(b / n, n * n).reshape(-1, n * n)

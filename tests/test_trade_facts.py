@@ -57,8 +57,12 @@ def test_no_iron_no_ring_always_pushes():
     # Lenz's law: induced currents oppose the coil's flux, so a conductor above an air-cored coil is
     # repelled at every frequency (e.g. Thomson's jumping ring).
     d = _plain(demo_dict())
-    d["pole"] = {"radius_mm": 10.0, "length_mm": 40.0, "relative_permeability": 1.0,
-                 "conductivity_S_per_m": 0.0}
+    d["pole"] = {
+        "radius_mm": 10.0,
+        "length_mm": 40.0,
+        "relative_permeability": 1.0,
+        "conductivity_S_per_m": 0.0,
+    }
     for f in (50.0, 400.0, 5000.0):
         d["drive"]["frequency_Hz"] = f
         split = evaluate(design_from_dict(d)).pull_by_source_N
