@@ -52,6 +52,8 @@ class Pole:
     conductivity: float
     material: str | None = None
     saturation_flux_density: float | None = None
+    lamination_thickness: float | None = None
+    sheet_conductivity: float | None = None
 
     @property
     def laminated(self) -> bool:
@@ -322,6 +324,7 @@ def design_from_dict(data: dict, name: str = "design") -> Design:
     sigma_p = p.get("conductivity_S_per_m")
     bsat = p.get("saturation_flux_density_T")
     pole_mat = p.get("material")
+    lamination = (None, None)
     if pole_mat is not None:
         if mu_r is not None or sigma_p is not None:
             problems.append(
@@ -339,6 +342,7 @@ def design_from_dict(data: dict, name: str = "design") -> Design:
                     )
                 mu_r, sigma_p = m.relative_permeability, m.conductivity
                 bsat = bsat if bsat is not None else m.saturation_flux_density
+                lamination = (m.lamination_thickness, m.sheet_conductivity)
             except DesignError as err:
                 problems.extend(err.problems)
     elif mu_r is None or sigma_p is None:
@@ -436,6 +440,8 @@ def design_from_dict(data: dict, name: str = "design") -> Design:
         conductivity=float(sigma_p),
         material=pole_mat,
         saturation_flux_density=bsat,
+        lamination_thickness=lamination[0],
+        sheet_conductivity=lamination[1],
     )
     coil = Coil(
         inner_radius=c["inner_radius_mm"] * MM,

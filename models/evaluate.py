@@ -21,6 +21,16 @@ __all__ = ["Result", "evaluate", "DEFAULT_FINENESS", "MODEL_VERSION"]
 MODEL_VERSION = "multiloop-1"
 DEFAULT_FINENESS = Fineness()
 
+#: The range the fast model has been held to the FEM reference on (tests/cross_model.py and
+#: tests/data/cross_model.csv). Outside it a result carries a warning.
+VALIDATED_RANGE = {
+    "frequency_Hz": (50.0, 5000.0),
+    "target radius / pole radius": (0.3, 1.5),
+    "gap_mm": (0.2, 3.0),
+    "target thickness_mm": (0.5, 5.0),
+    "pole relative_permeability": (200.0, 5000.0),
+}
+
 
 @dataclass(frozen=True)
 class Result:
@@ -128,6 +138,29 @@ def _range_warnings(design: Design, sol: CircuitSolution, fineness: Fineness, b_
             "saturation makes the linear model optimistic"
         )
     f = design.drive.frequency
+    values = {
+        "frequency_Hz": f,
+        "target radius / pole radius": design.target.radius / design.pole.radius,
+        "gap_mm": design.target.gap * 1e3,
+        "target thickness_mm": design.target.thickness * 1e3,
+        "pole relative_permeability": design.pole.relative_permeability,
+    }
+    for key, value in values.items():
+        lo, hi = VALIDATED_RANGE[key]
+        if not lo * (1 - 1e-9) <= value <= hi * (1 + 1e-9):
+            out.append(
+                f"{key} = {value:.4g} is outside the range checked against the FEM "
+                f"({lo:g} to {hi:g}): confirm with 'eddypull verify'"
+            )
+    p = design.pole
+    if p.lamination_thickness is not None and p.sheet_conductivity:
+        delta_sheet = skin_depth(f, p.sheet_conductivity, p.relative_permeability)
+        if delta_sheet < 0.5 * p.lamination_thickness:
+            out.append(
+                f"skin depth in the {p.lamination_thickness * 1e3:.3g} mm sheets is "
+                f"{delta_sheet * 1e3:.3g} mm at {f:g} Hz, under half the sheet thickness: the "
+                "pole has eddy losses and a lower effective permeability than modelled"
+            )
     for name, part, label in (("target", design.target, TARGET), ("ring", design.ring, RING)):
         if part is None:
             continue

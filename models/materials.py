@@ -36,6 +36,9 @@ class Material:
         Linear relative permeability [-] (1 for non-magnetic metals).
     saturation_flux_density : float or None
         Flux density above which a linear model of this steel no longer holds [T]; None if non-magnetic.
+    lamination_thickness, sheet_conductivity : float or None
+        For a laminated steel: sheet thickness [m] and the sheets' own conductivity [S/m], used to
+        say when the sheets stop being thin against their skin depth.
     sources : dict
         Source of each value, by field name.
     """
@@ -50,6 +53,8 @@ class Material:
     relative_permeability: float = 1.0
     saturation_flux_density: float | None = None
     sources: dict = field(default_factory=dict)
+    lamination_thickness: float | None = None
+    sheet_conductivity: float | None = None
 
     @property
     def is_magnetic(self) -> bool:
@@ -150,8 +155,13 @@ MATERIALS: dict[str, Material] = {
             thermal_conductivity=28.0,
             relative_permeability=2000.0,
             saturation_flux_density=1.5,
+            lamination_thickness=0.5e-3,
+            sheet_conductivity=1.0 / 0.42e-6,
             sources={
                 "conductivity": "laminated: bulk eddy currents suppressed (common practice, no source)",
+                "lamination_thickness": "grade M400-50A: the '50' is the nominal thickness 0.50 mm "
+                "(IEC 60404-8-4 grade designation)",
+                "sheet_conductivity": "resistivity about 0.42 uOhm m for this loss grade, from memory",
                 "density": "IEC 60404-8-4, grade M400-50A: 7.70 g/cm^3 conventional density, from memory",
                 "relative_permeability": "linear low-field value of non-oriented steel, from memory",
                 "saturation_flux_density": "IEC 60404-8-4, M400-50A: J at 2500 A/m >= 1.53 T, "

@@ -39,15 +39,16 @@ integrated.
 
 from __future__ import annotations
 
+import functools
 from dataclasses import dataclass
 
 import numpy as np
 from scipy.constants import mu_0
 from scipy.linalg import lu_factor, lu_solve
-from scipy.special import ellipe, ellipkm1
+from scipy.special import ellipe, ellipk, ellipkm1
 
 from models.errors import DesignError
-from models.filaments import loop_field, mutual, mutual_dz
+from models.filaments import _M_SERIES, _bracket_series, loop_field, mutual, mutual_dz
 
 __all__ = [
     "PanelSet",
@@ -81,18 +82,35 @@ _EPS_FIELD = 1e-7  # innermost interval of the graded rule (fraction of the pane
 _TEST_NODES = 5  # Gauss points per panel for the Galerkin average
 
 
-def _gauss01(n):
-    """Gauss-Legendre nodes on [0, 1] and weights summing to 1."""
+def _read_only(*arrays):
+    for a in arrays:
+        a.setflags(write=False)
+    return arrays
+
+
+@functools.lru_cache(maxsize=None)
+def _gauss01_rule(n):
     x, w = np.polynomial.legendre.leggauss(n)
-    return 0.5 * (x + 1.0), 0.5 * w
+    return _read_only(0.5 * (x + 1.0), 0.5 * w)
 
 
+def _gauss01(n):
+    """Gauss-Legendre nodes on [0, 1] and weights summing to 1 (cached, read-only arrays)."""
+    return _gauss01_rule(int(n))
+
+
+@functools.lru_cache(maxsize=None)
 def _graded01(levels=6, n=3):
-    """Composite Gauss rule on [0, 1] graded geometrically toward 0 (for a log singularity)."""
+    """Composite Gauss rule on [0, 1] graded geometrically toward 0 (for a log singularity).
+
+    Cached; the arrays are read-only.
+    """
     x, w = _gauss01(n)
     edges = np.concatenate([[0.0], _GRADE ** np.arange(levels, -1, -1)])
     lo, hi = edges[:-1], edges[1:]
-    return (lo[:, None] + (hi - lo)[:, None] * x).ravel(), ((hi - lo)[:, None] * w).ravel()
+    return _read_only(
+        (lo[:, None] + (hi - lo)[:, None] * x).ravel(), ((hi - lo)[:, None] * w).ravel()
+    )
 
 
 @dataclass(frozen=True)
@@ -174,11 +192,17 @@ def _panels_from_nodes(node_r, node_z, q):
     )
 
 
+@functools.lru_cache(maxsize=1)
+def _edge_parameter():
+    """Parameter values along an edge at which the size function is sampled (cached, read-only)."""
+    g = np.geomspace(1e-9, 1.0, 400)
+    return _read_only(np.unique(np.concatenate([np.linspace(0.0, 1.0, 2001), g, 1.0 - g])))[0]
+
+
 def _split_edge(a, b, size_fn):
     """Points along the segment a -> b spaced by the local size function (ends included)."""
     length = float(np.hypot(b[0] - a[0], b[1] - a[1]))
-    g = np.geomspace(1e-9, 1.0, 400)
-    s = np.unique(np.concatenate([np.linspace(0.0, 1.0, 2001), g, 1.0 - g]))
+    s = _edge_parameter()
     pr = a[0] + (b[0] - a[0]) * s
     pz = a[1] + (b[1] - a[1]) * s
     h = size_fn(pr, pz)
@@ -372,6 +396,10 @@ def build_panels(
 # Integration of a kernel over panels
 
 
+#: _GRADE ** j for the interval numbers j of the graded rule (the same numbers as the power).
+_GRADE_POWERS = _read_only(_GRADE ** np.arange(_MAX_LEVELS + 3))[0]
+
+
 def _graded_nodes(ar, az, br, bz, pr, pz, eps, n_gauss=_GAUSS_GRADED):
     """Composite Gauss rule on segments a -> b graded toward the point of each nearest to p.
 
@@ -400,8 +428,8 @@ def _graded_nodes(ar, az, br, bz, pr, pz, eps, n_gauss=_GAUSS_GRADED):
     a = sides.ravel()[owner_side]
     n_lev = lev.ravel()[owner_side]
     tt = t[pair]
-    hi = a * _GRADE**j
-    lo = np.where(j == n_lev - 1, tt, a * _GRADE ** (j + 1))
+    hi = a * _GRADE_POWERS[j]  # a * _GRADE**j
+    lo = np.where(j == n_lev - 1, tt, a * _GRADE_POWERS[j + 1])
     inner = j == n_lev  # innermost [0, t]; also the single interval [0, a] when a <= t
     hi = np.where(inner, np.where(n_lev == 0, a, tt), hi)
     lo = np.where(inner, 0.0, lo)
@@ -416,6 +444,108 @@ def _graded_nodes(ar, az, br, bz, pr, pz, eps, n_gauss=_GAUSS_GRADED):
     return node_r.ravel(), node_z.ravel(), weight.ravel(), own
 
 
+def _geometry(panels):
+    """Per-panel arrays used by the rules: ends, end differences, midpoints, lengths, moment radius."""
+    (r0, z0), (r1, z1) = panels.start, panels.end
+    return r0, z0, r1, z1, r1 - r0, z1 - z0, _moment_radius(panels)
+
+
+class _Rule:
+    """Quadrature nodes of a set of (panel, point) pairs, as flat arrays.
+
+    The kernel is evaluated between each node (node_r, node_z) and the point of pair ``owner``;
+    ``segments`` say how the weighted values are summed per pair: ("gauss", sel, lo, hi, w) for
+    pairs ``sel`` whose nodes lo:hi form a (len(sel), len(w)) block of a Gauss rule, and
+    ("graded", sel, lo, hi, (local_owner, weight)) for the graded composite rules.
+    """
+
+    __slots__ = ("node_r", "node_z", "owner", "n_pairs", "segments")
+
+    def __init__(self, node_r, node_z, owner, n_pairs, segments):
+        self.node_r, self.node_z, self.owner = node_r, node_z, owner
+        self.n_pairs, self.segments = n_pairs, segments
+
+    @classmethod
+    def concat(cls, rules):
+        """One rule of all pairs of ``rules`` (pairs and nodes numbered in that order)."""
+        segments, owner, n_nodes, n_pairs = [], [], 0, 0
+        for r in rules:
+            segments += [
+                (kind, sel + n_pairs, lo + n_nodes, hi + n_nodes, w)
+                for kind, sel, lo, hi, w in r.segments
+            ]
+            owner.append(r.owner + n_pairs)
+            n_nodes += r.node_r.size
+            n_pairs += r.n_pairs
+        return cls(
+            np.concatenate([r.node_r for r in rules]),
+            np.concatenate([r.node_z for r in rules]),
+            np.concatenate(owner),
+            n_pairs,
+            segments,
+        )
+
+    def apply(self, values):
+        """Per-pair sums of weight * value, for each array of kernel values at the nodes."""
+        out = []
+        for v in values:
+            o = np.zeros(self.n_pairs)
+            for kind, sel, lo, hi, w in self.segments:
+                if kind == "gauss":
+                    o[sel] = v[lo:hi].reshape(sel.size, w.size) @ w
+                else:
+                    own, weight = w
+                    o[sel] = np.bincount(own, weights=weight * v[lo:hi], minlength=sel.size)
+            out.append(o)
+        return out
+
+
+def _rule(panels, pidx, pr, pz, eps=_EPS_FIELD, n_gauss=_GAUSS_GRADED, geometry=None):
+    """Quadrature rule (``_Rule``) of every (panel ``pidx[k]``, point (pr[k], pz[k])) pair.
+
+    The rule per pair depends on the distance of the point from the panel: the midpoint (moment
+    radius) further than ``_FAR`` lengths, 2 and 4 Gauss points down to ``_MID2`` and ``_NEAR``
+    lengths, nearer the graded rule of ``_graded_nodes``.
+    """
+    r0, z0, r1, z1, dr, dz, mom = _geometry(panels) if geometry is None else geometry
+    length = panels.length[pidx]
+    mid_r = panels.mid_r[pidx]
+    rho = np.hypot(pr - mid_r, pz - panels.mid_z[pidx]) / length
+    # Near the axis the flux of a panel grows as r^2 along it: the midpoint alone is not enough.
+    rho = np.where((rho >= _FAR) & (mid_r < _AXIS * length), _FAR * 0.999, rho)
+    node_r, node_z, owner, segments, n_nodes = [], [], [], [], 0
+    for lo, hi, n in ((_FAR, np.inf, 1), (_MID2, _FAR, 2), (_NEAR, _MID2, 4)):
+        sel = np.flatnonzero((rho >= lo) & (rho < hi))
+        if sel.size == 0:
+            continue
+        x, w = _gauss01(n)
+        p = pidx[sel]
+        nz = z0[p][:, None] + dz[p][:, None] * x[None, :]
+        if n == 1:
+            nr = mom[p][:, None]
+        else:
+            nr = r0[p][:, None] + dr[p][:, None] * x[None, :]
+        node_r.append(nr.ravel())
+        node_z.append(nz.ravel())
+        owner.append(np.repeat(sel, n))
+        segments.append(("gauss", sel, n_nodes, n_nodes + nz.size, w))
+        n_nodes += nz.size
+    sel = np.flatnonzero(rho < _NEAR)
+    if sel.size:
+        p = pidx[sel]
+        nr, nz, nw, own = _graded_nodes(r0[p], z0[p], r1[p], z1[p], pr[sel], pz[sel], eps, n_gauss)
+        node_r.append(nr)
+        node_z.append(nz)
+        owner.append(sel[own])
+        segments.append(("graded", sel, n_nodes, n_nodes + nz.size, (own, nw)))
+    if not segments:
+        empty = np.zeros(0)
+        return _Rule(empty, empty, np.zeros(0, dtype=np.intp), pidx.size, [])
+    return _Rule(
+        np.concatenate(node_r), np.concatenate(node_z), np.concatenate(owner), pidx.size, segments
+    )
+
+
 def _integrate(panels, pidx, pr, pz, kernel, eps=_EPS_FIELD, n_gauss=_GAUSS_GRADED):
     """Sum over panel nodes of w * kernel(node_r, node_z, point_r, point_z) for each pair.
 
@@ -425,37 +555,8 @@ def _integrate(panels, pidx, pr, pz, kernel, eps=_EPS_FIELD, n_gauss=_GAUSS_GRAD
     pidx = np.asarray(pidx)
     pr = np.asarray(pr, dtype=float)
     pz = np.asarray(pz, dtype=float)
-    length = panels.length[pidx]
-    rho = np.hypot(pr - panels.mid_r[pidx], pz - panels.mid_z[pidx]) / length
-    # Near the axis the flux of a panel grows as r^2 along it: the midpoint alone is not enough.
-    rho = np.where((rho >= _FAR) & (panels.mid_r[pidx] < _AXIS * length), _FAR * 0.999, rho)
-    out = None
-    (r0, z0), (r1, z1) = panels.start, panels.end
-    for lo, hi, n in ((_FAR, np.inf, 1), (_MID2, _FAR, 2), (_NEAR, _MID2, 4)):
-        sel = np.flatnonzero((rho >= lo) & (rho < hi))
-        if sel.size == 0:
-            continue
-        x, w = _gauss01(n)
-        p = pidx[sel]
-        nr = r0[p][:, None] + (r1 - r0)[p][:, None] * x[None, :]
-        nz = z0[p][:, None] + (z1 - z0)[p][:, None] * x[None, :]
-        if n == 1:
-            nr = _moment_radius(panels)[p][:, None]
-        vals = kernel(nr, nz, pr[sel][:, None], pz[sel][:, None])
-        if out is None:
-            out = [np.zeros(pidx.shape) for _ in vals]
-        for o, v in zip(out, vals, strict=True):
-            o[sel] = v @ w
-    sel = np.flatnonzero(rho < _NEAR)
-    if sel.size:
-        p = pidx[sel]
-        nr, nz, nw, own = _graded_nodes(r0[p], z0[p], r1[p], z1[p], pr[sel], pz[sel], eps, n_gauss)
-        vals = kernel(nr, nz, pr[sel][own], pz[sel][own])
-        if out is None:
-            out = [np.zeros(pidx.shape) for _ in vals]
-        for o, v in zip(out, vals, strict=True):
-            o[sel] = np.bincount(own, weights=nw * v, minlength=sel.size)
-    return out
+    rule = _rule(panels, pidx, pr, pz, eps, n_gauss)
+    return rule.apply(kernel(rule.node_r, rule.node_z, pr[rule.owner], pz[rule.owner]))
 
 
 # Closer than this (1 - m = alpha^2 / beta^2 below it) the kernels are re-evaluated with
@@ -474,31 +575,70 @@ def _near_parts(a, z0, r, z):
     return alpha2, beta2, p, m, ellipkm1(p), ellipe(m)
 
 
+#: mu0 / (2 pi) [H/m], the prefactor of Smythe's loop field.
+_C_LOOP = (0.5e0 / np.pi) * mu_0
+#: Kernels on flat arrays are evaluated in blocks of this many elements (temporaries stay in cache).
+_BLOCK = 8192
+
+
+def _blocked(kernel, n_out, *arrays):
+    """``kernel(*arrays)`` for 1-D arrays of equal length, evaluated block by block."""
+    n = arrays[0].size
+    if n <= _BLOCK or any(a.ndim != 1 or a.size != n for a in arrays):
+        return kernel(*arrays)
+    out = [np.empty(n) for _ in range(n_out)]
+    for lo in range(0, n, _BLOCK):
+        hi = lo + _BLOCK
+        for o, v in zip(out, kernel(*(a[lo:hi] for a in arrays)), strict=True):
+            o[lo:hi] = v
+    return out
+
+
 def _loop_field(a, z0, r, z):
     """Smythe's loop field per ampere [T/A], as ``models.filaments.loop_field``, with K(m) from
     ``ellipkm1(alpha^2 / beta^2)`` so that points within 1e-8 radii of the loop keep their digits.
 
     Off the axis only (r > 1e-6 a); points nearer the axis use ``loop_field``'s expansion.
     """
+    return _blocked(_loop_field_block, 2, *np.broadcast_arrays(a, z0, r, z))
+
+
+def _loop_field_block(a, z0, r, z):
+    # The operations (and their order) are those of the formula in the docstring of _loop_field,
+    # written in place to spare temporaries.
     zeta = z - z0
     zeta2 = zeta * zeta
-    a2r2 = a * a + r * r
-    two_ar = 2.0 * a * r
-    alpha2 = (a - r) ** 2 + zeta2
-    beta2 = a2r2 + two_ar + zeta2
+    a2 = a * a
+    r2 = r * r
+    a2r2 = a2 + r2
+    beta2 = 2.0 * a
+    beta2 *= r
+    beta2 += a2r2  # a^2 + r^2 + 2 a r
+    beta2 += zeta2
+    alpha2 = a - r
+    np.multiply(alpha2, alpha2, out=alpha2)
+    alpha2 += zeta2
     p = alpha2 / beta2
     K = ellipkm1(p)
-    E = ellipe(1.0 - p)
-    c = (0.5e0 / np.pi) * mu_0 / np.sqrt(beta2)
+    E = ellipe(np.subtract(1.0, p, out=p), out=p)
+    c = np.sqrt(beta2, out=beta2)
+    np.divide(_C_LOOP, c, out=c)
     with np.errstate(divide="ignore", invalid="ignore"):
-        e_over = E / alpha2
-        br = c * zeta / r * (e_over * (a2r2 + zeta2) - K)
-        bz = c * (e_over * (a * a - r * r - zeta2) + K)
+        e_over = np.divide(E, alpha2, out=E)
+        br = np.multiply(c, zeta, out=zeta)
+        br /= r
+        a2r2 += zeta2
+        a2r2 *= e_over
+        a2r2 -= K
+        br *= a2r2  # c zeta / r (E (a^2 + r^2 + zeta^2) / alpha^2 - K)
+        bz = np.subtract(a2, r2, out=a2)
+        bz -= zeta2
+        bz *= e_over
+        bz += K
+        bz *= c  # c (E (a^2 - r^2 - zeta^2) / alpha^2 + K)
     axis = r < 1e-6 * a
     if np.any(axis):
-        br_ax, bz_ax = loop_field(a, z0, r, z)
-        br = np.where(axis, br_ax, br)
-        bz = np.where(axis, bz_ax, bz)
+        br[axis], bz[axis] = loop_field(a[axis], z0[axis], r[axis], z[axis])
     return br, bz
 
 
@@ -530,6 +670,58 @@ def _mutual_dz(r1, z1, r2, z2):
     return out
 
 
+def _mutual_pair_block(node_r, node_z, pr, pz):
+    """(``_mutual(node, point)``, ``_mutual_dz(point, node)``) in one pass, elementwise equal to them.
+
+    The two share h^2, m = 4 a b / ((a + b)^2 + h^2), E(m) and, where the filaments nearly
+    coincide, 1 - m, K and E; the operations are those of ``models.filaments.mutual``,
+    ``models.filaments.mutual_dz`` and the near-range re-evaluation above.
+    """
+    h = pz - node_z  # z1 - z2 of mutual_dz(point, node); mutual(node, point) uses its square
+    h2 = h * h
+    rr = node_r * pr
+    a_minus = node_r - pr
+    num = a_minus * a_minus + h2
+    a_plus = node_r + pr
+    denom = a_plus * a_plus + h2
+    p = num / denom
+    m = 4.0 * node_r * pr / denom
+    near = num < _P_NEAR * denom
+    with np.errstate(divide="ignore", invalid="ignore"):
+        m_clip = np.minimum(m, 1.0)
+        e_m = ellipe(m_clip)  # equals ellipe(m) wherever m <= 1, i.e. outside ``near``
+        bracket = (1.0 - 0.5 * m_clip) * ellipkm1(p) - e_m
+        small = m_clip < _M_SERIES
+        if np.any(small):
+            bracket[small] = _bracket_series(m_clip[small])
+        sqrt_m = np.sqrt(m_clip)
+        sqrt_rr = np.sqrt(rr)
+        mut = mu_0 * sqrt_rr * 2.0 / sqrt_m * bracket
+        mut = np.where(m_clip > 0, mut, 0.0)
+        one_m = 1.0 - m
+        dz = (
+            -mu_0
+            * h
+            * np.sqrt(m)
+            / (4.0 * one_m * sqrt_rr)
+            * ((2.0 - m) * e_m - 2.0 * one_m * ellipk(m))
+        )
+        dz = np.where((m > 0) & (h != 0), dz, 0.0)
+    if np.any(near):
+        pn = p[near]
+        mn = 1.0 - pn
+        kn = ellipkm1(pn)
+        en = ellipe(mn)
+        sn = np.sqrt(rr[near])
+        mut[near] = mu_0 * sn * 2.0 / np.sqrt(mn) * ((1.0 - 0.5 * mn) * kn - en)
+        dz[near] = -mu_0 * h[near] * np.sqrt(mn) / (4.0 * pn * sn) * ((2.0 - mn) * en - 2.0 * pn * kn)
+    return mut, dz
+
+
+def _mutual_pair_kernel(node_r, node_z, pr, pz):
+    return _blocked(_mutual_pair_block, 2, node_r, node_z, pr, pz)
+
+
 def _moment_radius(panels):
     """Radius [m] of the one filament with the panel's dipole moment: r^2 = <r^2> over the panel.
 
@@ -544,22 +736,72 @@ def _field_kernel(node_r, node_z, pr, pz):
 
 
 def _mutual_kernel(node_r, node_z, pr, pz):
-    return (_mutual(node_r, node_z, pr, pz),)
+    return _blocked(lambda *a: (_mutual(*a),), 1, node_r, node_z, pr, pz)
 
 
 def _mutual_dz_kernel(node_r, node_z, pr, pz):
-    return (_mutual_dz(pr, pz, node_r, node_z),)
+    return _blocked(lambda *a: (_mutual_dz(*a),), 1, pr, pz, node_r, node_z)
 
 
-def _dense(panels, r, z, kernel):
+def _source_field_kernel(node_r, node_z, pr, pz):
+    """Field at the panel nodes of a loop at the point (the source filament) [T/A]."""
+    return _loop_field(pr, pz, node_r, node_z)
+
+
+#: Rules of (point, panel) pairs recently built, by the content of the panels and points: the
+#: circuit asks for the operator, the mutual inductance and its derivative at the same points.
+_PAIR_RULES: dict = {}
+_PAIR_RULES_KEPT = 4
+
+
+def _points(r, z):
     r = np.atleast_1d(np.asarray(r, dtype=float)).ravel()
     z = np.atleast_1d(np.asarray(z, dtype=float)).ravel()
     if r.shape != z.shape:
         raise DesignError(f"r, z: shapes {r.shape} and {z.shape} must match")
-    n_pts, n_p = r.size, panels.n
-    pidx = np.tile(np.arange(n_p), n_pts)
-    vals = _integrate(panels, pidx, np.repeat(r, n_p), np.repeat(z, n_p), kernel)
-    return [v.reshape(n_pts, n_p) for v in vals]
+    return r, z
+
+
+def _pair_rule(panels, r, z, with_spare=False):
+    """Quadrature rule (``_Rule``) of every (point, panel) pair, point-major, and the point of each
+    node (point_r, point_z). Cached by the content of panels and points; treat as read-only.
+    ``with_spare`` adds the entry's dict of results computed ahead (``_mutual_pair``)."""
+    key = tuple(
+        a.tobytes() for a in (panels.mid_r, panels.mid_z, panels.length, panels.tr, panels.tz, r, z)
+    )
+    hit = _PAIR_RULES.get(key)
+    if hit is None:
+        n_pts, n_p = r.size, panels.n
+        pr, pz = np.repeat(r, n_p), np.repeat(z, n_p)
+        rule = _rule(panels, np.tile(np.arange(n_p), n_pts), pr, pz)
+        hit = rule, pr[rule.owner], pz[rule.owner], {}
+        while len(_PAIR_RULES) >= _PAIR_RULES_KEPT:
+            _PAIR_RULES.pop(next(iter(_PAIR_RULES)), None)
+        _PAIR_RULES[key] = hit
+    return hit if with_spare else hit[:3]
+
+
+def _mutual_pair(panels, r, z, which):
+    """``panel_mutual`` (which = 0) or ``panel_mutual_dz`` (1): both are computed in one pass and
+    the other one is kept with the cached rule for the call that the circuit makes next."""
+    r, z = _points(r, z)
+    rule, pr, pz, spare = _pair_rule(panels, r, z, with_spare=True)
+    done = spare.pop(which, None)
+    if done is not None:
+        return done
+    vals = rule.apply(_mutual_pair_kernel(rule.node_r, rule.node_z, pr, pz))
+    vals = [v.reshape(r.size, panels.n) for v in vals]
+    spare.clear()
+    spare[1 - which] = vals[1 - which]
+    return vals[which]
+
+
+def _dense(panels, r, z, kernel):
+    """kernel integrated over every panel for every point: arrays of shape (n_pts, n_panels)."""
+    r, z = _points(r, z)
+    rule, pr, pz = _pair_rule(panels, r, z)
+    vals = rule.apply(kernel(rule.node_r, rule.node_z, pr, pz))
+    return [v.reshape(r.size, panels.n) for v in vals]
 
 
 def panel_field(panels, r, z):
@@ -605,7 +847,7 @@ def panel_mutual(panels, r, z):
     Maxwell's formula (``models.filaments.mutual``) averaged over the panel with graded Gauss rules;
     finite (log-integrable) even for a filament on the panel.
     """
-    return _dense(panels, r, z, _mutual_kernel)[0]
+    return _mutual_pair(panels, r, z, 0)
 
 
 def panel_mutual_dz(panels, r, z):
@@ -621,7 +863,7 @@ def panel_mutual_dz(panels, r, z):
     -----
     Closed-form dM/dz of Maxwell's formula (``models.filaments.mutual_dz``) averaged over the panel.
     """
-    return _dense(panels, r, z, _mutual_dz_kernel)[0]
+    return _mutual_pair(panels, r, z, 1)
 
 
 # ------------------------------------------------------------------------------------------------
@@ -663,12 +905,6 @@ class MagnetisedPole:
     def _assemble(self):
         p = self.panels
         n = p.n
-        # Far pairs: midpoint to midpoint.
-        br, bz = _loop_field(
-            _moment_radius(p)[None, :], p.mid_z[None, :], p.mid_r[:, None], p.mid_z[:, None]
-        )
-        with np.errstate(invalid="ignore"):
-            g = br * p.tr[:, None] + bz * p.tz[:, None]
         sep = np.hypot(p.mid_r[:, None] - p.mid_r[None, :], p.mid_z[:, None] - p.mid_z[None, :])
         ratio_test = sep / p.length[:, None]
         ratio_test = np.where(
@@ -679,45 +915,76 @@ class MagnetisedPole:
             | (sep < _FAR * p.length[None, :])
             | (p.mid_r < _AXIS * p.length)[None, :]
         )
-        # Self terms: a horizontal panel has no tangential (radial) field in its own plane
-        # (B_r = 0 at zeta = 0); the others carry only the log singularity of the curved sheet
-        # (the 2-D part is normal to the panel), a few per cent of mu0 / length: a light rule.
         np.fill_diagonal(near, False)
-        g[np.diag_indices(n)] = 0.0
-        slanted = np.flatnonzero(np.abs(p.tz) > 1e-12)
-        x, w = _gauss01(2)
-        self._average_into(g, slanted, slanted, x, w, eps=1e-4, n_gauss=3)
-        # Neighbours meeting at an angle: the field of one has a log singularity at the shared end
-        # of the other; their average uses a rule graded toward that end.
         kink = np.abs(p.tr[:-1] * p.tz[1:] - p.tz[:-1] * p.tr[1:]) > 1e-9
         k = np.flatnonzero(kink)
         near[k, k + 1] = False
         near[k + 1, k] = False
+        g = np.zeros((n, n))
+        # Far pairs: midpoint to midpoint (every pair not integrated below).
+        far = ~near
+        np.fill_diagonal(far, False)
+        far[k, k + 1] = False
+        far[k + 1, k] = False
+        fi, fp = np.nonzero(far)
+        br, bz = _loop_field(_moment_radius(p)[fp], p.mid_z[fp], p.mid_r[fi], p.mid_z[fi])
+        with np.errstate(invalid="ignore"):
+            g[fi, fp] = br * p.tr[fi] + bz * p.tz[fi]
+        # Self terms: a horizontal panel has no tangential (radial) field in its own plane
+        # (B_r = 0 at zeta = 0); the others carry only the log singularity of the curved sheet
+        # (the 2-D part is normal to the panel), a few per cent of mu0 / length: a light rule.
+        slanted = np.flatnonzero(np.abs(p.tz) > 1e-12)
+        groups = [(slanted, slanted, *_gauss01(2), 1e-4, 3)]
         # Test rule by the distance in lengths of the averaged panel: 1, 2 or 4 Gauss points.
         for lo, hi, n_test in ((_FAR, np.inf, 1), (_MID2, _FAR, 2), (0.0, _MID2, _TEST_NODES)):
             ii, pp = np.nonzero(near & (ratio_test >= lo) & (ratio_test < hi))
-            x, w = _gauss01(n_test)
-            self._average_into(g, ii, pp, x, w)
+            groups.append((ii, pp, *_gauss01(n_test), 1e-5, _GAUSS_GRADED))
+        # Neighbours meeting at an angle: the field of one has a log singularity at the shared end
+        # of the other; their average uses a rule graded toward that end.
         xg, wg = _graded01()
-        self._average_into(g, k, k + 1, xg[::-1].copy() * -1.0 + 1.0, wg[::-1].copy())
-        self._average_into(g, k + 1, k, xg, wg)
+        groups.append((k, k + 1, xg[::-1] * -1.0 + 1.0, wg[::-1], 1e-5, _GAUSS_GRADED))
+        groups.append((k + 1, k, xg, wg, 1e-5, _GAUSS_GRADED))
+        self._average_groups(g, groups)
         a = 2.0 * self.lam * g
         a[np.diag_indices(n)] += mu_0 / p.length
         return a
 
-    def _average_into(self, g, ii, pp, x, w, eps=1e-5, n_gauss=_GAUSS_GRADED):
-        """g[i, p] = sum_k w_k B_t,i(x_k on panel i) of panel p carrying 1 A."""
-        if ii.size == 0:
-            return
+    def _average_groups(self, g, groups):
+        """g[i, p] = sum_k w_k B_t,i(x_k on panel i) of panel p carrying 1 A, for every group.
+
+        ``groups`` holds (ii, pp, x, w, eps, n_gauss): pairs of test panel i and source panel p,
+        the test rule (x, w) on [0, 1] and the graded rule's parameters. The kernel is evaluated
+        once for all groups together.
+        """
         p = self.panels
-        (r0, z0), (r1, z1) = p.start, p.end
-        xr = (r0[ii][:, None] + (r1 - r0)[ii][:, None] * x).ravel()
-        xz = (z0[ii][:, None] + (z1 - z0)[ii][:, None] * x).ravel()
-        bri, bzi = _integrate(
-            p, np.repeat(pp, x.size), xr, xz, _field_kernel, eps=eps, n_gauss=n_gauss
-        )
-        bt = bri * np.repeat(p.tr[ii], x.size) + bzi * np.repeat(p.tz[ii], x.size)
-        g[ii, pp] = bt.reshape(-1, x.size) @ w
+        geometry = _geometry(p)
+        r0, z0, _, _, dr, dz, _ = geometry
+        by_rule = {}  # (eps, n_gauss) -> [(ii, pp, x, w, test points r, z)]
+        for ii, pp, x, w, eps, n_gauss in groups:
+            if ii.size:
+                xr = (r0[ii][:, None] + dr[ii][:, None] * x).ravel()
+                xz = (z0[ii][:, None] + dz[ii][:, None] * x).ravel()
+                by_rule.setdefault((eps, n_gauss), []).append((ii, pp, x, w, xr, xz))
+        if not by_rule:
+            return
+        rules, points_r, points_z, used = [], [], [], []
+        for (eps, n_gauss), items in by_rule.items():
+            pidx = np.concatenate([np.repeat(pp, x.size) for _, pp, x, _, _, _ in items])
+            xr = np.concatenate([it[4] for it in items])
+            xz = np.concatenate([it[5] for it in items])
+            rules.append(_rule(p, pidx, xr, xz, eps, n_gauss, geometry))
+            points_r.append(xr)
+            points_z.append(xz)
+            used += [it[:4] for it in items]
+        rule = _Rule.concat(rules) if len(rules) > 1 else rules[0]
+        xr, xz = np.concatenate(points_r)[rule.owner], np.concatenate(points_z)[rule.owner]
+        bri, bzi = rule.apply(_loop_field(rule.node_r, rule.node_z, xr, xz))
+        lo = 0
+        for ii, pp, x, w in used:
+            hi = lo + ii.size * x.size
+            bt = bri[lo:hi] * np.repeat(p.tr[ii], x.size) + bzi[lo:hi] * np.repeat(p.tz[ii], x.size)
+            g[ii, pp] = bt.reshape(-1, x.size) @ w
+            lo = hi
 
     def applied_tangential_field(self, src_r, src_z):
         """Panel-averaged tangential field <B_t>_i of 1 A in each source filament [T/A].
@@ -727,16 +994,8 @@ class MagnetisedPole:
         ndarray, shape (n_panels, n_src)
         """
         p = self.panels
-        src_r = np.atleast_1d(np.asarray(src_r, dtype=float)).ravel()
-        src_z = np.atleast_1d(np.asarray(src_z, dtype=float)).ravel()
-        n_s = src_r.size
-        pidx = np.repeat(np.arange(p.n), n_s)
-
-        def kernel(node_r, node_z, pr, pz):
-            return _loop_field(pr, pz, node_r, node_z)
-
-        br, bz = _integrate(p, pidx, np.tile(src_r, p.n), np.tile(src_z, p.n), kernel)
-        return (br * p.tr[pidx] + bz * p.tz[pidx]).reshape(p.n, n_s)
+        br, bz = _dense(p, src_r, src_z, _source_field_kernel)
+        return np.ascontiguousarray((br * p.tr + bz * p.tz).T)
 
     def response(self, applied_bt):
         """Panel currents [A] for a given panel-averaged applied tangential field [T].

@@ -60,6 +60,8 @@ def format_materials() -> str:
         ("thermal_conductivity", "thermal conductivity", "W/(m K)"),
         ("relative_permeability", "relative permeability", "-"),
         ("saturation_flux_density", "saturation flux density", "T"),
+        ("lamination_thickness", "lamination thickness", "m"),
+        ("sheet_conductivity", "sheet conductivity", "S/m"),
     ]
     for m in MATERIALS.values():
         rows.append(f"{m.name}: {m.description}")

@@ -38,7 +38,7 @@ def _stages(pole, design):
     )
     mp = pole.MagnetisedPole(panels, design.pole.relative_permeability)
     cells = build_cells(design, DEFAULT_FINENESS)
-    rc, zc = cells.rc, cells.zc
+    rc, zc = cells.rc, cells.zc  # cell centres as the source / field points
     bt = mp.applied_tangential_field(rc, zc)
 
     def run_evaluate():
@@ -49,17 +49,36 @@ def _stages(pole, design):
         finally:
             sys.modules["models.pole"] = saved
 
+    def cold(fn):
+        # Each stage on its own: drop the (point, panel) rules that an earlier stage cached.
+        cache = getattr(pole, "_PAIR_RULES", None)
+
+        def run():
+            if cache is not None:
+                cache.clear()
+            return fn()
+
+        return run
+
+    def cells_stage():
+        # As in models.circuit.solve_circuit: operator, mutual inductance, derivative, same points.
+        cold(lambda: None)()
+        mp.operator(rc, zc)
+        pole.panel_mutual(panels, rc, zc)
+        pole.panel_mutual_dz(panels, rc, zc)
+
     return {
         "build_panels": lambda: pole.build_panels(
             design.pole, design.ring, panel_size=_panel_size(design, DEFAULT_FINENESS)
         ),
         "MagnetisedPole()": lambda: pole.MagnetisedPole(panels, design.pole.relative_permeability),
-        "applied_tangential_field": lambda: mp.applied_tangential_field(rc, zc),
+        "applied_tangential_field": cold(lambda: mp.applied_tangential_field(rc, zc)),
         "response": lambda: mp.response(bt),
-        "operator": lambda: mp.operator(rc, zc),
-        "panel_mutual": lambda: pole.panel_mutual(panels, rc, zc),
-        "panel_mutual_dz": lambda: pole.panel_mutual_dz(panels, rc, zc),
-        "panel_field": lambda: pole.panel_field(panels, rc, zc),
+        "operator": cold(lambda: mp.operator(rc, zc)),
+        "panel_mutual": cold(lambda: pole.panel_mutual(panels, rc, zc)),
+        "panel_mutual_dz": cold(lambda: pole.panel_mutual_dz(panels, rc, zc)),
+        "panel_field": cold(lambda: pole.panel_field(panels, rc, zc)),
+        "operator+mutual+mutual_dz": cells_stage,
         "evaluate": run_evaluate,
     }, panels.n, cells.n
 
