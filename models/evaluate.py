@@ -13,7 +13,7 @@ from models.circuit import RING, TARGET, CircuitSolution, solve_circuit
 from models.design import Design
 from models.discretize import Fineness, skin_depth
 from models.errors import DesignError
-from models.filaments import loop_field
+from models.filaments import loop_field, mutual
 from models.pull import pull_by_source
 
 __all__ = ["Result", "evaluate", "DEFAULT_FINENESS", "MODEL_VERSION"]
@@ -45,6 +45,8 @@ class Result:
     ring_current_A : rms magnitude of the ring's total current [A]; ring_phase_deg : its phase
         relative to the coil current [deg]
     core_peak_flux_density_T : largest peak |B| found inside the pole [T]
+    pole_flux_density_T : peak in time of the section-averaged axial flux density of the pole, the
+        largest along its length [T] (the FEM reports the same quantity)
     target_weight_N, lift_ratio : weight of the target [N] and pull / weight [-]
     temperatures_C : temperature of each part used for the resistivities [degC]
     warnings : where the linear model or its discretisation is outside its validated range
@@ -63,6 +65,7 @@ class Result:
     ring_current_A: float
     ring_phase_deg: float
     core_peak_flux_density_T: float
+    pole_flux_density_T: float
     target_weight_N: float
     lift_ratio: float
     temperatures_C: dict
@@ -127,6 +130,25 @@ def _core_peak_flux_density(design: Design, sol: CircuitSolution) -> float:
     bz = bz + bz_p @ sol.panel_current
     peak = np.sqrt(np.abs(br) ** 2 + np.abs(bz) ** 2 + np.abs(br * br + bz * bz))
     return float(peak.max())
+
+
+def _pole_flux_density(design: Design, sol: CircuitSolution) -> float:
+    """Peak section-averaged flux density of the pole [T]: sqrt 2 |Phi(z)| / (pi R_p^2), the flux
+    Phi through the pole's cross-section at height z from every loop (cells at 2 x 2 Gauss nodes,
+    panels by models.pole.panel_mutual), largest over 11 heights."""
+    if sol.panels is None:
+        return 0.0
+    from models.circuit import _gauss_nodes
+    from models.pole import panel_mutual
+
+    p = design.pole
+    z = np.linspace(-p.length, 0.0, 11)[1:-1]
+    r = np.full_like(z, p.radius)
+    c = sol.cells
+    gr, gz = _gauss_nodes(c, np.arange(c.n))
+    m = mutual(gr[None, :, :], gz[None, :, :], r[:, None, None], z[:, None, None]).mean(axis=2)
+    flux = m @ sol.cell_current + panel_mutual(sol.panels, r, z) @ sol.panel_current
+    return float(np.sqrt(2.0) * np.abs(flux).max() / (np.pi * p.radius**2))
 
 
 def _range_warnings(design: Design, sol: CircuitSolution, fineness: Fineness, b_peak: float):
@@ -241,6 +263,7 @@ def evaluate(
         ring_current_A=abs(ring_current),
         ring_phase_deg=ring_phase,
         core_peak_flux_density_T=b_peak,
+        pole_flux_density_T=_pole_flux_density(design, sol),
         target_weight_N=weight,
         lift_ratio=pull / weight,
         temperatures_C=temps,

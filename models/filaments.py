@@ -28,7 +28,7 @@ from __future__ import annotations
 
 import numpy as np
 from scipy.constants import mu_0
-from scipy.special import ellipe, ellipk, ellipkm1
+from scipy.special import ellipe, ellipkm1
 
 __all__ = [
     "mutual",
@@ -56,6 +56,20 @@ def _bracket_series(m):
         # (1 - m/2) K: m^n coefficient k_n - k_{n-1}/2
         total = total + (k_n - e_n) * m**n
         total = total - 0.5 * k_n * m ** (n + 1)
+    return 0.5 * np.pi * total
+
+
+def _force_bracket_series(m):
+    """(2 - m) E(m) - 2 (1 - m) K(m) for small m, from the same series (A&S 17.3.11-12); it starts
+    at (3 pi / 16) m^2, so the closed form loses digits to cancellation there."""
+    total = np.zeros_like(m)
+    c_prev, c = 0.0, 1.0
+    for n in range(0, 11):
+        if n > 0:
+            c_prev, c = c, c * ((2 * n - 1) / (2 * n)) ** 2
+        e_n = c / (1 - 2 * n)
+        e_prev = c_prev / (3 - 2 * n) if n > 0 else 0.0
+        total = total + (2.0 * e_n - e_prev - 2.0 * c + 2.0 * c_prev) * m**n
     return 0.5 * np.pi * total
 
 
@@ -100,19 +114,22 @@ def mutual_dz(r1, z1, r2, z2):
 
     Notes
     -----
-    Closed form obtained by differentiating Maxwell's formula (module docstring). dM/dz1 = -dM/dz2.
+    Closed form obtained by differentiating Maxwell's formula (module docstring); its bracket by
+    series for k^2 < 1e-2. dM/dz1 = -dM/dz2.
     """
     r1, z1, r2, z2 = np.broadcast_arrays(*(np.asarray(x, dtype=float) for x in (r1, z1, r2, z2)))
     h = z1 - z2
-    m = 4.0 * r1 * r2 / ((r1 + r2) ** 2 + h * h)
+    denom = (r1 + r2) ** 2 + h * h
+    p = ((r1 - r2) ** 2 + h * h) / denom  # 1 - m without cancellation
+    m = np.minimum(4.0 * r1 * r2 / denom, 1.0)
     with np.errstate(divide="ignore", invalid="ignore"):
-        out = (
-            -mu_0
-            * h
-            * np.sqrt(m)
-            / (4.0 * (1.0 - m) * np.sqrt(r1 * r2))
-            * ((2.0 - m) * ellipe(m) - 2.0 * (1.0 - m) * ellipk(m))
+        bracket = (
+            np.atleast_1d((2.0 - m) * ellipe(m) - 2.0 * p * ellipkm1(p)).reshape(m.shape).copy()
         )
+        small = m < _M_SERIES
+        if np.any(small):
+            bracket[small] = _force_bracket_series(m[small])
+        out = -mu_0 * h * np.sqrt(m) / (4.0 * p * np.sqrt(r1 * r2)) * bracket
     return np.where((m > 0) & (h != 0), out, 0.0)
 
 
@@ -133,7 +150,8 @@ def loop_field(a, z0, r, z):
 
     Notes
     -----
-    Smythe's formulas (module docstring). Near the axis (r < 1e-6 a) B_r uses its first-order
+    Smythe's formula for B_z (module docstring); B_r = -(1/(2 pi r)) dM/dz, the same field from the
+    flux through the coaxial circle at the point (equal to Smythe's B_r). Near the axis (r < 1e-6 a) B_r uses its first-order
     expansion B_r = 3 mu0 a^2 zeta r / (4 (a^2 + zeta^2)^(5/2)) (Jackson sec. 5.5) and B_z its axis
     value mu0 a^2 / (2 (a^2 + zeta^2)^(3/2)).
     """
@@ -143,11 +161,15 @@ def loop_field(a, z0, r, z):
     beta2 = (a + r) ** 2 + zeta**2
     beta = np.sqrt(beta2)
     with np.errstate(divide="ignore", invalid="ignore"):
-        m = 1.0 - alpha2 / beta2
-        K = ellipk(m)
+        p = alpha2 / beta2  # 1 - m, kept exact near the loop
+        m = 1.0 - p
+        K = ellipkm1(p)
         E = ellipe(m)
         bz = mu_0 / (2.0 * np.pi * beta) * (E * (a * a - r * r - zeta**2) / alpha2 + K)
-        br = mu_0 * zeta / (2.0 * np.pi * r * beta) * (E * (a * a + r * r + zeta**2) / alpha2 - K)
+        # B_r = -(1 / 2 pi r) dPsi/dz with Psi = M I the flux through the circle at (r, z): the
+        # series branch of mutual_dz keeps it accurate far from the loop, where Smythe's bracket
+        # cancels.
+        br = -mutual_dz(r, z, a, z0) / (2.0 * np.pi * r)
     near_axis = r < 1e-6 * a
     if np.any(near_axis):
         d2 = a * a + zeta**2

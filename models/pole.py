@@ -35,6 +35,12 @@ composite Gauss-Legendre rules graded geometrically toward the point of the pane
 point; the grading is symmetric about a point on the panel itself, so the principal value of the
 1/rho (two-dimensional) part is taken exactly and the log singularity of a curved sheet is
 integrated.
+
+Implementation (speed only; the numbers are those of the direct evaluation): every rule is built
+once as flat arrays of nodes and each kernel is evaluated once over them, in cache-sized blocks;
+the rule of a set of points is kept (by content) for the next call with the same points, since the
+circuit asks for the operator, ``panel_mutual`` and ``panel_mutual_dz`` at the same filaments, and
+the last two come from one pass that shares m, E(m) and the near-range terms.
 """
 
 from __future__ import annotations
@@ -88,7 +94,7 @@ def _read_only(*arrays):
     return arrays
 
 
-@functools.lru_cache(maxsize=None)
+@functools.cache
 def _gauss01_rule(n):
     x, w = np.polynomial.legendre.leggauss(n)
     return _read_only(0.5 * (x + 1.0), 0.5 * w)
@@ -99,7 +105,7 @@ def _gauss01(n):
     return _gauss01_rule(int(n))
 
 
-@functools.lru_cache(maxsize=None)
+@functools.cache
 def _graded01(levels=6, n=3):
     """Composite Gauss rule on [0, 1] graded geometrically toward 0 (for a log singularity).
 
@@ -229,10 +235,21 @@ def _size_function(panel_size, growth, max_size, corners, face_z=None):
 
     def size(pr, pz):
         h = np.full(np.shape(pr), max_size, dtype=float)
-        if face_z is not None:
+        if h.size == 0:
+            return h
+        # A term that is above max_size at every point (judged from the points' bounding box,
+        # with a margin far above rounding) cannot lower h and is skipped.
+        r_lo, r_hi, z_lo, z_hi = np.min(pr), np.max(pr), np.min(pz), np.max(pz)
+
+        def reaches(h0, dist):
+            return h0 + slope * (1.0 - 1e-9) * dist <= max_size
+
+        if face_z is not None and reaches(panel_size, max(0.0, z_lo - face_z, face_z - z_hi)):
             h = np.minimum(h, panel_size + slope * np.abs(pz - face_z))
         for (cr, cz), hc in corners:
-            h = np.minimum(h, hc + slope * np.hypot(pr - cr, pz - cz))
+            box = float(np.hypot(max(0.0, r_lo - cr, cr - r_hi), max(0.0, z_lo - cz, cz - z_hi)))
+            if reaches(hc, box):
+                h = np.minimum(h, hc + slope * np.hypot(pr - cr, pz - cz))
         return h
 
     return size
@@ -445,9 +462,20 @@ def _graded_nodes(ar, az, br, bz, pr, pz, eps, n_gauss=_GAUSS_GRADED):
 
 
 def _geometry(panels):
-    """Per-panel arrays used by the rules: ends, end differences, midpoints, lengths, moment radius."""
+    """Per-panel arrays used by the rules: ends, end differences and the (n_panels, n) nodes of
+    the 1-, 2- and 4-point rules (the 1-point rule at the moment radius, ``_moment_radius``)."""
     (r0, z0), (r1, z1) = panels.start, panels.end
-    return r0, z0, r1, z1, r1 - r0, z1 - z0, _moment_radius(panels)
+    dr, dz = r1 - r0, z1 - z0
+    nodes = {}
+    for n in (1, 2, 4):
+        x, _ = _gauss01(n)
+        nz = z0[:, None] + dz[:, None] * x[None, :]
+        if n == 1:
+            nr = _moment_radius(panels)[:, None]
+        else:
+            nr = r0[:, None] + dr[:, None] * x[None, :]
+        nodes[n] = nr, nz
+    return r0, z0, r1, z1, dr, dz, nodes
 
 
 class _Rule:
@@ -465,26 +493,6 @@ class _Rule:
         self.node_r, self.node_z, self.owner = node_r, node_z, owner
         self.n_pairs, self.segments = n_pairs, segments
 
-    @classmethod
-    def concat(cls, rules):
-        """One rule of all pairs of ``rules`` (pairs and nodes numbered in that order)."""
-        segments, owner, n_nodes, n_pairs = [], [], 0, 0
-        for r in rules:
-            segments += [
-                (kind, sel + n_pairs, lo + n_nodes, hi + n_nodes, w)
-                for kind, sel, lo, hi, w in r.segments
-            ]
-            owner.append(r.owner + n_pairs)
-            n_nodes += r.node_r.size
-            n_pairs += r.n_pairs
-        return cls(
-            np.concatenate([r.node_r for r in rules]),
-            np.concatenate([r.node_z for r in rules]),
-            np.concatenate(owner),
-            n_pairs,
-            segments,
-        )
-
     def apply(self, values):
         """Per-pair sums of weight * value, for each array of kernel values at the nodes."""
         out = []
@@ -500,31 +508,28 @@ class _Rule:
         return out
 
 
-def _rule(panels, pidx, pr, pz, eps=_EPS_FIELD, n_gauss=_GAUSS_GRADED, geometry=None):
+def _rule(panels, pidx, pr, pz, eps=_EPS_FIELD, n_gauss=_GAUSS_GRADED, geometry=None, rho=None):
     """Quadrature rule (``_Rule``) of every (panel ``pidx[k]``, point (pr[k], pz[k])) pair.
 
     The rule per pair depends on the distance of the point from the panel: the midpoint (moment
     radius) further than ``_FAR`` lengths, 2 and 4 Gauss points down to ``_MID2`` and ``_NEAR``
-    lengths, nearer the graded rule of ``_graded_nodes``.
+    lengths, nearer the graded rule of ``_graded_nodes``. ``rho`` may be given: the distance of
+    each point from its panel's midpoint in panel lengths.
     """
-    r0, z0, r1, z1, dr, dz, mom = _geometry(panels) if geometry is None else geometry
-    length = panels.length[pidx]
-    mid_r = panels.mid_r[pidx]
-    rho = np.hypot(pr - mid_r, pz - panels.mid_z[pidx]) / length
+    r0, z0, r1, z1, dr, dz, nodes = _geometry(panels) if geometry is None else geometry
+    if rho is None:
+        rho = np.hypot(pr - panels.mid_r[pidx], pz - panels.mid_z[pidx]) / panels.length[pidx]
     # Near the axis the flux of a panel grows as r^2 along it: the midpoint alone is not enough.
-    rho = np.where((rho >= _FAR) & (mid_r < _AXIS * length), _FAR * 0.999, rho)
+    axis = (panels.mid_r < _AXIS * panels.length)[pidx]
+    rho = np.where((rho >= _FAR) & axis, _FAR * 0.999, rho)
     node_r, node_z, owner, segments, n_nodes = [], [], [], [], 0
     for lo, hi, n in ((_FAR, np.inf, 1), (_MID2, _FAR, 2), (_NEAR, _MID2, 4)):
         sel = np.flatnonzero((rho >= lo) & (rho < hi))
         if sel.size == 0:
             continue
-        x, w = _gauss01(n)
+        w = _gauss01(n)[1]
         p = pidx[sel]
-        nz = z0[p][:, None] + dz[p][:, None] * x[None, :]
-        if n == 1:
-            nr = mom[p][:, None]
-        else:
-            nr = r0[p][:, None] + dr[p][:, None] * x[None, :]
+        nr, nz = nodes[n][0][p], nodes[n][1][p]
         node_r.append(nr.ravel())
         node_z.append(nz.ravel())
         owner.append(np.repeat(sel, n))
@@ -600,7 +605,10 @@ def _loop_field(a, z0, r, z):
 
     Off the axis only (r > 1e-6 a); points nearer the axis use ``loop_field``'s expansion.
     """
-    return _blocked(_loop_field_block, 2, *np.broadcast_arrays(a, z0, r, z))
+    args = np.broadcast_arrays(*(np.asarray(x, dtype=float) for x in (a, z0, r, z)))
+    shape = args[0].shape
+    br, bz = _blocked(_loop_field_block, 2, *(x.ravel() for x in args))
+    return br.reshape(shape), bz.reshape(shape)
 
 
 def _loop_field_block(a, z0, r, z):
@@ -674,47 +682,65 @@ def _mutual_pair_block(node_r, node_z, pr, pz):
     """(``_mutual(node, point)``, ``_mutual_dz(point, node)``) in one pass, elementwise equal to them.
 
     The two share h^2, m = 4 a b / ((a + b)^2 + h^2), E(m) and, where the filaments nearly
-    coincide, 1 - m, K and E; the operations are those of ``models.filaments.mutual``,
-    ``models.filaments.mutual_dz`` and the near-range re-evaluation above.
+    coincide, 1 - m, K and E; the operations (and their order) are those of
+    ``models.filaments.mutual``, ``models.filaments.mutual_dz`` and the near-range re-evaluation
+    above, written in place to spare temporaries.
     """
     h = pz - node_z  # z1 - z2 of mutual_dz(point, node); mutual(node, point) uses its square
     h2 = h * h
-    rr = node_r * pr
-    a_minus = node_r - pr
-    num = a_minus * a_minus + h2
-    a_plus = node_r + pr
-    denom = a_plus * a_plus + h2
+    num = node_r - pr
+    num *= num
+    num += h2  # (a - b)^2 + h^2
+    denom = node_r + pr
+    denom *= denom
+    denom += h2  # (a + b)^2 + h^2
     p = num / denom
-    m = 4.0 * node_r * pr / denom
-    near = num < _P_NEAR * denom
+    m = 4.0 * node_r
+    m *= pr
+    m /= denom
+    near = num < np.multiply(_P_NEAR, denom, out=denom)
+    sqrt_rr = node_r * pr
+    np.sqrt(sqrt_rr, out=sqrt_rr)
     with np.errstate(divide="ignore", invalid="ignore"):
+        # Outside ``near`` m <= 1, so that E(min(m, 1)) and sqrt(min(m, 1)) serve both kernels.
         m_clip = np.minimum(m, 1.0)
-        e_m = ellipe(m_clip)  # equals ellipe(m) wherever m <= 1, i.e. outside ``near``
-        bracket = (1.0 - 0.5 * m_clip) * ellipkm1(p) - e_m
+        e_m = ellipe(m_clip)
+        sqrt_m = np.sqrt(m_clip)
+        mut = np.multiply(m_clip, 0.5, out=num)
+        np.subtract(1.0, mut, out=mut)
+        mut *= ellipkm1(p)
+        mut -= e_m  # the bracket (1 - m/2) K - E
         small = m_clip < _M_SERIES
         if np.any(small):
-            bracket[small] = _bracket_series(m_clip[small])
-        sqrt_m = np.sqrt(m_clip)
-        sqrt_rr = np.sqrt(rr)
-        mut = mu_0 * sqrt_rr * 2.0 / sqrt_m * bracket
-        mut = np.where(m_clip > 0, mut, 0.0)
-        one_m = 1.0 - m
-        dz = (
-            -mu_0
-            * h
-            * np.sqrt(m)
-            / (4.0 * one_m * sqrt_rr)
-            * ((2.0 - m) * e_m - 2.0 * one_m * ellipk(m))
-        )
-        dz = np.where((m > 0) & (h != 0), dz, 0.0)
+            mut[small] = _bracket_series(m_clip[small])
+        bracket = mut
+        mut = np.multiply(mu_0, sqrt_rr)
+        mut *= 2.0
+        mut /= sqrt_m
+        mut *= bracket
+        mut[~(m_clip > 0)] = 0.0
+        one_m = np.subtract(1.0, m, out=m_clip)
+        dz = np.multiply(-mu_0, h)
+        dz *= sqrt_m
+        den = np.multiply(4.0, one_m, out=bracket)
+        den *= sqrt_rr
+        dz /= den
+        two_one_m = np.multiply(2.0, one_m, out=den)
+        two_one_m *= ellipk(m)
+        e_m *= np.subtract(2.0, m, out=m)
+        e_m -= two_one_m  # (2 - m) E - 2 (1 - m) K
+        dz *= e_m
+        dz[~((sqrt_m > 0) & (h != 0))] = 0.0
     if np.any(near):
         pn = p[near]
         mn = 1.0 - pn
         kn = ellipkm1(pn)
         en = ellipe(mn)
-        sn = np.sqrt(rr[near])
+        sn = sqrt_rr[near]
         mut[near] = mu_0 * sn * 2.0 / np.sqrt(mn) * ((1.0 - 0.5 * mn) * kn - en)
-        dz[near] = -mu_0 * h[near] * np.sqrt(mn) / (4.0 * pn * sn) * ((2.0 - mn) * en - 2.0 * pn * kn)
+        dz[near] = (
+            -mu_0 * h[near] * np.sqrt(mn) / (4.0 * pn * sn) * ((2.0 - mn) * en - 2.0 * pn * kn)
+        )
     return mut, dz
 
 
@@ -735,14 +761,6 @@ def _field_kernel(node_r, node_z, pr, pz):
     return _loop_field(node_r, node_z, pr, pz)
 
 
-def _mutual_kernel(node_r, node_z, pr, pz):
-    return _blocked(lambda *a: (_mutual(*a),), 1, node_r, node_z, pr, pz)
-
-
-def _mutual_dz_kernel(node_r, node_z, pr, pz):
-    return _blocked(lambda *a: (_mutual_dz(*a),), 1, pr, pz, node_r, node_z)
-
-
 def _source_field_kernel(node_r, node_z, pr, pz):
     """Field at the panel nodes of a loop at the point (the source filament) [T/A]."""
     return _loop_field(pr, pz, node_r, node_z)
@@ -751,7 +769,7 @@ def _source_field_kernel(node_r, node_z, pr, pz):
 #: Rules of (point, panel) pairs recently built, by the content of the panels and points: the
 #: circuit asks for the operator, the mutual inductance and its derivative at the same points.
 _PAIR_RULES: dict = {}
-_PAIR_RULES_KEPT = 4
+_PAIR_RULES_KEPT = 2
 
 
 def _points(r, z):
@@ -773,8 +791,10 @@ def _pair_rule(panels, r, z, with_spare=False):
     if hit is None:
         n_pts, n_p = r.size, panels.n
         pr, pz = np.repeat(r, n_p), np.repeat(z, n_p)
-        rule = _rule(panels, np.tile(np.arange(n_p), n_pts), pr, pz)
-        hit = rule, pr[rule.owner], pz[rule.owner], {}
+        rho = np.hypot(r[:, None] - panels.mid_r, z[:, None] - panels.mid_z) / panels.length
+        rule = _rule(panels, np.tile(np.arange(n_p), n_pts), pr, pz, rho=rho.ravel())
+        point = rule.owner // n_p
+        hit = rule, r[point], z[point], {}
         while len(_PAIR_RULES) >= _PAIR_RULES_KEPT:
             _PAIR_RULES.pop(next(iter(_PAIR_RULES)), None)
         _PAIR_RULES[key] = hit
@@ -954,7 +974,7 @@ class MagnetisedPole:
 
         ``groups`` holds (ii, pp, x, w, eps, n_gauss): pairs of test panel i and source panel p,
         the test rule (x, w) on [0, 1] and the graded rule's parameters. The kernel is evaluated
-        once for all groups together.
+        once for all groups that share the graded rule's parameters.
         """
         p = self.panels
         geometry = _geometry(p)
@@ -976,9 +996,12 @@ class MagnetisedPole:
             points_r.append(xr)
             points_z.append(xz)
             used += [it[:4] for it in items]
-        rule = _Rule.concat(rules) if len(rules) > 1 else rules[0]
-        xr, xz = np.concatenate(points_r)[rule.owner], np.concatenate(points_z)[rule.owner]
-        bri, bzi = rule.apply(_loop_field(rule.node_r, rule.node_z, xr, xz))
+        parts = []
+        for rule, xr, xz in zip(rules, points_r, points_z, strict=True):
+            field = _loop_field(rule.node_r, rule.node_z, xr[rule.owner], xz[rule.owner])
+            parts.append(rule.apply(field))
+        bri = np.concatenate([b for b, _ in parts])
+        bzi = np.concatenate([b for _, b in parts])
         lo = 0
         for ii, pp, x, w in used:
             hi = lo + ii.size * x.size

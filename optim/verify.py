@@ -33,6 +33,7 @@ QUANTITIES = (
     ("coil_impedance_ohm.im", "Ohm", "coil reactance Im Z"),
     ("ring_current_A", "A", "ring current |I_r|"),
     ("ring_phase_deg", "deg", "ring phase to coil"),
+    ("pole_flux_density_T", "T", "pole mean flux density"),
 )
 
 

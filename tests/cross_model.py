@@ -76,7 +76,7 @@ def case_design(name: str):
     return design_from_dict(d)
 
 
-QUANTITIES = ("pull_N", "target_loss_W", "ring_loss_W")
+QUANTITIES = ("pull_N", "target_loss_W", "ring_loss_W", "pole_flux_density_T")
 
 
 def run_case(name: str):
@@ -101,6 +101,8 @@ def run_case(name: str):
 
 
 def main(names=None) -> None:
+    """Run the named cases (all by default); only a run of all cases rewrites the CSV."""
+    write = not names
     names = names or list(CASES)
     rows = []
     for name in names:
@@ -113,6 +115,8 @@ def main(names=None) -> None:
             f"{row['diff_pct_ring_loss_W']:+.2f} %",
             flush=True,
         )
+    if not write:
+        return
     CSV_PATH.parent.mkdir(exist_ok=True)
     with CSV_PATH.open("w", newline="") as fh:
         fh.write(

@@ -272,11 +272,6 @@ def test_mutual_dz_antisymmetry_sign_and_zero():
     assert mutual_dz(0.3, 0.2, 0.5, 0.2) == 0.0
 
 
-@pytest.mark.xfail(
-    strict=True,
-    reason="filaments.py defect: mutual_dz has no small-m branch; (2-m)E - 2(1-m)K ~ (3 pi/16) m^2 "
-    "cancels, so at a = b = 1, h = 1000 (m = 4e-6) dM/dz is off by 2.7e-5 relative (88 % at h = 1e4)",
-)
 def test_mutual_dz_far_apart_to_1e9():
     h = 1000.0
     assert _rel(mutual_dz(1.0, h, 1.0, 0.0), _neumann_dh(1.0, 1.0, h)) < 1e-9
@@ -303,31 +298,20 @@ def test_loop_field_matches_biot_savart():
         br, bz = loop_field(a, z0, r, z)
         ref_br, ref_bz = _biot_savart(a, z0, r, z)
         # Exact formula vs quadrature (1e-12); 1e-8 is the brief's bound. Measured worst 4.9e-11 (B_r
-        # at r = 1e-3 a, the O(m^2) cancellation of the xfail below); elsewhere <= 1.1e-12.
+        # at r = 1e-3 a, before B_r went through mutual_dz's series branch); elsewhere <= 1.1e-12.
         assert _close(br, ref_br, 1e-8), (r, z, br, ref_br)
         assert _close(bz, ref_bz, 1e-8), (r, z, bz, ref_bz)
 
 
-@pytest.mark.xfail(
-    strict=True,
-    reason="filaments.py defect: B_r's bracket E(a^2+r^2+zeta^2)/alpha^2 - K cancels to O(m^2); the "
-    "near-axis switch at r = 1e-6 a is too low: at a = 1, r = 1e-5, zeta = 0.4 B_r is off by 5.8e-7 "
-    "(3.1e-5 at r = 1.001e-6), and far away (r = 1, zeta = 1000) by 3.1e-5",
-)
 @pytest.mark.parametrize("r, z", [(1e-5, 0.4), (1.001e-6, 0.4), (1.0, 1000.0)])
 def test_loop_field_radial_small_m_to_1e8(r, z):
-    br, _ = loop_field(1.0, 0.0, r, z)
-    assert _rel(br, _biot_savart(1.0, 0.0, r, z)[0]) < 1e-8
-
-
-def test_loop_field_near_axis_at_what_it_achieves():
-    # Same points as the xfail above, asserted at the level reached (cancellation ~eps/m^2): B_z
-    # is unaffected (1e-12), B_r within 1e-4. Physically B_r there is <= 3e-12 T/A, negligible.
-    for r, z in [(1e-5, 0.4), (1.001e-6, 0.4), (1.0, 1000.0)]:
-        br, bz = loop_field(1.0, 0.0, r, z)
-        ref_br, ref_bz = _biot_savart(1.0, 0.0, r, z)
-        assert _rel(bz, ref_bz) < 1e-10
-        assert _rel(br, ref_br) < 1e-4
+    # Near the axis and far away, where Smythe's B_r bracket cancels to O(m^2): B_r comes from the
+    # series branch of mutual_dz. Exact vs Biot-Savart quadrature: 1e-8 (the brief's bound); B_z
+    # has no cancellation (1e-10).
+    br, bz = loop_field(1.0, 0.0, r, z)
+    ref_br, ref_bz = _biot_savart(1.0, 0.0, r, z)
+    assert _rel(br, ref_br) < 1e-8
+    assert _rel(bz, ref_bz) < 1e-10
 
 
 def test_loop_field_on_axis_closed_form():

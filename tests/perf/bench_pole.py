@@ -19,6 +19,11 @@ from pathlib import Path
 import models.pole
 from models import load_design
 from models.circuit import build_cells
+
+try:
+    from models.circuit import iron_nodes
+except ImportError:  # older circuit: the cell centres are the points
+    iron_nodes = None
 from models.evaluate import DEFAULT_FINENESS, _panel_size, evaluate
 
 DEMO = Path(__file__).resolve().parents[2] / "studies" / "demo_design.toml"
@@ -39,6 +44,8 @@ def _stages(pole, design):
     mp = pole.MagnetisedPole(panels, design.pole.relative_permeability)
     cells = build_cells(design, DEFAULT_FINENESS)
     rc, zc = cells.rc, cells.zc  # cell centres as the source / field points
+    if iron_nodes is not None:  # the points models.circuit couples to the panels, if it has them
+        rc, zc, _ = iron_nodes(cells, panels, getattr(DEFAULT_FINENESS, "iron_nodes", 1))
     bt = mp.applied_tangential_field(rc, zc)
 
     def run_evaluate():
@@ -67,20 +74,26 @@ def _stages(pole, design):
         pole.panel_mutual(panels, rc, zc)
         pole.panel_mutual_dz(panels, rc, zc)
 
-    return {
-        "build_panels": lambda: pole.build_panels(
-            design.pole, design.ring, panel_size=_panel_size(design, DEFAULT_FINENESS)
-        ),
-        "MagnetisedPole()": lambda: pole.MagnetisedPole(panels, design.pole.relative_permeability),
-        "applied_tangential_field": cold(lambda: mp.applied_tangential_field(rc, zc)),
-        "response": lambda: mp.response(bt),
-        "operator": cold(lambda: mp.operator(rc, zc)),
-        "panel_mutual": cold(lambda: pole.panel_mutual(panels, rc, zc)),
-        "panel_mutual_dz": cold(lambda: pole.panel_mutual_dz(panels, rc, zc)),
-        "panel_field": cold(lambda: pole.panel_field(panels, rc, zc)),
-        "operator+mutual+mutual_dz": cells_stage,
-        "evaluate": run_evaluate,
-    }, panels.n, cells.n
+    return (
+        {
+            "build_panels": lambda: pole.build_panels(
+                design.pole, design.ring, panel_size=_panel_size(design, DEFAULT_FINENESS)
+            ),
+            "MagnetisedPole()": lambda: pole.MagnetisedPole(
+                panels, design.pole.relative_permeability
+            ),
+            "applied_tangential_field": cold(lambda: mp.applied_tangential_field(rc, zc)),
+            "response": lambda: mp.response(bt),
+            "operator": cold(lambda: mp.operator(rc, zc)),
+            "panel_mutual": cold(lambda: pole.panel_mutual(panels, rc, zc)),
+            "panel_mutual_dz": cold(lambda: pole.panel_mutual_dz(panels, rc, zc)),
+            "panel_field": cold(lambda: pole.panel_field(panels, rc, zc)),
+            "operator+mutual+mutual_dz": cells_stage,
+            "evaluate": run_evaluate,
+        },
+        panels.n,
+        rc.size,
+    )
 
 
 def main():
@@ -94,7 +107,7 @@ def main():
         impls = {"compare": _load(args.compare), **impls}
     stages = {}
     for name, mod in impls.items():
-        stages[name], n_panels, n_cells = _stages(mod, design)
+        stages[name], n_panels, n_points = _stages(mod, design)
     times = {name: {k: [] for k in s} for name, s in stages.items()}
     for fns in stages.values():  # warm-up
         for fn in fns.values():
@@ -106,13 +119,17 @@ def main():
                 fn()
                 times[name][stage].append(time.perf_counter() - t)
     print(
-        f"demo design: {n_panels} panels, {n_cells} cells; "
+        f"demo design: {n_panels} panels, {n_points} source/field points; "
         f"OPENBLAS_NUM_THREADS={os.environ.get('OPENBLAS_NUM_THREADS', 'unset')}; "
         f"load average {' '.join(f'{x:.2f}' for x in os.getloadavg())}; "
         f"median of {args.repeats} runs [ms]"
     )
     names = list(impls)
-    print(f"{'stage':<26s}" + "".join(f"{n:>10s}" for n in names) + ("   speed-up" if args.compare else ""))
+    print(
+        f"{'stage':<26s}"
+        + "".join(f"{n:>10s}" for n in names)
+        + ("   speed-up" if args.compare else "")
+    )
     for stage in stages["current"]:
         med = [statistics.median(times[n][stage]) * 1e3 for n in names]
         line = f"{stage:<26s}" + "".join(f"{m:10.2f}" for m in med)
