@@ -135,30 +135,47 @@ def _gauss_nodes(cells: Cells, idx):
     return gr, gz
 
 
-def cell_mutual_matrix(cells: Cells):
+def cell_mutual_matrix(cells: Cells, dz_rows=None):
     """Inductance matrix of the cells (each a uniform-current ring) [H], and dM/dz_i [H/m].
 
     Far pairs use Maxwell's formula between centres; pairs within one cell size average it over 2 x 2
     Gauss nodes of both cells; the diagonal is the self-inductance of a rectangular-section ring
     (models.filaments.self_inductance_rect). dMdz[i, j] is the derivative with respect to the axial
     position of cell i.
+
+    Parameters
+    ----------
+    cells : Cells
+    dz_rows : bool array, optional
+        Cells whose dMdz rows are wanted (the pull needs only the target's rows, against every
+        other cell); other rows are left 0. Default: all.
     """
     rc, zc = cells.rc, cells.zc
-    M = mutual(rc[:, None], zc[:, None], rc[None, :], zc[None, :])
-    D = mutual_dz(rc[:, None], zc[:, None], rc[None, :], zc[None, :])
+    n = cells.n
+    iu, ju = np.triu_indices(n, 1)
+    M = np.zeros((n, n))
+    m_up = mutual(rc[iu], zc[iu], rc[ju], zc[ju])
+    M[iu, ju] = m_up
+    M[ju, iu] = m_up
+    rows = np.ones(n, bool) if dz_rows is None else np.asarray(dz_rows, bool)
+    D = np.zeros((n, n))
+    ri_, ci_ = np.nonzero(rows[:, None] & ~np.eye(n, dtype=bool))
+    D[ri_, ci_] = mutual_dz(rc[ri_], zc[ri_], rc[ci_], zc[ci_])
     i, j = _near_pairs(cells)
     if i.size:
         ri, zi = _gauss_nodes(cells, i)
         rj, zj = _gauss_nodes(cells, j)
         args = (ri[:, :, None], zi[:, :, None], rj[:, None, :], zj[:, None, :])
         m_near = mutual(*args).mean(axis=(1, 2))
-        d_near = mutual_dz(*args).mean(axis=(1, 2))
         M[i, j] = m_near
         M[j, i] = m_near
-        D[i, j] = d_near
-        D[j, i] = -d_near
+        want = rows[i] | rows[j]
+        if np.any(want):
+            sub = tuple(a[want] for a in args)
+            d_near = mutual_dz(*sub).mean(axis=(1, 2))
+            D[i[want], j[want]] = np.where(rows[i[want]], d_near, 0.0)
+            D[j[want], i[want]] = np.where(rows[j[want]], -d_near, 0.0)
     np.fill_diagonal(M, self_inductance_rect(rc, cells.dr, cells.dz))
-    np.fill_diagonal(D, 0.0)
     return M, D
 
 
@@ -169,7 +186,8 @@ class CircuitSolution:
     cells : the cells (ring, target, coil sub-cells); cell_current : complex current of each cell
     [A] (a coil sub-cell carries its share of the ampere-turns); coil_current, coil_voltage [A, V];
     panel_current : bound sheet currents of the pole's panels [A] (empty without iron);
-    M, dMdz : cell matrices [H], [H/m] (free part); panel_M, panel_dMdz : cells x panels [H], [H/m]
+    M, dMdz : cell matrices [H], [H/m] (free part; dMdz filled in the target's rows only);
+    panel_M, panel_dMdz : cells x panels [H], [H/m]
     """
 
     cells: Cells
@@ -204,7 +222,7 @@ def solve_circuit(
     temps = {"ring": 20.0, "target": 20.0, "coil": 20.0, **(temperatures or {})}
     cells = build_cells(design, fineness)
     omega = design.drive.omega
-    M, D = cell_mutual_matrix(cells)
+    M, D = cell_mutual_matrix(cells, dz_rows=cells.part == TARGET)
 
     panels = None
     panel_M = panel_D = None
