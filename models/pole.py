@@ -40,7 +40,7 @@ Implementation (speed only; the numbers are those of the direct evaluation): eve
 once as flat arrays of nodes and each kernel is evaluated once over them, in cache-sized blocks;
 the rule of a set of points is kept (by content) for the next call with the same points, since the
 circuit asks for the operator, ``panel_mutual`` and ``panel_mutual_dz`` at the same filaments, and
-the last two come from one pass that shares m, E(m) and the near-range terms.
+the last two come from one pass that shares the near-range terms.
 """
 
 from __future__ import annotations
@@ -51,10 +51,10 @@ from dataclasses import dataclass
 import numpy as np
 from scipy.constants import mu_0
 from scipy.linalg import lu_factor, lu_solve
-from scipy.special import ellipe, ellipk, ellipkm1
+from scipy.special import ellipe, ellipkm1
 
 from models.errors import DesignError
-from models.filaments import _M_SERIES, _bracket_series, loop_field, mutual, mutual_dz
+from models.filaments import loop_field, mutual, mutual_dz
 
 __all__ = [
     "PanelSet",
@@ -681,66 +681,24 @@ def _mutual_dz(r1, z1, r2, z2):
 def _mutual_pair_block(node_r, node_z, pr, pz):
     """(``_mutual(node, point)``, ``_mutual_dz(point, node)``) in one pass, elementwise equal to them.
 
-    The two share h^2, m = 4 a b / ((a + b)^2 + h^2), E(m) and, where the filaments nearly
-    coincide, 1 - m, K and E; the operations (and their order) are those of
-    ``models.filaments.mutual``, ``models.filaments.mutual_dz`` and the near-range re-evaluation
-    above, written in place to spare temporaries.
+    Both delegate to ``models.filaments.mutual`` and ``models.filaments.mutual_dz``; the near
+    range, which both re-evaluate with K from ``ellipkm1(1 - m)``, is found and evaluated once.
     """
+    mut = mutual(node_r, node_z, pr, pz)
+    dz = mutual_dz(pr, pz, node_r, node_z)
     h = pz - node_z  # z1 - z2 of mutual_dz(point, node); mutual(node, point) uses its square
     h2 = h * h
-    num = node_r - pr
-    num *= num
-    num += h2  # (a - b)^2 + h^2
-    denom = node_r + pr
-    denom *= denom
-    denom += h2  # (a + b)^2 + h^2
-    p = num / denom
-    m = 4.0 * node_r
-    m *= pr
-    m /= denom
-    near = num < np.multiply(_P_NEAR, denom, out=denom)
-    sqrt_rr = node_r * pr
-    np.sqrt(sqrt_rr, out=sqrt_rr)
-    with np.errstate(divide="ignore", invalid="ignore"):
-        # Outside ``near`` m <= 1, so that E(min(m, 1)) and sqrt(min(m, 1)) serve both kernels.
-        m_clip = np.minimum(m, 1.0)
-        e_m = ellipe(m_clip)
-        sqrt_m = np.sqrt(m_clip)
-        mut = np.multiply(m_clip, 0.5, out=num)
-        np.subtract(1.0, mut, out=mut)
-        mut *= ellipkm1(p)
-        mut -= e_m  # the bracket (1 - m/2) K - E
-        small = m_clip < _M_SERIES
-        if np.any(small):
-            mut[small] = _bracket_series(m_clip[small])
-        bracket = mut
-        mut = np.multiply(mu_0, sqrt_rr)
-        mut *= 2.0
-        mut /= sqrt_m
-        mut *= bracket
-        mut[~(m_clip > 0)] = 0.0
-        one_m = np.subtract(1.0, m, out=m_clip)
-        dz = np.multiply(-mu_0, h)
-        dz *= sqrt_m
-        den = np.multiply(4.0, one_m, out=bracket)
-        den *= sqrt_rr
-        dz /= den
-        two_one_m = np.multiply(2.0, one_m, out=den)
-        two_one_m *= ellipk(m)
-        e_m *= np.subtract(2.0, m, out=m)
-        e_m -= two_one_m  # (2 - m) E - 2 (1 - m) K
-        dz *= e_m
-        dz[~((sqrt_m > 0) & (h != 0))] = 0.0
+    num = (node_r - pr) ** 2 + h2
+    denom = (node_r + pr) ** 2 + h2
+    near = num < _P_NEAR * denom
     if np.any(near):
-        pn = p[near]
-        mn = 1.0 - pn
-        kn = ellipkm1(pn)
-        en = ellipe(mn)
-        sn = sqrt_rr[near]
-        mut[near] = mu_0 * sn * 2.0 / np.sqrt(mn) * ((1.0 - 0.5 * mn) * kn - en)
-        dz[near] = (
-            -mu_0 * h[near] * np.sqrt(mn) / (4.0 * pn * sn) * ((2.0 - mn) * en - 2.0 * pn * kn)
-        )
+        p = num[near] / denom[near]
+        m = 1.0 - p
+        K = ellipkm1(p)
+        E = ellipe(m)
+        s = np.sqrt(node_r[near] * pr[near])
+        mut[near] = mu_0 * s * 2.0 / np.sqrt(m) * ((1.0 - 0.5 * m) * K - E)
+        dz[near] = -mu_0 * h[near] * np.sqrt(m) / (4.0 * p * s) * ((2.0 - m) * E - 2.0 * p * K)
     return mut, dz
 
 
