@@ -54,7 +54,7 @@ from scipy.linalg import lu_factor, lu_solve
 from scipy.special import ellipe, ellipkm1
 
 from models.errors import DesignError
-from models.filaments import loop_field, mutual, mutual_dz
+from models.filaments import loop_field, mutual, mutual_dz, mutual_pair
 
 __all__ = [
     "PanelSet",
@@ -679,27 +679,10 @@ def _mutual_dz(r1, z1, r2, z2):
 
 
 def _mutual_pair_block(node_r, node_z, pr, pz):
-    """(``_mutual(node, point)``, ``_mutual_dz(point, node)``) in one pass, elementwise equal to them.
-
-    Both delegate to ``models.filaments.mutual`` and ``models.filaments.mutual_dz``; the near
-    range, which both re-evaluate with K from ``ellipkm1(1 - m)``, is found and evaluated once.
-    """
-    mut = mutual(node_r, node_z, pr, pz)
-    dz = mutual_dz(pr, pz, node_r, node_z)
-    h = pz - node_z  # z1 - z2 of mutual_dz(point, node); mutual(node, point) uses its square
-    h2 = h * h
-    num = (node_r - pr) ** 2 + h2
-    denom = (node_r + pr) ** 2 + h2
-    near = num < _P_NEAR * denom
-    if np.any(near):
-        p = num[near] / denom[near]
-        m = 1.0 - p
-        K = ellipkm1(p)
-        E = ellipe(m)
-        s = np.sqrt(node_r[near] * pr[near])
-        mut[near] = mu_0 * s * 2.0 / np.sqrt(m) * ((1.0 - 0.5 * m) * K - E)
-        dz[near] = -mu_0 * h[near] * np.sqrt(m) / (4.0 * p * s) * ((2.0 - m) * E - 2.0 * p * K)
-    return mut, dz
+    """(``mutual(node, point)``, dM/dz at the point) in one pass (``models.filaments.mutual_pair``;
+    dM/dz_point = -dM/dz_node)."""
+    mut, dz_node = mutual_pair(node_r, node_z, pr, pz)
+    return mut, -dz_node
 
 
 def _mutual_pair_kernel(node_r, node_z, pr, pz):
