@@ -54,7 +54,7 @@ from scipy.linalg import lu_factor, lu_solve
 from scipy.special import ellipe, ellipkm1
 
 from models.errors import DesignError
-from models.filaments import loop_field, mutual, mutual_dz, mutual_pair
+from models.filaments import loop_field, mutual_pair
 
 __all__ = [
     "PanelSet",
@@ -648,34 +648,6 @@ def _loop_field_block(a, z0, r, z):
     if np.any(axis):
         br[axis], bz[axis] = loop_field(a[axis], z0[axis], r[axis], z[axis])
     return br, bz
-
-
-def _mutual(r1, z1, r2, z2):
-    """``models.filaments.mutual`` with the near-coincident range re-evaluated accurately."""
-    r1, z1, r2, z2 = np.broadcast_arrays(r1, z1, r2, z2)
-    out = mutual(r1, z1, r2, z2)
-    h2 = (z1 - z2) ** 2
-    near = ((r1 - r2) ** 2 + h2) < _P_NEAR * ((r1 + r2) ** 2 + h2)
-    if np.any(near):
-        a, b = r1[near], r2[near]
-        _, _, _, m, K, E = _near_parts(a, z1[near], b, z2[near])
-        out[near] = mu_0 * np.sqrt(a * b) * 2.0 / np.sqrt(m) * ((1.0 - 0.5 * m) * K - E)
-    return out
-
-
-def _mutual_dz(r1, z1, r2, z2):
-    """``models.filaments.mutual_dz`` (d/dz1) with the near-coincident range re-evaluated."""
-    r1, z1, r2, z2 = np.broadcast_arrays(r1, z1, r2, z2)
-    out = mutual_dz(r1, z1, r2, z2)
-    h2 = (z1 - z2) ** 2
-    near = ((r1 - r2) ** 2 + h2) < _P_NEAR * ((r1 + r2) ** 2 + h2)
-    if np.any(near):
-        a, b, h = r1[near], r2[near], (z1 - z2)[near]
-        _, _, p, m, K, E = _near_parts(a, z1[near], b, z2[near])
-        out[near] = (
-            -mu_0 * h * np.sqrt(m) / (4.0 * p * np.sqrt(a * b)) * ((2.0 - m) * E - 2.0 * p * K)
-        )
-    return out
 
 
 def _mutual_pair_block(node_r, node_z, pr, pz):

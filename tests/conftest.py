@@ -13,6 +13,16 @@ import pytest
 for _var in ("OPENBLAS_NUM_THREADS", "OMP_NUM_THREADS", "MKL_NUM_THREADS"):
     os.environ.setdefault(_var, "1")
 
+#: The coil of the test and demo machines (fixed here so tests do not follow edits of the demo).
+TEST_COIL = {
+    "inner_radius_mm": 10.5,
+    "outer_radius_mm": 22.0,
+    "setback_mm": 2.0,
+    "length_mm": 30.0,
+    "turns": 300,
+    "wire_diameter_mm": 0.8,
+}
+
 ROOT = Path(__file__).resolve().parents[1]
 DEMO = ROOT / "studies" / "demo_design.toml"
 

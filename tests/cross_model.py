@@ -17,19 +17,13 @@ import time
 from pathlib import Path
 
 from models.design import design_from_dict
+from tests.conftest import TEST_COIL
 
 CSV_PATH = Path(__file__).resolve().parent / "data" / "cross_model.csv"
 
 BASE = {
     "pole": {"radius_mm": 10.0, "length_mm": 40.0, "conductivity_S_per_m": 0.0},
-    "coil": {
-        "inner_radius_mm": 10.5,
-        "outer_radius_mm": 22.0,
-        "setback_mm": 2.0,
-        "length_mm": 30.0,
-        "turns": 300,
-        "wire_diameter_mm": 0.8,
-    },
+    "coil": TEST_COIL,
     "drive": {"current_A": 3.0},
 }
 

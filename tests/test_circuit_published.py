@@ -33,6 +33,7 @@ from models.design import design_from_dict, load_design
 from models.discretize import Cells, Fineness, conductor_cells, graded_edges
 from models.evaluate import DEFAULT_FINENESS, evaluate
 from models.filaments import mutual, mutual_dz, self_inductance_rect
+from tests.conftest import TEST_COIL
 
 DEMO = Path(__file__).resolve().parents[1] / "studies" / "demo_design.toml"
 SIGMA_CU = 58.0e6  # annealed copper, 100 % IACS [S/m] (IEC 60028)
@@ -560,14 +561,7 @@ def test_voltage_drive_reproduces_current_drive_laminated_demo():
 # worst case: "within about 1 %", as evaluate() claims, holds for the pull but only just; the
 # target loss converges more slowly (default ~1-2 % low).
 
-_CONVERGENCE_COIL = {
-    "inner_radius_mm": 10.5,
-    "outer_radius_mm": 22.0,
-    "setback_mm": 2.0,
-    "length_mm": 30.0,
-    "turns": 300,
-    "wire_diameter_mm": 0.8,
-}
+_CONVERGENCE_COIL = TEST_COIL
 _SIGMA_AL = 0.61 * 58.0e6  # aluminium 1350, 61 % IACS (IEC 60889, from memory)
 
 

@@ -20,6 +20,7 @@ from models.design import design_from_dict, load_design
 from models.errors import DesignError
 from models.fem import Region, reference, solve, solve_regions
 from optim.verify import compare, format_table, to_json
+from tests.conftest import TEST_COIL
 
 DEMO = Path(__file__).resolve().parents[1] / "studies" / "demo_design.toml"
 
@@ -292,14 +293,7 @@ def _demo_dict(**changes):
     """A shaded-pole design fixed here (the tests must not follow edits of the demo file)."""
     d = {
         "pole": {"radius_mm": 10.0, "length_mm": 40.0, "material": "electrical-steel-m400"},
-        "coil": {
-            "inner_radius_mm": 10.5,
-            "outer_radius_mm": 22.0,
-            "setback_mm": 2.0,
-            "length_mm": 30.0,
-            "turns": 300,
-            "wire_diameter_mm": 0.8,
-        },
+        "coil": dict(TEST_COIL),
         "drive": {"frequency_Hz": 400.0, "current_A": 3.0},
         "ring": {
             "inner_radius_mm": 4.0,
