@@ -15,9 +15,10 @@ from __future__ import annotations
 from dataclasses import dataclass
 
 import numpy as np
+from scipy.constants import mu_0
 
 from models.discretize import Cells, Fineness, coil_filaments, conductor_cells
-from models.filaments import mutual, mutual_dz, self_inductance_rect
+from models.filaments import mutual, mutual_dz, mutual_pair, rect_log_mean, self_inductance_rect
 
 __all__ = ["CircuitSolution", "build_cells", "solve_circuit", "cell_mutual_matrix"]
 
@@ -139,7 +140,9 @@ def cell_mutual_matrix(cells: Cells, dz_rows=None):
     """Inductance matrix of the cells (each a uniform-current ring) [H], and dM/dz_i [H/m].
 
     Far pairs use Maxwell's formula between centres; pairs within one cell size average it over 2 x 2
-    Gauss nodes of both cells; the diagonal is the self-inductance of a rectangular-section ring
+    Gauss nodes of both cells, with the kernel's logarithmic part, mu0 R ln(1/rho), averaged exactly
+    (models.filaments.rect_log_mean, the cells' GMD) in place of its Gauss average, so that long
+    thin neighbours keep M positive definite; the diagonal is the self-inductance of a rectangular-section ring
     (models.filaments.self_inductance_rect). dMdz[i, j] is the derivative with respect to the axial
     position of cell i.
 
@@ -166,15 +169,26 @@ def cell_mutual_matrix(cells: Cells, dz_rows=None):
         ri, zi = _gauss_nodes(cells, i)
         rj, zj = _gauss_nodes(cells, j)
         args = (ri[:, :, None], zi[:, :, None], rj[:, None, :], zj[:, None, :])
-        m_near = mutual(*args).mean(axis=(1, 2))
+        m_near, d_near = mutual_pair(*args)
+        # The log singularity of the kernel is averaged exactly (the rectangles' GMD) instead of
+        # by the Gauss nodes: M ~ mu0 R (ln(8R/rho) - 2) near coincidence.
+        dr_, dz_ = args[0] - args[2], args[1] - args[3]
+        rho2 = dr_**2 + dz_**2
+        gauss_log = 0.5 * np.log(rho2).mean(axis=(1, 2))
+        gauss_dlog = (dz_ / rho2).mean(axis=(1, 2))
+        exact_log, exact_dlog = rect_log_mean(
+            (cells.r0[i], cells.r1[i]),
+            (cells.z0[i], cells.z1[i]),
+            (cells.r0[j], cells.r1[j]),
+            (cells.z0[j], cells.z1[j]),
+        )
+        scale = mu_0 * np.sqrt(rc[i] * rc[j])
+        m_near = m_near.mean(axis=(1, 2)) - scale * (exact_log - gauss_log)
+        d_near = d_near.mean(axis=(1, 2)) - scale * (exact_dlog - gauss_dlog)
         M[i, j] = m_near
         M[j, i] = m_near
-        want = rows[i] | rows[j]
-        if np.any(want):
-            sub = tuple(a[want] for a in args)
-            d_near = mutual_dz(*sub).mean(axis=(1, 2))
-            D[i[want], j[want]] = np.where(rows[i[want]], d_near, 0.0)
-            D[j[want], i[want]] = np.where(rows[j[want]], -d_near, 0.0)
+        D[i, j] = np.where(rows[i], d_near, 0.0)
+        D[j, i] = np.where(rows[j], -d_near, 0.0)
     np.fill_diagonal(M, self_inductance_rect(rc, cells.dr, cells.dz))
     return M, D
 

@@ -32,6 +32,7 @@ class Fineness:
     max_cell_depths : largest cell, in skin depths
     growth : ratio of neighbouring cell sizes (>= 1)
     min_cells : fewest cells across any dimension of a conductor
+    min_cells_r : fewest cells along the radius (0: same as min_cells)
     max_cells : most cells along any dimension
     coil_r, coil_z : filaments across the coil window
     panel_size : iron panel size at the face, as a fraction of the smallest feature (groove width,
@@ -43,7 +44,8 @@ class Fineness:
     surface_cell: float = 0.5
     max_cell_depths: float = 1.5
     growth: float = 1.5
-    min_cells: int = 8
+    min_cells: int = 12
+    min_cells_r: int = 8
     max_cells: int = 24
     coil_r: int = 4
     coil_z: int = 8
@@ -58,6 +60,7 @@ class Fineness:
             max_cell_depths=self.max_cell_depths / factor,
             growth=1.0 + (self.growth - 1.0) / factor,
             min_cells=max(2, round(self.min_cells * factor)),
+            min_cells_r=max(2, round(self.min_cells_r * factor)) if self.min_cells_r else 0,
             max_cells=max(4, round(self.max_cells * factor)),
             coil_r=max(2, round(self.coil_r * factor)),
             coil_z=max(2, round(self.coil_z * factor)),
@@ -201,7 +204,15 @@ def conductor_cells(
     outer = h0 if graded_r[1] else None
     focus = [(rf, f.gap_cell * gap) for rf in corners_r] if gap is not None else []
     re = graded_edges(
-        r_in, r_out, inner, outer, hmax, f.growth, f.min_cells, f.max_cells, focus=focus
+        r_in,
+        r_out,
+        inner,
+        outer,
+        hmax,
+        f.growth,
+        f.min_cells_r or f.min_cells,
+        f.max_cells,
+        focus=focus,
     )
     ze = graded_edges(z_lo, z_hi, h0, h0, hmax, f.growth, f.min_cells, f.max_cells)
     R0, Z0 = np.meshgrid(re[:-1], ze[:-1], indexing="ij")
