@@ -730,7 +730,7 @@ def test_rect_log_mean_matches_maxwell_gmd_and_monte_carlo():
     # A rectangle with itself: Maxwell's exact GMD (Grover 1946, eq. 9), both exact: 1e-12.
     for a, b in [(1.0, 1.0), (1.0, 0.1), (0.05, 2.0)]:
         ln_g, _ = rect_log_mean((0.0, a), (0.0, b), (0.0, a), (0.0, b))
-        assert math.isclose(math.exp(ln_g), float(gmd_rectangle(a, b)), rel_tol=1e-12)
+        assert np.isclose(np.exp(ln_g), gmd_rectangle(a, b), rtol=1e-12, atol=0.0)
     # Two long thin neighbours sharing an edge vs a seeded Monte-Carlo mean of ln|p - q|
     # (2e6 pairs: standard error about 1e-3 of the value).
     rng = np.random.default_rng(3)
