@@ -18,7 +18,7 @@ import numpy as np
 from scipy.constants import mu_0
 
 from models.discretize import Cells, Fineness, coil_filaments, conductor_cells
-from models.filaments import mutual, mutual_dz, mutual_pair, rect_log_mean, self_inductance_rect
+from models.filaments import mutual, mutual_pair, rect_log_mean, self_inductance_rect
 
 __all__ = ["CircuitSolution", "build_cells", "solve_circuit", "cell_mutual_matrix"]
 
@@ -102,6 +102,41 @@ def iron_nodes(cells: Cells, panels, order: int, reach: float = 1.5):
         Node radii and heights [m], and W (n_nodes, n_cells) with the weight of each node in its
         cell (columns sum to 1): a cell quantity is W.T @ (node quantity).
     """
+    r, z, nodes = _iron_nodes(cells, panels, order, reach)
+    W = np.zeros((r.size, cells.n))
+    far, close, ww = nodes.far, nodes.close, nodes.weight
+    W[np.arange(far.size), far] = 1.0
+    rows = far.size + np.arange(close.size * ww.size)
+    W[rows, np.repeat(close, ww.size)] = np.tile(ww, close.size)
+    return r, z, W
+
+
+@dataclass(frozen=True)
+class _NodeMap:
+    """Which cells the iron nodes stand for (``_iron_nodes``): the first far.size nodes are the
+    centres of the cells ``far``; then each cell of ``close`` has weight.size nodes in a row."""
+
+    far: np.ndarray
+    close: np.ndarray
+    weight: np.ndarray
+    n_cells: int
+
+    def to_cells(self, a):
+        """W.T @ a for node rows ``a`` (n_nodes, k): the cell rows (n_cells, k)."""
+        out = np.empty((self.n_cells, a.shape[1]), dtype=a.dtype)
+        nf = self.far.size
+        out[self.far] = a[:nf]
+        near = a[nf:].reshape(self.close.size, self.weight.size, a.shape[1])
+        out[self.close] = np.einsum("cnk,n->ck", near, self.weight)
+        return out
+
+    def from_cells_right(self, a):
+        """a @ W for node columns ``a`` (k, n_nodes): the cell columns (k, n_cells)."""
+        return self.to_cells(a.T).T
+
+
+def _iron_nodes(cells: Cells, panels, order: int, reach: float = 1.5):
+    """``iron_nodes`` with the weights as a ``_NodeMap`` instead of the dense matrix W."""
     size = np.maximum(cells.dr, cells.dz)
     dist = (
         np.hypot(
@@ -122,11 +157,7 @@ def iron_nodes(cells: Cells, panels, order: int, reach: float = 1.5):
     z = np.concatenate(
         [cells.zc[far], (cells.zc[close, None] + cells.dz[close, None] * xz).ravel()]
     )
-    W = np.zeros((r.size, cells.n))
-    W[np.arange(far.size), far] = 1.0
-    rows = far.size + np.arange(close.size * ww.size)
-    W[rows, np.repeat(close, ww.size)] = np.tile(ww, close.size)
-    return r, z, W
+    return r, z, _NodeMap(far, close, ww, cells.n)
 
 
 def _gauss_nodes(cells: Cells, idx):
@@ -155,16 +186,27 @@ def cell_mutual_matrix(cells: Cells, dz_rows=None):
     """
     rc, zc = cells.rc, cells.zc
     n = cells.n
-    iu, ju = np.triu_indices(n, 1)
-    M = np.zeros((n, n))
-    m_up = mutual(rc[iu], zc[iu], rc[ju], zc[ju])
-    M[iu, ju] = m_up
-    M[ju, iu] = m_up
     rows = np.ones(n, bool) if dz_rows is None else np.asarray(dz_rows, bool)
-    D = np.zeros((n, n))
-    ri_, ci_ = np.nonzero(rows[:, None] & ~np.eye(n, dtype=bool))
-    D[ri_, ci_] = mutual_dz(rc[ri_], zc[ri_], rc[ci_], zc[ci_])
     i, j = _near_pairs(cells)
+    # Far pairs (i < j) between centres; near pairs are set below. A pair with a cell of ``rows``
+    # needs dM/dz as well: mutual_pair gives both from one elliptic evaluation (elementwise equal
+    # to mutual and mutual_dz), and dM/dz_j = -dM/dz_i exactly (the formula is odd in z1 - z2).
+    far = np.triu(np.ones((n, n), bool), 1)
+    far[i, j] = False
+    iu, ju = np.nonzero(far)
+    with_dz = rows[iu] | rows[ju]
+    M = np.zeros((n, n))
+    D = np.zeros((n, n))
+    a, b = iu[with_dz], ju[with_dz]
+    m_ab, d_ab = mutual_pair(rc[a], zc[a], rc[b], zc[b])
+    M[a, b] = m_ab
+    M[b, a] = m_ab
+    D[a, b] = np.where(rows[a], d_ab, 0.0)
+    D[b, a] = np.where(rows[b], -d_ab, 0.0)
+    a, b = iu[~with_dz], ju[~with_dz]
+    m_ab = mutual(rc[a], zc[a], rc[b], zc[b])
+    M[a, b] = m_ab
+    M[b, a] = m_ab
     if i.size:
         ri, zi = _gauss_nodes(cells, i)
         rj, zj = _gauss_nodes(cells, j)
@@ -245,10 +287,12 @@ def solve_circuit(
         from models.pole import panel_mutual, panel_mutual_dz
 
         panels = pole_model.panels
-        nr, nz, W = iron_nodes(cells, panels, fineness.iron_nodes)
-        P = pole_model.operator(nr, nz) @ W  # (n_panels, n_cells)
-        panel_M = W.T @ panel_mutual(panels, nr, nz)  # (n_cells, n_panels)
-        panel_D = W.T @ panel_mutual_dz(panels, nr, nz)
+        # Node quantities to cell quantities: W.T @ (nodes x panels), (panels x nodes) @ W, with
+        # W applied by index (``_NodeMap``) rather than as a dense matrix.
+        nr, nz, nodes = _iron_nodes(cells, panels, fineness.iron_nodes)
+        P = nodes.from_cells_right(pole_model.operator(nr, nz))  # (n_panels, n_cells)
+        panel_M = nodes.to_cells(panel_mutual(panels, nr, nz))  # (n_cells, n_panels)
+        panel_D = nodes.to_cells(panel_mutual_dz(panels, nr, nz))
         M_iron = panel_M @ P
         M_total = M + 0.5 * (M_iron + M_iron.T)
     else:
@@ -259,10 +303,16 @@ def solve_circuit(
     solid = np.flatnonzero(~coil_mask)
     n_sub = int(coil_mask.sum())
     turns = design.coil.turns
-    C = np.zeros((cells.n, solid.size + 1))
-    C[solid, np.arange(solid.size)] = 1.0
-    C[coil_mask, -1] = turns / n_sub
-    L_loop = C.T @ M_total @ C
+    # L_loop = C.T @ M_total @ C for the incidence C (cells x loops): 1 from each solid cell to
+    # its loop, turns / n_sub from each coil sub-cell to the coil; applied by index.
+    coil = np.flatnonzero(coil_mask)
+    share = turns / n_sub
+    n = solid.size
+    L_loop = np.empty((n + 1, n + 1))
+    L_loop[:n, :n] = M_total[np.ix_(solid, solid)]
+    L_loop[:n, n] = M_total[np.ix_(solid, coil)].sum(axis=1) * share
+    L_loop[n, :n] = M_total[np.ix_(coil, solid)].sum(axis=0) * share
+    L_loop[n, n] = M_total[np.ix_(coil, coil)].sum() * share * share
 
     r_cells = cells.resistance()
     alpha = np.zeros(cells.n)
@@ -275,7 +325,6 @@ def solve_circuit(
 
     Z = 1j * omega * L_loop
     Z[np.diag_indices_from(Z)] += R_loop
-    n = solid.size
     if design.drive.current is not None:
         i0 = complex(design.drive.current)
         i_solid = np.linalg.solve(Z[:n, :n], -Z[:n, n] * i0)
@@ -286,8 +335,9 @@ def solve_circuit(
         rhs[n] = v0
         x = np.linalg.solve(Z, rhs)
         i_solid, i0 = x[:n], complex(x[n])
-    loop_current = np.concatenate([i_solid, [i0]])
-    cell_current = C @ loop_current
+    cell_current = np.empty(cells.n, complex)  # C @ (loop currents)
+    cell_current[solid] = i_solid
+    cell_current[coil] = share * i0
     panel_current = P @ cell_current if P is not None else np.zeros(0, complex)
     return CircuitSolution(
         cells=cells,

@@ -2,6 +2,7 @@
 
 from __future__ import annotations
 
+import functools
 import math
 import time
 from dataclasses import asdict, dataclass, field
@@ -91,13 +92,51 @@ def _panel_size(design: Design, fineness: Fineness) -> float:
 
 
 def pole_model_for(design: Design, fineness: Fineness):
-    """The magnetised-pole model of ``design`` (None if the pole is not magnetic)."""
+    """The magnetised-pole model of ``design`` (None if the pole is not magnetic).
+
+    The model depends only on the pole's radius, length and permeability, the groove (ring
+    radii and depth) and the panel size, not on frequency, drive, coil or target material: the
+    last few built are kept (``_cached_pole_model``, keyed by those exact floats) so that sweeps
+    and studies over the others reuse it. The same object is returned for equal keys; treat it
+    as read-only.
+    """
     if design.pole.relative_permeability <= 1.0:
         return None
+    p, g = design.pole, design.ring
+    groove = None if g is None else (g.inner_radius, g.outer_radius, g.depth)
+    return _cached_pole_model(
+        float(p.radius),
+        float(p.length),
+        float(p.relative_permeability),
+        None if groove is None else tuple(float(x) for x in groove),
+        float(_panel_size(design, fineness)),
+    )
+
+
+@functools.lru_cache(maxsize=8)
+def _cached_pole_model(radius, length, relative_permeability, groove, panel_size):
+    """MagnetisedPole of a pole (radius, length [m], mu_r) with the groove (inner radius, outer
+    radius, depth [m]) or None, meshed with ``panel_size`` [m]. build_panels reads only these
+    fields of the pole and the ring, so they stand in for the design's dataclasses here."""
+    from types import SimpleNamespace
+
     from models.pole import MagnetisedPole, build_panels
 
-    panels = build_panels(design.pole, design.ring, panel_size=_panel_size(design, fineness))
-    return MagnetisedPole(panels, design.pole.relative_permeability)
+    pole = SimpleNamespace(radius=radius, length=length)
+    ring = None
+    if groove is not None:
+        ring = SimpleNamespace(inner_radius=groove[0], outer_radius=groove[1], depth=groove[2])
+    model = MagnetisedPole(build_panels(pole, ring, panel_size=panel_size), relative_permeability)
+    # Shared between callers: lock the arrays so that an accidental in-place change fails loudly.
+    for a in (*vars(model.panels).values(), model.matrix, *model._lu):
+        if isinstance(a, np.ndarray):
+            a.setflags(write=False)
+    return model
+
+
+def clear_pole_cache():
+    """Forget the kept pole models (``pole_model_for``), e.g. to time a cold evaluation."""
+    _cached_pole_model.cache_clear()
 
 
 def _core_peak_flux_density(design: Design, sol: CircuitSolution) -> float:

@@ -583,7 +583,7 @@ def _near_parts(a, z0, r, z):
 #: mu0 / (2 pi) [H/m], the prefactor of Smythe's loop field.
 _C_LOOP = (0.5e0 / np.pi) * mu_0
 #: Kernels on flat arrays are evaluated in blocks of this many elements (temporaries stay in cache).
-_BLOCK = 8192
+_BLOCK = 16384
 
 
 def _blocked(kernel, n_out, *arrays):
@@ -679,10 +679,12 @@ def _source_field_kernel(node_r, node_z, pr, pz):
     return _loop_field(pr, pz, node_r, node_z)
 
 
-#: Rules of (point, panel) pairs recently built, by the content of the panels and points: the
-#: circuit asks for the operator, the mutual inductance and its derivative at the same points.
+#: Rules of (point, panel) pairs recently used, by the content of the panels and points, least
+#: recently used dropped first: the circuit asks for the operator, the mutual inductance and its
+#: derivative at the same points, and one evaluation uses three point sets (the circuit's nodes
+#: and the two flux-density diagnostics), which recur for a pole model that is reused.
 _PAIR_RULES: dict = {}
-_PAIR_RULES_KEPT = 2
+_PAIR_RULES_KEPT = 4
 
 
 def _points(r, z):
@@ -700,8 +702,10 @@ def _pair_rule(panels, r, z, with_spare=False):
     key = tuple(
         a.tobytes() for a in (panels.mid_r, panels.mid_z, panels.length, panels.tr, panels.tz, r, z)
     )
-    hit = _PAIR_RULES.get(key)
-    if hit is None:
+    hit = _PAIR_RULES.pop(key, None)
+    if hit is not None:
+        _PAIR_RULES[key] = hit  # now the most recently used
+    else:
         n_pts, n_p = r.size, panels.n
         pr, pz = np.repeat(r, n_p), np.repeat(z, n_p)
         rho = np.hypot(r[:, None] - panels.mid_r, z[:, None] - panels.mid_z) / panels.length
