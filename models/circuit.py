@@ -90,30 +90,9 @@ def _near_pairs(cells: Cells, reach=1.01):
     return np.nonzero(near)
 
 
-def iron_nodes(cells: Cells, panels, order: int, reach: float = 1.5):
-    """Filament nodes that stand for the cells in their coupling to the iron's panels.
-
-    A cell within ``reach`` cell sizes of a panel is represented by order x order Gauss-Legendre
-    nodes (equal current share per node's weight); a farther one by its centre.
-
-    Returns
-    -------
-    (r, z, W)
-        Node radii and heights [m], and W (n_nodes, n_cells) with the weight of each node in its
-        cell (columns sum to 1): a cell quantity is W.T @ (node quantity).
-    """
-    r, z, nodes = _iron_nodes(cells, panels, order, reach)
-    W = np.zeros((r.size, cells.n))
-    far, close, ww = nodes.far, nodes.close, nodes.weight
-    W[np.arange(far.size), far] = 1.0
-    rows = far.size + np.arange(close.size * ww.size)
-    W[rows, np.repeat(close, ww.size)] = np.tile(ww, close.size)
-    return r, z, W
-
-
 @dataclass(frozen=True)
-class _NodeMap:
-    """Which cells the iron nodes stand for (``_iron_nodes``): the first far.size nodes are the
+class NodeMap:
+    """Which cells the iron nodes stand for (``iron_nodes``): the first far.size nodes are the
     centres of the cells ``far``; then each cell of ``close`` has weight.size nodes in a row."""
 
     far: np.ndarray
@@ -135,8 +114,17 @@ class _NodeMap:
         return self.to_cells(a.T).T
 
 
-def _iron_nodes(cells: Cells, panels, order: int, reach: float = 1.5):
-    """``iron_nodes`` with the weights as a ``_NodeMap`` instead of the dense matrix W."""
+def iron_nodes(cells: Cells, panels, order: int, reach: float = 1.5):
+    """Filament nodes that stand for the cells in their coupling to the iron's panels.
+
+    A cell within ``reach`` cell sizes of a panel is represented by order x order Gauss-Legendre
+    nodes (each with its weight's share of the cell current); a farther one by its centre.
+
+    Returns
+    -------
+    (r, z, NodeMap)
+        Node radii and heights [m], and the map from node quantities back to cells.
+    """
     size = np.maximum(cells.dr, cells.dz)
     dist = (
         np.hypot(
@@ -157,7 +145,7 @@ def _iron_nodes(cells: Cells, panels, order: int, reach: float = 1.5):
     z = np.concatenate(
         [cells.zc[far], (cells.zc[close, None] + cells.dz[close, None] * xz).ravel()]
     )
-    return r, z, _NodeMap(far, close, ww, cells.n)
+    return r, z, NodeMap(far, close, ww, cells.n)
 
 
 def _gauss_nodes(cells: Cells, idx):
@@ -288,8 +276,8 @@ def solve_circuit(
 
         panels = pole_model.panels
         # Node quantities to cell quantities: W.T @ (nodes x panels), (panels x nodes) @ W, with
-        # W applied by index (``_NodeMap``) rather than as a dense matrix.
-        nr, nz, nodes = _iron_nodes(cells, panels, fineness.iron_nodes)
+        # W applied by index (``NodeMap``) rather than as a dense matrix.
+        nr, nz, nodes = iron_nodes(cells, panels, fineness.iron_nodes)
         P = nodes.from_cells_right(pole_model.operator(nr, nz))  # (n_panels, n_cells)
         panel_M = nodes.to_cells(panel_mutual(panels, nr, nz))  # (n_cells, n_panels)
         panel_D = nodes.to_cells(panel_mutual_dz(panels, nr, nz))

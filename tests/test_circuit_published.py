@@ -225,7 +225,7 @@ def test_sphere_formula_high_frequency_limit_is_the_surface_resistance_loss():
 
 @pytest.mark.parametrize("a_over_delta", [0.5, 1.0, 2.0, 5.0, 20.0])
 def test_sphere_formula_agrees_with_landau_lifshitz_form(a_over_delta):
-    """Two transcriptions of one result (opposite time conventions): equal to rounding."""
+    """Two statements of one result (opposite time conventions): equal to rounding."""
     a, sigma, b0 = 0.01, SIGMA_CU, 1e-3
     omega = 2.0 / (mu_0 * sigma * (a / a_over_delta) ** 2)
     assert _sphere_loss(a, sigma, omega, b0) == pytest.approx(

@@ -40,7 +40,7 @@ def _stages(design):
     cells = build_cells(design, fine)
     mp = ev.pole_model_for(design, fine)
     panels = mp.panels
-    nr, nz, W = iron_nodes(cells, panels, fine.iron_nodes)
+    nr, nz, _ = iron_nodes(cells, panels, fine.iron_nodes)
     sol = solve_circuit(design, fine, mp)
     n = cells.n - int((cells.part == circuit.COIL).sum()) + 1
     rng = np.random.default_rng(0)
