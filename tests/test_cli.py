@@ -113,3 +113,14 @@ def test_console_script_runs_as_a_process():
     )
     assert proc.returncode == 2
     assert "Traceback" not in proc.stderr
+
+
+def test_demo_runs_and_shows_the_sign_change(capsys):
+    # The README's main command: the demo design, then the target-size sweep in which the pull
+    # turns to push as the target outgrows the pole face (common practice, no source).
+    assert main(["demo"]) == 0
+    out = capsys.readouterr().out
+    assert "PULL (toward the face)" in out and "Caution" in out
+    rows = [line.split() for line in out.splitlines() if line.strip()[:1].isdigit()]
+    pulls = [float(r[1]) for r in rows if len(r) == 7]
+    assert pulls[0] > 0 > pulls[-1]
