@@ -1,0 +1,449 @@
+"""CAD hand-off of one chosen design: design.toml, handoff.json, parameters.csv, profile.dxf.
+
+The folder is what a mechanical engineer receives in the morning:
+
+* ``design.toml`` - the design file itself (mm, Hz, A rms), written so that ``eddypull evaluate``
+  reproduces the predicted numbers exactly (floats are written with ``repr``, which round-trips);
+* ``handoff.json`` - every dimension in mm, materials, drive, predicted results, limits and
+  margins, tool and model version, study, trial and time;
+* ``parameters.csv`` - ``name,value,unit,description`` rows a parametric CAD model can read;
+* ``profile.dxf`` - the half cross-section in mm, one layer per part (`optim.dxf`);
+* ``verify.txt`` - the fast model beside the FEM reference, when a verification was run.
+
+Non-finite numbers (a thermal runaway gives inf temperatures and -inf margins) are written to JSON
+as the strings ``"inf"`` / ``"-inf"`` and NaN as ``null``, so the file stays strict JSON.
+"""
+
+from __future__ import annotations
+
+import csv
+import datetime as _dt
+import io
+import json
+import math
+import re
+import tomllib
+from pathlib import Path
+
+from models.design import DESIGN_KEYS, design_from_dict
+from models.errors import DesignError
+from optim.dxf import LAYERS, section_mm, write_profile_dxf
+from optim.files import atomic_write_text, redact_url, safe_child
+
+__all__ = ["write_handoff", "dumps_toml", "parameter_rows", "unit_of", "to_jsonable"]
+
+HANDOFF_SCHEMA = "eddypull-handoff-1"
+
+# Unit of a file key from its suffix (longest first); keys without one are dimensionless ("-") or
+# text ("").
+_SUFFIX_UNITS = sorted(
+    {
+        "_mm": "mm",
+        "_Hz": "Hz",
+        "_A": "A",
+        "_V": "V",
+        "_VA": "VA",
+        "_W": "W",
+        "_T": "T",
+        "_C": "degC",
+        "_K": "K",
+        "_s": "s",
+        "_N": "N",
+        "_kg": "kg",
+        "_S_per_m": "S/m",
+        "_kg_per_m3": "kg/m^3",
+        "_W_per_m2K": "W/(m^2 K)",
+        "_per_K": "1/K",
+    }.items(),
+    key=lambda kv: -len(kv[0]),
+)
+
+#: Words for the design file's keys (table.key); other keys get a generic description.
+DESCRIPTIONS = {
+    "name": "design name",
+    "description": "free-text description of the design",
+    "pole.radius_mm": "radius of the steel pole (cylinder)",
+    "pole.length_mm": "length of the pole from its face to its back",
+    "pole.material": "pole steel (eddypull material library)",
+    "pole.relative_permeability": "relative permeability of the pole steel",
+    "pole.conductivity_S_per_m": "conductivity of the pole steel (0 = laminated)",
+    "pole.saturation_flux_density_T": "saturation flux density of the pole steel",
+    "coil.inner_radius_mm": "inner radius of the coil window",
+    "coil.outer_radius_mm": "outer radius of the coil window",
+    "coil.setback_mm": "distance from the pole face to the coil's front end",
+    "coil.length_mm": "axial length of the coil window",
+    "coil.turns": "number of turns",
+    "coil.wire_diameter_mm": "copper diameter of the winding wire",
+    "coil.material": "winding conductor",
+    "drive.frequency_Hz": "supply frequency",
+    "drive.current_A": "coil current (rms)",
+    "drive.voltage_V": "supply voltage (rms)",
+    "ring.inner_radius_mm": "inner radius of the shading ring (= groove inner wall)",
+    "ring.outer_radius_mm": "outer radius of the shading ring (= groove outer wall)",
+    "ring.depth_mm": "depth of the ring and of its groove below the pole face (flush)",
+    "ring.material": "shading ring conductor",
+    "ring.conductivity_S_per_m": "conductivity of the ring at 20 degC",
+    "target.radius_mm": "outer radius of the target part",
+    "target.thickness_mm": "thickness of the target part",
+    "target.gap_mm": "air gap from the pole face to the target",
+    "target.inner_radius_mm": "inner radius of the target (0 = solid disc)",
+    "target.material": "target conductor",
+    "target.conductivity_S_per_m": "conductivity of the target at 20 degC",
+    "target.density_kg_per_m3": "density of the target",
+}
+
+
+def unit_of(key: str, value=None) -> str:
+    """Unit of a design-file key from its suffix (``gap_mm`` -> ``mm``); ``-`` for a plain number,
+    ``""`` for text."""
+    for suffix, unit in _SUFFIX_UNITS:
+        if key.endswith(suffix):
+            return unit
+    return "" if isinstance(value, str) else "-"
+
+
+# ------------------------------------------------------------------------------------ TOML writer
+_BARE_KEY = re.compile(r"^[A-Za-z0-9_-]+$")
+_ESCAPES = {
+    '"': '\\"',
+    "\\": "\\\\",
+    "\b": "\\b",
+    "\t": "\\t",
+    "\n": "\\n",
+    "\f": "\\f",
+    "\r": "\\r",
+}
+
+
+def _toml_key(key) -> str:
+    key = str(key)
+    return key if _BARE_KEY.match(key) else _toml_str(key)
+
+
+def _toml_str(s: str) -> str:
+    out = []
+    for ch in s:
+        if ch in _ESCAPES:
+            out.append(_ESCAPES[ch])
+        elif ord(ch) < 0x20 or ord(ch) == 0x7F:
+            out.append(f"\\u{ord(ch):04X}")
+        else:
+            out.append(ch)
+    return '"' + "".join(out) + '"'
+
+
+def _toml_value(value, where: str) -> str:
+    if isinstance(value, bool):
+        return "true" if value else "false"
+    if isinstance(value, int):
+        return str(value)
+    if isinstance(value, float):
+        if math.isnan(value):
+            return "nan"
+        if math.isinf(value):
+            return "inf" if value > 0 else "-inf"
+        return repr(value)  # shortest string that reads back to the same double
+    if isinstance(value, str):
+        return _toml_str(value)
+    if isinstance(value, (list, tuple)):
+        return "[" + ", ".join(_toml_value(v, where) for v in value) + "]"
+    raise DesignError(
+        f"{where} = {value!r}: cannot be written to TOML; must be a number, string, bool or list"
+    )
+
+
+def dumps_toml(data: dict, header: str = "") -> str:
+    """TOML text of a dict of scalars, strings, lists and nested tables.
+
+    Floats are written with ``repr`` (the shortest decimal that reads back to the same IEEE double),
+    so ``tomllib.loads(dumps_toml(d)) == d`` for every finite value (TOML v1.0.0: floats,
+    basic strings with escapes, ``[a.b]`` table headers).
+
+    Parameters
+    ----------
+    data : dict
+    header : str
+        Comment lines put on top (each prefixed with ``# ``).
+    """
+    lines = [f"# {line}".rstrip() for line in header.splitlines()]
+
+    def table(d: dict, prefix: tuple[str, ...]):
+        scalars = [(k, v) for k, v in d.items() if not isinstance(v, dict)]
+        tables = [(k, v) for k, v in d.items() if isinstance(v, dict)]
+        if prefix and (scalars or not tables):
+            if lines:
+                lines.append("")
+            lines.append("[" + ".".join(_toml_key(p) for p in prefix) + "]")
+        for k, v in scalars:
+            lines.append(f"{_toml_key(k)} = {_toml_value(v, '.'.join([*prefix, str(k)]))}")
+        for k, v in tables:
+            table(v, (*prefix, str(k)))
+
+    table(data, ())
+    return "\n".join(lines) + "\n"
+
+
+# ------------------------------------------------------------------------------- tables and JSON
+def _derived_mm(design) -> list[tuple[str, float, str]]:
+    """Dimensions a drawing wants that the file does not hold directly: (name, value_mm, words)."""
+    src = design.source
+    rows = []
+
+    def get(table, key, default=None):
+        return src.get(table, {}).get(key, default)
+
+    for table, key, words in (
+        ("pole", "radius_mm", "pole diameter"),
+        ("coil", "inner_radius_mm", "coil window inner diameter"),
+        ("coil", "outer_radius_mm", "coil window outer diameter"),
+        ("ring", "inner_radius_mm", "shading ring inner diameter (groove inner wall)"),
+        ("ring", "outer_radius_mm", "shading ring outer diameter (groove outer wall)"),
+        ("target", "radius_mm", "target outer diameter"),
+        ("target", "inner_radius_mm", "target inner diameter (0 = solid disc)"),
+    ):
+        value = get(table, key, 0.0 if (table, key) == ("target", "inner_radius_mm") else None)
+        if value is not None and (table != "ring" or design.ring is not None):
+            name = f"{table}_{key.replace('radius', 'diameter')}"
+            rows.append((name, 2.0 * value, f"{words} (derived: 2 x {table}.{key})"))
+    if design.ring is not None:
+        width = get("ring", "outer_radius_mm") - get("ring", "inner_radius_mm")
+        rows.append(("ring_width_mm", width, "radial width of the ring and its groove (derived)"))
+    back = get("coil", "setback_mm") + get("coil", "length_mm")
+    rows.append(("coil_back_mm", back, "distance from the pole face to the coil's back (derived)"))
+    return rows
+
+
+def parameter_rows(design) -> list[dict]:
+    """Rows ``name, value, unit, description`` of every design-file value and derived dimension.
+
+    Names are ``<table>_<key>`` of the design file (``ring_inner_radius_mm``), top-level keys as they
+    are (``name``); values exactly as in the file (file units: mm, Hz, A rms, V rms).
+    """
+    rows = []
+    src = dict(design.source)
+    src.setdefault("name", design.name)
+
+    def walk(d: dict, prefix: tuple[str, ...]):
+        for key, value in d.items():
+            if isinstance(value, dict):
+                walk(value, (*prefix, key))
+                continue
+            dotted = ".".join((*prefix, key))
+            words = DESCRIPTIONS.get(dotted, f"{dotted} of the design file")
+            rows.append(
+                {
+                    "name": "_".join((*prefix, key)),
+                    "value": value,
+                    "unit": unit_of(key, value),
+                    "description": words,
+                }
+            )
+
+    walk(src, ())
+    for name, value, words in _derived_mm(design):
+        rows.append({"name": name, "value": value, "unit": "mm", "description": words})
+    return rows
+
+
+def to_jsonable(value):
+    """Strict-JSON copy: nan -> None, +-inf -> "inf"/"-inf", complex -> [re, im], numpy scalars and
+    arrays -> Python, times -> ISO 8601, paths -> str."""
+    if isinstance(value, dict):
+        return {str(k): to_jsonable(v) for k, v in value.items()}
+    if isinstance(value, (list, tuple, set)):
+        return [to_jsonable(v) for v in value]
+    if hasattr(value, "tolist") and not isinstance(value, (str, bytes)):  # numpy
+        return to_jsonable(value.tolist())
+    if isinstance(value, complex):
+        return [to_jsonable(value.real), to_jsonable(value.imag)]
+    if isinstance(value, bool) or value is None or isinstance(value, (int, str)):
+        return value
+    if isinstance(value, float):
+        if math.isnan(value):
+            return None
+        if math.isinf(value):
+            return "inf" if value > 0 else "-inf"
+        return value
+    if hasattr(value, "isoformat"):
+        return value.isoformat()
+    if isinstance(value, Path):
+        return str(value)
+    return str(value)
+
+
+def _materials(design) -> dict:
+    p, c, g, t = design.pole, design.coil, design.ring, design.target
+    out = {
+        "pole": {
+            "material": p.material,
+            "relative_permeability": p.relative_permeability,
+            "conductivity_S_per_m": p.conductivity,
+            "laminated": p.laminated,
+            "saturation_flux_density_T": p.saturation_flux_density,
+            "lamination_thickness_mm": None
+            if p.lamination_thickness is None
+            else p.lamination_thickness * 1e3,
+        },
+        "coil": {
+            "material": c.material,
+            "conductivity_S_per_m": c.conductivity,
+            "temperature_coefficient_per_K": c.temperature_coefficient,
+        },
+        "target": {
+            "material": t.material,
+            "conductivity_S_per_m": t.conductivity,
+            "temperature_coefficient_per_K": t.temperature_coefficient,
+            "density_kg_per_m3": t.density,
+        },
+    }
+    if g is not None:
+        out["ring"] = {
+            "material": g.material,
+            "conductivity_S_per_m": g.conductivity,
+            "temperature_coefficient_per_K": g.temperature_coefficient,
+            "density_kg_per_m3": g.density,
+        }
+    return out
+
+
+def _tool_version() -> str:
+    from importlib.metadata import PackageNotFoundError, version
+
+    try:
+        return version("eddypull")
+    except PackageNotFoundError:  # running from a source tree that was never installed
+        return "unknown"
+
+
+def handoff_dict(design, result, meta: dict, verify: dict | None = None) -> dict:
+    """The content of handoff.json (see the module docstring), strict-JSON ready."""
+    from models.evaluate import MODEL_VERSION
+
+    predicted = result.to_dict() if hasattr(result, "to_dict") else result
+    predicted = dict(predicted) if predicted is not None else None
+    study = dict(meta or {})
+    for key in ("storage", "storage_url"):
+        if isinstance(study.get(key), str):
+            study[key] = redact_url(study[key])
+    dims = {}
+    for table, keys in DESIGN_KEYS.items():
+        for key in keys:
+            if key.endswith("_mm") and key in design.source.get(table, {}):
+                dims[f"{table}_{key}"] = design.source[table][key]
+    if design.ring is None:
+        dims.update({"ring_inner_radius_mm": None, "ring_outer_radius_mm": None})
+    dims.setdefault("target_inner_radius_mm", 0.0)
+    dims.update({name: value for name, value, _ in _derived_mm(design)})
+    limits = {}
+    if predicted is not None:
+        for key in ("binding_limit", "margins", "thermal_status", "time_to_limit_s"):
+            if key in predicted:
+                limits[key] = predicted[key]
+        limits.update({k: v for k, v in predicted.items() if k.endswith("_limit_C")})
+    for key in ("constraint_margins", "constraints", "margins"):
+        if key in study:
+            limits[f"study_{key}"] = study[key]
+    out = {
+        "schema": HANDOFF_SCHEMA,
+        "tool": {"name": "eddypull", "version": _tool_version(), "model": MODEL_VERSION},
+        "written_at": _dt.datetime.now(_dt.UTC).isoformat(timespec="seconds"),
+        "study": study,
+        "design": {
+            "name": design.name,
+            "dimensions_mm": dims,
+            "materials": _materials(design),
+            "drive": {
+                "frequency_Hz": design.drive.frequency,
+                "current_A": design.drive.current,
+                "voltage_V": design.drive.voltage,
+                "turns": design.coil.turns,
+            },
+            "file": design.source,
+            "section_mm": {
+                "layers": {k: v[1] for k, v in LAYERS.items()},
+                "polygons": section_mm(design),
+            },
+        },
+        "predicted": predicted,
+        "limits": limits,
+    }
+    if verify is not None:
+        out["verify"] = verify.get("json", {k: v for k, v in verify.items() if k != "reference"})
+    return to_jsonable(out)
+
+
+def write_handoff(design, result, out_dir, meta: dict, verify: dict | None = None) -> dict:
+    """Write the hand-off folder of one design.
+
+    Parameters
+    ----------
+    design : models.design.Design
+        The chosen design; ``design.source`` (file units) becomes design.toml.
+    result : models.evaluate.Result or dict
+        Its fast-model result (``to_dict()`` is used; thermal fields such as ``margins`` and
+        ``binding_limit`` are carried when present).
+    out_dir : str or Path
+        Folder to write into (created if missing).
+    meta : dict
+        Study context written under ``"study"`` in handoff.json: e.g. ``study``, ``trial``,
+        ``storage`` (a URL loses its password here again), ``objectives``, ``constraint_margins``,
+        ``created_at``.
+    verify : dict, optional
+        What `optim.verify.run_verify` returns: its ``text`` goes to verify.txt, its ``json`` under
+        ``"verify"`` in handoff.json.
+
+    Returns
+    -------
+    dict of str to Path
+        File name -> written path (``design.toml``, ``handoff.json``, ``parameters.csv``,
+        ``profile.dxf`` and ``verify.txt`` when verified).
+
+    Raises
+    ------
+    DesignError
+        ``out_dir`` is an existing file, or the design cannot be written back exactly.
+    """
+    out_dir = Path(out_dir)
+    if out_dir.exists() and not out_dir.is_dir():
+        raise DesignError(f"out_dir = {str(out_dir)!r}: is a file; must be a folder")
+    out_dir.mkdir(parents=True, exist_ok=True)
+    meta = dict(meta or {})
+    written: dict[str, Path] = {}
+
+    source = dict(design.source)
+    source.setdefault("name", design.name)
+    header = (
+        f"eddypull hand-off of design {design.name!r}"
+        + (f", study {meta['study']!r}" if "study" in meta else "")
+        + (f", trial {meta['trial']}" if "trial" in meta else "")
+        + "\nunits: mm, Hz, A rms, V rms; evaluate with: eddypull evaluate design.toml"
+    )
+    text = dumps_toml(source, header=header)
+    # Prove the round trip before handing it over: same values, same validated design.
+    back = tomllib.loads(text)
+    if back != source or design_from_dict(back, name=design.name) != design:
+        raise DesignError(f"design {design.name!r}: design.toml does not read back to the design")
+    written["design.toml"] = atomic_write_text(safe_child(out_dir, "design.toml"), text)
+
+    content = handoff_dict(design, result, meta, verify)
+    written["handoff.json"] = atomic_write_text(
+        safe_child(out_dir, "handoff.json"),
+        json.dumps(content, indent=2, allow_nan=False, ensure_ascii=False) + "\n",
+    )
+
+    buf = io.StringIO()
+    writer = csv.DictWriter(buf, fieldnames=["name", "value", "unit", "description"])
+    writer.writeheader()
+    for row in parameter_rows(design):
+        value = row["value"]
+        writer.writerow({**row, "value": repr(value) if isinstance(value, float) else value})
+    written["parameters.csv"] = atomic_write_text(
+        safe_child(out_dir, "parameters.csv"), buf.getvalue()
+    )
+
+    written["profile.dxf"] = write_profile_dxf(design, safe_child(out_dir, "profile.dxf"))
+    if verify is not None:
+        written["verify.txt"] = atomic_write_text(
+            safe_child(out_dir, "verify.txt"), str(verify.get("text", "")).rstrip() + "\n"
+        )
+    return written
