@@ -1,0 +1,401 @@
+"""Morning-after plots of a study: fronts, parameter coupling, progress, pull against gap, section.
+
+Every function writes a PNG and an SVG per figure into ``out_dir`` (atomically) and returns the
+written paths. Figures are built on ``matplotlib.figure.Figure`` (Agg rendering, no pyplot state),
+so nothing stays open after a call.
+
+Input tables follow the study's trial table: one row per trial with ``trial`` (int), ``state``
+("COMPLETE", "FAIL", "RUNNING"...), ``feasible`` (bool), ``on_front`` (bool), ``completed_at``
+(datetime), ``reason`` (str), the searched parameters, the design's dimensions and the results
+(``pull_N``, ``input_power_W``...). Objectives are a list of ``(column, "maximize"|"minimize")``.
+Failed or running trials and NaN results are tolerated: they are counted, not drawn.
+"""
+
+from __future__ import annotations
+
+import math
+import re
+from pathlib import Path
+
+import numpy as np
+import pandas as pd
+from matplotlib.figure import Figure
+
+from models.errors import DesignError
+from optim.dxf import section_mm
+from optim.files import atomic_path, safe_child
+from optim.progress import check_objectives, front_history, pareto_mask, trial_flags
+
+__all__ = [
+    "plot_front_pairs",
+    "plot_parameter_coupling",
+    "plot_front_progress",
+    "plot_pull_vs_gap",
+    "plot_section",
+    "front_history",
+    "pareto_mask",
+]
+
+_FAINT = {"infeasible": "0.55", "dominated": "tab:blue", "front": "tab:red"}
+
+
+def _slug(text: str) -> str:
+    return re.sub(r"[^A-Za-z0-9_.-]+", "-", str(text)).strip("-.") or "plot"
+
+
+def _save(fig: Figure, out_dir, stem: str) -> list[Path]:
+    """Write ``stem``.png and ``stem``.svg into ``out_dir``; returns both paths."""
+    out_dir = Path(out_dir)
+    out_dir.mkdir(parents=True, exist_ok=True)
+    paths = []
+    for ext in ("png", "svg"):
+        path = safe_child(out_dir, f"{_slug(stem)}.{ext}")
+        with atomic_path(path) as tmp:
+            meta = {"Date": None} if ext == "svg" else {}  # reproducible SVG
+            fig.savefig(tmp, format=ext, dpi=120, metadata=meta)
+        paths.append(path)
+    return paths
+
+
+def _label(name: str, direction: str) -> str:
+    return f"{name} ({'higher' if direction == 'maximize' else 'lower'} is better)"
+
+
+def plot_front_pairs(trials: pd.DataFrame, objectives, out_dir) -> list[Path]:
+    """The front for each pair of objectives, infeasible and dominated trials shown faintly.
+
+    With one objective, the objective against the trial number with its best-so-far line.
+
+    Parameters
+    ----------
+    trials : pandas.DataFrame
+        All trials (module docstring).
+    objectives : list of (str, str)
+        ``(column, "maximize" | "minimize")``.
+    out_dir : str or Path
+
+    Returns
+    -------
+    list of Path
+        ``front_<a>__<b>.png/.svg`` per pair (``front_<a>.png/.svg`` for one objective).
+    """
+    objectives = check_objectives(trials, objectives)
+    complete, feasible, front = trial_flags(trials)
+    n_fail = int((~complete).sum())
+    values = {n: pd.to_numeric(trials[n], errors="coerce").to_numpy(float) for n, _ in objectives}
+    paths: list[Path] = []
+    if len(objectives) == 1:
+        name, direction = objectives[0]
+        y = values[name]
+        x = trials["trial"].to_numpy() if "trial" in trials else np.arange(len(trials))
+        fig = Figure(figsize=(7, 4.5))
+        ax = fig.subplots()
+        groups = [(complete & ~feasible, "infeasible", "x", 0.35), (feasible, "feasible", "o", 0.6)]
+        for mask, what, marker, alpha in groups:
+            ax.plot(
+                x[mask],
+                y[mask],
+                marker,
+                ls="",
+                color=_FAINT["infeasible" if what == "infeasible" else "dominated"],
+                alpha=alpha,
+                label=f"{what} ({mask.sum()})",
+            )
+        if feasible.any():
+            order = np.argsort(x[feasible], kind="stable")
+            yf = y[feasible][order]
+            best = np.fmax.accumulate(yf) if direction == "maximize" else np.fmin.accumulate(yf)
+            ax.step(
+                x[feasible][order], best, where="post", color=_FAINT["front"], label="best so far"
+            )
+        ax.set_xlabel("trial")
+        ax.set_ylabel(_label(name, direction))
+        _finish(ax, fig, f"{name} over the study; {n_fail} failed or unfinished not shown")
+        return _save(fig, out_dir, f"front_{name}")
+    names = [n for n, _ in objectives]
+    for i in range(len(objectives)):
+        for j in range(i + 1, len(objectives)):
+            (a, da), (b, db) = objectives[i], objectives[j]
+            xa, yb = values[a], values[b]
+            fig = Figure(figsize=(6.5, 5))
+            ax = fig.subplots()
+            groups = (
+                (complete & ~feasible, "infeasible", "x", 0.25, 14),
+                (feasible & ~front, "feasible, dominated", "o", 0.25, 14),
+                (front, "front", "o", 0.95, 30),
+            )
+            for mask, what, marker, alpha, size in groups:
+                colour = _FAINT[what.split(",")[-1].strip()]
+                m = mask & np.isfinite(xa) & np.isfinite(yb)
+                ax.scatter(
+                    xa[m],
+                    yb[m],
+                    s=size,
+                    marker=marker,
+                    color=colour,
+                    alpha=alpha,
+                    label=f"{what} ({int(m.sum())})",
+                    zorder=3 if what == "front" else 2,
+                )
+            m = front & np.isfinite(xa) & np.isfinite(yb)
+            if len(objectives) == 2 and m.sum() > 1:
+                order = np.argsort(xa[m])
+                ax.plot(xa[m][order], yb[m][order], "-", color=_FAINT["front"], lw=1, alpha=0.6)
+            ax.set_xlabel(_label(a, da))
+            ax.set_ylabel(_label(b, db))
+            others = [n for n in names if n not in (a, b)]
+            note = (
+                f"; front in {len(names)} objectives (also {', '.join(others)})" if others else ""
+            )
+            _finish(ax, fig, f"{a} vs {b}: {n_fail} failed or unfinished not shown{note}")
+            paths += _save(fig, out_dir, f"front_{a}__{b}")
+    return paths
+
+
+def _finish(ax, fig: Figure, title: str) -> None:
+    ax.set_title(title, fontsize=9)
+    ax.grid(alpha=0.3)
+    if ax.get_legend_handles_labels()[0]:
+        ax.legend(fontsize=8)
+    fig.tight_layout()
+
+
+def _empty(out_dir, stem: str, text: str) -> list[Path]:
+    fig = Figure(figsize=(6, 3))
+    ax = fig.subplots()
+    ax.axis("off")
+    ax.text(0.5, 0.5, text, ha="center", va="center")
+    return _save(fig, out_dir, stem)
+
+
+def plot_parameter_coupling(
+    front: pd.DataFrame, params, out_dir, color_by: str | None = None
+) -> list[Path]:
+    """How the searched parameters move together along the front.
+
+    A parallel-coordinates plot (each front design a line, each parameter scaled to its range on
+    the front, the range written under its axis) and, for 2 to 6 parameters, a scatter matrix.
+
+    Parameters
+    ----------
+    front : pandas.DataFrame
+        The front designs (rows), with a column per parameter.
+    params : list of str
+        Parameter columns.
+    out_dir : str or Path
+    color_by : str, optional
+        A column (e.g. the first objective) that colours the lines.
+
+    Returns
+    -------
+    list of Path
+        ``coupling_parallel.png/.svg`` and, when drawn, ``coupling_matrix.png/.svg``.
+    """
+    params = list(params)
+    missing = [p for p in params if p not in front.columns]
+    if missing:
+        raise DesignError(f"params = {missing!r}: not columns of the front table")
+    if len(front) == 0 or not params:
+        return _empty(out_dir, "coupling_parallel", "empty front: no feasible design to show")
+    data = front[params].apply(pd.to_numeric, errors="coerce").to_numpy(float)
+    finite = np.isfinite(data)
+    lo = np.array(
+        [data[finite[:, i], i].min() if finite[:, i].any() else np.nan for i in range(len(params))]
+    )
+    hi = np.array(
+        [data[finite[:, i], i].max() if finite[:, i].any() else np.nan for i in range(len(params))]
+    )
+    with np.errstate(invalid="ignore"):
+        span = np.where(hi > lo, hi - lo, np.nan)
+        scaled = np.where(np.isfinite(span), (data - lo) / span, np.where(finite, 0.5, np.nan))
+    colours = None
+    if color_by is not None and color_by in front.columns:
+        c = pd.to_numeric(front[color_by], errors="coerce").to_numpy(float)
+        if np.isfinite(c).any():
+            import matplotlib as mpl
+
+            norm = mpl.colors.Normalize(np.nanmin(c), np.nanmax(c))
+            cmap = mpl.colormaps["viridis"]
+            colours = [cmap(norm(v)) if np.isfinite(v) else (0.6, 0.6, 0.6, 1) for v in c]
+    fig = Figure(figsize=(max(6.0, 1.6 * len(params)), 4.8))
+    ax = fig.subplots()
+    x = np.arange(len(params))
+    for k, row in enumerate(scaled):
+        ax.plot(x, row, "-o", ms=3, lw=1, alpha=0.7, color=colours[k] if colours else "tab:red")
+    if colours:
+        import matplotlib as mpl
+
+        fig.colorbar(mpl.cm.ScalarMappable(norm=norm, cmap=cmap), ax=ax, label=color_by)
+    ax.set_xticks(x)
+    ax.set_xticklabels(
+        [f"{p}\n{_g(a)} .. {_g(b)}" for p, a, b in zip(params, lo, hi, strict=True)], fontsize=8
+    )
+    ax.set_ylabel("position in the front's range [-]")
+    ax.set_ylim(-0.05, 1.05)
+    _finish(ax, fig, f"parameters along the front ({len(front)} designs)")
+    paths = _save(fig, out_dir, "coupling_parallel")
+    if 2 <= len(params) <= 6 and len(front) >= 2:
+        n = len(params)
+        fig = Figure(figsize=(2.2 * n, 2.2 * n))
+        axes = np.asarray(fig.subplots(n, n, squeeze=False))
+        for i in range(n):
+            for j in range(n):
+                a = axes[i, j]
+                if j > i:
+                    a.axis("off")
+                elif j == i:
+                    a.hist(data[finite[:, i], i], bins=10, color="0.6")
+                else:
+                    a.scatter(
+                        data[:, j], data[:, i], s=10, c=colours if colours else "tab:red", alpha=0.8
+                    )
+                if i == n - 1:
+                    a.set_xlabel(params[j], fontsize=8)
+                if j == 0 and i > 0:
+                    a.set_ylabel(params[i], fontsize=8)
+                a.tick_params(labelsize=7)
+        fig.suptitle(f"parameter coupling across the front ({len(front)} designs)", fontsize=9)
+        fig.tight_layout()
+        paths += _save(fig, out_dir, "coupling_matrix")
+    return paths
+
+
+def _g(x) -> str:
+    return "nan" if not np.isfinite(x) else f"{x:.4g}"
+
+
+def plot_front_progress(trials: pd.DataFrame, objectives, out_dir) -> list[Path]:
+    """Progress of the front over the run: hypervolume and front size against finished trials.
+
+    See `front_history` for the measure (normalised hypervolume, reference point 1.1). The title
+    gives the elapsed time of the run when completion times are known.
+
+    Returns
+    -------
+    list of Path
+        ``progress.png/.svg``.
+    """
+    hist = front_history(trials, objectives)
+    if hist.empty:
+        return _empty(out_dir, "progress", "no finished trial yet")
+    fig = Figure(figsize=(7, 5.5))
+    ax1, ax2 = fig.subplots(2, 1, sharex=True)
+    ax1.step(hist["finished"], hist["hypervolume"], where="post", color="tab:red")
+    ax1.set_ylabel("hypervolume [share of box]")
+    if "best" in hist:
+        ax1b = ax1.twinx()
+        ax1b.plot(hist["finished"], hist["best"], "--", color="tab:blue")
+        ax1b.set_ylabel(f"best {objectives[0][0]}", color="tab:blue")
+    ax2.step(hist["finished"], hist["front_size"], where="post", color="k")
+    ax2.set_ylabel("designs on the front")
+    ax2.set_xlabel("finished trials (completed or failed)")
+    when = pd.to_datetime(hist["completed_at"], errors="coerce").dropna()
+    elapsed = ""
+    if len(when) > 1:
+        elapsed = f" over {(when.max() - when.min()).total_seconds() / 3600.0:.3g} h"
+    ax2.grid(alpha=0.3)
+    _finish(ax1, fig, f"front progress: {len(hist)} finished trials{elapsed}")
+    return _save(fig, out_dir, "progress")
+
+
+def plot_pull_vs_gap(designs, out_dir, gaps_mm=None) -> list[Path]:
+    """Pull against gap for picked designs, each evaluated with the fast model.
+
+    Parameters
+    ----------
+    designs : list of (str, models.design.Design)
+        Label and design.
+    out_dir : str or Path
+    gaps_mm : sequence of float, optional
+        Gaps [mm]; default 15 points from half the smallest design gap to twice the largest.
+
+    Returns
+    -------
+    list of Path
+        ``pull_vs_gap.png/.svg``. Gaps a design refuses (DesignError) are left out of its curve.
+    """
+    from models.design import with_value
+    from models.evaluate import evaluate
+
+    if not designs:
+        return _empty(out_dir, "pull_vs_gap", "no design picked")
+    own = [d.target.gap * 1e3 for _, d in designs]
+    if gaps_mm is None:
+        gaps_mm = np.linspace(0.5 * min(own), 2.0 * max(own), 15)
+    gaps_mm = np.asarray(gaps_mm, float)
+    fig = Figure(figsize=(7, 4.8))
+    ax = fig.subplots()
+    refused = 0
+    for k, (label, design) in enumerate(designs):
+        colour = f"C{k % 10}"
+        pulls = []
+        weight = math.nan
+        for g in gaps_mm:
+            try:
+                r = evaluate(with_value(design, "target.gap_mm", float(g)))
+                pulls.append(r.pull_N * 1e3)
+                weight = r.target_weight_N * 1e3
+            except DesignError:
+                pulls.append(math.nan)
+                refused += 1
+        ax.plot(gaps_mm, pulls, "-o", ms=3, color=colour, label=str(label))
+        ax.axvline(own[k], color=colour, lw=0.8, ls=":")
+        if np.isfinite(weight):
+            ax.axhline(weight, color=colour, lw=0.8, ls="--")
+    ax.axhline(0.0, color="0.5", lw=0.8)
+    ax.set_xlabel("gap [mm]")
+    ax.set_ylabel("pull toward the face [mN]")
+    note = f"; {refused} gaps refused by the model" if refused else ""
+    _finish(ax, fig, f"pull against gap (dotted: design gap, dashed: target weight){note}")
+    return _save(fig, out_dir, "pull_vs_gap")
+
+
+_PART_STYLE = {
+    "POLE": ("0.7", "steel pole"),
+    "RING": ("#c87533", "shading ring"),
+    "COIL": ("#d9b44a", "coil window"),
+    "TARGET": ("#7fa7c9", "target"),
+}
+
+
+def plot_section(design, out_dir, label: str) -> list[Path]:
+    """Cross-section of a design to scale (the DXF's geometry, `optim.dxf.section_mm`).
+
+    The half-section r >= 0 is drawn solid, its mirror image faint, so the part reads as a full
+    section; the axis is dash-dot; the pole face is y = 0.
+
+    Returns
+    -------
+    list of Path
+        ``section_<label>.png/.svg``.
+    """
+    from matplotlib.patches import Polygon
+
+    poly = section_mm(design)
+    fig = Figure(figsize=(6.5, 6.5))
+    ax = fig.subplots()
+    for layer, (colour, words) in _PART_STYLE.items():
+        if layer not in poly:
+            continue
+        pts = np.array(poly[layer])
+        ax.add_patch(Polygon(pts, closed=True, fc=colour, ec="k", lw=0.8, label=words))
+        ax.add_patch(Polygon(pts * [-1, 1], closed=True, fc=colour, ec="0.5", lw=0.5, alpha=0.3))
+    (x0, y0), (x1, y1) = poly["AXIS"]
+    ax.plot([x0, x1], [y0, y1], "-.", color="k", lw=0.8)
+    ax.axhline(0.0, color="0.4", lw=0.5, ls=":")
+    ax.set_aspect("equal")
+    xmax = max(max(p[0] for p in pts) for k, pts in poly.items() if k != "AXIS")
+    ax.set_xlim(-1.08 * xmax, 1.08 * xmax)
+    ax.set_ylim(y0, y1)
+    ax.set_xlabel("r [mm]")
+    ax.set_ylabel("z [mm] (pole face at 0)")
+    t = design.target
+    words = f"gap {t.gap * 1e3:.4g} mm"
+    if design.ring is not None:
+        g = design.ring
+        words += (
+            f", ring r {g.inner_radius * 1e3:.4g}..{g.outer_radius * 1e3:.4g} mm, "
+            f"depth {g.depth * 1e3:.4g} mm"
+        )
+    _finish(ax, fig, f"{label}: {words} (to scale)")
+    return _save(fig, out_dir, f"section_{label}")

@@ -1,0 +1,175 @@
+"""Front measures over a study's trials: Pareto dominance and the front's progress (hypervolume).
+
+Plain numpy/pandas, no plotting: `optim.plots` draws what these compute. Trial tables and objective
+lists follow `optim.plots` (columns ``trial``, ``state``, ``feasible``, ``on_front``,
+``completed_at``; objectives ``(column, "maximize" | "minimize")``).
+"""
+
+from __future__ import annotations
+
+import math
+
+import numpy as np
+import pandas as pd
+
+from models.errors import DesignError
+
+__all__ = ["pareto_mask", "front_history", "check_objectives", "as_min", "trial_flags"]
+
+
+def check_objectives(trials: pd.DataFrame, objectives) -> list[tuple[str, str]]:
+    """The objectives as a list of (column, direction), checked against the table.
+
+    Raises
+    ------
+    DesignError
+        A direction other than "maximize"/"minimize", a column the table lacks, or no objective.
+    """
+    out = []
+    for name, direction in objectives:
+        if direction not in ("maximize", "minimize"):
+            raise DesignError(
+                f"objective {name!r} direction = {direction!r}: must be 'maximize' or 'minimize'"
+            )
+        if name not in trials.columns:
+            raise DesignError(
+                f"objective {name!r}: no such column; columns: {', '.join(map(str, trials.columns))}"
+            )
+        out.append((name, direction))
+    if not out:
+        raise DesignError("objectives = []: give at least one (name, direction)")
+    return out
+
+
+def as_min(trials: pd.DataFrame, objectives) -> np.ndarray:
+    """Objective values as an (n, k) float array in minimisation form (maximised ones negated)."""
+    cols = [
+        pd.to_numeric(trials[n], errors="coerce").to_numpy(float) * (-1 if d == "maximize" else 1)
+        for n, d in objectives
+    ]
+    return np.column_stack(cols) if cols else np.empty((len(trials), 0))
+
+
+def trial_flags(trials: pd.DataFrame):
+    """Boolean arrays: complete, feasible (complete and feasible), on_front."""
+    n = len(trials)
+    state = trials["state"].astype(str).to_numpy() if "state" in trials else np.full(n, "COMPLETE")
+    complete = state == "COMPLETE"
+    feasible = complete & _bool(trials, "feasible", True)
+    front = feasible & _bool(trials, "on_front", False)
+    return complete, feasible, front
+
+
+def _bool(trials, col, default):
+    if col not in trials:
+        return np.full(len(trials), default)
+    return trials[col].fillna(False).astype(bool).to_numpy()
+
+
+def pareto_mask(values_min: np.ndarray) -> np.ndarray:
+    """Non-dominated rows of an (n, k) array in minimisation form (equal rows are all kept).
+
+    Row a dominates row b when a <= b in every objective and a < b in one (Pareto dominance).
+    Rows with a NaN are never non-dominated.
+    """
+    v = np.asarray(values_min, float)
+    ok = np.all(np.isfinite(v), axis=1)
+    mask = np.zeros(len(v), bool)
+    idx = np.flatnonzero(ok)
+    w = v[idx]
+    for pos, i in enumerate(idx):
+        le = np.all(w <= w[pos], axis=1)
+        lt = np.any(w < w[pos], axis=1)
+        mask[i] = not np.any(le & lt)
+    return mask
+
+
+def _hv2(points: np.ndarray, ref: float) -> float:
+    """Exact area dominated by 2-D points (minimisation) up to the reference point (ref, ref)."""
+    pts = points[np.argsort(points[:, 0], kind="stable")]
+    area, prev_y = 0.0, ref
+    for x, y in pts:
+        if y < prev_y:
+            area += (ref - x) * (prev_y - y)
+            prev_y = y
+    return area
+
+
+def front_history(trials: pd.DataFrame, objectives, samples: int = 20000) -> pd.DataFrame:
+    """Size and normalised hypervolume of the feasible front after each finished trial.
+
+    Parameters
+    ----------
+    trials : pandas.DataFrame
+        All trials; finished ones (COMPLETE or FAIL) are taken in ``completed_at`` order (trial
+        number for ties and missing times).
+    objectives : list of (str, str)
+    samples : int
+        Seeded Monte-Carlo points for three or more objectives.
+
+    Returns
+    -------
+    pandas.DataFrame
+        Columns ``finished`` (count), ``trial``, ``completed_at``, ``front_size``,
+        ``hypervolume`` (fraction of the reference box) and, for one objective, ``best``.
+
+    Notes
+    -----
+    Objectives are put in minimisation form and scaled to [0, 1] over all feasible trials of the
+    study; the reference point is 1.1 in each (common practice, no source). The hypervolume is the
+    dominated share of the box [0, 1.1]^k: exact for 2 objectives (staircase area), otherwise a
+    fixed seeded sample of the box, the same for every step, so the curve never decreases. One
+    objective: the best value so far and hypervolume = its scaled improvement on the reference.
+    """
+    objectives = check_objectives(trials, objectives)
+    complete, feasible, _ = trial_flags(trials)
+    state = (
+        trials["state"].astype(str).to_numpy() if "state" in trials else np.full(len(trials), "")
+    )
+    finished = complete | (state == "FAIL")
+    t = trials.assign(_v=list(as_min(trials, objectives)), _feas=feasible)[finished]
+    if "completed_at" in t:
+        t = t.assign(_when=pd.to_datetime(t["completed_at"], errors="coerce"))
+        t = t.sort_values(["_when", "trial"] if "trial" in t else ["_when"], kind="stable")
+    v_all = np.array([v for v, ok in zip(t["_v"], t["_feas"], strict=True) if ok]).reshape(
+        -1, len(objectives)
+    )
+    v_all = v_all[np.all(np.isfinite(v_all), axis=1)]
+    lo = v_all.min(axis=0) if len(v_all) else np.zeros(len(objectives))
+    hi = v_all.max(axis=0) if len(v_all) else np.ones(len(objectives))
+    span = np.where(hi > lo, hi - lo, 1.0)
+    ref, k = 1.1, len(objectives)
+    rng = np.random.default_rng(20261202)
+    box = rng.uniform(0.0, ref, size=(samples, k)) if k >= 3 else None
+    covered = np.zeros(samples, bool) if k >= 3 else None
+    front: list[np.ndarray] = []
+    rows = []
+    for count, (_, row) in enumerate(t.iterrows(), start=1):
+        v = np.asarray(row["_v"], float)
+        if row["_feas"] and np.all(np.isfinite(v)):
+            u = (v - lo) / span
+            if not any(np.all(q <= u) and np.any(q < u) for q in front):
+                front = [q for q in front if not (np.all(u <= q) and np.any(u < q))] + [u]
+                if k >= 3:
+                    covered |= np.all(box >= u, axis=1)
+        if not front:
+            hv = 0.0
+        elif k == 1:
+            hv = (ref - min(q[0] for q in front)) / ref
+        elif k == 2:
+            hv = _hv2(np.array(front), ref) / ref**2
+        else:
+            hv = float(covered.mean())
+        out = {
+            "finished": count,
+            "trial": row.get("trial", count - 1),
+            "completed_at": row.get("completed_at", pd.NaT),
+            "front_size": len(front),
+            "hypervolume": hv,
+        }
+        if k == 1:
+            sign = -1.0 if objectives[0][1] == "maximize" else 1.0
+            out["best"] = sign * (min(q[0] for q in front) * span[0] + lo[0]) if front else math.nan
+        rows.append(out)
+    cols = ["finished", "trial", "completed_at", "front_size", "hypervolume"]
+    return pd.DataFrame(rows, columns=cols + (["best"] if k == 1 else []))
