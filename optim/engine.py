@@ -1,0 +1,230 @@
+"""The study engine's worker: one process, one optuna worker on the shared study.
+
+How a worker keeps the storage out of the way of a millisecond model:
+
+* The sampler runs on a private in-memory study (fast ask/tell). The worker writes each finished
+  trial to the shared storage as one complete record (``Study.add_trial``): one append to the
+  journal, one transaction on a database. Nothing is ever left RUNNING in the shared storage, so
+  a worker killed with SIGKILL loses only the trial it was evaluating and no heartbeat is needed
+  to clean up after it.
+* Every ``sync_s`` seconds (and at start, which is how a study resumes) the worker copies the
+  trials other workers and machines have finished into its private study, so that its sampler
+  learns from the whole study. NSGA-II's generation marks travel with them: the workers breed one
+  shared population.
+* Each worker's sampler is seeded ``seed + worker index`` so that parallel workers do not propose
+  identical trials.
+
+A trial's record: its parameters; objective values (a failed trial has none); one constraint
+value per ``[constraints]`` entry (<= 0 feasible, optuna's convention); user attributes
+``results`` (a list aligned with the study attribute ``eddypull_result_names``: compact, for
+studies of 10^5-10^6 trials), ``margins`` (constraint -> margin in the result's unit), ``reason``
+(why it failed or is infeasible), ``warnings``, ``worker`` and ``eval_s``.
+"""
+
+from __future__ import annotations
+
+import math
+import os
+import socket
+import time
+import uuid
+from datetime import UTC
+
+from models.errors import DesignError
+
+__all__ = ["run_worker", "make_sampler", "RESULT_NAMES_ATTR", "evaluate_trial"]
+
+RESULT_NAMES_ATTR = "eddypull_result_names"
+#: Import other workers' trials this often [s] (shorter for small studies, see ``_sync_period``).
+SYNC_S = 20.0
+
+
+def make_sampler(spec, seed: int | None):
+    import optuna
+
+    kind = spec.run.get("sampler", "nsga2")
+    if kind == "random":
+        return optuna.samplers.RandomSampler(seed=seed)
+    if kind == "tpe":
+        return optuna.samplers.TPESampler(seed=seed, multivariate=True)
+    population = int(spec.run.get("population", 40))
+    return optuna.samplers.NSGAIISampler(population_size=max(population, 2), seed=seed)
+
+
+def evaluate_trial(spec, values: dict):
+    """Evaluate one set of parameter values. Returns a dict with state ("COMPLETE" or "FAIL"),
+    objective values, constraint violations, margins, flat results, warnings and the reason."""
+    from optim.objectives import objective_values, results_of
+    from optim.space import build_design
+
+    out = {"state": "FAIL", "values": None, "violations": {}, "margins": {}, "flat": {}}
+    out["warnings"], out["reason"] = [], ""
+    try:
+        design = build_design(spec.base, spec.params, values, spec.name)
+    except DesignError as err:
+        out["reason"] = "geometry: " + "; ".join(err.problems)
+        return out
+    isothermal = bool(spec.run.get("isothermal", False))
+    try:
+        flat, warnings = results_of(design, spec.gaps_mm, isothermal=isothermal)
+    except DesignError as err:
+        out["reason"] = "model refused: " + "; ".join(err.problems)
+        return out
+    except Exception as err:  # a model failure is one failed trial, never a dead study
+        out["reason"] = f"model error: {type(err).__name__}: {err}"[:500]
+        return out
+    out["flat"], out["warnings"] = flat, warnings[:8]
+    try:
+        vals = objective_values(flat, spec.objectives)
+    except KeyError as err:
+        out["reason"] = f"model error: result {err} missing"
+        return out
+    bad = [o.name for o, v in zip(spec.objectives, vals, strict=True) if not math.isfinite(v)]
+    if bad:
+        out["reason"] = "non-finite result: " + ", ".join(bad)
+        return out
+    for c in spec.constraints:
+        value = flat.get(c.name, math.nan)
+        if math.isnan(value):
+            out["reason"] = f"non-finite result: {c.name}"
+            return out
+        out["violations"][c.name] = c.violation(value)
+        out["margins"][c.name] = c.margin(value)
+    broken = [k for k, v in out["violations"].items() if v > 0]
+    if broken:
+        out["reason"] = "infeasible: " + ", ".join(broken)
+    out["state"], out["values"] = "COMPLETE", vals
+    return out
+
+
+def _record(spec, params, dists, outcome, worker_id, t0, t1, result_names):
+    from datetime import datetime
+
+    import optuna
+    from optuna.study._constrained_optimization import _CONSTRAINTS_KEY
+    from optuna.trial import TrialState
+
+    flat = outcome["flat"]
+    attrs = {
+        "results": [flat.get(n, math.nan) for n in result_names] if flat else [],
+        "margins": outcome["margins"],
+        "reason": outcome["reason"],
+        "warnings": outcome["warnings"],
+        "worker": worker_id,
+        "eval_s": round(t1 - t0, 6),
+    }
+    system = {f"{_CONSTRAINTS_KEY}:{k}": v for k, v in outcome["violations"].items()}
+    state = TrialState.COMPLETE if outcome["state"] == "COMPLETE" else TrialState.FAIL
+    return optuna.trial.create_trial(
+        state=state,
+        params=params,
+        distributions=dists,
+        values=outcome["values"] if state == TrialState.COMPLETE else None,
+        user_attrs=attrs,
+        system_attrs=system,
+    ), (
+        datetime.fromtimestamp(t0, tz=UTC),
+        datetime.fromtimestamp(t1, tz=UTC),
+    )
+
+
+def _slim(trial, dists):
+    """A copy of a shared trial for the private sampler study: parameters, values, constraints
+    and the sampler's own marks, none of the results (keeps each worker's memory small)."""
+    import optuna
+
+    system = {k: v for k, v in trial.system_attrs.items() if not k.startswith("eddypull")}
+    return optuna.trial.create_trial(
+        state=trial.state,
+        params=trial.params,
+        distributions={k: dists[k] for k in trial.params if k in dists},
+        values=trial.values,
+        system_attrs=system,
+    )
+
+
+def run_worker(cfg: dict, queue=None, stop=None, counter=None) -> int:
+    """Run one worker until its budget ends. Returns the number of trials it recorded.
+
+    cfg: ``spec`` (StudySpec.to_json()), ``location`` (folder path or URL), ``index``, ``seed``,
+    ``deadline`` (time.time() or None), ``trials`` (this machine's trial budget or None),
+    ``sync_s``. ``counter`` is a shared integer (this machine's trials started), ``stop`` an
+    event, ``queue`` receives one message per recorded trial.
+    """
+    import optuna
+    from optuna.trial import TrialState
+
+    from optim.spec import spec_from_json
+    from optim.storage import open_storage
+
+    optuna.logging.set_verbosity(optuna.logging.WARNING)
+    spec = spec_from_json(cfg["spec"])
+    storage, _ = open_storage(cfg["location"], repair=False)
+    shared = optuna.load_study(study_name=spec.name, storage=storage)
+    result_names = shared.user_attrs[RESULT_NAMES_ATTR]
+    dists = {p.name: p.distribution() for p in spec.params}
+    worker_id = f"{socket.gethostname()}:{os.getpid()}:{uuid.uuid4().hex[:8]}"
+    private = optuna.create_study(
+        directions=spec.directions, sampler=make_sampler(spec, cfg.get("seed"))
+    )
+    study_id = shared._study_id
+    seen = -1
+    sync_s = float(cfg.get("sync_s", SYNC_S))
+
+    def sync():
+        nonlocal seen
+        trials = storage.get_all_trials(study_id, deepcopy=False, states=(TrialState.COMPLETE,))
+        fresh = [t for t in trials if t.number > seen and t.user_attrs.get("worker") != worker_id]
+        for t in fresh:
+            if set(t.params) == set(dists):
+                private.add_trial(_slim(t, dists))
+        if trials:
+            seen = max(seen, max(t.number for t in trials))
+
+    sync()
+    last_sync = time.monotonic()
+    recorded = 0
+    try:
+        while True:
+            if stop is not None and stop.is_set():
+                break
+            if cfg.get("deadline") is not None and time.time() >= cfg["deadline"]:
+                break
+            if counter is not None:
+                with counter.get_lock():
+                    if cfg.get("trials") is not None and counter.value >= cfg["trials"]:
+                        break
+                    counter.value += 1
+            if time.monotonic() - last_sync > sync_s:
+                sync()
+                last_sync = time.monotonic()
+            trial = private.ask(dists)
+            params = dict(trial.params)
+            t0 = time.time()
+            outcome = evaluate_trial(spec, params)
+            t1 = time.time()
+            frozen, (start, end) = _record(
+                spec, params, dists, outcome, worker_id, t0, t1, result_names
+            )
+            frozen.datetime_start, frozen.datetime_complete = start, end
+            shared.add_trial(frozen)
+            recorded += 1
+            for k, v in outcome["violations"].items():
+                trial.set_constraint(k, v)
+            if outcome["state"] == "COMPLETE":
+                private.tell(trial, outcome["values"])
+            else:
+                private.tell(trial, state=TrialState.FAIL)
+            if queue is not None:
+                queue.put(
+                    (
+                        "trial",
+                        outcome["state"],
+                        outcome["state"] == "COMPLETE" and not outcome["reason"],
+                        outcome["values"],
+                        t1 - t0,
+                    )
+                )
+    except KeyboardInterrupt:
+        pass
+    return recorded

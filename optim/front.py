@@ -1,0 +1,175 @@
+"""A study's trials as a table, its Pareto front, and the summary ``study status`` prints.
+
+Columns of the trials table (units in the names): ``trial``, ``state``, ``feasible``,
+``on_front``, ``completed_at``, ``eval_s``, ``reason``, ``worker``; the searched parameters
+(``frequency_Hz``, ``ring_outer_fraction``...); the trial design's main dimensions
+(``pole_radius_mm``, ``ring_inner_radius_mm``, ``ring_outer_radius_mm``, ``ring_depth_mm``,
+``gap_mm``, ``target_radius_mm``, ``frequency_Hz``, ``turns``, ``current_A`` or ``voltage_V``);
+every flat result (``pull_N``, ``ring_temperature_C``, ...); and ``margin:<constraint>``.
+
+The front is the set of feasible COMPLETE trials that no other feasible COMPLETE trial
+dominates (at least as good in every objective and better in one). Failed and infeasible trials
+never enter it.
+"""
+
+from __future__ import annotations
+
+import math
+
+import numpy as np
+import pandas as pd
+
+from optim.engine import RESULT_NAMES_ATTR
+
+__all__ = ["trials_table", "pareto_mask", "status_summary", "format_status", "DIMENSIONS"]
+
+#: Design dimensions shown for every trial: column -> (table, key).
+DIMENSIONS = {
+    "pole_radius_mm": ("pole", "radius_mm"),
+    "pole_length_mm": ("pole", "length_mm"),
+    "ring_inner_radius_mm": ("ring", "inner_radius_mm"),
+    "ring_outer_radius_mm": ("ring", "outer_radius_mm"),
+    "ring_depth_mm": ("ring", "depth_mm"),
+    "coil_inner_radius_mm": ("coil", "inner_radius_mm"),
+    "coil_outer_radius_mm": ("coil", "outer_radius_mm"),
+    "turns": ("coil", "turns"),
+    "wire_diameter_mm": ("coil", "wire_diameter_mm"),
+    "frequency_Hz": ("drive", "frequency_Hz"),
+    "current_A": ("drive", "current_A"),
+    "voltage_V": ("drive", "voltage_V"),
+    "target_radius_mm": ("target", "radius_mm"),
+    "target_thickness_mm": ("target", "thickness_mm"),
+    "gap_mm": ("target", "gap_mm"),
+}
+
+
+def pareto_mask(values: np.ndarray, directions) -> np.ndarray:
+    """Boolean mask of the non-dominated rows of ``values`` (n x k) for the given directions."""
+    values = np.asarray(values, float)
+    n = values.shape[0]
+    if n == 0:
+        return np.zeros(0, bool)
+    signs = np.array([1.0 if d == "minimize" else -1.0 for d in directions])
+    v = values * signs
+    order = np.lexsort(v.T[::-1])
+    keep = np.zeros(n, bool)
+    front: list[np.ndarray] = []
+    for i in order:
+        x = v[i]
+        if any(np.all(f <= x) and np.any(f < x) for f in front):
+            continue
+        if any(np.all(f == x) for f in front):
+            keep[i] = True  # equal points: both on the front
+            continue
+        front.append(x)
+        keep[i] = True
+    return keep
+
+
+def trials_table(study, spec_json: dict) -> pd.DataFrame:
+    """Every trial of ``study`` as one row (see the module docstring for the columns)."""
+    from optim.space import design_source, parse_search
+
+    names = study.user_attrs.get(RESULT_NAMES_ATTR, [])
+    params = parse_search(spec_json["search"], [])
+    constraints = list(spec_json.get("constraints", {}))
+    rows = []
+    for t in study.get_trials(deepcopy=False):
+        ua = t.user_attrs
+        row = {
+            "trial": t.number,
+            "state": t.state.name,
+            "completed_at": t.datetime_complete,
+            "eval_s": ua.get("eval_s", math.nan),
+            "reason": ua.get("reason", ""),
+            "worker": ua.get("worker", ""),
+        }
+        feasible = t.state.name == "COMPLETE" and all(v <= 0 for v in t.constraints.values())
+        row["feasible"] = feasible
+        row.update(t.params)
+        if len(t.params) == len(params):
+            try:
+                src = design_source(spec_json["base"], params, t.params)
+                for col, (table, key) in DIMENSIONS.items():
+                    if table in src and key in src[table]:
+                        row[col] = src[table][key]
+            except Exception:  # a geometry that cannot even be assembled: params only
+                pass
+        results = ua.get("results") or []
+        for name, value in zip(names, results, strict=False):
+            row[name] = value
+        for c in constraints:
+            row[f"margin:{c}"] = ua.get("margins", {}).get(c, math.nan)
+        rows.append(row)
+    df = pd.DataFrame(rows)
+    if df.empty:
+        return pd.DataFrame(columns=["trial", "state", "feasible", "on_front", "completed_at"])
+    df["completed_at"] = pd.to_datetime(df["completed_at"], utc=True)
+    objectives = list(spec_json["objectives"])
+    df["on_front"] = False
+    ok = np.array(df["feasible"].to_numpy(bool), copy=True)
+    for o in objectives:
+        if o in df:
+            ok &= np.isfinite(df[o].to_numpy(float))
+    if ok.any() and all(o in df for o in objectives):
+        mask = pareto_mask(df.loc[ok, objectives].to_numpy(float), spec_json["objectives"].values())
+        df.loc[np.flatnonzero(ok)[mask], "on_front"] = True
+    lead = ["trial", "state", "feasible", "on_front"]
+    return df[lead + [c for c in df.columns if c not in lead]]
+
+
+def status_summary(study, spec_json: dict, table: pd.DataFrame | None = None) -> dict:
+    """Counts, rate, feasible share, best value per objective and front size of a study."""
+    df = trials_table(study, spec_json) if table is None else table
+    objectives = spec_json["objectives"]
+    n = len(df)
+    done = df[df["state"].isin(["COMPLETE", "FAIL"])] if n else df
+    complete = int((df["state"] == "COMPLETE").sum()) if n else 0
+    feasible = int(df["feasible"].sum()) if n else 0
+    times = done["completed_at"].dropna() if n else pd.Series([], dtype="datetime64[ns, UTC]")
+    span = (times.max() - times.min()).total_seconds() if len(times) > 1 else 0.0
+    best = {}
+    for name, direction in objectives.items():
+        if n and name in df and feasible:
+            col = df.loc[df["feasible"], name].astype(float)
+            best[name] = float(col.max() if direction == "maximize" else col.min())
+        else:
+            best[name] = None
+    reasons = {}
+    if n:
+        for r in df.loc[df["state"] == "FAIL", "reason"]:
+            key = str(r).split(":")[0] or "unknown"
+            reasons[key] = reasons.get(key, 0) + 1
+    return {
+        "name": spec_json["name"],
+        "trials": n,
+        "complete": complete,
+        "failed": int((df["state"] == "FAIL").sum()) if n else 0,
+        "running": int((df["state"] == "RUNNING").sum()) if n else 0,
+        "feasible": feasible,
+        "feasible_share": feasible / len(done) if n and len(done) else 0.0,
+        "rate_per_s": (len(done) - 1) / span if span > 0 else 0.0,
+        "first": None if not len(times) else times.min().isoformat(),
+        "last": None if not len(times) else times.max().isoformat(),
+        "front_size": int(df["on_front"].sum()) if n else 0,
+        "best": best,
+        "failure_reasons": reasons,
+        "objectives": dict(objectives),
+    }
+
+
+def format_status(s: dict, where: str) -> str:
+    lines = [
+        f"study {s['name']} ({where})",
+        f"  trials      {s['trials']} ({s['complete']} complete, {s['failed']} failed, "
+        f"{s['running']} running)",
+        f"  feasible    {s['feasible']} ({100 * s['feasible_share']:.1f} % of finished)",
+        f"  rate        {s['rate_per_s']:.2f} trials/s between {s['first']} and {s['last']}",
+        f"  front       {s['front_size']} designs",
+    ]
+    for name, direction in s["objectives"].items():
+        b = s["best"][name]
+        lines.append(f"  best {name:24s} {'-' if b is None else format(b, '.5g')} ({direction})")
+    for reason, count in sorted(s["failure_reasons"].items(), key=lambda kv: -kv[1]):
+        lines.append(f"  failed: {reason:20s} {count}")
+    return "\n".join(lines)

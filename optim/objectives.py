@@ -1,0 +1,127 @@
+"""What a study measures on one design: the flat table of results, the objectives and the
+constraint margins.
+
+Results are the fast model's fields (``models.evaluate.Result``) flattened to scalars: numbers keep
+their names (``pull_N``, ``ring_loss_W``, ``ring_temperature_C`` ...), dictionaries of numbers become
+``<field>.<key>`` (``pull_by_source_N.ring``, ``margins.coil_temperature_C``). The study adds:
+
+* ``worst_pull_N``: the smallest pull over a gap range (``gap_min_mm`` .. ``gap_max_mm`` at
+  ``points`` evenly spaced gaps, the design's own gap among them when it lies inside), the pull a
+  part is sure of wherever it sits in that range;
+* ``worst_lift_ratio``: ``worst_pull_N`` / target weight;
+* ``pole_mass_kg``: mass of the pole's steel with the groove removed (where the model does not
+  report it itself);
+* ``core_flux_fraction``: core peak flux density / the steel's saturation flux density.
+"""
+
+from __future__ import annotations
+
+import math
+from dataclasses import dataclass
+
+import numpy as np
+
+from models.design import Design, with_value
+from models.evaluate import evaluate
+
+__all__ = ["Objective", "Constraint", "results_of", "flatten", "objective_values", "margins"]
+
+#: Density of electrical steel [kg/m^3] when the material library has none (common practice, no
+#: source: 7,600-7,800 for silicon steels).
+STEEL_DENSITY = 7700.0
+
+
+@dataclass(frozen=True)
+class Objective:
+    """Maximise or minimise one result."""
+
+    name: str
+    direction: str  # "maximize" | "minimize"
+
+
+@dataclass(frozen=True)
+class Constraint:
+    """A limit on one result: ``low <= value <= high`` (either may be None)."""
+
+    name: str
+    low: float | None = None
+    high: float | None = None
+
+    def violation(self, value: float) -> float:
+        """Scaled violation for the sampler (<= 0 feasible): the excess over the limit divided by
+        the limit's magnitude (or 1 for a zero limit), so that limits in different units weigh
+        alike."""
+        if not math.isfinite(value):
+            return 1e6
+        worst = -math.inf
+        if self.high is not None:
+            worst = max(worst, (value - self.high) / max(abs(self.high), 1e-12))
+        if self.low is not None:
+            worst = max(worst, (self.low - value) / max(abs(self.low), 1e-12))
+        return worst
+
+    def margin(self, value: float) -> float:
+        """Distance to the nearer limit in the result's unit, positive = satisfied."""
+        out = math.inf
+        if self.high is not None:
+            out = min(out, self.high - value)
+        if self.low is not None:
+            out = min(out, value - self.low)
+        return out
+
+
+def flatten(d: dict) -> dict[str, float]:
+    """Numeric fields of a result dict as one level of ``name`` / ``name.key`` -> float."""
+    out = {}
+    for key, value in d.items():
+        if isinstance(value, bool):
+            out[key] = float(value)
+        elif isinstance(value, (int, float)):
+            out[key] = float(value)
+        elif isinstance(value, dict):
+            for k, v in value.items():
+                if isinstance(v, (int, float)) and not isinstance(v, bool):
+                    out[f"{key}.{k}"] = float(v)
+    return out
+
+
+def _pole_mass(design: Design) -> float:
+    p = design.pole
+    volume = math.pi * p.radius**2 * p.length
+    if design.ring is not None:
+        g = design.ring
+        volume -= math.pi * (g.outer_radius**2 - g.inner_radius**2) * g.depth
+    return STEEL_DENSITY * volume
+
+
+def results_of(design: Design, gaps_mm=(), isothermal: bool = False):
+    """Evaluate ``design`` and return (flat results, warnings).
+
+    With ``gaps_mm`` [mm] the same design is evaluated at each gap for ``worst_pull_N`` (the pole
+    model is cached, so each extra gap costs a circuit solve, not a new pole).
+    """
+    result = evaluate(design, isothermal=isothermal)
+    flat = flatten(result.to_dict())
+    flat.pop("run_time_s", None)
+    flat.setdefault("pole_mass_kg", _pole_mass(design))
+    bsat = design.pole.saturation_flux_density
+    if bsat:
+        flat.setdefault("core_flux_fraction", result.core_peak_flux_density_T / bsat)
+    if len(gaps_mm):
+        pulls = []
+        for g in gaps_mm:
+            if abs(g * 1e-3 - design.target.gap) <= 1e-12:
+                pulls.append(result.pull_N)
+            else:
+                pulls.append(evaluate(with_value(design, "target.gap_mm", g), isothermal).pull_N)
+        flat["worst_pull_N"] = float(np.min(pulls))
+        flat["worst_lift_ratio"] = flat["worst_pull_N"] / result.target_weight_N
+    return flat, list(result.warnings)
+
+
+def objective_values(flat: dict, objectives) -> list[float]:
+    return [flat[o.name] for o in objectives]
+
+
+def margins(flat: dict, constraints) -> dict[str, float]:
+    return {c.name: c.margin(flat[c.name]) for c in constraints}

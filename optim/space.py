@@ -1,0 +1,200 @@
+"""The search space of a study: free parameters, their optuna distributions, and how a set of
+parameter values becomes a design file (mm, Hz, A) and then a validated design.
+
+Parameter names (the ``[search]`` keys of a study file):
+
+* any numeric design-file key written ``"table.key"`` (``"target.radius_mm"``, ``"coil.turns"``);
+* the short names in ``ALIASES`` (``pole_radius_mm``, ``ring_depth_mm``, ``frequency_Hz``, ...);
+* ``ring_outer_fraction``: ring outer radius / pole radius, and ``ring_inner_fraction``: ring inner
+  radius / ring outer radius. Both in (0, 1), so the ring always lies inside the pole and its inner
+  radius below its outer one, whatever the pole radius the trial draws.
+
+Coupled dimensions follow the searched ones, so that a trial stays a buildable machine:
+
+* when the pole radius changes, the coil's inner and outer radii move by the same amount (the
+  radial clearance and the winding depth of the base design are kept);
+* when the turns change and the base design names a wire diameter, the wire diameter scales as
+  sqrt(N_base / N) (the copper fill of the window is kept).
+
+Geometry that still cannot be built (a steel wall under ``MIN_WALL_MM``, a coil longer than the
+pole, ...) is refused by ``models.design`` before the model runs; the study records the reason.
+"""
+
+from __future__ import annotations
+
+import math
+from dataclasses import dataclass
+
+from models.design import DESIGN_KEYS, Design, design_from_dict
+from models.errors import DesignError, nearest
+
+__all__ = ["Parameter", "ALIASES", "parse_search", "design_source", "build_design"]
+
+#: Short names of the commonly searched design keys.
+ALIASES = {
+    "pole_radius_mm": "pole.radius_mm",
+    "pole_length_mm": "pole.length_mm",
+    "ring_inner_radius_mm": "ring.inner_radius_mm",
+    "ring_outer_radius_mm": "ring.outer_radius_mm",
+    "ring_depth_mm": "ring.depth_mm",
+    "frequency_Hz": "drive.frequency_Hz",
+    "current_A": "drive.current_A",
+    "voltage_V": "drive.voltage_V",
+    "turns": "coil.turns",
+    "gap_mm": "target.gap_mm",
+    "target_radius_mm": "target.radius_mm",
+    "target_thickness_mm": "target.thickness_mm",
+    "coil_setback_mm": "coil.setback_mm",
+}
+FRACTIONS = ("ring_outer_fraction", "ring_inner_fraction")
+_NUMERIC = ("pos", "nonneg", "int")
+
+
+@dataclass(frozen=True)
+class Parameter:
+    """One free parameter: name as in the study file, the design key it sets (None for the ring
+    fractions), bounds, log scale, integer, step."""
+
+    name: str
+    key: str | None
+    low: float
+    high: float
+    log: bool = False
+    integer: bool = False
+    step: float | None = None
+
+    def distribution(self):
+        import optuna.distributions as od
+
+        if self.integer:
+            return od.IntDistribution(int(self.low), int(self.high), log=self.log, step=1)
+        return od.FloatDistribution(self.low, self.high, log=self.log, step=self.step)
+
+
+def _all_keys() -> dict[str, str]:
+    """Every numeric design key, table.key -> kind."""
+    return {
+        f"{t}.{k}": kind
+        for t, keys in DESIGN_KEYS.items()
+        for k, (kind, _) in keys.items()
+        if kind in _NUMERIC
+    }
+
+
+def _number(where, value, problems):
+    if isinstance(value, bool) or not isinstance(value, (int, float)) or not math.isfinite(value):
+        problems.append(f"{where} = {value!r}: must be a finite number")
+        return None
+    return float(value)
+
+
+def parse_search(table, problems: list[str]) -> list[Parameter]:
+    """``[search]`` table -> parameters; problems (one line each) are appended to ``problems``."""
+    if not isinstance(table, dict) or not table:
+        problems.append("[search]: must be a table with at least one free parameter")
+        return []
+    keys = _all_keys()
+    valid_names = [*ALIASES, *FRACTIONS, *keys]
+    params, seen = [], {}
+    for name, spec in table.items():
+        where = f"search.{name}"
+        if name in FRACTIONS:
+            key, kind = None, "fraction"
+        else:
+            key = ALIASES.get(name, name)
+            if key not in keys:
+                problems.append(
+                    f"{where}: unknown parameter; allowed: {', '.join([*ALIASES, *FRACTIONS])} "
+                    f"or a numeric design key 'table.key'{nearest(name, valid_names)}"
+                )
+                continue
+            kind = keys[key]
+        target = key or name
+        if target in seen:
+            problems.append(f"{where}: sets {target} again (already set by search.{seen[target]})")
+            continue
+        seen[target] = name
+        if not isinstance(spec, dict):
+            problems.append(f"{where} = {spec!r}: must be a table {{ low = ..., high = ... }}")
+            continue
+        for extra in set(spec) - {"low", "high", "scale", "step"}:
+            problems.append(
+                f"{where}.{extra}: unknown key; allowed: low, high, scale, step"
+                f"{nearest(extra, ['low', 'high', 'scale', 'step'])}"
+            )
+        low = _number(f"{where}.low", spec.get("low"), problems)
+        high = _number(f"{where}.high", spec.get("high"), problems)
+        scale = spec.get("scale", "linear")
+        if scale not in ("linear", "log"):
+            problems.append(f"{where}.scale = {scale!r}: must be 'linear' or 'log'")
+        step = spec.get("step")
+        if step is not None:
+            step = _number(f"{where}.step", step, problems)
+            if step is not None and step <= 0:
+                problems.append(f"{where}.step = {step!r}: must be > 0")
+        if low is None or high is None:
+            continue
+        if low >= high:
+            problems.append(f"{where}: low = {low:g} must be < high = {high:g}")
+            continue
+        if kind == "fraction" and not (0.0 < low and high < 1.0):
+            problems.append(f"{where}: bounds {low:g}..{high:g} must lie strictly between 0 and 1")
+            continue
+        if kind in ("pos", "int") and low <= 0:
+            problems.append(f"{where}.low = {low:g}: must be > 0")
+            continue
+        if kind == "nonneg" and low < 0:
+            problems.append(f"{where}.low = {low:g}: must be >= 0")
+            continue
+        if scale == "log" and step is not None:
+            problems.append(f"{where}: scale 'log' and step cannot be combined")
+            continue
+        integer = kind == "int"
+        if integer and (low != int(low) or high != int(high)):
+            problems.append(f"{where}: bounds {low:g}..{high:g} must be whole numbers")
+            continue
+        params.append(Parameter(name, key, low, high, scale == "log", integer, step))
+    names = {p.name for p in params}
+    if ("ring_outer_fraction" in names or "ring_inner_fraction" in names) and (
+        {"ring.outer_radius_mm", "ring.inner_radius_mm"} & set(seen)
+    ):
+        problems.append("search: give the ring's radii either as fractions or in mm, not both")
+    return params
+
+
+def design_source(base: dict, params: list[Parameter], values: dict) -> dict:
+    """The design file (a dict in file units) of one trial: ``base`` with ``values`` applied."""
+    data = {k: (dict(v) if isinstance(v, dict) else v) for k, v in base.items()}
+    by_key = {p.key: values[p.name] for p in params if p.key is not None}
+    pole0 = base["pole"]["radius_mm"]
+    for key, value in by_key.items():
+        table, k = key.split(".", 1)
+        data.setdefault(table, {})[k] = int(round(value)) if k == "turns" else float(value)
+    pole = data["pole"]["radius_mm"]
+    if pole != pole0:
+        coil = data["coil"]
+        for k in ("inner_radius_mm", "outer_radius_mm"):
+            if f"coil.{k}" not in by_key:
+                coil[k] = base["coil"][k] + (pole - pole0)
+    if "coil.turns" in by_key and "wire_diameter_mm" in base["coil"]:
+        if "coil.wire_diameter_mm" not in by_key:
+            n0, n = base["coil"]["turns"], data["coil"]["turns"]
+            data["coil"]["wire_diameter_mm"] = base["coil"]["wire_diameter_mm"] * math.sqrt(n0 / n)
+    if "ring_outer_fraction" in values or "ring_inner_fraction" in values:
+        ring = data.get("ring")
+        if ring is None:
+            raise DesignError("search: ring fractions need a [ring] in the base design")
+        outer = ring["outer_radius_mm"]
+        if "ring_outer_fraction" in values:
+            outer = values["ring_outer_fraction"] * pole
+        inner_fraction = values.get(
+            "ring_inner_fraction", base["ring"]["inner_radius_mm"] / base["ring"]["outer_radius_mm"]
+        )
+        ring["outer_radius_mm"] = float(outer)
+        ring["inner_radius_mm"] = float(inner_fraction * outer)
+    return data
+
+
+def build_design(base: dict, params: list[Parameter], values: dict, name: str) -> Design:
+    """Validated design of one trial (DesignError with the reason if it cannot be built)."""
+    return design_from_dict(design_source(base, params, values), name=name)

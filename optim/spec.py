@@ -1,0 +1,371 @@
+"""Study files (TOML): the base design, the free parameters, objectives, constraints and budget.
+
+A study file::
+
+    name = "night-1"                  # the study's name and its output folder
+    design = "demo_design.toml"       # base design (path relative to this file), and/or inline
+    [target]                          # tables as in a design file, which override it key by key
+    gap_mm = 2.5
+    [search]                          # free parameters: optim.space
+    ring_outer_fraction = { low = 0.4, high = 0.95 }
+    frequency_Hz = { low = 50, high = 5000, scale = "log" }
+    [objectives]                      # result = "maximize" | "minimize", in order
+    worst_pull_N = "maximize"
+    input_power_W = "minimize"
+    [robust]                          # the gap range of worst_pull_N / worst_lift_ratio
+    gap_min_mm = 2.0
+    gap_max_mm = 4.0
+    points = 3
+    [constraints]                     # result = { min = ..., max = ... }
+    ring_temperature_C = { max = 180 }
+    [run]                             # budget and engine; the command line overrides these
+    trials = 2000                     # trials in one run (a resumed run adds as many again)
+    minutes = 30                      # or hours; at least one of trials, minutes, hours
+    workers = 2
+    sampler = "nsga2"                 # "nsga2" (default), "tpe" or "random"
+    population = 40
+    seed = 1
+    storage = "postgresql+psycopg://user@host/db"   # default: a journal file in the study folder
+    isothermal = false                # true: every part at 20 degC (no thermal coupling)
+"""
+
+from __future__ import annotations
+
+import hashlib
+import json
+import math
+import tomllib
+from dataclasses import dataclass, field
+from pathlib import Path
+
+import numpy as np
+
+from models.design import DESIGN_KEYS, design_from_dict
+from models.errors import DesignError, nearest
+from optim.files import safe_name
+from optim.objectives import Constraint, Objective, results_of
+from optim.space import Parameter, parse_search
+
+__all__ = ["StudySpec", "load_study_spec", "spec_from_dict", "spec_from_json", "SAMPLERS"]
+
+SAMPLERS = ("nsga2", "tpe", "random")
+_TOP = {"name", "description", "design", "search", "objectives", "robust", "constraints", "run"}
+_RUN_KEYS = {
+    "trials": "int",
+    "minutes": "pos",
+    "hours": "pos",
+    "workers": "int",
+    "sampler": "str",
+    "population": "int",
+    "seed": "int0",
+    "storage": "str",
+    "isothermal": "bool",
+}
+_WORST = ("worst_pull_N", "worst_lift_ratio")
+
+
+@dataclass
+class StudySpec:
+    """A parsed, validated study. ``base`` is the base design as a file dict (mm, Hz, A)."""
+
+    name: str
+    base: dict
+    params: list[Parameter]
+    objectives: list[Objective]
+    constraints: list[Constraint]
+    gaps_mm: tuple = ()
+    run: dict = field(default_factory=dict)
+    description: str = ""
+    folder: Path | None = None
+    result_names: tuple = ()
+
+    def to_json(self) -> dict:
+        """Everything needed to rebuild the spec without its file (kept in the storage)."""
+        return {
+            "name": self.name,
+            "description": self.description,
+            "base": self.base,
+            "search": {
+                p.name: {"low": p.low, "high": p.high}
+                | ({"scale": "log"} if p.log else {})
+                | ({"step": p.step} if p.step else {})
+                for p in self.params
+            },
+            "objectives": {o.name: o.direction for o in self.objectives},
+            "robust": self._robust_json(),
+            "constraints": {
+                c.name: {k: v for k, v in (("min", c.low), ("max", c.high)) if v is not None}
+                for c in self.constraints
+            },
+            "run": {k: v for k, v in self.run.items() if k != "storage"},
+        }
+
+    def _robust_json(self):
+        if not self.gaps_mm:
+            return {}
+        g = self.gaps_mm
+        return {"gap_min_mm": g[0], "gap_max_mm": g[-1], "points": len(g)}
+
+    def fingerprint(self) -> str:
+        """Hash of what defines the study's trials (base design, search, objectives, robust
+        range, constraints, isothermal): a resumed study must match it."""
+        d = self.to_json()
+        key = {k: d[k] for k in ("base", "search", "objectives", "robust", "constraints")}
+        key["isothermal"] = bool(self.run.get("isothermal", False))
+        text = json.dumps(key, sort_keys=True, separators=(",", ":"))
+        return hashlib.sha256(text.encode()).hexdigest()[:16]
+
+    @property
+    def directions(self) -> list[str]:
+        return [o.direction for o in self.objectives]
+
+
+def _check(where, value, kind, problems):
+    ok = {
+        "int": isinstance(value, int) and not isinstance(value, bool) and value >= 1,
+        "int0": isinstance(value, int) and not isinstance(value, bool) and value >= 0,
+        "pos": isinstance(value, (int, float))
+        and not isinstance(value, bool)
+        and math.isfinite(value)
+        and value > 0,
+        "str": isinstance(value, str),
+        "bool": isinstance(value, bool),
+    }[kind]
+    if not ok:
+        allowed = {
+            "int": "a whole number >= 1",
+            "int0": "a whole number >= 0",
+            "pos": "a number > 0",
+            "str": "a string",
+            "bool": "true or false",
+        }[kind]
+        problems.append(f"{where} = {value!r}: must be {allowed}")
+        return None
+    return value
+
+
+def _base_design(data: dict, folder: Path, problems: list[str]) -> dict | None:
+    base: dict = {}
+    ref = data.get("design")
+    if ref is not None:
+        if not isinstance(ref, str):
+            problems.append(f"design = {ref!r}: must be the path of a design file (a string)")
+            return None
+        path = (folder / ref) if not Path(ref).is_absolute() else Path(ref)
+        try:
+            base = tomllib.loads(path.read_text(encoding="utf-8"))
+        except OSError as err:
+            problems.append(f"design = {ref!r}: cannot be read ({err.strerror})")
+            return None
+        except (tomllib.TOMLDecodeError, UnicodeDecodeError) as err:
+            problems.append(f"design = {ref!r}: not valid TOML ({err})")
+            return None
+        base.pop("name", None)
+        base.pop("description", None)
+    for table in DESIGN_KEYS:
+        if table in data:
+            if not isinstance(data[table], dict):
+                problems.append(f"{table} = {data[table]!r}: must be a table [{table}]")
+                continue
+            base.setdefault(table, {})
+            if not isinstance(base[table], dict):
+                base[table] = {}
+            base[table].update(data[table])
+    if not base:
+        problems.append('design: missing; give design = "file.toml" or the design\'s tables inline')
+        return None
+    return base
+
+
+def _objectives(table, problems) -> tuple[list[Objective], dict]:
+    if not isinstance(table, dict) or not table:
+        problems.append('[objectives]: must list at least one result = "maximize" | "minimize"')
+        return [], {}
+    out, robust = [], {}
+    for name, spec in table.items():
+        direction = spec
+        if isinstance(spec, dict):
+            direction = spec.get("direction")
+            for extra in set(spec) - {"direction", "gap_min_mm", "gap_max_mm", "points"}:
+                problems.append(
+                    f"objectives.{name}.{extra}: unknown key; allowed: direction, gap_min_mm, "
+                    "gap_max_mm, points"
+                )
+            robust.update({k: v for k, v in spec.items() if k != "direction"})
+        if direction not in ("maximize", "minimize"):
+            problems.append(f"objectives.{name} = {direction!r}: must be 'maximize' or 'minimize'")
+            continue
+        out.append(Objective(name, direction))
+    return out, robust
+
+
+def _constraints(table, problems) -> list[Constraint]:
+    if table is None:
+        return []
+    if not isinstance(table, dict):
+        problems.append(f"constraints = {table!r}: must be a table of result = {{ min/max }}")
+        return []
+    out = []
+    for name, spec in table.items():
+        where = f"constraints.{name}"
+        if not isinstance(spec, dict) or not spec:
+            problems.append(f"{where} = {spec!r}: must be a table {{ min = ..., max = ... }}")
+            continue
+        bounds = {}
+        for k, v in spec.items():
+            if k not in ("min", "max"):
+                problems.append(
+                    f"{where}.{k}: unknown key; allowed: min, max{nearest(k, ['min', 'max'])}"
+                )
+            elif isinstance(v, bool) or not isinstance(v, (int, float)) or not math.isfinite(v):
+                problems.append(f"{where}.{k} = {v!r}: must be a finite number")
+            else:
+                bounds[k] = float(v)
+        if "min" in bounds and "max" in bounds and bounds["min"] > bounds["max"]:
+            problems.append(f"{where}: min = {bounds['min']:g} must be <= max = {bounds['max']:g}")
+            continue
+        if bounds:
+            out.append(Constraint(name, bounds.get("min"), bounds.get("max")))
+    return out
+
+
+def _robust_gaps(robust: dict, problems) -> tuple:
+    where = "robust"
+    lo, hi, n = robust.get("gap_min_mm"), robust.get("gap_max_mm"), robust.get("points", 3)
+    for extra in set(robust) - {"gap_min_mm", "gap_max_mm", "points"}:
+        problems.append(f"robust.{extra}: unknown key; allowed: gap_min_mm, gap_max_mm, points")
+    if _check(f"{where}.gap_min_mm", lo, "pos", problems) is None:
+        return ()
+    if _check(f"{where}.gap_max_mm", hi, "pos", problems) is None:
+        return ()
+    if _check(f"{where}.points", n, "int", problems) is None:
+        return ()
+    if hi < lo:
+        problems.append(f"robust: gap_max_mm = {hi:g} must be >= gap_min_mm = {lo:g}")
+        return ()
+    if n > 50:
+        problems.append(f"robust.points = {n}: must be at most 50")
+        return ()
+    return tuple(float(x) for x in np.linspace(lo, hi, n if hi > lo else 1))
+
+
+def spec_from_dict(data: dict, folder: Path | None = None, name: str = "study") -> StudySpec:
+    """Validate a study dict (file units); raises DesignError with one line per problem."""
+    problems: list[str] = []
+    folder = Path(folder or ".")
+    if not isinstance(data, dict):
+        raise DesignError(f"study = {data!r}: must be a table of tables")
+    for key in data:
+        if key not in _TOP and key not in DESIGN_KEYS:
+            allowed = [*sorted(_TOP), *DESIGN_KEYS]
+            problems.append(
+                f"{key}: unknown table or key of a study file; allowed: {', '.join(allowed)}"
+                f"{nearest(key, allowed)}"
+            )
+    study_name = data.get("name", name)
+    try:
+        safe_name(study_name, "name")
+    except DesignError as err:
+        problems.extend(err.problems)
+    base = _base_design(data, folder, problems)
+    params = parse_search(data.get("search"), problems)
+    objectives, robust = _objectives(data.get("objectives"), problems)
+    if isinstance(data.get("robust"), dict):
+        robust = {**data["robust"], **robust}
+    elif "robust" in data:
+        problems.append(f"robust = {data['robust']!r}: must be a table")
+    constraints = _constraints(data.get("constraints"), problems)
+    run = data.get("run", {})
+    if not isinstance(run, dict):
+        problems.append(f"run = {run!r}: must be a table")
+        run = {}
+    for k, v in run.items():
+        if k not in _RUN_KEYS:
+            problems.append(
+                f"run.{k}: unknown key; allowed: {', '.join(_RUN_KEYS)}{nearest(k, _RUN_KEYS)}"
+            )
+        else:
+            _check(f"run.{k}", v, _RUN_KEYS[k], problems)
+    if run.get("sampler", "nsga2") not in SAMPLERS:
+        problems.append(f"run.sampler = {run['sampler']!r}: must be one of {', '.join(SAMPLERS)}")
+    if problems:
+        raise DesignError(problems)
+
+    names = {o.name for o in objectives} | {c.name for c in constraints}
+    gaps = _robust_gaps(robust, problems) if (names & set(_WORST) or robust) else ()
+    if problems:
+        raise DesignError(problems)
+    # The base design must itself be a valid design, and every trial is built from it.
+    from optim.space import design_source
+
+    mid = {p.name: _mid(p) for p in params}
+    try:
+        base_design = design_from_dict(base, name=str(study_name))
+        trial_design = design_from_dict(design_source(base, params, mid), name=str(study_name))
+    except DesignError as err:
+        raise DesignError([f"base design: {line}" for line in err.problems]) from None
+    del base_design
+    flat, _ = results_of(trial_design, gaps, isothermal=bool(run.get("isothermal", False)))
+    known = sorted(flat)
+    for what, items in (("objectives", objectives), ("constraints", constraints)):
+        for item in items:
+            if item.name not in flat:
+                problems.append(
+                    f"{what}.{item.name}: not a result of the model{nearest(item.name, known)}; "
+                    "'eddypull study results' lists them"
+                )
+    if len({o.name for o in objectives}) != len(objectives):
+        problems.append("objectives: each result may appear once")
+    if problems:
+        raise DesignError(problems)
+    return StudySpec(
+        name=str(study_name),
+        base=base,
+        params=params,
+        objectives=objectives,
+        constraints=constraints,
+        gaps_mm=gaps,
+        run=dict(run),
+        description=str(data.get("description", "")),
+        folder=folder,
+        result_names=tuple(known),
+    )
+
+
+def _mid(p: Parameter):
+    if p.log:
+        v = math.sqrt(p.low * p.high)
+    else:
+        v = 0.5 * (p.low + p.high)
+    return int(round(v)) if p.integer else v
+
+
+def load_study_spec(path) -> StudySpec:
+    """Read and validate a study file; DesignError (one line per problem) if it is wrong."""
+    path = Path(path)
+    try:
+        text = path.read_text(encoding="utf-8")
+    except (OSError, UnicodeDecodeError) as err:
+        why = getattr(err, "strerror", None) or "not UTF-8 text"
+        raise DesignError(f"study file {str(path)!r}: cannot be read ({why})") from None
+    try:
+        data = tomllib.loads(text)
+    except tomllib.TOMLDecodeError as err:
+        raise DesignError(f"study file {str(path)!r}: not valid TOML ({err})") from None
+    return spec_from_dict(data, folder=path.resolve().parent, name=path.stem)
+
+
+def spec_from_json(d: dict) -> StudySpec:
+    """Rebuild a spec from ``StudySpec.to_json()`` (as kept in the storage)."""
+    data = {
+        "name": d["name"],
+        "description": d.get("description", ""),
+        **d["base"],
+        "search": d["search"],
+        "objectives": d["objectives"],
+        "constraints": d.get("constraints", {}),
+        "run": d.get("run", {}),
+    }
+    if d.get("robust"):
+        data["robust"] = d["robust"]
+    return spec_from_dict(data, name=d["name"])

@@ -1,0 +1,195 @@
+"""Where a study lives: the embedded journal file in the study folder (default) or a database URL.
+
+* Embedded: ``<study folder>/journal.log``, optuna's append-only journal with a file lock, safe for
+  several worker processes on one machine. Before it is opened a torn last line (a writer killed
+  mid-write, a full disk) is cut off and kept beside it, so that the journal stays readable.
+* Database: any URL optuna's RDB storage accepts; ``postgresql://`` is read as
+  ``postgresql+psycopg://`` (the driver eddypull installs). Several machines share one study by
+  running ``eddypull study run`` against the same URL.
+
+The study's own definition (``StudySpec.to_json``) and its fingerprint are kept in the storage
+as study attributes, so that ``status``, ``front`` and ``export`` work from the URL alone and a
+resumed run with a changed search is refused. Passwords never leave this module unredacted.
+"""
+
+from __future__ import annotations
+
+import json
+import logging
+import os
+import time
+from pathlib import Path
+
+from models.errors import DesignError
+from optim.files import redact_url, safe_child
+
+__all__ = [
+    "JOURNAL",
+    "SPEC_ATTR",
+    "FINGERPRINT_ATTR",
+    "is_url",
+    "open_storage",
+    "repair_journal",
+    "create_or_load",
+    "load_existing",
+]
+
+JOURNAL = "journal.log"
+SPEC_ATTR = "eddypull_spec"
+FINGERPRINT_ATTR = "eddypull_fingerprint"
+
+# optuna logs every trial at INFO; the study engine reports progress itself.
+logging.getLogger("optuna").setLevel(logging.WARNING)
+
+
+def is_url(text) -> bool:
+    return isinstance(text, str) and "://" in text
+
+
+def _database_url(url: str) -> str:
+    if url.startswith("postgresql://") or url.startswith("postgres://"):
+        try:
+            import psycopg2  # noqa: F401
+        except ImportError:
+            return "postgresql+psycopg://" + url.split("://", 1)[1]
+    return url
+
+
+def repair_journal(path: Path) -> str | None:
+    """Cut a torn or unreadable last line off the journal at ``path``.
+
+    The cut bytes are kept in ``<path>.torn-<time>`` beside it. Returns a one-line description of
+    what was done, or None if the journal was whole. Lines before the last must be whole JSON: a
+    journal broken in the middle is refused (DesignError) rather than silently shortened.
+    """
+    path = Path(path)
+    if not path.exists() or path.stat().st_size == 0:
+        return None
+    with open(path, "rb") as fh:
+        data = fh.read()
+    cut = len(data)
+    if not data.endswith(b"\n"):
+        cut = data.rfind(b"\n") + 1
+    else:
+        start = data.rfind(b"\n", 0, len(data) - 1) + 1
+        try:
+            json.loads(data[start:])
+        except ValueError:
+            cut = start
+    if cut == len(data):
+        return None
+    body = data[:cut]
+    for number, line in enumerate(body.splitlines(), start=1):
+        try:
+            json.loads(line)
+        except ValueError:
+            raise DesignError(
+                f"storage {str(path)!r}: line {number} is not a journal record; the file is "
+                "damaged before its last line (restore it from a copy)"
+            ) from None
+    keep = path.with_name(f"{path.name}.torn-{time.strftime('%Y%m%dT%H%M%S')}")
+    keep.write_bytes(data[cut:])
+    with open(path, "rb+") as fh:
+        fh.truncate(cut)
+        os.fsync(fh.fileno())
+    return (
+        f"storage {path.name}: cut {len(data) - cut} bytes of a torn last record "
+        f"(kept in {keep.name}); every whole record is kept"
+    )
+
+
+def open_storage(location, repair: bool = True):
+    """An optuna storage for a study folder's journal (a Path) or a database URL (a str).
+
+    Returns (storage, description) with the description safe to print.
+    """
+    import optuna
+
+    if is_url(location):
+        try:
+            storage = optuna.storages.RDBStorage(
+                _database_url(location), engine_kwargs={"pool_pre_ping": True}
+            )
+        except Exception as err:  # sqlalchemy/driver errors: one line, no password
+            msg = str(err).splitlines()[0] if str(err) else type(err).__name__
+            raise DesignError(
+                f"storage = {redact_url(location)!r}: cannot be opened ({redact_url(msg)[:200]})"
+            ) from None
+        return storage, redact_url(location)
+    folder = Path(location)
+    folder.mkdir(parents=True, exist_ok=True)
+    path = safe_child(folder, JOURNAL)
+    note = repair_journal(path) if repair else None
+    from optuna.storages.journal import JournalFileBackend, JournalFileOpenLock, JournalStorage
+
+    backend = JournalFileBackend(str(path), lock_obj=JournalFileOpenLock(str(path)))
+    try:
+        storage = JournalStorage(backend)
+    except (ValueError, json.JSONDecodeError) as err:
+        raise DesignError(f"storage {str(path)!r}: cannot be read ({err})") from None
+    if note:
+        logging.getLogger("eddypull").warning(note)
+    return storage, str(path)
+
+
+def create_or_load(storage, spec):
+    """The optuna study of ``spec`` in ``storage``: created with its definition, or loaded and
+    checked against it (a changed search, objectives or constraints is refused)."""
+    import optuna
+
+    optuna.logging.set_verbosity(optuna.logging.WARNING)
+    study = optuna.create_study(
+        study_name=spec.name,
+        storage=storage,
+        directions=spec.directions,
+        load_if_exists=True,
+    )
+    attrs = study.user_attrs
+    fp = spec.fingerprint()
+    if FINGERPRINT_ATTR in attrs and attrs[FINGERPRINT_ATTR] != fp:
+        raise DesignError(
+            f"name = {spec.name!r}: a study of that name already exists in this storage with a "
+            "different base design, search, objectives or constraints; give the study a new name"
+        )
+    if [d.name.lower() for d in study.directions] != spec.directions:
+        raise DesignError(
+            f"name = {spec.name!r}: the stored study optimises other directions; use a new name"
+        )
+    if FINGERPRINT_ATTR not in attrs:
+        study.set_user_attr(SPEC_ATTR, spec.to_json())
+        study.set_user_attr(FINGERPRINT_ATTR, fp)
+    return study
+
+
+def load_existing(location, name: str | None = None):
+    """Open a finished or running study from its folder or URL: (study, spec dict, description).
+
+    A folder holds one study; a URL may hold several, chosen by ``name``.
+    """
+    import optuna
+
+    if not is_url(location):
+        folder = Path(location)
+        if not (folder / JOURNAL).exists():
+            raise DesignError(
+                f"study {str(location)!r}: no {JOURNAL} there; give a study folder or a URL"
+            )
+    storage, where = open_storage(location, repair=False)
+    summaries = optuna.get_all_study_summaries(storage, include_best_trial=False)
+    names = [s.study_name for s in summaries]
+    if not names:
+        raise DesignError(f"study {where!r}: the storage holds no study")
+    if name is None:
+        if len(names) > 1:
+            raise DesignError(
+                f"study {where!r}: holds {len(names)} studies ({', '.join(names)}); pick one "
+                "with --name"
+            )
+        name = names[0]
+    elif name not in names:
+        raise DesignError(f"--name {name!r}: not in {where!r}; it holds {', '.join(names)}")
+    study = optuna.load_study(study_name=name, storage=storage)
+    spec = study.user_attrs.get(SPEC_ATTR)
+    if spec is None:
+        raise DesignError(f"study {name!r} in {where!r}: not an eddypull study (no definition)")
+    return study, spec, where

@@ -1,0 +1,145 @@
+"""``eddypull study ...``: run, status, results, front and export of studies."""
+
+from __future__ import annotations
+
+import json
+from pathlib import Path
+
+from models.errors import DesignError
+
+__all__ = ["add_study_parser"]
+
+
+def _cmd_run(args) -> int:
+    from optim.spec import load_study_spec
+    from optim.study import budget_minutes, run_study, study_folder
+
+    spec = load_study_spec(args.study)
+    run = spec.run
+    minutes = budget_minutes(args.hours, args.minutes, spec)
+    trials = args.trials if args.trials is not None else run.get("trials")
+    if args.trials is None and (args.hours is not None or args.minutes is not None):
+        trials = None  # a time given on the command line replaces the file's whole budget
+    workers = args.workers if args.workers is not None else run.get("workers", 1)
+    for flag, value in (("--workers", workers), ("--trials", trials)):
+        if value is not None and (not isinstance(value, int) or value < 1):
+            raise DesignError(f"{flag} = {value!r}: must be a whole number >= 1")
+    if minutes is not None and not minutes > 0:
+        raise DesignError(f"--minutes/--hours = {minutes!r}: must be > 0")
+    if workers > 64:
+        raise DesignError(f"--workers = {workers}: must be at most 64")
+    storage = args.storage if args.storage is not None else run.get("storage")
+    folder = study_folder(spec, Path(args.study), Path(args.out) if args.out else None)
+    summary = run_study(
+        spec,
+        folder,
+        storage_url=storage,
+        workers=workers,
+        trials=trials,
+        minutes=minutes,
+        seed=args.seed,
+    )
+    print(f"study folder: {summary['folder']}")
+    return 0
+
+
+def _open(args):
+    from optim.storage import load_existing
+
+    return load_existing(args.location, args.name)
+
+
+def _cmd_status(args) -> int:
+    from optim.front import format_status, status_summary
+
+    study, spec_json, where = _open(args)
+    s = status_summary(study, spec_json)
+    print(json.dumps(s) if args.json else format_status(s, where))
+    return 0
+
+
+def _cmd_results(args) -> int:
+    from optim.spec import load_study_spec
+
+    spec = load_study_spec(args.study)
+    print("results a study can optimise or constrain (units in the names):")
+    for name in spec.result_names:
+        print(f"  {name}")
+    return 0
+
+
+def _cmd_front(args) -> int:
+    from optim.morning import write_front
+
+    study, spec_json, where = _open(args)
+    out = write_front(study, spec_json, where, _folder_for(args.location, spec_json, args.out))
+    for line in out["lines"]:
+        print(line)
+    return 0
+
+
+def _cmd_export(args) -> int:
+    from optim.morning import export_trial
+
+    if (args.trial is None) == (args.best is None):
+        raise DesignError("export: give exactly one of --trial N and --best OBJECTIVE")
+    study, spec_json, where = _open(args)
+    folder = _folder_for(args.location, spec_json, None)
+    paths = export_trial(
+        study, spec_json, where, folder, trial=args.trial, best=args.best, out=args.out,
+        verify=args.verify,
+    )
+    for name, path in paths.items():
+        print(f"{name:16s} {path}")
+    return 0
+
+
+def _folder_for(location, spec_json, out) -> Path:
+    from optim.files import safe_name
+    from optim.storage import is_url
+
+    if out:
+        return Path(out)
+    if not is_url(location):
+        return Path(location)
+    return Path.cwd() / "studies" / safe_name(spec_json["name"], "name")
+
+
+def add_study_parser(sub) -> None:
+    s = sub.add_parser("study", help="run and read optimisation studies")
+    ss = s.add_subparsers(dest="study_command", required=True)
+
+    r = ss.add_parser("run", help="run (or resume) a study from its study file")
+    r.add_argument("study", help="study TOML file")
+    budget = r.add_mutually_exclusive_group()
+    budget.add_argument("--hours", type=float, help="wall-time budget of this run [h]")
+    budget.add_argument("--minutes", type=float, help="wall-time budget of this run [min]")
+    r.add_argument("--trials", type=int, help="trials in this run (on this machine)")
+    r.add_argument("--workers", type=int, help="worker processes on this machine")
+    r.add_argument("--storage", metavar="URL", help="database URL shared by several machines")
+    r.add_argument("--seed", type=int, help="sampler seed (overrides [run] seed)")
+    r.add_argument("--out", metavar="DIR", help="study folder (default studies/<name>)")
+    r.set_defaults(func=_cmd_run)
+
+    for cmd, helptext, func in (
+        ("status", "summary of a running or finished study", _cmd_status),
+        ("front", "write the front table, plots and report.html", _cmd_front),
+        ("export", "write the hand-off of one design for CAD", _cmd_export),
+    ):
+        p = ss.add_parser(cmd, help=helptext)
+        p.add_argument("location", metavar="DIR|URL", help="study folder or storage URL")
+        p.add_argument("--name", help="study name (a URL can hold several studies)")
+        p.set_defaults(func=func)
+        if cmd == "status":
+            p.add_argument("--json", action="store_true", help="print one JSON object")
+        if cmd == "front":
+            p.add_argument("--out", metavar="DIR", help="output folder (default: the study's)")
+        if cmd == "export":
+            p.add_argument("--trial", type=int, help="trial number")
+            p.add_argument("--best", metavar="OBJECTIVE", help="best front design for it")
+            p.add_argument("--out", metavar="FOLDER", help="hand-off folder name or path")
+            p.add_argument("--verify", action="store_true", help="add the FEM side-by-side")
+
+    q = ss.add_parser("results", help="list the result names a study file can use")
+    q.add_argument("study", help="study TOML file")
+    q.set_defaults(func=_cmd_results)
