@@ -112,6 +112,10 @@ def _parser() -> argparse.ArgumentParser:
 
     d = sub.add_parser("demo", help="evaluate the demo design and its target-size sweep")
     d.set_defaults(func=_cmd_demo)
+
+    from optim.study_cli import add_study_parser
+
+    add_study_parser(sub)
     return p
 
 
