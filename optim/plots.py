@@ -265,7 +265,8 @@ def _g(x) -> str:
 
 
 def plot_front_progress(trials: pd.DataFrame, objectives, out_dir) -> list[Path]:
-    """Progress of the front over the run: hypervolume and front size against finished trials.
+    """Progress of the front over the run: hypervolume and front size against finished trials
+    (one objective: its best value so far).
 
     See `front_history` for the measure (normalised hypervolume, reference point 1.1). The title
     gives the elapsed time of the run when completion times are known.
@@ -278,16 +279,18 @@ def plot_front_progress(trials: pd.DataFrame, objectives, out_dir) -> list[Path]
     hist = front_history(trials, objectives)
     if hist.empty:
         return _empty(out_dir, "progress", "no finished trial yet")
-    fig = Figure(figsize=(7, 5.5))
-    ax1, ax2 = fig.subplots(2, 1, sharex=True)
-    ax1.step(hist["finished"], hist["hypervolume"], where="post", color="tab:red")
-    ax1.set_ylabel("hypervolume [share of box]")
-    if "best" in hist:
-        ax1b = ax1.twinx()
-        ax1b.plot(hist["finished"], hist["best"], "--", color="tab:blue")
-        ax1b.set_ylabel(f"best {objectives[0][0]}", color="tab:blue")
-    ax2.step(hist["finished"], hist["front_size"], where="post", color="k")
-    ax2.set_ylabel("designs on the front")
+    if "best" in hist:  # one objective: its best value so far says it all
+        fig = Figure(figsize=(7, 4))
+        ax1 = ax2 = fig.subplots()
+        ax1.step(hist["finished"], hist["best"], where="post", color="tab:red")
+        ax1.set_ylabel(f"best {_label(*objectives[0])}")
+    else:
+        fig = Figure(figsize=(7, 5.5))
+        ax1, ax2 = fig.subplots(2, 1, sharex=True)
+        ax1.step(hist["finished"], hist["hypervolume"], where="post", color="tab:red")
+        ax1.set_ylabel("hypervolume [share of box]")
+        ax2.step(hist["finished"], hist["front_size"], where="post", color="k")
+        ax2.set_ylabel("designs on the front")
     ax2.set_xlabel("finished trials (completed or failed)")
     when = pd.to_datetime(hist["completed_at"], errors="coerce").dropna()
     elapsed = ""
