@@ -20,7 +20,15 @@ from scipy.constants import mu_0
 from models.discretize import Cells, Fineness, coil_filaments, conductor_cells
 from models.filaments import mutual, mutual_pair, rect_log_mean, self_inductance_rect
 
-__all__ = ["CircuitSolution", "build_cells", "solve_circuit", "cell_mutual_matrix"]
+__all__ = [
+    "CircuitSolution",
+    "CircuitSystem",
+    "assemble_circuit",
+    "build_cells",
+    "cell_mutual_matrix",
+    "solve_circuit",
+    "solve_system",
+]
 
 RING, TARGET, COIL = 0, 1, 2
 
@@ -249,10 +257,38 @@ class CircuitSolution:
     omega: float
 
 
-def solve_circuit(
-    design, fineness: Fineness, pole_model=None, temperatures=None
-) -> CircuitSolution:
-    """Solve the loop equations of ``design``.
+@dataclass(frozen=True)
+class CircuitSystem:
+    """The assembled loop equations of one design, everything but the temperatures (rms, SI).
+
+    Only the resistances depend on temperature, so ``solve_system`` re-solves this at new part
+    temperatures for the cost of one dense solve (the electro-thermal coupling of
+    models.evaluate). Treat as read-only.
+
+    cells : the cells; solid, coil : indices of solid cells and coil sub-cells; share : turns per
+    coil sub-cell; L_loop : loop inductance matrix (solid cells, then the coil) [H];
+    cell_resistance_20 : resistance of each cell at 20 degC [Ohm]; P : panels x cells operator
+    (None without iron); M, dMdz, panel_M, panel_dMdz, panels as in CircuitSolution.
+    """
+
+    design: object
+    cells: Cells
+    solid: np.ndarray
+    coil: np.ndarray
+    share: float
+    L_loop: np.ndarray
+    cell_resistance_20: np.ndarray
+    P: np.ndarray | None
+    M: np.ndarray
+    dMdz: np.ndarray
+    panel_M: np.ndarray | None
+    panel_dMdz: np.ndarray | None
+    panels: object
+    omega: float
+
+
+def assemble_circuit(design, fineness: Fineness, pole_model=None) -> CircuitSystem:
+    """Cells, inductance matrices and the iron's operator of ``design`` (no temperatures yet).
 
     Parameters
     ----------
@@ -260,10 +296,7 @@ def solve_circuit(
     fineness : Fineness
     pole_model : object or None
         Magnetised-pole model with ``panels`` and ``operator(r, z)`` (models.pole); None: no iron.
-    temperatures : dict or None
-        Part temperatures [degC] by "ring", "target", "coil"; None: all at 20 degC.
     """
-    temps = {"ring": 20.0, "target": 20.0, "coil": 20.0, **(temperatures or {})}
     cells = build_cells(design, fineness)
     omega = design.drive.omega
     M, D = cell_mutual_matrix(cells, dz_rows=cells.part == TARGET)
@@ -301,18 +334,48 @@ def solve_circuit(
     L_loop[:n, n] = M_total[np.ix_(solid, coil)].sum(axis=1) * share
     L_loop[n, :n] = M_total[np.ix_(coil, solid)].sum(axis=0) * share
     L_loop[n, n] = M_total[np.ix_(coil, coil)].sum() * share * share
+    return CircuitSystem(
+        design=design,
+        cells=cells,
+        solid=solid,
+        coil=coil,
+        share=share,
+        L_loop=L_loop,
+        cell_resistance_20=cells.resistance(),
+        P=P,
+        M=M,
+        dMdz=D,
+        panel_M=panel_M,
+        panel_dMdz=panel_D,
+        panels=panels,
+        omega=omega,
+    )
 
-    r_cells = cells.resistance()
+
+def solve_system(system: CircuitSystem, temperatures=None) -> CircuitSolution:
+    """Solve assembled loop equations with the resistances at the part temperatures.
+
+    Parameters
+    ----------
+    system : CircuitSystem
+        From ``assemble_circuit``.
+    temperatures : dict or None
+        Part temperatures [degC] by "ring", "target", "coil"; None: all at 20 degC. Resistivity
+        follows rho(T) = rho_20 (1 + alpha (T - 20 degC)) (IEC 60028 for copper).
+    """
+    design = system.design
+    temps = {"ring": 20.0, "target": 20.0, "coil": 20.0, **(temperatures or {})}
+    cells, solid, coil, share = system.cells, system.solid, system.coil, system.share
+    n = solid.size
     alpha = np.zeros(cells.n)
     if design.ring is not None:
         alpha[cells.part == RING] = design.ring.temperature_coefficient * (temps["ring"] - 20.0)
     alpha[cells.part == TARGET] = design.target.temperature_coefficient * (temps["target"] - 20.0)
-    r_cells = r_cells * (1.0 + alpha)
+    r_cells = system.cell_resistance_20 * (1.0 + alpha)
     r_coil = design.coil.resistance(temps["coil"])
-    R_loop = np.concatenate([r_cells[solid], [r_coil]])
 
-    Z = 1j * omega * L_loop
-    Z[np.diag_indices_from(Z)] += R_loop
+    Z = 1j * system.omega * system.L_loop
+    Z[np.diag_indices_from(Z)] += np.concatenate([r_cells[solid], [r_coil]])
     if design.drive.current is not None:
         i0 = complex(design.drive.current)
         i_solid = np.linalg.solve(Z[:n, :n], -Z[:n, n] * i0)
@@ -326,6 +389,7 @@ def solve_circuit(
     cell_current = np.empty(cells.n, complex)  # C @ (loop currents)
     cell_current[solid] = i_solid
     cell_current[coil] = share * i0
+    P = system.P
     panel_current = P @ cell_current if P is not None else np.zeros(0, complex)
     return CircuitSolution(
         cells=cells,
@@ -335,10 +399,27 @@ def solve_circuit(
         coil_resistance=r_coil,
         cell_resistance=r_cells,
         panel_current=panel_current,
-        M=M,
-        dMdz=D,
-        panel_M=panel_M,
-        panel_dMdz=panel_D,
-        panels=panels,
-        omega=omega,
+        M=system.M,
+        dMdz=system.dMdz,
+        panel_M=system.panel_M,
+        panel_dMdz=system.panel_dMdz,
+        panels=system.panels,
+        omega=system.omega,
     )
+
+
+def solve_circuit(
+    design, fineness: Fineness, pole_model=None, temperatures=None
+) -> CircuitSolution:
+    """Solve the loop equations of ``design`` (``assemble_circuit`` then ``solve_system``).
+
+    Parameters
+    ----------
+    design : models.design.Design
+    fineness : Fineness
+    pole_model : object or None
+        Magnetised-pole model with ``panels`` and ``operator(r, z)`` (models.pole); None: no iron.
+    temperatures : dict or None
+        Part temperatures [degC] by "ring", "target", "coil"; None: all at 20 degC.
+    """
+    return solve_system(assemble_circuit(design, fineness, pole_model), temperatures)

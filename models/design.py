@@ -24,6 +24,8 @@ __all__ = [
     "Drive",
     "Ring",
     "Target",
+    "Thermal",
+    "Supply",
     "Design",
     "load_design",
     "design_from_dict",
@@ -31,6 +33,7 @@ __all__ = [
     "DESIGN_KEYS",
     "MIN_WALL_MM",
     "DEFAULT_FILL_FACTOR",
+    "INSULATION_CLASSES",
 ]
 
 MM = 1e-3
@@ -153,6 +156,66 @@ class Target:
         return math.pi * (self.radius**2 - self.inner_radius**2) * self.thickness
 
 
+#: IEC 60085:2007 thermal classes: letter -> class temperature [degC] (Table 1 of the standard:
+#: 90 (Y), 105 (A), 120 (E), 130 (B), 155 (F), 180 (H), 200 (N), 220 (R), 250).
+INSULATION_CLASSES = {
+    "Y": 90.0,
+    "A": 105.0,
+    "E": 120.0,
+    "B": 130.0,
+    "F": 155.0,
+    "H": 180.0,
+    "N": 200.0,
+    "R": 220.0,
+}
+#: Where the magnet's axis points: the face down (a lifter above its parts), up, or sideways.
+ORIENTATIONS = ("face-down", "face-up", "horizontal")
+
+
+@dataclass(frozen=True)
+class Thermal:
+    """Thermal surroundings and duty of a design (models.thermal). Temperatures [degC], times [s].
+
+    ambient_C : air temperature; convection : heat-transfer coefficient of every outer surface
+    [W/(m^2 K)] (None: natural convection, Churchill-Chu and horizontal-plate correlations);
+    emissivity : of the outer surfaces for radiation (0: none); duty_cycle : on-time fraction;
+    period : on-off period (None: unknown); hold_time : how long a part is held; coil_class_C :
+    insulation class temperature (IEC 60085) and coil_class its name; ring_limit_C,
+    target_limit_C : optional limits set by the user; orientation : one of ORIENTATIONS;
+    ring_contact_conductance : ring to groove walls [W/(m^2 K)]; winding_conductivity : effective
+    conductivity of the winding [W/(m K)] (None: from the copper fill factor).
+
+    The defaults are the design without [thermal]: 25 degC ambient (IEC 60034-1 and IEC 60204-1
+    work from 40 degC at most; 25 degC is a factory floor, common practice, no source), natural
+    convection, no radiation (conservative), continuous duty (conservative), class B (130 degC,
+    conservative for enamelled wire, most of which is class F or H), a 10 s hold, the face down.
+    """
+
+    ambient_C: float = 25.0
+    convection: float | None = None
+    emissivity: float = 0.0
+    duty_cycle: float = 1.0
+    period: float | None = None
+    hold_time: float = 10.0
+    coil_class_C: float = 130.0
+    coil_class: str = "B"
+    ring_limit_C: float | None = None
+    target_limit_C: float | None = None
+    orientation: str = "face-down"
+    ring_contact_conductance: float = 5000.0
+    winding_conductivity: float | None = None
+
+
+@dataclass(frozen=True)
+class Supply:
+    """Limits of the supply (None: no limit): rms voltage [V], rms current [A], apparent power
+    [VA]."""
+
+    max_voltage: float | None = None
+    max_current: float | None = None
+    max_apparent_power: float | None = None
+
+
 @dataclass(frozen=True)
 class Design:
     """A complete design. ``source`` keeps the file's own values (mm, Hz, A) for sweeps and hand-off."""
@@ -164,6 +227,8 @@ class Design:
     ring: Ring | None = None
     name: str = "design"
     source: dict = field(default_factory=dict, compare=False, repr=False)
+    thermal: Thermal = Thermal()
+    supply: Supply | None = None
 
 
 # ----------------------------------------------------------------------------------------------
@@ -208,7 +273,28 @@ DESIGN_KEYS: dict[str, dict[str, tuple[str, bool]]] = {
         "conductivity_S_per_m": ("pos", False),
         "density_kg_per_m3": ("pos", False),
     },
+    "thermal": {
+        "ambient_C": ("num", False),
+        "convection_W_per_m2K": ("pos", False),
+        "emissivity": ("unit", False),
+        "duty_cycle": ("frac", False),
+        "period_s": ("pos", False),
+        "hold_time_s": ("pos", False),
+        "coil_insulation_class": ("class", False),
+        "ring_limit_C": ("num", False),
+        "target_limit_C": ("num", False),
+        "orientation": ("str", False),
+        "ring_contact_W_per_m2K": ("pos", False),
+        "winding_conductivity_W_per_mK": ("pos", False),
+    },
+    "supply": {
+        "max_voltage_V": ("pos", False),
+        "max_current_A": ("pos", False),
+        "max_VA": ("pos", False),
+    },
 }
+#: Tables a design may leave out.
+_OPTIONAL_TABLES = ("ring", "thermal", "supply")
 _TOP_KEYS = {"name": "str", "description": "str"}
 _REQUIRED_TABLES = ("pole", "coil", "drive", "target")
 _ALLOWED = {
@@ -216,6 +302,11 @@ _ALLOWED = {
     "nonneg": "a number >= 0",
     "int": "a whole number >= 1",
     "str": "a string",
+    "num": "a number",
+    "frac": "a number > 0 and <= 1",
+    "unit": "a number from 0 to 1",
+    "class": "an IEC 60085 class letter (" + ", ".join(INSULATION_CLASSES) + ") or a temperature "
+    "in degC",
 }
 
 
@@ -224,11 +315,20 @@ def _check_value(where: str, value, kind: str, problems: list[str]):
     if kind == "str":
         if isinstance(value, str):
             return value
+    elif kind == "class":
+        if isinstance(value, (str, int, float)) and not isinstance(value, bool):
+            return value  # checked against IEC 60085 in _thermal (nan and inf fail there)
     elif kind == "int":
         if isinstance(value, int) and not isinstance(value, bool) and value >= 1:
             return value
     elif isinstance(value, (int, float)) and not isinstance(value, bool) and math.isfinite(value):
-        if (kind == "pos" and value > 0) or (kind == "nonneg" and value >= 0):
+        if (
+            (kind == "pos" and value > 0)
+            or (kind == "nonneg" and value >= 0)
+            or kind == "num"
+            or (kind == "frac" and 0 < value <= 1)
+            or (kind == "unit" and 0 <= value <= 1)
+        ):
             return float(value)
     problems.append(f"{where} = {value!r}: must be {_ALLOWED[kind]}")
     return None
@@ -264,6 +364,82 @@ def _conductor(table: str, t: dict, problems: list[str], default: str | None):
         )
         return None
     return m.conductivity, m.temperature_coefficient, m.density, name
+
+
+def _thermal(t: dict | None, problems: list[str]) -> Thermal:
+    """[thermal] from its checked file values (defaults where a key is missing)."""
+    if t is None:
+        return Thermal()
+    kw = {}
+    ambient = t.get("ambient_C", Thermal.ambient_C)
+    # -50 to 150 degC: from arctic outdoor to inside an oven line (common practice, no source)
+    if not -50.0 <= ambient <= 150.0:
+        problems.append(f"thermal.ambient_C = {ambient!r}: must be between -50 and 150 degC")
+    kw["ambient_C"] = ambient
+    cls = t.get("coil_insulation_class")
+    if cls is not None:
+        if isinstance(cls, str):
+            key = cls.strip().upper()
+            if key in INSULATION_CLASSES:
+                kw["coil_class"], kw["coil_class_C"] = key, INSULATION_CLASSES[key]
+            else:
+                try:
+                    cls = float(key)
+                except ValueError:
+                    problems.append(
+                        f"thermal.coil_insulation_class = {cls!r}: must be "
+                        + _ALLOWED["class"]
+                        + " (IEC 60085)"
+                    )
+                    cls = None
+        if cls is not None and not isinstance(cls, str):
+            # IEC 60085 classes run from 90 (Y) to 250 degC; a custom rating stays in that span.
+            if not 90.0 <= cls <= 250.0:
+                problems.append(
+                    f"thermal.coil_insulation_class = {cls!r}: a temperature must be between "
+                    "90 and 250 degC (the IEC 60085 classes)"
+                )
+            else:
+                named = [k for k, v in INSULATION_CLASSES.items() if v == cls]
+                kw["coil_class"] = named[0] if named else f"{cls:g} degC"
+                kw["coil_class_C"] = float(cls)
+    for key in ("ring_limit_C", "target_limit_C"):
+        if key in t:
+            if t[key] <= ambient:
+                problems.append(
+                    f"thermal.{key} = {t[key]!r}: must be above thermal.ambient_C (= {ambient!r})"
+                )
+            kw[key] = t[key]
+    orientation = t.get("orientation", Thermal.orientation)
+    if orientation not in ORIENTATIONS:
+        problems.append(
+            f"thermal.orientation = {orientation!r}: must be one of {', '.join(ORIENTATIONS)}"
+            f"{nearest(str(orientation), ORIENTATIONS)}"
+        )
+    kw["orientation"] = orientation
+    for key, name in (
+        ("convection_W_per_m2K", "convection"),
+        ("emissivity", "emissivity"),
+        ("duty_cycle", "duty_cycle"),
+        ("period_s", "period"),
+        ("hold_time_s", "hold_time"),
+        ("ring_contact_W_per_m2K", "ring_contact_conductance"),
+        ("winding_conductivity_W_per_mK", "winding_conductivity"),
+    ):
+        if key in t:
+            kw[name] = t[key]
+    return Thermal(**kw)
+
+
+def _supply(t: dict | None) -> Supply | None:
+    """[supply] from its checked file values."""
+    if t is None:
+        return None
+    return Supply(
+        max_voltage=t.get("max_voltage_V"),
+        max_current=t.get("max_current_A"),
+        max_apparent_power=t.get("max_VA"),
+    )
 
 
 def design_from_dict(data: dict, name: str = "design") -> Design:
@@ -430,6 +606,7 @@ def design_from_dict(data: dict, name: str = "design") -> Design:
             problems.append(
                 "target.density_kg_per_m3: missing; needed with an explicit conductivity_S_per_m"
             )
+    thermal = _thermal(vals.get("thermal"), problems)
     if problems:
         raise DesignError(problems)
 
@@ -488,6 +665,8 @@ def design_from_dict(data: dict, name: str = "design") -> Design:
         ring=ring,
         name=str(data.get("name", name)),
         source=_deep_copy(data),
+        thermal=thermal,
+        supply=_supply(vals.get("supply")),
     )
 
 
@@ -527,7 +706,9 @@ def with_value(design: Design, key: str, value) -> Design:
             flat = [f"{t}.{kk}" for t, ks in DESIGN_KEYS.items() for kk in ks]
             raise DesignError(f"{key}: not a design key{nearest(key, flat)}")
     else:
-        tables = [t for t in DESIGN_KEYS if key in DESIGN_KEYS[t] and (t in data or t == "ring")]
+        tables = [
+            t for t in DESIGN_KEYS if key in DESIGN_KEYS[t] and (t in data or t in _OPTIONAL_TABLES)
+        ]
         tables = [t for t in tables if t in data] or tables
         if len(tables) != 1:
             flat = sorted({kk for ks in DESIGN_KEYS.values() for kk in ks})

@@ -10,12 +10,14 @@ from dataclasses import asdict, dataclass, field
 import numpy as np
 from scipy.constants import g as standard_gravity
 
-from models.circuit import RING, TARGET, CircuitSolution, solve_circuit
+from models.circuit import RING, TARGET, CircuitSolution, assemble_circuit, solve_system
 from models.design import Design
 from models.discretize import Fineness, skin_depth
 from models.errors import DesignError
 from models.filaments import loop_field, mutual
+from models.materials import MATERIALS
 from models.pull import pull_by_source
+from models.thermal import build_network, hold_temperature, solve_coupled, time_to_limits
 
 __all__ = ["Result", "evaluate", "DEFAULT_FINENESS", "MODEL_VERSION"]
 
@@ -49,8 +51,32 @@ class Result:
     pole_flux_density_T : peak in time of the section-averaged axial flux density of the pole, the
         largest along its length [T] (the FEM reports the same quantity)
     target_weight_N, lift_ratio : weight of the target [N] and pull / weight [-]
-    temperatures_C : temperature of each part used for the resistivities [degC]
-    warnings : where the linear model or its discretisation is outside its validated range
+    temperatures_C : node temperatures of the thermal network [degC]: "coil" (its hot spot),
+        "coil_mean" (its mean, which sets its resistance), "core", "face", "ring" (with a ring),
+        "target" (steady state), "target_hold" (after the hold), "ambient"
+    warnings : where the linear model or its discretisation is outside its validated range, and
+        a thermal runaway
+
+    Thermal fields (models.thermal; steady state at the duty-averaged losses, degC):
+    coil_temperature_C : the winding's hot spot (what its insulation class limits);
+    core_temperature_C, ring_temperature_C (the face's without a ring), target_temperature_C;
+    target_hold_temperature_C : a part held for thermal.hold_time_s, arriving at ambient;
+    coil_temperature_limit_C : the insulation class temperature (IEC 60085);
+    thermal_status : "isothermal" (resistivities at 20 degC; the temperatures are the network's
+        response to those losses, without feedback), "converged" or "runaway: <why>" (then every
+        temperature is inf and every temperature margin -inf);
+    margins : limit name -> margin in the limit's unit, positive = satisfied:
+        "coil_temperature_C", "ring_temperature_C" and "target_hold_temperature_C" (when
+        [thermal] sets ring_limit_C, target_limit_C), "core_flux_density_T" (saturation minus
+        peak), "supply_voltage_V", "supply_current_A", "supply_VA" (with [supply]);
+    binding_limit : the margin smallest relative to its limit (a temperature's relative to the
+        allowed rise above ambient), "" if none;
+    time_to_limit_s : part -> seconds from cold to its limit run continuously (inf: never);
+        the coil's limit is its class, the ring's and target's the user's or their material's;
+    thermal_time_constants_s : of the network, shortest first [s];
+    power_factor : input_power_W / supply_VA; pole_mass_kg : the pole's steel, groove removed;
+    core_flux_fraction : core_peak_flux_density_T / the steel's saturation flux density (0 if
+        unknown)
     """
 
     pull_N: float
@@ -75,11 +101,26 @@ class Result:
     n_panels: int = 0
     run_time_s: float = 0.0
     model: str = MODEL_VERSION
+    coil_temperature_C: float = 20.0
+    core_temperature_C: float = 20.0
+    ring_temperature_C: float = 20.0
+    target_temperature_C: float = 20.0
+    target_hold_temperature_C: float = 20.0
+    coil_temperature_limit_C: float = 130.0
+    power_factor: float = 0.0
+    pole_mass_kg: float = 0.0
+    core_flux_fraction: float = 0.0
+    thermal_status: str = "isothermal"
+    margins: dict = field(default_factory=dict)
+    binding_limit: str = ""
+    time_to_limit_s: dict = field(default_factory=dict)
+    thermal_time_constants_s: list = field(default_factory=list)
 
     def to_dict(self) -> dict:
         """Plain JSON-ready dict of every field."""
         d = asdict(self)
         d["coil_impedance_ohm"] = list(self.coil_impedance_ohm)
+        d["thermal_time_constants_s"] = list(self.thermal_time_constants_s)
         return d
 
 
@@ -237,17 +278,139 @@ def _range_warnings(design: Design, sol: CircuitSolution, fineness: Fineness, b_
     return out
 
 
+def _part_losses(sol: CircuitSolution) -> dict:
+    """Joule losses [W] of coil, ring and target of one solution (rms: |I|^2 R)."""
+    loss = np.abs(sol.cell_current) ** 2 * sol.cell_resistance
+    part = sol.cells.part
+    return {
+        "coil": float(abs(sol.coil_current) ** 2 * sol.coil_resistance),
+        "ring": float(loss[part == RING].sum()),
+        "target": float(loss[part == TARGET].sum()),
+    }
+
+
+def pole_mass(design: Design) -> float:
+    """Mass of the pole's steel with the ring's groove removed [kg]."""
+    p, g = design.pole, design.ring
+    volume = np.pi * p.radius**2 * p.length
+    if g is not None:
+        volume -= np.pi * (g.outer_radius**2 - g.inner_radius**2) * g.depth
+    steel = MATERIALS.get(p.material or "", MATERIALS["electrical-steel-m400"])
+    return float(volume * steel.density)
+
+
+#: Core flux density above this fraction of saturation warns (common practice, no source: the
+#: B-H curve of electrical steel bends well before its nominal knee).
+FLUX_WARNING_FRACTION = 0.9
+#: A swing of a part's temperature over one on-off period above this warns [K] (common practice,
+#: no source: a few K is within the lumped model's own accuracy).
+SWING_WARNING_K = 2.0
+
+
+def _limits(design: Design, state, result: dict):
+    """Margins, binding limit, time to limits and their warnings (see Result)."""
+    th = design.thermal
+    ta = th.ambient_C
+    net = state.network
+    margins, scale = {}, {}
+
+    def add(name, margin, size):
+        margins[name] = float(margin)
+        scale[name] = float(size)
+
+    add("coil_temperature_C", th.coil_class_C - result["coil_temperature_C"], th.coil_class_C - ta)
+    if th.ring_limit_C is not None and design.ring is not None:
+        add(
+            "ring_temperature_C",
+            th.ring_limit_C - result["ring_temperature_C"],
+            th.ring_limit_C - ta,
+        )
+    if th.target_limit_C is not None:
+        add(
+            "target_hold_temperature_C",
+            th.target_limit_C - result["target_hold_temperature_C"],
+            th.target_limit_C - ta,
+        )
+    bsat = design.pole.saturation_flux_density
+    if bsat:
+        add("core_flux_density_T", bsat - result["core_peak_flux_density_T"], bsat)
+    sup = design.supply
+    if sup is not None:
+        for name, limit, value in (
+            ("supply_voltage_V", sup.max_voltage, result["coil_voltage_V"]),
+            ("supply_current_A", sup.max_current, result["coil_current_A"]),
+            ("supply_VA", sup.max_apparent_power, result["supply_VA"]),
+        ):
+            if limit is not None:
+                add(name, limit - value, limit)
+    relative = {k: margins[k] / scale[k] for k in margins}
+    binding = min(relative, key=relative.get) if relative else ""
+
+    limits = {"coil": th.coil_class_C}
+    if design.ring is not None:
+        ring_limit = th.ring_limit_C
+        limits["ring"] = ring_limit if ring_limit is not None else net.ceiling_C[net.index("ring")]
+    limits["target"] = (
+        th.target_limit_C if th.target_limit_C is not None else net.ceiling_C[net.index("target")]
+    )
+    times, taus = time_to_limits(state, limits)
+    return margins, binding, times, taus
+
+
+def _thermal_warnings(design: Design, state, result: dict, hold_tau: float) -> list:
+    th = design.thermal
+    out = []
+    if state.status.startswith("runaway"):
+        out.append(f"thermal {state.status}")
+    if hold_tau < 0:
+        out.append(
+            "the held part heats faster than it can lose heat (its losses grow with its "
+            "temperature): it runs away if held long enough"
+        )
+    frac = result["core_flux_fraction"]
+    if FLUX_WARNING_FRACTION < frac <= 1.0:
+        out.append(
+            f"core peak flux density is {frac:.0%} of the steel's saturation flux density: "
+            "close to the end of the linear model's validity"
+        )
+    elif frac > 1.0:
+        out.append(
+            "past saturation the fast model's answer is not valid (it is linear): reduce the "
+            "ampere-turns or enlarge the pole"
+        )
+    if th.period is not None and th.duty_cycle < 1.0 and np.all(np.isfinite(state.T)):
+        # First harmonic of the on-off losses, P_on (2 / pi) sin(pi D) (Fourier series of a
+        # rectangular pulse train), through the network at omega = 2 pi / period: the swing of
+        # each part about its duty average.
+        net = state.network
+        A, _ = net.matrix(state.T)
+        p1 = state.losses_on * (2.0 / np.pi) * np.sin(np.pi * th.duty_cycle)
+        swing = np.abs(np.linalg.solve(A + 2j * np.pi / th.period * np.diag(net.capacity), p1))
+        for name in ("coil", "ring", "target"):
+            if name in net.nodes and swing[net.index(name)] > SWING_WARNING_K:
+                out.append(
+                    f"thermal.period_s = {th.period:g} s: the {name}'s temperature swings about "
+                    f"+-{swing[net.index(name)]:.2g} K around its duty average each period"
+                )
+    out.extend(f"thermal: {n}" for n in state.network.notes)
+    return out
+
+
 def evaluate(
-    design: Design, isothermal: bool = True, fineness: Fineness | None = None, pole_model=None
+    design: Design, isothermal: bool = False, fineness: Fineness | None = None, pole_model=None
 ) -> Result:
-    """Evaluate one design with the fast multi-loop model.
+    """Evaluate one design with the fast multi-loop model and its thermal network.
 
     Parameters
     ----------
     design : models.design.Design
         A validated design (``load_design``).
     isothermal : bool
-        Evaluate every part at 20 degC. (No thermal model is coupled yet, so False gives the same.)
+        True: every part's resistivity at 20 degC (no electro-thermal coupling); the temperatures
+        reported are then the network's response to the 20 degC losses. False (default): losses
+        and temperatures iterated to agree (models.thermal.solve_coupled), resistivities
+        rho_20 (1 + alpha (T - 20 degC)). A design without [thermal] uses
+        models.design.Thermal's defaults (25 degC ambient, natural convection, continuous duty).
     fineness : Fineness, optional
         Discretisation; DEFAULT_FINENESS converges the pull to about 1 %.
     pole_model : optional
@@ -256,6 +419,8 @@ def evaluate(
     Returns
     -------
     Result
+        A thermal runaway is a result (``thermal_status`` "runaway: ...", inf temperatures,
+        a warning), never an exception.
 
     Raises
     ------
@@ -271,16 +436,26 @@ def evaluate(
         )
     if pole_model is None:
         pole_model = pole_model_for(design, fineness)
-    temps = {"coil": 20.0, "ring": 20.0, "target": 20.0}
-    sol = solve_circuit(design, fineness, pole_model, temps)
+    system = assemble_circuit(design, fineness, pole_model)
+    network = build_network(design)
+
+    def losses_at(temps):
+        sol = solve_system(system, temps)
+        return _part_losses(sol), sol
+
+    coil_sensitivity = None
+    if design.drive.current is not None:  # P = I^2 R(T) exactly
+        a = design.coil.temperature_coefficient
+        coil_sensitivity = lambda t: a / (1.0 + a * (t - 20.0))  # noqa: E731
+    state = solve_coupled(
+        network, losses_at, coupled=not isothermal, coil_sensitivity=coil_sensitivity
+    )
+    sol = state.solution
     split = pull_by_source(sol)
     pull = sum(split.values())
 
     cells = sol.cells
-    loss = np.abs(sol.cell_current) ** 2 * sol.cell_resistance
-    target_loss = float(loss[cells.part == TARGET].sum())
-    ring_loss = float(loss[cells.part == RING].sum())
-    coil_loss = abs(sol.coil_current) ** 2 * sol.coil_resistance
+    losses = _part_losses(sol)
     z_coil = sol.coil_voltage / sol.coil_current
     ring_current = complex(sol.cell_current[cells.part == RING].sum())
     ring_phase = (
@@ -288,16 +463,52 @@ def evaluate(
     )
     b_peak = _core_peak_flux_density(design, sol)
     weight = design.target.density * design.target.volume * standard_gravity
+    input_power = float(np.real(sol.coil_voltage * np.conj(sol.coil_current)))
+    va = abs(sol.coil_voltage) * abs(sol.coil_current)
+    bsat = design.pole.saturation_flux_density
+
+    t_hold, _, hold_tau = hold_temperature(state, design.thermal.hold_time)
+    temps = {
+        "coil": state.coil_hot_spot_C,
+        "coil_mean": state.temperature("coil"),
+        "core": state.temperature("core"),
+        "face": state.temperature("face"),
+    }
+    if design.ring is not None:
+        temps["ring"] = state.temperature("ring")
+    temps["target"] = state.temperature("target")
+    temps["target_hold"] = t_hold
+    temps["ambient"] = design.thermal.ambient_C
+    values = {
+        "coil_temperature_C": temps["coil"],
+        "core_temperature_C": temps["core"],
+        "ring_temperature_C": temps.get("ring", temps["face"]),
+        "target_temperature_C": temps["target"],
+        "target_hold_temperature_C": t_hold,
+        "coil_temperature_limit_C": design.thermal.coil_class_C,
+        "power_factor": input_power / va if va > 0 else 0.0,
+        "pole_mass_kg": pole_mass(design),
+        "core_flux_fraction": b_peak / bsat if bsat else 0.0,
+        "core_peak_flux_density_T": b_peak,
+        "coil_voltage_V": abs(sol.coil_voltage),
+        "coil_current_A": abs(sol.coil_current),
+        "supply_VA": va,
+    }
+    margins, binding, times, taus = _limits(design, state, values)
+    warnings = _range_warnings(design, sol, fineness, b_peak)
+    warnings += _thermal_warnings(design, state, values, hold_tau)
+    for k in ("core_peak_flux_density_T", "coil_voltage_V", "coil_current_A", "supply_VA"):
+        values.pop(k)
     return Result(
         pull_N=pull,
         pull_by_source_N=split,
-        target_loss_W=target_loss,
-        ring_loss_W=ring_loss,
-        coil_loss_W=float(coil_loss),
-        input_power_W=float(np.real(sol.coil_voltage * np.conj(sol.coil_current))),
+        target_loss_W=losses["target"],
+        ring_loss_W=losses["ring"],
+        coil_loss_W=losses["coil"],
+        input_power_W=input_power,
         coil_current_A=abs(sol.coil_current),
         coil_voltage_V=abs(sol.coil_voltage),
-        supply_VA=abs(sol.coil_voltage) * abs(sol.coil_current),
+        supply_VA=va,
         coil_impedance_ohm=(float(z_coil.real), float(z_coil.imag)),
         ring_current_A=abs(ring_current),
         ring_phase_deg=ring_phase,
@@ -306,8 +517,14 @@ def evaluate(
         target_weight_N=weight,
         lift_ratio=pull / weight,
         temperatures_C=temps,
-        warnings=_range_warnings(design, sol, fineness, b_peak),
+        warnings=warnings,
         n_cells=int(cells.n),
         n_panels=0 if sol.panels is None else int(sol.panels.n),
         run_time_s=time.perf_counter() - t_start,
+        thermal_status=state.status,
+        margins=margins,
+        binding_limit=binding,
+        time_to_limit_s=times,
+        thermal_time_constants_s=[float(x) for x in taus],
+        **values,
     )

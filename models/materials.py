@@ -9,7 +9,17 @@ from __future__ import annotations
 
 from dataclasses import dataclass, field
 
-__all__ = ["Material", "MATERIALS", "get_material", "resistivity_at"]
+__all__ = [
+    "Material",
+    "MATERIALS",
+    "get_material",
+    "resistivity_at",
+    "IMPREGNANT_THERMAL_CONDUCTIVITY",
+    "BOBBIN_THERMAL_CONDUCTIVITY",
+    "RING_CONTACT_CONDUCTANCE",
+    "COIL_MAX_TEMPERATURE_C",
+    "UNNAMED_CONDUCTOR",
+]
 
 
 @dataclass(frozen=True)
@@ -39,6 +49,10 @@ class Material:
     lamination_thickness, sheet_conductivity : float or None
         For a laminated steel: sheet thickness [m] and the sheets' own conductivity [S/m], used to
         say when the sheets stop being thin against their skin depth.
+    max_temperature_C : float or None
+        Temperature past which the material stops being what the models assume [degC]: the
+        solidus (start of melting) of a metal, the Curie temperature of a steel. The
+        electro-thermal coupling (models.thermal) calls a steady state above it a runaway.
     sources : dict
         Source of each value, by field name.
     """
@@ -55,6 +69,7 @@ class Material:
     sources: dict = field(default_factory=dict)
     lamination_thickness: float | None = None
     sheet_conductivity: float | None = None
+    max_temperature_C: float | None = None
 
     @property
     def is_magnetic(self) -> bool:
@@ -89,7 +104,9 @@ MATERIALS: dict[str, Material] = {
             density=8890.0,
             specific_heat=385.0,
             thermal_conductivity=390.0,
+            max_temperature_C=1083.0,
             sources={
+                "max_temperature_C": "melting point of pure copper 1084.6 degC (ITS-90 fixed point); 1083 taken for the solidus of annealed commercial copper, from memory",
                 "conductivity": _IEC60028 + ": 1/58 Ohm mm^2/m at 20 degC",
                 "temperature_coefficient": _IEC60028 + ": 0.00393 /K at 20 degC",
                 "density": _IEC60028 + ": 8.89 g/cm^3 at 20 degC",
@@ -105,7 +122,9 @@ MATERIALS: dict[str, Material] = {
             density=2703.0,
             specific_heat=900.0,
             thermal_conductivity=234.0,
+            max_temperature_C=646.0,
             sources={
+                "max_temperature_C": "solidus of EC-grade aluminium about 646 degC (pure Al melts at 660.3 degC, ITS-90 fixed point), from memory",
                 "conductivity": "IEC 60889 (hard-drawn aluminium wire): 61 % IACS minimum, from memory",
                 "temperature_coefficient": "IEC 60889: 0.00403 /K at 20 degC, from memory",
                 "density": "IEC 60889: 2.703 g/cm^3, from memory",
@@ -121,7 +140,9 @@ MATERIALS: dict[str, Material] = {
             density=2700.0,
             specific_heat=896.0,
             thermal_conductivity=167.0,
+            max_temperature_C=582.0,
             sources={
+                "max_temperature_C": "solidus of 6061 about 582 degC (ASM Metals Handbook vol. 2), from memory",
                 "conductivity": "ASM Metals Handbook vol. 2, 6061-T6: 43 % IACS at 20 degC, from memory",
                 "temperature_coefficient": "from memory (typical of wrought Al alloys); uncertain +-10 %",
                 "density": _FROM_MEMORY_HB,
@@ -137,7 +158,9 @@ MATERIALS: dict[str, Material] = {
             density=8530.0,
             specific_heat=375.0,
             thermal_conductivity=120.0,
+            max_temperature_C=915.0,
             sources={
+                "max_temperature_C": "solidus of C26000 about 915 degC (ASM Metals Handbook vol. 2), from memory",
                 "conductivity": "ASM Metals Handbook vol. 2, C26000: 28 % IACS, from memory",
                 "temperature_coefficient": "from memory (handbook range 0.0015-0.002 /K)",
                 "density": _FROM_MEMORY_HB,
@@ -157,7 +180,9 @@ MATERIALS: dict[str, Material] = {
             saturation_flux_density=1.5,
             lamination_thickness=0.5e-3,
             sheet_conductivity=1.0 / 0.42e-6,
+            max_temperature_C=740.0,
             sources={
+                "max_temperature_C": "Curie temperature of 2-3 % Si non-oriented steel about 740 degC, from memory",
                 "conductivity": "laminated: bulk eddy currents suppressed (common practice, no source)",
                 "lamination_thickness": "grade M400-50A: the '50' is the nominal thickness 0.50 mm "
                 "(IEC 60404-8-4 grade designation)",
@@ -180,7 +205,9 @@ MATERIALS: dict[str, Material] = {
             thermal_conductivity=60.0,
             relative_permeability=1000.0,
             saturation_flux_density=1.6,
+            max_temperature_C=770.0,
             sources={
+                "max_temperature_C": "Curie temperature of iron 770 degC (CRC Handbook), from memory",
                 "conductivity": "ASM Metals Handbook vol. 1, AISI 1010: 0.143 uOhm m, from memory",
                 "temperature_coefficient": _FROM_MEMORY_HB,
                 "density": _FROM_MEMORY_HB,
@@ -192,6 +219,25 @@ MATERIALS: dict[str, Material] = {
         ),
     ]
 }
+
+
+#: Thermal conductivity of the resin or varnish between the turns of an impregnated winding
+#: [W/(m K)] (epoxy and polyester varnishes 0.15-0.25, from memory of handbook tables).
+IMPREGNANT_THERMAL_CONDUCTIVITY = 0.2
+#: Thermal conductivity of the bobbin or insulating liner between the pole and the coil's inner
+#: radius [W/(m K)] (glass-filled polyamide about 0.25-0.35, from memory).
+BOBBIN_THERMAL_CONDUCTIVITY = 0.25
+#: Contact conductance between the shading ring and the walls of its groove [W/(m^2 K)]: a pressed
+#: metal-to-metal joint in air, 1/h = 2e-4 m^2 K/W (order of the metallic interfaces of Incropera,
+#: Fundamentals of Heat and Mass Transfer, Table 3.1/3.2, from memory). A brazed ring conducts better.
+RING_CONTACT_CONDUCTANCE = 5000.0
+#: Ceiling of a winding's temperature [degC]: the organic insulation of magnet wire decomposes
+#: above about 400 degC, well past the highest IEC 60085 class (250) (common practice, no source).
+COIL_MAX_TEMPERATURE_C = 400.0
+#: Thermal stand-in for a ring or target given by conductivity only (no library material):
+#: aluminium's volumetric heat capacity (the lowest of the library's conductors, so the fastest
+#: rise) and its solidus (the lowest ceiling) (conservative choice, common practice, no source).
+UNNAMED_CONDUCTOR = {"volumetric_heat_capacity": 2703.0 * 900.0, "max_temperature_C": 646.0}
 
 
 def get_material(name: str, field_name: str = "material") -> Material:

@@ -95,7 +95,7 @@ def _parser() -> argparse.ArgumentParser:
     e = sub.add_parser("evaluate", help="evaluate one design file with the fast model")
     e.add_argument("design", help="design TOML file")
     e.add_argument("--json", action="store_true", help="print one JSON object")
-    e.add_argument("--isothermal", action="store_true", help="evaluate every part at 20 degC")
+    e.add_argument("--isothermal", action="store_true", help="resistivities at 20 degC, uncoupled")
     e.add_argument("--sweep", metavar="KEY=START:STOP:COUNT", help="sweep one numeric key")
     e.add_argument("--plot", metavar="PNG", help="with --sweep: plot pull against the key")
     e.set_defaults(func=_cmd_evaluate)

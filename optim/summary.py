@@ -17,6 +17,17 @@ def _w(x):
     return f"{x:.4g}"
 
 
+def _time(seconds):
+    """Seconds in words: 'never', '42 s', '3.5 min', '2.1 h'."""
+    if seconds == float("inf"):
+        return "never"
+    if seconds < 120:
+        return f"{seconds:.3g} s"
+    if seconds < 7200:
+        return f"{seconds / 60:.3g} min"
+    return f"{seconds / 3600:.3g} h"
+
+
 def format_result(design, result) -> str:
     """A few lines an engineer reads: pull and where it comes from, costs, validity."""
     r = result
@@ -39,7 +50,19 @@ def format_result(design, result) -> str:
         f"  ring current       {_w(r.ring_current_A)} A rms at {r.ring_phase_deg:+.1f} deg to the "
         "coil current",
         f"  core peak flux     {r.core_peak_flux_density_T:.3g} T",
-        "  temperatures       " + ", ".join(f"{k} {v:g} degC" for k, v in r.temperatures_C.items()),
+        f"  power factor       {r.power_factor:.3g}   pole mass {r.pole_mass_kg * 1e3:.4g} g   "
+        f"core flux {r.core_flux_fraction:.0%} of saturation",
+        f"  thermal            {r.thermal_status}",
+        "  temperatures       "
+        + ", ".join(f"{k} {v:.4g}" for k, v in r.temperatures_C.items())
+        + " degC",
+        f"  coil limit         {r.coil_temperature_limit_C:g} degC (insulation class, hot spot)",
+        "  margins            "
+        + (", ".join(f"{k} {v:+.4g}" for k, v in r.margins.items()) or "none")
+        + (f"   binding: {r.binding_limit}" if r.binding_limit else ""),
+        "  time to limit      "
+        + ", ".join(f"{k} {_time(v)}" for k, v in r.time_to_limit_s.items())
+        + " (from cold, run continuously)",
         f"  model              {r.model}: {r.n_cells} cells, {r.n_panels} iron panels, "
         f"{r.run_time_s * 1e3:.1f} ms",
     ]
