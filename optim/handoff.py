@@ -53,6 +53,7 @@ _SUFFIX_UNITS = sorted(
         "_S_per_m": "S/m",
         "_kg_per_m3": "kg/m^3",
         "_W_per_m2K": "W/(m^2 K)",
+        "_W_per_mK": "W/(m K)",
         "_per_K": "1/K",
     }.items(),
     key=lambda kv: -len(kv[0]),
@@ -90,6 +91,18 @@ DESCRIPTIONS = {
     "target.material": "target conductor",
     "target.conductivity_S_per_m": "conductivity of the target at 20 degC",
     "target.density_kg_per_m3": "density of the target",
+    "thermal.ambient_C": "ambient air temperature",
+    "thermal.convection_W_per_m2K": "heat transfer coefficient to the air (given, not computed)",
+    "thermal.emissivity": "surface emissivity for radiation",
+    "thermal.duty_cycle": "on-time fraction of the supply",
+    "thermal.period_s": "period of the duty cycle",
+    "thermal.hold_time_s": "how long a part is held at the face",
+    "thermal.coil_insulation_class": "coil insulation thermal class (IEC 60085)",
+    "thermal.ring_limit_C": "temperature limit of the shading ring",
+    "thermal.target_limit_C": "temperature limit of the target part",
+    "supply.max_voltage_V": "largest supply voltage available (rms)",
+    "supply.max_current_A": "largest supply current available (rms)",
+    "supply.max_VA": "largest apparent power the supply gives",
 }
 
 
