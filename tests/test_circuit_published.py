@@ -344,7 +344,7 @@ def test_jumping_ring_single_cell_is_the_two_loop_formula(omega_l_over_r):
     resistance, inductance, m, dm = _one_loop_ring(design)
     assert dm < 0.0 < m  # ring above the coil
     force = _ring_force(design.drive.omega, resistance, inductance, m, dm, design.drive.current)
-    result = evaluate(design, fineness=_ONE_CELL)
+    result = evaluate(design, fineness=_ONE_CELL, isothermal=True)
     assert result.pull_N == pytest.approx(-force, rel=1e-9)  # pull is -F_z (toward the face)
     ring_current = (
         design.drive.omega
@@ -364,7 +364,7 @@ def test_jumping_ring_cells_agree_with_one_loop_at_low_frequency(omega_l_over_r)
     design = _design_at(omega_l_over_r)
     resistance, inductance, m, dm = _one_loop_ring(design)
     force = _ring_force(design.drive.omega, resistance, inductance, m, dm, design.drive.current)
-    assert evaluate(design).pull_N == pytest.approx(-force, rel=0.01)
+    assert evaluate(design, isothermal=True).pull_N == pytest.approx(-force, rel=0.01)
 
 
 def test_jumping_ring_cells_at_high_frequency_lie_between_dc_and_surface_inductance():
@@ -383,7 +383,7 @@ def test_jumping_ring_cells_at_high_frequency_lie_between_dc_and_surface_inducta
     t = design.target
     rc = 0.5 * (t.radius + t.inner_radius)
     l_surface = mu_0 * rc * (math.log(8.0 * rc / (0.59 * t.thickness)) - 2.0)
-    ratio = evaluate(design).pull_N / -force
+    ratio = evaluate(design, isothermal=True).pull_N / -force
     assert 0.998 < ratio < inductance / l_surface * 1.01
     # and the ratio grows with frequency (the current crowds further out)
     assert _cell_to_loop_ratio(10.0) < ratio
@@ -393,7 +393,7 @@ def _cell_to_loop_ratio(omega_l_over_r):
     design = _design_at(omega_l_over_r)
     resistance, inductance, m, dm = _one_loop_ring(design)
     force = _ring_force(design.drive.omega, resistance, inductance, m, dm, design.drive.current)
-    return evaluate(design).pull_N / -force
+    return evaluate(design, isothermal=True).pull_N / -force
 
 
 @pytest.mark.parametrize("frequency_Hz", [10.0, 100.0, 1e3, 1e4, 1e5])
@@ -410,7 +410,7 @@ def test_target_above_air_cored_coil_is_repelled_at_every_frequency(frequency_Hz
     """Lenz's law: without iron the induced currents oppose the coil's flux, so a target above an
     air-cored coil is pushed away (pull < 0) at every frequency (the FEM shows the same). Exact in
     sign: each term of the pull is -omega^2 L M dM/dz / |Z|^2 > 0 in the one-loop limit."""
-    result = evaluate(_air_design(frequency_Hz, target))
+    result = evaluate(_air_design(frequency_Hz, target), isothermal=True)
     assert result.pull_N < 0.0
     assert result.pull_by_source_N["coil"] < 0.0
     assert result.pull_by_source_N["ring"] == 0.0
@@ -501,7 +501,7 @@ def _demo_dict():
 
 
 def test_energy_balance_air_cored():
-    r = evaluate(_air_with_ring())
+    r = evaluate(_air_with_ring(), isothermal=True)
     assert r.ring_loss_W > 0.0 and r.target_loss_W > 0.0
     total = r.target_loss_W + r.ring_loss_W + r.coil_loss_W
     assert r.input_power_W == pytest.approx(total, rel=1e-9)
@@ -510,7 +510,7 @@ def test_energy_balance_air_cored():
 @pytest.mark.skipif(not HAVE_POLE, reason="models/pole.py (laminated pole) is not there yet")
 def test_energy_balance_laminated_demo():
     """The laminated pole adds 0.5 (M_iron + M_iron^T), real and symmetric: no loss of its own."""
-    r = evaluate(load_design(DEMO))
+    r = evaluate(load_design(DEMO), isothermal=True)
     assert r.n_panels > 0
     total = r.target_loss_W + r.ring_loss_W + r.coil_loss_W
     assert r.input_power_W == pytest.approx(total, rel=1e-9)
@@ -529,8 +529,8 @@ def test_voltage_drive_reproduces_current_drive_air_cored():
     """Driving with |V| of a current-driven solution gives back |I| and the same pull, losses and
     impedance: the circuit is linear and |V| = |Z| |I| (1e-9: two solves of the same system)."""
     design = _air_with_ring()
-    r_i = evaluate(design)
-    r_v = evaluate(_voltage_twin(design.source, r_i))
+    r_i = evaluate(design, isothermal=True)
+    r_v = evaluate(_voltage_twin(design.source, r_i), isothermal=True)
     assert r_v.coil_current_A == pytest.approx(r_i.coil_current_A, rel=1e-9)
     assert r_v.pull_N == pytest.approx(r_i.pull_N, rel=1e-9)
     assert r_v.target_loss_W == pytest.approx(r_i.target_loss_W, rel=1e-9)
@@ -540,8 +540,8 @@ def test_voltage_drive_reproduces_current_drive_air_cored():
 @pytest.mark.skipif(not HAVE_POLE, reason="models/pole.py (laminated pole) is not there yet")
 def test_voltage_drive_reproduces_current_drive_laminated_demo():
     data = _demo_dict()
-    r_i = evaluate(design_from_dict(data))
-    r_v = evaluate(_voltage_twin(data, r_i))
+    r_i = evaluate(design_from_dict(data), isothermal=True)
+    r_v = evaluate(_voltage_twin(data, r_i), isothermal=True)
     assert r_v.coil_current_A == pytest.approx(r_i.coil_current_A, rel=1e-9)
     assert r_v.pull_N == pytest.approx(r_i.pull_N, rel=1e-9)
 
@@ -580,7 +580,8 @@ def test_pull_converges_with_fineness(frequency_Hz, target):
     target = {**target, "conductivity_S_per_m": _SIGMA_AL, "density_kg_per_m3": 2703.0}
     design = _air_design(frequency_Hz, target, coil=_CONVERGENCE_COIL, current_A=3.0)
     pulls = {
-        f: evaluate(design, fineness=DEFAULT_FINENESS.scaled(f)).pull_N for f in (0.5, 1, 2, 3)
+        f: evaluate(design, fineness=DEFAULT_FINENESS.scaled(f), isothermal=True).pull_N
+        for f in (0.5, 1, 2, 3)
     }
     finest = pulls[3]
     err = {f: abs(pulls[f] / finest - 1.0) for f in (0.5, 1, 2)}

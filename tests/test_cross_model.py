@@ -46,7 +46,7 @@ def test_sign_of_pull_agrees_on_either_side_of_a_sign_change():
     design = load_design(DEMO)
 
     def fast(radius_mm):
-        return evaluate(with_value(design, "target.radius_mm", radius_mm)).pull_N
+        return evaluate(with_value(design, "target.radius_mm", radius_mm), isothermal=True).pull_N
 
     crossing = brentq(fast, 6.0, 14.0, xtol=0.01)
     for radius_mm, sign in ((0.85 * crossing, 1.0), (1.15 * crossing, -1.0)):
@@ -73,7 +73,7 @@ def test_solid_pole_refusal_matches_what_the_fem_measures():
         "relative_permeability": 1000.0,
         "conductivity_S_per_m": 0.0,
     }
-    laminated = evaluate(design_from_dict(d))
+    laminated = evaluate(design_from_dict(d), isothermal=True)
     d["pole"]["conductivity_S_per_m"] = 7.0e6
     solid = design_from_dict(d)
     fem = solve(solid)

@@ -48,7 +48,7 @@ def test_to_dict_is_json_ready(demo_result):
 
 def test_outside_validated_range_warns():
     d = load_design(DEMO)
-    r = evaluate(with_value(d, "frequency_Hz", 20000.0))
+    r = evaluate(with_value(d, "frequency_Hz", 20000.0), isothermal=True)
     assert any("frequency_Hz = 2e+04 is outside the range checked" in w for w in r.warnings)
     assert any("skin depth in the 0.5 mm sheets" in w for w in r.warnings)
 
@@ -56,7 +56,7 @@ def test_outside_validated_range_warns():
 def test_saturation_warns():
     # 10x the current: the linear model's core flux density scales with it, past 1.5 T
     d = with_value(load_design(DEMO), "current_A", 60.0)
-    r = evaluate(d)
+    r = evaluate(d, isothermal=True)
     assert r.core_peak_flux_density_T > 1.5
     assert any("exceeds the steel's linear limit" in w for w in r.warnings)
 
@@ -64,8 +64,8 @@ def test_saturation_warns():
 def test_linearity_in_current():
     # A linear model: pull and losses scale with I^2, the ring current with I (internal identity)
     d = load_design(DEMO)
-    a = evaluate(d)
-    b = evaluate(with_value(d, "current_A", 12.0))
+    a = evaluate(d, isothermal=True)
+    b = evaluate(with_value(d, "current_A", 12.0), isothermal=True)
     assert b.pull_N == pytest.approx(4 * a.pull_N, rel=1e-9)
     assert b.ring_loss_W == pytest.approx(4 * a.ring_loss_W, rel=1e-9)
     assert b.ring_current_A == pytest.approx(2 * a.ring_current_A, rel=1e-9)

@@ -24,7 +24,7 @@ def _pull(d: dict, **keys) -> float:
     design = design_from_dict(d)
     for k, v in keys.items():
         design = with_value(design, k.replace("__", "."), v)
-    return evaluate(design).pull_N
+    return evaluate(design, isothermal=True).pull_N
 
 
 @pytest.mark.parametrize("radius_mm", [14.0, 16.0])
@@ -65,5 +65,5 @@ def test_no_iron_no_ring_always_pushes():
     }
     for f in (50.0, 400.0, 5000.0):
         d["drive"]["frequency_Hz"] = f
-        split = evaluate(design_from_dict(d)).pull_by_source_N
+        split = evaluate(design_from_dict(d), isothermal=True).pull_by_source_N
         assert split["coil"] < 0 and split["pole"] == 0.0 and split["ring"] == 0.0
