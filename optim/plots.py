@@ -24,7 +24,7 @@ from matplotlib.figure import Figure
 from models.errors import DesignError
 from optim.dxf import section_mm
 from optim.files import atomic_path, safe_child
-from optim.progress import check_objectives, front_history, pareto_mask, trial_flags
+from optim.progress import check_objectives, column, front_history, trial_flags
 
 __all__ = [
     "plot_front_pairs",
@@ -33,7 +33,6 @@ __all__ = [
     "plot_pull_vs_gap",
     "plot_section",
     "front_history",
-    "pareto_mask",
 ]
 
 _FAINT = {"infeasible": "0.55", "dominated": "tab:blue", "front": "tab:red"}
@@ -70,8 +69,8 @@ def plot_front_pairs(trials: pd.DataFrame, objectives, out_dir) -> list[Path]:
     ----------
     trials : pandas.DataFrame
         All trials (module docstring).
-    objectives : list of (str, str)
-        ``(column, "maximize" | "minimize")``.
+    objectives : list of (str, str) or dict
+        ``(column, "maximize" | "minimize")``; a missing column reads as NaN (nothing drawn).
     out_dir : str or Path
 
     Returns
@@ -82,7 +81,7 @@ def plot_front_pairs(trials: pd.DataFrame, objectives, out_dir) -> list[Path]:
     objectives = check_objectives(trials, objectives)
     complete, feasible, front = trial_flags(trials)
     n_fail = int((~complete).sum())
-    values = {n: pd.to_numeric(trials[n], errors="coerce").to_numpy(float) for n, _ in objectives}
+    values = {n: column(trials, n) for n, _ in objectives}
     paths: list[Path] = []
     if len(objectives) == 1:
         name, direction = objectives[0]

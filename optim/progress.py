@@ -1,4 +1,4 @@
-"""Front measures over a study's trials: Pareto dominance and the front's progress (hypervolume).
+"""Front measures over a study's trials: the front's progress (front size and hypervolume).
 
 Plain numpy/pandas, no plotting: `optim.plots` draws what these compute. Trial tables and objective
 lists follow `optim.plots` (columns ``trial``, ``state``, ``feasible``, ``on_front``,
@@ -14,39 +14,43 @@ import pandas as pd
 
 from models.errors import DesignError
 
-__all__ = ["pareto_mask", "front_history", "check_objectives", "as_min", "trial_flags"]
+__all__ = ["front_history", "check_objectives", "as_min", "trial_flags", "column"]
 
 
 def check_objectives(trials: pd.DataFrame, objectives) -> list[tuple[str, str]]:
-    """The objectives as a list of (column, direction), checked against the table.
+    """The objectives as a list of (column, direction); a dict {column: direction} is accepted.
+
+    A column the table lacks (a study whose trials all failed records no results) reads as NaN.
 
     Raises
     ------
     DesignError
-        A direction other than "maximize"/"minimize", a column the table lacks, or no objective.
+        A direction other than "maximize"/"minimize", or no objective.
     """
+    if isinstance(objectives, dict):
+        objectives = list(objectives.items())
     out = []
     for name, direction in objectives:
         if direction not in ("maximize", "minimize"):
             raise DesignError(
                 f"objective {name!r} direction = {direction!r}: must be 'maximize' or 'minimize'"
             )
-        if name not in trials.columns:
-            raise DesignError(
-                f"objective {name!r}: no such column; columns: {', '.join(map(str, trials.columns))}"
-            )
-        out.append((name, direction))
+        out.append((str(name), direction))
     if not out:
         raise DesignError("objectives = []: give at least one (name, direction)")
     return out
 
 
+def column(trials: pd.DataFrame, name: str) -> np.ndarray:
+    """A column as floats (non-numbers and a missing column read as NaN)."""
+    if name not in trials.columns:
+        return np.full(len(trials), np.nan)
+    return pd.to_numeric(trials[name], errors="coerce").to_numpy(float)
+
+
 def as_min(trials: pd.DataFrame, objectives) -> np.ndarray:
     """Objective values as an (n, k) float array in minimisation form (maximised ones negated)."""
-    cols = [
-        pd.to_numeric(trials[n], errors="coerce").to_numpy(float) * (-1 if d == "maximize" else 1)
-        for n, d in objectives
-    ]
+    cols = [column(trials, n) * (-1 if d == "maximize" else 1) for n, d in objectives]
     return np.column_stack(cols) if cols else np.empty((len(trials), 0))
 
 
@@ -64,24 +68,6 @@ def _bool(trials, col, default):
     if col not in trials:
         return np.full(len(trials), default)
     return trials[col].fillna(False).astype(bool).to_numpy()
-
-
-def pareto_mask(values_min: np.ndarray) -> np.ndarray:
-    """Non-dominated rows of an (n, k) array in minimisation form (equal rows are all kept).
-
-    Row a dominates row b when a <= b in every objective and a < b in one (Pareto dominance).
-    Rows with a NaN are never non-dominated.
-    """
-    v = np.asarray(values_min, float)
-    ok = np.all(np.isfinite(v), axis=1)
-    mask = np.zeros(len(v), bool)
-    idx = np.flatnonzero(ok)
-    w = v[idx]
-    for pos, i in enumerate(idx):
-        le = np.all(w <= w[pos], axis=1)
-        lt = np.any(w < w[pos], axis=1)
-        mask[i] = not np.any(le & lt)
-    return mask
 
 
 def _hv2(points: np.ndarray, ref: float) -> float:
