@@ -328,6 +328,12 @@ def _tool_version() -> str:
         return "unknown"
 
 
+def _command(meta: dict) -> str:
+    """The command that reproduces the predicted numbers (the study's evaluation mode)."""
+    flag = " --isothermal" if meta.get("isothermal") else ""
+    return f"eddypull evaluate{flag} design.toml"
+
+
 def handoff_dict(design, result, meta: dict, verify: dict | None = None) -> dict:
     """The content of handoff.json (see the module docstring), strict-JSON ready."""
     from models.evaluate import MODEL_VERSION
@@ -378,6 +384,7 @@ def handoff_dict(design, result, meta: dict, verify: dict | None = None) -> dict
             },
         },
         "predicted": predicted,
+        "predicted_by": _command(study),
         "limits": limits,
     }
     if verify is not None:
@@ -400,7 +407,8 @@ def write_handoff(design, result, out_dir, meta: dict, verify: dict | None = Non
     meta : dict
         Study context written under ``"study"`` in handoff.json: e.g. ``study``, ``trial``,
         ``storage`` (a URL loses its password here again), ``objectives``, ``constraint_margins``,
-        ``created_at``.
+        ``created_at``, ``isothermal`` (True when the study evaluated at 20 degC: the reproducing
+        command then carries ``--isothermal``).
     verify : dict, optional
         What `optim.verify.run_verify` returns: its ``text`` goes to verify.txt, its ``json`` under
         ``"verify"`` in handoff.json.
@@ -429,7 +437,7 @@ def write_handoff(design, result, out_dir, meta: dict, verify: dict | None = Non
         f"eddypull hand-off of design {design.name!r}"
         + (f", study {meta['study']!r}" if "study" in meta else "")
         + (f", trial {meta['trial']}" if "trial" in meta else "")
-        + "\nunits: mm, Hz, A rms, V rms; evaluate with: eddypull evaluate design.toml"
+        + f"\nunits: mm, Hz, A rms, V rms; reproduce with: {_command(meta)}"
     )
     text = dumps_toml(source, header=header)
     # Prove the round trip before handing it over: same values, same validated design.

@@ -300,7 +300,7 @@ def plot_front_progress(trials: pd.DataFrame, objectives, out_dir) -> list[Path]
     return _save(fig, out_dir, "progress")
 
 
-def plot_pull_vs_gap(designs, out_dir, gaps_mm=None) -> list[Path]:
+def plot_pull_vs_gap(designs, out_dir, gaps_mm=None, isothermal: bool = False) -> list[Path]:
     """Pull against gap for picked designs, each evaluated with the fast model.
 
     Parameters
@@ -310,6 +310,9 @@ def plot_pull_vs_gap(designs, out_dir, gaps_mm=None) -> list[Path]:
     out_dir : str or Path
     gaps_mm : sequence of float, optional
         Gaps [mm]; default 15 points from half the smallest design gap to twice the largest.
+    isothermal : bool
+        Evaluate at 20 degC (as a study with ``isothermal = true`` does); default: thermally
+        coupled, like ``models.evaluate.evaluate``.
 
     Returns
     -------
@@ -334,7 +337,7 @@ def plot_pull_vs_gap(designs, out_dir, gaps_mm=None) -> list[Path]:
         weight = math.nan
         for g in gaps_mm:
             try:
-                r = evaluate(with_value(design, "target.gap_mm", float(g)))
+                r = evaluate(with_value(design, "target.gap_mm", float(g)), isothermal=isothermal)
                 pulls.append(r.pull_N * 1e3)
                 weight = r.target_weight_N * 1e3
             except DesignError:

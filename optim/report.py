@@ -20,7 +20,7 @@ import pandas as pd
 from models.errors import DesignError
 from optim.files import atomic_write_text, safe_child
 
-__all__ = ["write_report", "render_report", "CAUTIONS"]
+__all__ = ["write_report", "render_report", "binding_counts", "CAUTIONS"]
 
 #: The cautions of the README (section "Cautions"), shown at the end of every report.
 CAUTIONS = (
@@ -192,6 +192,18 @@ def _figure(path: Path) -> str:
         f'<figure><img alt="{_e(path.stem)}" src="data:{mime};base64,{data}">'
         f"<figcaption>{_e(path.stem.replace('_', ' '))}</figcaption></figure>"
     )
+
+
+def binding_counts(front: pd.DataFrame, column: str = "binding_limit") -> dict[str, int]:
+    """Limit name -> number of front designs it binds, from the front's ``binding_limit`` column
+    (empty or missing values: no limit binds that design)."""
+    if column not in getattr(front, "columns", ()):
+        return {}
+    counts: dict[str, int] = {}
+    for value in front[column]:
+        if isinstance(value, str) and value:
+            counts[value] = counts.get(value, 0) + 1
+    return counts
 
 
 def render_report(summary: dict, front, images, binding: dict, notes) -> str:

@@ -22,7 +22,7 @@ from optim.plots import (
     plot_section,
 )
 from optim.progress import front_history
-from optim.report import write_report
+from optim.report import binding_counts, write_report
 from tests.conftest import demo_dict
 
 matplotlib.use("Agg")
@@ -277,6 +277,22 @@ def test_report_holds_every_front_row_and_is_valid_html(tmp_path):
     for word in ("hot", "mains", "implant", "licensed professional", "local codes"):
         assert word in text
     assert "http://" not in text and "https://" not in text  # self-contained
+
+
+def test_binding_counts():
+    front = pd.DataFrame(
+        {
+            "binding_limit": [
+                "ring_temperature_C",
+                "",
+                None,
+                "ring_temperature_C",
+                "supply_voltage_V",
+            ]
+        }
+    )
+    assert binding_counts(front) == {"ring_temperature_C": 2, "supply_voltage_V": 1}
+    assert binding_counts(pd.DataFrame()) == {}
 
 
 def test_report_with_an_empty_front(tmp_path):
