@@ -4,6 +4,8 @@ figure left open), and a report that parses as balanced HTML and holds every fro
 from __future__ import annotations
 
 import math
+import shutil
+import subprocess
 import xml.etree.ElementTree as ET
 from html.parser import HTMLParser
 
@@ -277,6 +279,42 @@ def test_report_holds_every_front_row_and_is_valid_html(tmp_path):
     for word in ("hot", "mains", "implant", "licensed professional", "local codes"):
         assert word in text
     assert "http://" not in text and "https://" not in text  # self-contained
+
+
+_STUB_DOM = """
+function cell(v) { return {getAttribute: function (k) { return k === "data-v" ? v : null; }}; }
+var rows = [["3.0", "b"], ["-1.5", "a"], ["10.0", "c"], ["-", "d"]].map(function (c) {
+  return {cells: c.map(cell), id: c[1]}; });
+var body = {rows: rows.slice(), appendChild: function (r) {
+  this.rows = this.rows.filter(function (x) { return x !== r; }); this.rows.push(r); }};
+var ths = [0, 1].map(function () { return {a: {}, h: [],
+  addEventListener: function (e, f) { this.h.push(f); },
+  getAttribute: function (k) { return k in this.a ? this.a[k] : null; },
+  setAttribute: function (k, v) { this.a[k] = v; }, removeAttribute: function (k) { delete this.a[k]; }}; });
+var table = {tBodies: [body], querySelectorAll: function () { return ths; }};
+var document = {querySelectorAll: function () { return [table]; }};
+var ids = function () { return body.rows.map(function (r) { return r.id; }).join(""); };
+"""
+
+
+@pytest.mark.skipif(shutil.which("node") is None, reason="needs node to run the page's script")
+def test_report_table_sorts_by_any_column(tmp_path):
+    from optim.report import _JS
+
+    # Click column 0 twice, then column 1, on a stub DOM; numbers sort numerically, "-" stays last.
+    script = (
+        _STUB_DOM
+        + _JS
+        + """
+ths[0].h[0](); var a = ids(); ths[0].h[0](); var d = ids(); ths[1].h[0]();
+console.log([a, d, ids(), ths[0].a["aria-sort"] || "none", ths[1].a["aria-sort"]].join(" "));
+"""
+    )
+    (tmp_path / "sort.js").write_text(script, encoding="utf-8")
+    out = subprocess.run(
+        ["node", str(tmp_path / "sort.js")], capture_output=True, text=True, timeout=60, check=True
+    ).stdout.split()
+    assert out == ["abcd", "cbad", "abcd", "none", "ascending"]
 
 
 def test_binding_counts():
