@@ -132,6 +132,7 @@ def test_dxf_reads_back_in_mm_with_layers_and_coordinates(exported):
     assert doc.header["$INSUNITS"] == 4
     assert doc.units == ezdxf.units.MM
     assert doc.header["$MEASUREMENT"] == 1  # metric (DXF reference)
+    assert doc.audit().errors == []  # ezdxf's own structural check of the file
     layers = {layer.dxf.name for layer in doc.layers}
     assert {"POLE", "RING", "COIL", "TARGET", "AXIS"} <= layers
 
