@@ -21,9 +21,12 @@ import datetime as _dt
 import io
 import json
 import math
+import numbers
 import re
 import tomllib
 from pathlib import Path
+
+import numpy as np
 
 from models.design import DESIGN_KEYS, design_from_dict
 from models.errors import DesignError
@@ -146,11 +149,12 @@ def _toml_str(s: str) -> str:
 
 
 def _toml_value(value, where: str) -> str:
-    if isinstance(value, bool):
+    if isinstance(value, (bool, np.bool_)):
         return "true" if value else "false"
-    if isinstance(value, int):
-        return str(value)
-    if isinstance(value, float):
+    if isinstance(value, numbers.Integral):  # int and numpy integers
+        return str(int(value))
+    if isinstance(value, numbers.Real):  # float and numpy floats (repr of float, not of numpy)
+        value = float(value)
         if math.isnan(value):
             return "nan"
         if math.isinf(value):
@@ -457,7 +461,9 @@ def write_handoff(design, result, out_dir, meta: dict, verify: dict | None = Non
     writer.writeheader()
     for row in parameter_rows(design):
         value = row["value"]
-        writer.writerow({**row, "value": repr(value) if isinstance(value, float) else value})
+        if isinstance(value, numbers.Real) and not isinstance(value, numbers.Integral):
+            value = repr(float(value))
+        writer.writerow({**row, "value": value})
     written["parameters.csv"] = atomic_write_text(
         safe_child(out_dir, "parameters.csv"), buf.getvalue()
     )

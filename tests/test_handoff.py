@@ -110,6 +110,19 @@ def test_toml_writer_round_trips_exactly(data):
     assert tomllib.loads(dumps_toml(data, header="a\nb")) == data
 
 
+def test_numpy_numbers_are_written_as_plain_toml():
+    import numpy as np
+
+    # Study parameters can arrive as numpy scalars; numpy 2 reprs them as "np.float64(3.3)",
+    # which is not TOML. They must come out as the plain number (same double).
+    data = {
+        "ring": {"depth_mm": np.float64(0.1 * 33), "turns": np.int64(300), "on": np.bool_(True)}
+    }
+    text = dumps_toml(data)
+    assert "np." not in text
+    assert tomllib.loads(text) == {"ring": {"depth_mm": 0.1 * 33, "turns": 300, "on": True}}
+
+
 def _entities(doc, layer):
     return [e for e in doc.modelspace() if e.dxf.layer == layer]
 
