@@ -15,8 +15,8 @@ How a worker keeps the storage out of the way of a millisecond model:
   identical trials.
 
 A trial's record: its parameters; objective values (a failed trial has none); one constraint
-value per ``[constraints]`` entry (<= 0 feasible, optuna's convention); user attributes
-``results`` (a list aligned with the study attribute ``eddypull_result_names``: compact, for
+value per ``[constraints]`` entry (<= 0 feasible, optuna's convention); and one user attribute
+``eddypull`` (one attribute, so that a database writes it in one statement) holding ``results`` (a list aligned with the study attribute ``eddypull_result_names``: compact, for
 studies of 10^5-10^6 trials), ``margins`` (constraint -> margin in the result's unit), ``reason``
 (why it failed or is infeasible), ``warnings``, ``worker`` and ``eval_s``.
 """
@@ -32,11 +32,26 @@ from datetime import UTC
 
 from models.errors import DesignError
 
-__all__ = ["run_worker", "make_sampler", "RESULT_NAMES_ATTR", "evaluate_trial"]
+__all__ = [
+    "run_worker",
+    "make_sampler",
+    "record_of",
+    "RESULT_NAMES_ATTR",
+    "RECORD_ATTR",
+    "evaluate_trial",
+]
 
 RESULT_NAMES_ATTR = "eddypull_result_names"
+#: The one user attribute of a trial that holds eddypull's record (one write per trial).
+RECORD_ATTR = "eddypull"
 #: Import other workers' trials this often [s] (shorter for small studies, see ``_sync_period``).
 SYNC_S = 20.0
+
+
+def record_of(trial) -> dict:
+    """eddypull's record of a stored trial (empty for a trial written by something else)."""
+    rec = trial.user_attrs.get(RECORD_ATTR)
+    return rec if isinstance(rec, dict) else {}
 
 
 def make_sampler(spec, seed: int | None):
@@ -111,6 +126,7 @@ def _record(spec, params, dists, outcome, worker_id, t0, t1, result_names):
         "reason": outcome["reason"],
         "warnings": outcome["warnings"],
         "worker": worker_id,
+        "id": uuid.uuid4().hex[:16],
         "eval_s": round(t1 - t0, 6),
     }
     system = {f"{_CONSTRAINTS_KEY}:{k}": v for k, v in outcome["violations"].items()}
@@ -120,7 +136,7 @@ def _record(spec, params, dists, outcome, worker_id, t0, t1, result_names):
         params=params,
         distributions=dists,
         values=outcome["values"] if state == TrialState.COMPLETE else None,
-        user_attrs=attrs,
+        user_attrs={RECORD_ATTR: attrs},
         system_attrs=system,
     ), (
         datetime.fromtimestamp(t0, tz=UTC),
@@ -174,13 +190,19 @@ def run_worker(cfg: dict, queue=None, stop=None, counter=None) -> int:
     def sync():
         nonlocal seen
         trials = storage.get_all_trials(study_id, deepcopy=False, states=(TrialState.COMPLETE,))
-        fresh = [t for t in trials if t.number > seen and t.user_attrs.get("worker") != worker_id]
+        fresh = [t for t in trials if t.number > seen and record_of(t).get("worker") != worker_id]
         for t in fresh:
             if set(t.params) == set(dists):
                 private.add_trial(_slim(t, dists))
         if trials:
             seen = max(seen, max(t.number for t in trials))
 
+    evaluator = evaluate_trial
+    if cfg.get("evaluator"):  # benchmarks swap the model for a stand-in ("module:function")
+        import importlib
+
+        module, _, func = cfg["evaluator"].partition(":")
+        evaluator = getattr(importlib.import_module(module), func)
     sync()
     last_sync = time.monotonic()
     recorded = 0
@@ -201,7 +223,7 @@ def run_worker(cfg: dict, queue=None, stop=None, counter=None) -> int:
             trial = private.ask(dists)
             params = dict(trial.params)
             t0 = time.time()
-            outcome = evaluate_trial(spec, params)
+            outcome = evaluator(spec, params)
             t1 = time.time()
             frozen, (start, end) = _record(
                 spec, params, dists, outcome, worker_id, t0, t1, result_names

@@ -19,7 +19,7 @@ import math
 import numpy as np
 import pandas as pd
 
-from optim.engine import RESULT_NAMES_ATTR
+from optim.engine import RESULT_NAMES_ATTR, record_of
 
 __all__ = ["trials_table", "pareto_mask", "status_summary", "format_status", "DIMENSIONS"]
 
@@ -75,7 +75,7 @@ def trials_table(study, spec_json: dict) -> pd.DataFrame:
     constraints = list(spec_json.get("constraints", {}))
     rows = []
     for t in study.get_trials(deepcopy=False):
-        ua = t.user_attrs
+        ua = record_of(t)
         row = {
             "trial": t.number,
             "state": t.state.name,

@@ -301,11 +301,10 @@ def spec_from_dict(data: dict, folder: Path | None = None, name: str = "study") 
     mid = {p.name: _mid(p) for p in params}
     try:
         base_design = design_from_dict(base, name=str(study_name))
-        trial_design = design_from_dict(design_source(base, params, mid), name=str(study_name))
     except DesignError as err:
         raise DesignError([f"base design: {line}" for line in err.problems]) from None
-    del base_design
-    flat, _ = results_of(trial_design, gaps, isothermal=bool(run.get("isothermal", False)))
+    design_source(base, params, mid)  # structural problems (fractions without a ring) raise
+    flat, _ = results_of(base_design, gaps, isothermal=bool(run.get("isothermal", False)))
     known = sorted(flat)
     for what, items in (("objectives", objectives), ("constraints", constraints)):
         for item in items:

@@ -112,6 +112,7 @@ def run_study(
     echo=print,
     tty: bool | None = None,
     sync_s: float | None = None,
+    evaluator: str | None = None,
 ) -> dict:
     """Run ``spec`` until the budget ends or Ctrl-C; return a summary dict.
 
@@ -146,6 +147,7 @@ def run_study(
         "deadline": deadline,
         "trials": trials,
         "sync_s": sync_s if sync_s is not None else _sync_period(start_count),
+        "evaluator": evaluator,
     }
     procs: dict[int, mp.Process] = {}
     restarts = 0

@@ -38,8 +38,13 @@ def _cmd_run(args) -> int:
         trials=trials,
         minutes=minutes,
         seed=args.seed,
+        echo=(lambda *_: None) if args.json else print,
+        tty=False if args.json else None,
     )
-    print(f"study folder: {summary['folder']}")
+    if args.json:
+        print(json.dumps(summary))
+    else:
+        print(f"study folder: {summary['folder']}")
     return 0
 
 
@@ -86,7 +91,13 @@ def _cmd_export(args) -> int:
     study, spec_json, where = _open(args)
     folder = _folder_for(args.location, spec_json, None)
     paths = export_trial(
-        study, spec_json, where, folder, trial=args.trial, best=args.best, out=args.out,
+        study,
+        spec_json,
+        where,
+        folder,
+        trial=args.trial,
+        best=args.best,
+        out=args.out,
         verify=args.verify,
     )
     for name, path in paths.items():
@@ -119,6 +130,7 @@ def add_study_parser(sub) -> None:
     r.add_argument("--storage", metavar="URL", help="database URL shared by several machines")
     r.add_argument("--seed", type=int, help="sampler seed (overrides [run] seed)")
     r.add_argument("--out", metavar="DIR", help="study folder (default studies/<name>)")
+    r.add_argument("--json", action="store_true", help="print only a JSON summary at the end")
     r.set_defaults(func=_cmd_run)
 
     for cmd, helptext, func in (

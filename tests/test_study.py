@@ -1,0 +1,417 @@
+"""Studies: search quality against brute force, fronts, kills and resumes, shared storages.
+
+References outside the project: a brute-force grid of the same space (the optimiser must find at
+least what an exhaustive search finds), optuna's own Pareto-front routine (``study.best_trials``)
+for the non-dominated set, and the storage's own record count for lost or duplicated trials.
+"""
+
+from __future__ import annotations
+
+import json
+import os
+import signal
+import subprocess
+import sys
+import time
+from pathlib import Path
+
+import numpy as np
+import pytest
+
+from models.design import design_from_dict
+from models.evaluate import evaluate
+from optim.front import pareto_mask, trials_table
+from optim.spec import load_study_spec
+from optim.storage import load_existing
+from optim.study import run_study
+from tests.conftest import DEMO, ROOT
+
+ENV = {**os.environ, "PYTHONPATH": str(ROOT)}
+
+
+def _study_file(tmp_path: Path, name: str, body: str) -> Path:
+    path = tmp_path / f"{name}.toml"
+    path.write_text(f'name = "{name}"\ndesign = "{DEMO.as_posix()}"\n{body}', encoding="utf-8")
+    return path
+
+
+QUICK = """
+[search]
+ring_outer_fraction = { low = 0.4, high = 0.95 }
+ring_depth_mm = { low = 0.5, high = 6.0 }
+frequency_Hz = { low = 100.0, high = 3000.0, scale = "log" }
+[objectives]
+pull_N = "maximize"
+input_power_W = "minimize"
+[constraints]
+coil_voltage_V = { max = 60.0 }
+[run]
+sampler = "nsga2"
+population = 10
+seed = 3
+isothermal = true
+"""
+
+
+def _cli(*args, timeout=300, **kw):
+    return subprocess.run(
+        [sys.executable, "-m", "optim.cli", *args],
+        capture_output=True,
+        text=True,
+        env=ENV,
+        cwd=ROOT,
+        timeout=timeout,
+        **kw,
+    )
+
+
+@pytest.mark.slow
+def test_two_parameter_study_matches_brute_force_grid(tmp_path):
+    """Single objective, two free parameters: the study's best pull is within 1 % of (or above)
+    the best of a 9 x 9 grid over the same space (1 %: the grid's own spacing already leaves
+    more than that between neighbouring designs near the optimum)."""
+    body = """
+[search]
+ring_outer_fraction = { low = 0.4, high = 0.95 }
+ring_depth_mm = { low = 0.5, high = 6.0 }
+[objectives]
+pull_N = "maximize"
+[run]
+sampler = "tpe"
+seed = 11
+isothermal = true
+"""
+    spec = load_study_spec(_study_file(tmp_path, "grid", body))
+    run_study(spec, tmp_path / "grid", workers=1, trials=70, echo=lambda *_: None, tty=False)
+    study, spec_json, _ = load_existing(tmp_path / "grid")
+    best = study.best_trial
+    base = spec.base
+    grid_best = -np.inf
+    for fo in np.linspace(0.4, 0.95, 9):
+        for depth in np.linspace(0.5, 6.0, 9):
+            src = {k: dict(v) for k, v in base.items()}
+            ri_fraction = base["ring"]["inner_radius_mm"] / base["ring"]["outer_radius_mm"]
+            src["ring"]["outer_radius_mm"] = fo * base["pole"]["radius_mm"]
+            src["ring"]["inner_radius_mm"] = ri_fraction * fo * base["pole"]["radius_mm"]
+            src["ring"]["depth_mm"] = depth
+            grid_best = max(grid_best, evaluate(design_from_dict(src), isothermal=True).pull_N)
+    assert best.value >= 0.99 * grid_best, (best.value, grid_best)
+
+
+@pytest.mark.slow
+def test_multi_objective_front_is_feasible_and_non_dominated(tmp_path):
+    spec = load_study_spec(_study_file(tmp_path, "front", QUICK))
+    run_study(spec, tmp_path / "front", workers=2, trials=60, echo=lambda *_: None, tty=False)
+    study, spec_json, _ = load_existing(tmp_path / "front")
+    df = trials_table(study, spec_json)
+    assert len(df) == 60
+    front = df[df["on_front"]]
+    assert len(front) >= 1
+    assert front["feasible"].all() and (front["state"] == "COMPLETE").all()
+    assert (front["margin:coil_voltage_V"] >= 0).all()
+    values = front[["pull_N", "input_power_W"]].to_numpy(float)
+    assert pareto_mask(values, ["maximize", "minimize"]).all()
+    # Reference: optuna's own constrained Pareto front of the same stored trials.
+    assert set(front["trial"]) == {t.number for t in study.best_trials}
+    # Infeasible trials are kept with their margins, never on the front.
+    infeasible = df[(df["state"] == "COMPLETE") & ~df["feasible"]]
+    assert (infeasible["margin:coil_voltage_V"] < 0).all()
+    assert not infeasible["on_front"].any()
+
+
+def test_geometry_that_cannot_be_built_is_a_failed_trial_with_its_reason(tmp_path):
+    """ring_outer_fraction near 1 leaves less than the 0.2 mm wall: refused before the model."""
+    body = QUICK.replace("high = 0.95 }", "high = 0.999 }").replace(
+        "ring_outer_fraction = { low = 0.4", "ring_outer_fraction = { low = 0.985"
+    )
+    spec = load_study_spec(_study_file(tmp_path, "walls", body))
+    run_study(spec, tmp_path / "walls", workers=1, trials=8, echo=lambda *_: None, tty=False)
+    study, spec_json, _ = load_existing(tmp_path / "walls")
+    df = trials_table(study, spec_json)
+    failed = df[df["state"] == "FAIL"]
+    assert len(failed) >= 1
+    assert failed["reason"].str.startswith("geometry: ring.outer_radius_mm").all()
+    assert not failed["on_front"].any()
+
+
+def _children(pid: int) -> list[int]:
+    out = subprocess.run(["pgrep", "-P", str(pid)], capture_output=True, text=True)
+    return [int(x) for x in out.stdout.split()]
+
+
+def _count(folder: Path) -> tuple[int, int]:
+    study, spec_json, _ = load_existing(folder)
+    trials = study.get_trials(deepcopy=False)
+    running = sum(t.state.name == "RUNNING" for t in trials)
+    return len(trials), running
+
+
+@pytest.mark.slow
+def test_killed_worker_loses_nothing_completed_and_the_study_resumes(tmp_path):
+    study_file = _study_file(tmp_path, "kill", QUICK)
+    folder = tmp_path / "kill"
+    proc = subprocess.Popen(
+        [
+            sys.executable,
+            "-m",
+            "optim.cli",
+            "study",
+            "run",
+            str(study_file),
+            "--workers",
+            "2",
+            "--trials",
+            "150",
+            "--out",
+            str(folder),
+            "--json",
+        ],
+        stdout=subprocess.PIPE,
+        stderr=subprocess.PIPE,
+        text=True,
+        env=ENV,
+        cwd=ROOT,
+    )
+    kills, before = 0, 0
+    deadline = time.time() + 240
+    while time.time() < deadline and kills < 3:
+        time.sleep(2.0)
+        workers = [p for p in _children(proc.pid) if Path(f"/proc/{p}/cmdline").exists()]
+        workers = [p for p in workers if b"spawn_main" in Path(f"/proc/{p}/cmdline").read_bytes()]
+        if (folder / "journal.log").exists() and workers:
+            n, _ = _count(folder)
+            assert n >= before  # completed trials never disappear
+            before = n
+            if n > 10 * (kills + 1):
+                os.kill(workers[0], signal.SIGKILL)
+                kills += 1
+    out, err = proc.communicate(timeout=300)
+    assert proc.returncode == 0, err
+    assert kills >= 1
+    first = json.loads(out.strip().splitlines()[-1])
+    n1, running = _count(folder)
+    assert running == 0  # a killed worker leaves nothing RUNNING in the storage
+    # Each recorded trial is reported after it is written: a kill between the two can only add.
+    assert first["trials_this_run"] <= n1 <= first["trials_this_run"] + kills
+    assert first["restarts"] == kills
+    # Resume: the same command adds to the study.
+    again = _cli(
+        "study",
+        "run",
+        str(study_file),
+        "--workers",
+        "1",
+        "--trials",
+        "10",
+        "--out",
+        str(folder),
+        "--json",
+    )
+    assert again.returncode == 0, again.stderr
+    n2, _ = _count(folder)
+    assert (
+        n2 == n1 + json.loads(again.stdout.strip().splitlines()[-1])["trials_this_run"] == n1 + 10
+    )
+    study, spec_json, _ = load_existing(folder)
+    numbers = [t.number for t in study.get_trials(deepcopy=False)]
+    assert numbers == list(range(n2))
+
+
+@pytest.mark.slow
+def test_whole_run_killed_then_resumed(tmp_path):
+    study_file = _study_file(tmp_path, "crash", QUICK)
+    folder = tmp_path / "crash"
+    proc = subprocess.Popen(
+        [
+            sys.executable,
+            "-m",
+            "optim.cli",
+            "study",
+            "run",
+            str(study_file),
+            "--workers",
+            "2",
+            "--minutes",
+            "5",
+            "--out",
+            str(folder),
+        ],
+        stdout=subprocess.DEVNULL,
+        stderr=subprocess.DEVNULL,
+        env=ENV,
+        cwd=ROOT,
+        start_new_session=True,
+    )
+    deadline = time.time() + 120
+    while time.time() < deadline:
+        time.sleep(1.0)
+        if (folder / "journal.log").exists() and _count(folder)[0] >= 15:
+            break
+    os.killpg(proc.pid, signal.SIGKILL)  # parent and workers at once, as a power cut would
+    proc.wait(timeout=30)
+    n1, running = _count(folder)
+    assert n1 >= 15 and running == 0
+    again = _cli("study", "run", str(study_file), "--trials", "5", "--out", str(folder), "--json")
+    assert again.returncode == 0, again.stderr
+    assert _count(folder)[0] == n1 + 5
+
+
+@pytest.mark.slow
+def test_ctrl_c_stops_cleanly(tmp_path):
+    study_file = _study_file(tmp_path, "ctrlc", QUICK)
+    folder = tmp_path / "ctrlc"
+    proc = subprocess.Popen(
+        [
+            sys.executable,
+            "-m",
+            "optim.cli",
+            "study",
+            "run",
+            str(study_file),
+            "--workers",
+            "2",
+            "--minutes",
+            "5",
+            "--out",
+            str(folder),
+        ],
+        stdout=subprocess.PIPE,
+        stderr=subprocess.PIPE,
+        text=True,
+        env=ENV,
+        cwd=ROOT,
+    )
+    deadline = time.time() + 120
+    while time.time() < deadline:
+        time.sleep(1.0)
+        if (folder / "journal.log").exists() and _count(folder)[0] >= 10:
+            break
+    proc.send_signal(signal.SIGINT)
+    out, err = proc.communicate(timeout=120)
+    assert proc.returncode == 0, err
+    assert "Traceback" not in err
+    assert "stopped by Ctrl-C" in out
+    n, running = _count(folder)
+    assert running == 0 and n >= 10
+
+
+@pytest.mark.slow
+def test_two_processes_share_one_journal_without_lock_errors(tmp_path):
+    """Two `study run` processes (two workers each) on one embedded storage for a while."""
+    study_file = _study_file(tmp_path, "shared", QUICK)
+    folder = tmp_path / "shared"
+    cmd = [
+        sys.executable,
+        "-m",
+        "optim.cli",
+        "study",
+        "run",
+        str(study_file),
+        "--workers",
+        "2",
+        "--minutes",
+        "0.4",
+        "--out",
+        str(folder),
+        "--json",
+    ]
+    first = subprocess.run(
+        cmd[:-3] + ["--trials", "1", "--out", str(folder), "--json"],
+        capture_output=True,
+        text=True,
+        env=ENV,
+        cwd=ROOT,
+        timeout=120,
+    )
+    assert first.returncode == 0, first.stderr
+    procs = [
+        subprocess.Popen(
+            cmd, stdout=subprocess.PIPE, stderr=subprocess.PIPE, text=True, env=ENV, cwd=ROOT
+        )
+        for _ in range(2)
+    ]
+    outs = [p.communicate(timeout=300) for p in procs]
+    reported = 1
+    for p, (out, err) in zip(procs, outs, strict=True):
+        assert p.returncode == 0, err
+        assert "Error" not in err and "Traceback" not in err
+        reported += json.loads(out.strip().splitlines()[-1])["trials_this_run"]
+    n, running = _count(folder)
+    assert n == reported and running == 0
+    study, _, _ = load_existing(folder)
+    ids = [t.user_attrs["eddypull"]["id"] for t in study.get_trials(deepcopy=False)]
+    assert len(set(ids)) == len(ids)
+    log = (folder / "run.log").read_text()
+    assert "ERROR" not in log
+
+
+@pytest.mark.parametrize(
+    ("edit", "expected"),
+    [
+        (
+            "[search]\nring_radius_mm = { low = 1, high = 2 }\n",
+            r"search\.ring_radius_mm: unknown parameter",
+        ),
+        (
+            "[search]\nring_depth_mm = { low = 5, high = 1 }\n",
+            r"search\.ring_depth_mm: low = 5 must be < high = 1",
+        ),
+        (
+            '[search]\nring_depth_mm = { low = 1, high = 5 }\n[objectives]\npul_N = "maximize"\n',
+            r"objectives\.pul_N: not a result of the model \(did you mean 'pull_N'\?\)",
+        ),
+        (
+            '[search]\nring_depth_mm = { low = 1, high = 5 }\n[objectives]\npull_N = "maximize"\n[constraints]\nring_heat_W = { max = 3 }\n',
+            r"constraints\.ring_heat_W: not a result of the model",
+        ),
+        (
+            '[search]\nring_depth_mm = { low = 1, high = 5 }\n[objectives]\npull_N = "best"\n',
+            r"objectives\.pull_N = 'best': must be 'maximize' or 'minimize'",
+        ),
+        ("[serch]\n", r"serch: unknown table or key of a study file"),
+        ("[search\n", r"not valid TOML"),
+    ],
+)
+def test_bad_study_file_gives_one_clear_line_and_exit_2(tmp_path, edit, expected, capsys):
+    from optim.cli import main
+
+    body = edit
+    if "[objectives]" not in edit and "search]" in edit and "[search\n" not in edit:
+        body += '[objectives]\npull_N = "maximize"\n'
+    path = _study_file(tmp_path, "bad", body)
+    code = main(["study", "run", str(path), "--trials", "1", "--out", str(tmp_path / "o")])
+    err = capsys.readouterr().err
+    assert code == 2
+    assert "Traceback" not in err
+    lines = err.strip().splitlines()
+    assert all(line.startswith("eddypull: error: ") for line in lines)
+    import re
+
+    assert any(re.search(expected, line) for line in lines), err
+    assert not (tmp_path / "o" / "journal.log").exists()
+
+
+def test_resuming_with_a_changed_search_is_refused(tmp_path, capsys):
+    from optim.cli import main
+
+    path = _study_file(tmp_path, "changed", QUICK)
+    assert main(["study", "run", str(path), "--trials", "2", "--out", str(tmp_path / "c")]) == 0
+    path.write_text(path.read_text().replace("high = 6.0", "high = 7.0"))
+    code = main(["study", "run", str(path), "--trials", "2", "--out", str(tmp_path / "c")])
+    assert code == 2
+    assert "already exists in this storage with a different" in capsys.readouterr().err
+
+
+def test_torn_last_journal_line_is_cut_and_kept(tmp_path):
+    from optim.cli import main
+
+    path = _study_file(tmp_path, "torn", QUICK)
+    folder = tmp_path / "t"
+    assert main(["study", "run", str(path), "--trials", "4", "--out", str(folder)]) == 0
+    journal = folder / "journal.log"
+    whole = journal.read_bytes()
+    journal.write_bytes(whole + b'{"op_code": 5, "worker_id": "x", "trial_id"')  # torn write
+    assert main(["study", "run", str(path), "--trials", "2", "--out", str(folder)]) == 0
+    kept = list(folder.glob("journal.log.torn-*"))
+    assert len(kept) == 1 and kept[0].read_bytes().startswith(b'{"op_code": 5')
+    assert _count(folder) == (6, 0)
