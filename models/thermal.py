@@ -228,7 +228,8 @@ def lumped_temperature(t, initial_C, final_C, time_constant):
     """Lumped-capacitance temperature [degC] at time ``t`` [s]:
     T(t) = T_inf + (T_0 - T_inf) exp(-t / tau) (Incropera eq. 5.6 with a source; tau < 0 is a
     runaway that grows exponentially)."""
-    return final_C + (initial_C - final_C) * np.exp(-np.asarray(t, dtype=float) / time_constant)
+    with np.errstate(over="ignore"):  # a runaway past the float range is inf, as it should be
+        return final_C + (initial_C - final_C) * np.exp(-np.asarray(t, dtype=float) / time_constant)
 
 
 # ----------------------------------------------------------------------------------------------
@@ -806,6 +807,8 @@ def time_to_limits(state: ThermalState, limits: dict):
     positive = taus[np.isfinite(taus) & (taus > 0)]
     t_lo = 1e-3 * (positive.min() if positive.size else 1.0)
     t_hi = min(50.0 * np.abs(taus[np.isfinite(taus)]).max(), 1e9)
+    if lam.min() < 0:  # a growing mode: stop before exp(-l t) leaves the float range
+        t_hi = min(t_hi, 500.0 / -lam.min())
     grid = np.geomspace(t_lo, max(t_hi, 10 * t_lo), 400)
     curve = temps(grid)
     out = {}

@@ -13,7 +13,7 @@ import pytest
 from scipy.integrate import solve_ivp
 
 from models import evaluate
-from models.design import INSULATION_CLASSES, design_from_dict
+from models.design import INSULATION_CLASSES, design_from_dict, with_value
 from models.errors import DesignError
 from models.materials import MATERIALS
 from models.thermal import (
@@ -345,3 +345,63 @@ def test_thermal_table_errors(thermal, message):
 def test_supply_table_errors():
     with pytest.raises(DesignError, match="supply.max_VA = -1: must be a number > 0"):
         _design(supply={"max_VA": -1})
+
+
+def _damped_fixed_point(design):
+    """The coupled steady state by a different route: half-damped fixed-point iteration (losses
+    and conductances frozen per step), 1e-4 K. None if it passes 3000 degC (no steady state)."""
+    from models.circuit import assemble_circuit, solve_system
+    from models.evaluate import DEFAULT_FINENESS, _part_losses, pole_model_for
+
+    system = assemble_circuit(design, DEFAULT_FINENESS, pole_model_for(design, DEFAULT_FINENESS))
+    net = build_network(design)
+    names = [n for n in ("coil", "ring", "target") if n in net.nodes]
+    T = np.full(len(net.nodes), design.thermal.ambient_C)
+    for _ in range(400):
+        losses = _part_losses(solve_system(system, {n: T[net.index(n)] for n in names}))
+        P = np.zeros(len(T))
+        for n in names:
+            P[net.index(n)] = losses[n]
+        A, b = net.matrix(T)
+        new = np.linalg.solve(A, design.thermal.duty_cycle * P + b)
+        if new.max() > 3000:
+            return None
+        if np.max(np.abs(new - T)) < 1e-4:
+            return new
+        T = 0.5 * (T + new)
+    raise AssertionError("the reference iteration did not settle")
+
+
+@pytest.mark.parametrize("seed", range(6))
+def test_coupling_agrees_with_fixed_point_iteration(seed):
+    # Seeded variations of the demo (drive, duty, orientation, radiation, target): Newton's
+    # answer equals the damped fixed point's to 0.05 K (Newton stops at 0.01 K steps), and a
+    # runaway is reported exactly when the fixed point has no solution below the coil's 400 degC.
+    rng = np.random.default_rng(100 + seed)
+    d = copy.deepcopy(demo_dict())
+    drive = "current_A" if rng.random() < 0.7 else "voltage_V"
+    d["drive"] = {"frequency_Hz": float(rng.choice([50, 400, 3000]))}
+    d["drive"][drive] = float(rng.uniform(1, 8)) * (15 if drive == "voltage_V" else 1)
+    d["thermal"] = {
+        "duty_cycle": float(rng.uniform(0.02, 1)),
+        "emissivity": float(rng.choice([0.0, 0.9])),
+        "orientation": str(rng.choice(["face-down", "face-up", "horizontal"])),
+    }
+    d["target"]["gap_mm"] = float(rng.uniform(0.3, 3))
+    d["target"]["radius_mm"] = float(rng.uniform(3, 12))
+    design = design_from_dict(d)
+    r = evaluate(design)
+    ref = _damped_fixed_point(design)
+    if r.thermal_status == "converged":
+        assert ref is not None
+        assert r.temperatures_C["coil_mean"] == pytest.approx(ref[0], abs=0.05)
+        assert r.target_temperature_C == pytest.approx(ref[-1], abs=0.05)
+    else:
+        assert r.thermal_status.startswith("runaway")
+        assert ref is None or ref[0] > 400.0
+
+
+def test_with_value_reaches_thermal_keys():
+    d = _design()
+    assert with_value(d, "duty_cycle", 0.5).thermal.duty_cycle == 0.5
+    assert with_value(d, "supply.max_VA", 300).supply.max_apparent_power == 300.0
