@@ -392,6 +392,15 @@ def _thermal_warnings(design: Design, state, result: dict, hold_tau: float) -> l
                     f"thermal.period_s = {th.period:g} s: the {name}'s temperature swings about "
                     f"+-{swing[net.index(name)]:.2g} K around its duty average each period"
                 )
+    sup = design.supply
+    if sup is not None:
+        for limit, key, value, unit in (
+            (sup.max_voltage, "max_voltage_V", result["coil_voltage_V"], "V rms"),
+            (sup.max_current, "max_current_A", result["coil_current_A"], "A rms"),
+            (sup.max_apparent_power, "max_VA", result["supply_VA"], "VA"),
+        ):
+            if limit is not None and value > limit:
+                out.append(f"the coil needs {value:.4g} {unit}, above supply.{key} = {limit:g}")
     out.extend(f"thermal: {n}" for n in state.network.notes)
     return out
 

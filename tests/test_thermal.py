@@ -295,6 +295,9 @@ def test_supply_limits_and_binding():
     assert r.margins["supply_voltage_V"] == pytest.approx(60.0 - r.coil_voltage_V)
     assert r.margins["supply_voltage_V"] < 0  # the demo needs about 83 V (its own result)
     assert r.binding_limit == "supply_voltage_V"
+    assert any(
+        w.startswith("the coil needs 83") and "supply.max_voltage_V = 60" in w for w in r.warnings
+    )
     assert r.margins["supply_current_A"] == pytest.approx(4.0)
 
 
