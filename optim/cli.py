@@ -17,6 +17,7 @@ from models.evaluate import evaluate
 __all__ = ["main"]
 
 DEMO_DESIGN = Path(__file__).resolve().parents[1] / "studies" / "demo_design.toml"
+DEMO_STUDY = DEMO_DESIGN.with_name("demo_study.toml")
 
 
 def _cmd_evaluate(args) -> int:
@@ -71,17 +72,42 @@ def _cmd_materials(args) -> int:
 
 
 def _cmd_demo(args) -> int:
-    import numpy as np
+    """The main job on the demo scenario: run the demo study (resuming it if it exists), then
+    write its front, plots and report and the hand-off of its best design."""
+    from optim.morning import export_trial, write_front
+    from optim.spec import load_study_spec
+    from optim.storage import load_existing
+    from optim.study import run_study, study_folder
 
-    from optim.summary import format_result
-    from optim.sweep import format_sweep, run_sweep
+    spec = load_study_spec(DEMO_STUDY)
+    minutes = args.minutes if args.minutes is not None else spec.run.get("minutes", 3.0)
+    if args.trials is not None:
+        minutes = args.minutes
+    folder = study_folder(spec, DEMO_STUDY, Path(args.out) if args.out else None)
+    print(f"demo study {DEMO_STUDY.name}: {spec.description}")
+    run_study(
+        spec,
+        folder,
+        workers=args.workers if args.workers is not None else spec.run.get("workers", 1),
+        trials=args.trials,
+        minutes=minutes,
+    )
+    study, spec_json, where = load_existing(folder)
+    out = write_front(study, spec_json, where, folder)
+    for line in out["lines"]:
+        print(line)
+    first = next(iter(spec_json["objectives"]))
+    if out["front"].empty:
+        print("no feasible design yet: run the demo longer (eddypull demo --minutes 10)")
+        return 0
+    paths = export_trial(study, spec_json, where, folder, best=first, out=folder / "handoff")
+    print(f"hand-off of the best {first} design (CAD): {paths['design.toml'].parent}")
+    for name, path in paths.items():
+        print(f"  {name:16s} {path}")
+    print(f"open {out['paths']['report.html']} in a browser to read the study")
+    from optim.summary import CAUTION
 
-    design = load_design(DEMO_DESIGN)
-    print(f"demo design: {DEMO_DESIGN}")
-    print(format_result(design, evaluate(design)))
-    print("\nTarget size is critical: pull against target radius (same gap)")
-    rows = run_sweep(design, "target.radius_mm", np.linspace(2.0, 14.0, 13))
-    print(format_sweep("target.radius_mm", rows))
+    print(CAUTION)
     return 0
 
 
@@ -110,7 +136,13 @@ def _parser() -> argparse.ArgumentParser:
     m.add_argument("--json", action="store_true", help="print one JSON object")
     m.set_defaults(func=_cmd_materials)
 
-    d = sub.add_parser("demo", help="evaluate the demo design and its target-size sweep")
+    d = sub.add_parser(
+        "demo", help="run the demo study, then write its front, report and best design's hand-off"
+    )
+    d.add_argument("--minutes", type=float, help="time budget (default: the study file's)")
+    d.add_argument("--trials", type=int, help="trial budget instead of the time budget")
+    d.add_argument("--workers", type=int, help="worker processes (default: the study file's)")
+    d.add_argument("--out", metavar="DIR", help="study folder (default studies/harrowgate-night)")
     d.set_defaults(func=_cmd_demo)
 
     from optim.study_cli import add_study_parser

@@ -81,14 +81,14 @@ def evaluate_trial(spec, values: dict):
         return out
     isothermal = bool(spec.run.get("isothermal", False))
     try:
-        flat, warnings = results_of(design, spec.gaps_mm, isothermal=isothermal)
+        flat, warnings, binding = results_of(design, spec.gaps_mm, isothermal=isothermal)
     except DesignError as err:
         out["reason"] = "model refused: " + "; ".join(err.problems)
         return out
     except Exception as err:  # a model failure is one failed trial, never a dead study
         out["reason"] = f"model error: {type(err).__name__}: {err}"[:500]
         return out
-    out["flat"], out["warnings"] = flat, warnings[:8]
+    out["flat"], out["warnings"], out["binding"] = flat, warnings[:8], binding
     try:
         vals = objective_values(flat, spec.objectives)
     except KeyError as err:
@@ -124,6 +124,7 @@ def _record(spec, params, dists, outcome, worker_id, t0, t1, result_names):
         "results": [flat.get(n, math.nan) for n in result_names] if flat else [],
         "margins": outcome["margins"],
         "reason": outcome["reason"],
+        "binding": outcome.get("binding", ""),
         "warnings": outcome["warnings"],
         "worker": worker_id,
         "id": uuid.uuid4().hex[:16],

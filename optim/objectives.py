@@ -95,7 +95,7 @@ def _pole_mass(design: Design) -> float:
 
 
 def results_of(design: Design, gaps_mm=(), isothermal: bool = False):
-    """Evaluate ``design`` and return (flat results, warnings).
+    """Evaluate ``design`` and return (flat results, warnings, binding limit name or "").
 
     With ``gaps_mm`` [mm] the same design is evaluated at each gap for ``worst_pull_N`` (the pole
     model is cached, so each extra gap costs a circuit solve, not a new pole).
@@ -116,7 +116,7 @@ def results_of(design: Design, gaps_mm=(), isothermal: bool = False):
                 pulls.append(evaluate(with_value(design, "target.gap_mm", g), isothermal).pull_N)
         flat["worst_pull_N"] = float(np.min(pulls))
         flat["worst_lift_ratio"] = flat["worst_pull_N"] / result.target_weight_N
-    return flat, list(result.warnings)
+    return flat, list(result.warnings), str(getattr(result, "binding_limit", "") or "")
 
 
 def objective_values(flat: dict, objectives) -> list[float]:

@@ -304,7 +304,7 @@ def spec_from_dict(data: dict, folder: Path | None = None, name: str = "study") 
     except DesignError as err:
         raise DesignError([f"base design: {line}" for line in err.problems]) from None
     design_source(base, params, mid)  # structural problems (fractions without a ring) raise
-    flat, _ = results_of(base_design, gaps, isothermal=bool(run.get("isothermal", False)))
+    flat, _, _ = results_of(base_design, gaps, isothermal=bool(run.get("isothermal", False)))
     known = sorted(flat)
     for what, items in (("objectives", objectives), ("constraints", constraints)):
         for item in items:

@@ -1,0 +1,257 @@
+"""The morning after a study: front table and plots, the report, and the hand-off of one design.
+
+``write_front`` writes, in the study folder: ``front.csv`` and ``front.parquet`` (the front's
+rows of ``optim.front.trials_table``), ``trials.csv`` (every trial), the plots (``plots/``, PNG and
+SVG) and ``report.html``. ``export_trial`` writes the hand-off of one trial (``optim.handoff``),
+after re-evaluating its design and checking that the numbers are the ones the study stored.
+"""
+
+from __future__ import annotations
+
+import io
+import math
+from datetime import UTC, datetime
+from pathlib import Path
+
+from models.errors import DesignError
+from optim.files import atomic_path, atomic_write_text, safe_name
+from optim.front import status_summary, trials_table
+
+__all__ = ["write_front", "export_trial", "pick_trial", "design_of"]
+
+
+def _spec(spec_json):
+    from optim.spec import spec_from_json
+
+    return spec_from_json(spec_json)
+
+
+def design_of(spec, params: dict):
+    """The trial's design (validated) from the study's base design and the trial's parameters."""
+    from optim.space import build_design
+
+    return build_design(spec.base, spec.params, params, spec.name)
+
+
+def _picked(front, objectives: dict, limit: int = 3) -> list[int]:
+    """Front trials worth a closer look: the best in each objective, then the knee (closest to
+    the ideal point in normalised objectives), at most ``limit``."""
+    picked: list[int] = []
+    if front.empty:
+        return picked
+    for name, direction in objectives.items():
+        col = front[name].astype(float)
+        idx = col.idxmax() if direction == "maximize" else col.idxmin()
+        t = int(front.loc[idx, "trial"])
+        if t not in picked:
+            picked.append(t)
+    if len(objectives) > 1 and len(front) > 2:
+        dist = 0.0
+        for name, direction in objectives.items():
+            col = front[name].astype(float)
+            span = (col.max() - col.min()) or 1.0
+            best = col.max() if direction == "maximize" else col.min()
+            dist = dist + ((col - best) / span) ** 2
+        t = int(front.loc[dist.idxmin(), "trial"])
+        if t not in picked:
+            picked.append(t)
+    return picked[:limit]
+
+
+def _notes(spec, df, front) -> list[str]:
+    from models.evaluate import VALIDATED_RANGE
+
+    ranges = "; ".join(f"{k} {lo:g}-{hi:g}" for k, (lo, hi) in VALIDATED_RANGE.items())
+    notes = [
+        "Fast multi-loop model: linear steel (no saturation, no hysteresis loss), laminated pole. "
+        f"Held to the finite-element reference over: {ranges}. Near a change of sign the pull is "
+        "a small difference of large terms: check the chosen design with 'eddypull study export "
+        "--verify' or 'eddypull verify'.",
+        "Thermal limits come from a lumped network with a published convection correlation; "
+        "treat temperatures within about 10-20 % of a limit as a reason for a bench test."
+        if not spec.run.get("isothermal")
+        else "This study evaluated every part at 20 degC (isothermal): its temperatures are not "
+        "checked; re-evaluate the chosen design without --isothermal.",
+    ]
+    if "warnings" in df:
+        pass
+    failed = df[df["state"] == "FAIL"] if not df.empty else df
+    if len(failed):
+        kinds: dict[str, int] = {}
+        for r in failed["reason"]:
+            key = str(r).split(":")[0]
+            kinds[key] = kinds.get(key, 0) + 1
+        notes.append(
+            "Failed trials (never on the front): "
+            + ", ".join(f"{v} {k}" for k, v in sorted(kinds.items(), key=lambda kv: -kv[1]))
+        )
+    return notes
+
+
+def write_front(study, spec_json: dict, where: str, folder: Path, echo=print) -> dict:
+    """Write the front table, plots and report of a study into ``folder``; returns the paths and
+    the lines to print."""
+    from optim import plots
+    from optim.report import binding_counts, write_report
+
+    folder = Path(folder)
+    folder.mkdir(parents=True, exist_ok=True)
+    spec = _spec(spec_json)
+    objectives = dict(spec_json["objectives"])
+    df = trials_table(study, spec_json)
+    front = df[df["on_front"]].copy() if not df.empty else df
+    if not front.empty:
+        first, direction = next(iter(objectives.items()))
+        front = front.sort_values(first, ascending=direction == "minimize")
+    paths: dict[str, Path] = {}
+    csv = io.StringIO()
+    front.to_csv(csv, index=False)
+    paths["front.csv"] = atomic_write_text(folder / "front.csv", csv.getvalue())
+    all_csv = io.StringIO()
+    df.to_csv(all_csv, index=False)
+    paths["trials.csv"] = atomic_write_text(folder / "trials.csv", all_csv.getvalue())
+    with atomic_path(folder / "front.parquet") as tmp:
+        front.reset_index(drop=True).to_parquet(tmp, index=False)
+    paths["front.parquet"] = folder / "front.parquet"
+
+    plot_dir = folder / "plots"
+    images: list[Path] = []
+    images += plots.plot_front_pairs(df, objectives, plot_dir)
+    images += plots.plot_front_progress(df, objectives, plot_dir)
+    images += plots.plot_parameter_coupling(front, [p.name for p in spec.params], plot_dir)
+    picked = _picked(front, objectives)
+    designs = []
+    for t in picked:
+        row = front[front["trial"] == t].iloc[0]
+        designs.append((f"trial {t}", design_of(spec, {p.name: row[p.name] for p in spec.params})))
+    isothermal = bool(spec.run.get("isothermal", False))
+    if designs:
+        images += plots.plot_pull_vs_gap(designs, plot_dir, isothermal=isothermal)
+        images += plots.plot_section(designs[0][1], plot_dir, designs[0][0])
+    pngs = [p for p in images if Path(p).suffix == ".png"]
+    summary = status_summary(study, spec_json, df)
+    summary.update(
+        {
+            "study": spec.name,
+            "storage": where,
+            "budget": _budget_text(spec.run),
+            "sampler": spec.run.get("sampler", "nsga2"),
+            "picked trials": ", ".join(str(t) for t in picked) or "-",
+        }
+    )
+    report = write_report(
+        folder, summary, front, pngs, binding_counts(front), _notes(spec, df, front)
+    )
+    paths["report.html"] = Path(report)
+    lines = [
+        f"study {spec.name}: {len(df)} trials, {int(df['feasible'].sum()) if len(df) else 0} "
+        f"feasible, front of {len(front)}",
+        f"front table   {paths['front.csv']} (and .parquet)",
+        f"all trials    {paths['trials.csv']}",
+        f"plots         {plot_dir} ({len(images)} files)",
+        f"report        {paths['report.html']}",
+    ]
+    return {"paths": paths, "lines": lines, "picked": picked, "front": front}
+
+
+def _budget_text(run: dict) -> str:
+    parts = []
+    if "trials" in run:
+        parts.append(f"{run['trials']} trials")
+    if "hours" in run or "minutes" in run:
+        parts.append(f"{run.get('hours', 0) * 60 + run.get('minutes', 0):g} min")
+    parts.append(f"{run.get('workers', 1)} worker(s) per machine")
+    return ", ".join(parts)
+
+
+def pick_trial(study, spec_json: dict, trial: int | None, best: str | None):
+    """The stored trial to export: by number, or the front's best in one objective."""
+    trials = study.get_trials(deepcopy=False)
+    if trial is not None:
+        if not 0 <= trial < len(trials):
+            raise DesignError(
+                f"--trial {trial}: must be a trial number from 0 to {len(trials) - 1}"
+            )
+        t = trials[trial]
+        if t.state.name != "COMPLETE":
+            reason = t.user_attrs.get("eddypull", {}).get("reason", "")
+            raise DesignError(
+                f"--trial {trial}: state {t.state.name} ({reason or 'no result'}); pick a "
+                "completed trial, e.g. one of the front"
+            )
+        return t
+    objectives = dict(spec_json["objectives"])
+    if best not in objectives:
+        raise DesignError(
+            f"--best {best!r}: must be one of the objectives: {', '.join(objectives)}"
+        )
+    df = trials_table(study, spec_json)
+    front = df[df["on_front"]] if not df.empty else df
+    if front.empty:
+        raise DesignError(f"--best {best}: the study has no feasible design yet")
+    col = front[best].astype(float)
+    idx = col.idxmax() if objectives[best] == "maximize" else col.idxmin()
+    return trials[int(front.loc[idx, "trial"])]
+
+
+def export_trial(
+    study,
+    spec_json: dict,
+    where: str,
+    folder: Path,
+    trial: int | None = None,
+    best: str | None = None,
+    out=None,
+    verify: bool = False,
+) -> dict:
+    """Write the hand-off of one trial; returns file name -> path."""
+    from models.evaluate import evaluate
+    from optim.engine import record_of
+    from optim.handoff import write_handoff
+
+    spec = _spec(spec_json)
+    t = pick_trial(study, spec_json, trial, best)
+    design = design_of(spec, t.params)
+    isothermal = bool(spec.run.get("isothermal", False))
+    result = evaluate(design, isothermal=isothermal)
+    record = record_of(t)
+    names = study.user_attrs.get("eddypull_result_names", [])
+    stored = dict(zip(names, record.get("results", []), strict=False))
+    if out is None:
+        target = Path(folder) / f"handoff-trial-{t.number}"
+    else:
+        target = Path(out)
+        if not target.is_absolute() and len(target.parts) == 1:
+            safe_name(str(out), "--out")
+            target = Path(folder) / target
+    objective_values = dict(zip(spec_json["objectives"], t.values, strict=True))
+    now = result.to_dict()
+    drift = [
+        name
+        for name in ("pull_N", "input_power_W", "ring_loss_W")
+        if name in stored
+        and math.isfinite(stored[name])
+        and abs(now[name] - stored[name]) > 1e-9 * max(abs(stored[name]), 1e-12)
+    ]
+    meta = {
+        "study": spec.name,
+        "trial": t.number,
+        "storage": where,
+        "objectives": objective_values,
+        "constraint_margins": record.get("margins", {}),
+        "feasible": all(v <= 0 for v in t.constraints.values()),
+        "created_at": datetime.now(UTC).isoformat(timespec="seconds"),
+        "isothermal": isothermal,
+        "stored_results_match": not drift,
+    }
+    checked = None
+    if verify:
+        from optim.verify import run_verify
+
+        checked = run_verify(design)
+    paths = write_handoff(design, result, target, meta, verify=checked)
+    if drift:
+        paths["note"] = Path(
+            f"re-evaluation differs from the stored {', '.join(drift)} (model changed since)"
+        )
+    return paths
