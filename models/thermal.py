@@ -400,7 +400,7 @@ def build_network(design) -> ThermalNetwork:
       q t^2 / (24 k) above its mean, t the smaller of its radial and axial build (1-D slab: an
       upper bound of the 2-D rise).
     * Core and face: the pole is split into a face slab (the groove depth, at least a tenth and
-      at most half of the pole) and the core behind it, joined through k A / (t_f / 2 + L_c / 3)
+      at most half of the pole unless the groove is deeper) and the core behind it, joined through k A / (t_f / 2 + L_c / 3)
       (the mean of a rod heated along its length and cooled at one end lies L / (3 k A) above it).
       The pole's side between coil and face belongs to the face, the rest of its side and its back
       to the core. No heat leaves through a mounting (conservative).
@@ -477,7 +477,9 @@ def build_network(design) -> ThermalNetwork:
     # --- pole: face slab and core
     area_p = math.pi * p.radius**2
     depth = ring.depth if ring is not None else 0.0
-    t_f = min(max(depth, 0.1 * p.length), 0.5 * p.length)
+    # at least the groove (whose volume it loses), else a tenth to half of the pole; the core
+    # keeps the rest (the groove is shallower than the pole, models.design)
+    t_f = max(min(max(depth, 0.1 * p.length), 0.5 * p.length), depth)
     l_core = p.length - t_f
     groove = (
         0.0 if ring is None else math.pi * (ring.outer_radius**2 - ring.inner_radius**2) * depth

@@ -408,3 +408,12 @@ def test_with_value_reaches_thermal_keys():
     d = _design()
     assert with_value(d, "duty_cycle", 0.5).thermal.duty_cycle == 0.5
     assert with_value(d, "supply.max_VA", 300).supply.max_apparent_power == 300.0
+
+
+def test_deep_groove_keeps_positive_heat_capacities():
+    # A groove deeper than half the pole (legal: depth < length) still leaves steel in the face
+    # slab and the core: every node stores heat (a capacity is a mass times c_p > 0).
+    d = copy.deepcopy(demo_dict())
+    d["ring"]["depth_mm"] = 35.0  # of a 40 mm pole
+    net = build_network(design_from_dict(d))
+    assert np.all(net.capacity > 0)
