@@ -414,6 +414,7 @@ def test_deep_groove_keeps_positive_heat_capacities():
     # A groove deeper than half the pole (legal: depth < length) still leaves steel in the face
     # slab and the core: every node stores heat (a capacity is a mass times c_p > 0).
     d = copy.deepcopy(demo_dict())
-    d["ring"]["depth_mm"] = 35.0  # of a 40 mm pole
+    # groove 0.2-9.8 mm by 35 mm: more steel than half the 10 x 40 mm pole
+    d["ring"].update(inner_radius_mm=0.2, outer_radius_mm=9.8, depth_mm=35.0)
     net = build_network(design_from_dict(d))
     assert np.all(net.capacity > 0)
