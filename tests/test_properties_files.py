@@ -19,6 +19,7 @@ import subprocess
 import sys
 import tomllib
 from contextlib import contextmanager
+from pathlib import Path
 
 import pytest
 from hypothesis import HealthCheck, assume, given, settings
@@ -39,7 +40,7 @@ pytestmark = pytest.mark.filterwarnings(
 TIME_BOX_S = 10
 
 FILES = settings(
-    max_examples=300,
+    max_examples=400,
     deadline=None,  # the time box below guards hangs; hypothesis's deadline only reports late
     derandomize=True,
     database=None,
@@ -138,9 +139,13 @@ def _report_counts(request):
     """After the module: how many malformed inputs each category tried (for the record)."""
     yield
     reporter = request.config.pluginmanager.get_plugin("terminalreporter")
-    if reporter is not None and COUNTS:
+    capture = request.config.pluginmanager.get_plugin("capturemanager")
+    if reporter is not None and capture is not None and COUNTS:
         total = sum(COUNTS.values())
-        reporter.write_line(f"malformed inputs tried: {total}: {dict(sorted(COUNTS.items()))}")
+        with capture.global_and_fixture_disabled():
+            reporter.write_line(
+                f"\nmalformed inputs tried: {total}: {dict(sorted(COUNTS.items()))}"
+            )
 
 
 def run_cli(path, capsys, category):
@@ -495,3 +500,114 @@ def test_console_script_exit_code_2(content, tmp_path):
     assert proc.stdout == ""
     assert "Traceback" not in proc.stderr
     assert proc.stderr.startswith("eddypull: error: ")
+
+
+# ------------------------------------------------------------------ no code from user files
+ROOT = Path(__file__).resolve().parents[1]
+#: Modules that turn bytes into objects or run code: none may be imported by the package.
+UNSAFE_MODULES = {
+    "pickle",
+    "cPickle",
+    "_pickle",
+    "dill",
+    "cloudpickle",
+    "marshal",
+    "shelve",
+    "yaml",
+    "jsonpickle",
+}
+UNSAFE_BUILTINS = {"eval", "exec", "compile", "__import__", "breakpoint"}
+UNSAFE_ATTRIBUTES = {"read_pickle", "to_pickle", "loads_pickle", "system", "popen"}
+#: The one dynamic import, with why it is safe. optim/engine.py: benchmarks swap the model for a
+#: stand-in named by a Python keyword argument of run_study (tests/perf/bench_study.py); no study
+#: or design file can set it.
+ALLOWED_DYNAMIC_IMPORTS = {"optim/engine.py"}
+
+
+def _unsafe_uses(root) -> list[str]:
+    """Unsafe uses in the package's sources under ``root``, found in their syntax trees (so
+    comments and strings do not count): unpickling, eval or exec, a shell, a dynamic import
+    outside the allowed place."""
+    import ast
+
+    found = []
+    sources = sorted(p for d in ("models", "optim") for p in (root / d).rglob("*.py"))
+    for path in sources:
+        rel = path.relative_to(root).as_posix()
+        for node in ast.walk(ast.parse(path.read_text(encoding="utf-8"), filename=rel)):
+            if isinstance(node, ast.Import):
+                names = [a.name.split(".")[0] for a in node.names]
+            elif isinstance(node, ast.ImportFrom):
+                names = [(node.module or "").split(".")[0]]
+            else:
+                names = []
+            found += [f"{rel}:{node.lineno}: import {n}" for n in names if n in UNSAFE_MODULES]
+            if isinstance(node, ast.Call):
+                f = node.func
+                if isinstance(f, ast.Name) and f.id in UNSAFE_BUILTINS:
+                    found.append(f"{rel}:{node.lineno}: {f.id}()")
+                if isinstance(f, ast.Attribute) and f.attr in UNSAFE_ATTRIBUTES:
+                    found.append(f"{rel}:{node.lineno}: .{f.attr}()")
+                if (
+                    isinstance(f, ast.Attribute)
+                    and f.attr == "import_module"
+                    and rel not in ALLOWED_DYNAMIC_IMPORTS
+                ):
+                    found.append(f"{rel}:{node.lineno}: import_module()")
+                for kw in node.keywords:
+                    unsafe = kw.arg in ("allow_pickle", "shell") and not (
+                        isinstance(kw.value, ast.Constant) and kw.value.value is False
+                    )
+                    if unsafe:
+                        found.append(f"{rel}:{node.lineno}: {kw.arg}=")
+    return found
+
+
+def test_package_never_loads_pickles_or_evaluates_code():
+    assert _unsafe_uses(ROOT) == []
+
+
+def test_the_static_check_sees_what_it_looks_for(tmp_path):
+    # The check above must be able to fail: a package with each unsafe use, and a comment.
+    for d in ("models", "optim"):
+        (tmp_path / d).mkdir()
+    (tmp_path / "optim" / "bad.py").write_text(
+        "import pickle  # eval(\nimport numpy as np\n"
+        "x = eval('1')\ny = np.load('f', allow_pickle=True)\n"
+        "import importlib\nz = importlib.import_module('os')\n"
+    )
+    found = "\n".join(_unsafe_uses(tmp_path))
+    for what in ("1: import pickle", "3: eval()", "4: allow_pickle=", "6: import_module()"):
+        assert what in found
+    assert len(found.splitlines()) == 4
+
+
+PAYLOADS = [
+    "__import__('os').system('touch {marker}')",
+    "!!python/object/apply:os.system ['touch {marker}']",
+    "$(touch {marker})",
+    "`touch {marker}`",
+    "{{{{ ''.__class__.__mro__[1].__subclasses__() }}}}; open('{marker}', 'w')",
+]
+
+
+@pytest.mark.parametrize("payload", PAYLOADS)
+def test_code_in_a_design_file_is_never_run(payload, tmp_path, capsys):
+    marker = tmp_path / "ran"
+    text = payload.format(marker=marker)
+    # as a material (refused: unknown) and as the free-text name and description (accepted and
+    # evaluated as plain text): the marker file must never appear
+    bad = _demo()
+    bad["target"]["material"] = text
+    path = tmp_path / "bad.toml"
+    path.write_text(to_toml(bad), encoding="utf-8")
+    (line,) = run_cli(path, capsys, "code payload")
+    assert "target.material" in line
+    ok = _demo()
+    ok["name"], ok["description"] = text, text
+    path.write_text(to_toml(ok), encoding="utf-8")
+    capsys.readouterr()
+    with _time_box(60):
+        assert main(["evaluate", str(path), "--json", "--isothermal"]) == 0
+    capsys.readouterr()
+    assert not marker.exists()
