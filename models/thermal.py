@@ -802,7 +802,7 @@ def time_to_limits(state: ThermalState, limits: dict):
     the steady state: heat out is 0 at ambient), P(T) = P* (1 + s (T - T*)) on-state. Symmetric
     form y = C^(1/2) T: the modes of C^(-1/2) (A - diag(P* s)) C^(-1/2), each
     z(t) = z0 exp(-l t) + f (1 - exp(-l t)) / l. The first crossing is found on a logarithmic grid
-    and refined by bisection to 1e-4 of the time.
+    and refined on 64 points inside the bracket with linear interpolation (better than 1e-4 of the time).
     """
     net = state.network
     T_star = state.T if np.all(np.isfinite(state.T)) else state.T_last
@@ -835,7 +835,7 @@ def time_to_limits(state: ThermalState, limits: dict):
     t_hi = min(50.0 * np.abs(taus[np.isfinite(taus)]).max(), 1e9)
     if lam.min() < 0:  # a growing mode: stop before exp(-l t) leaves the float range
         t_hi = min(t_hi, 500.0 / -lam.min())
-    grid = np.geomspace(t_lo, max(t_hi, 10 * t_lo), 400)
+    grid = np.geomspace(t_lo, max(t_hi, 10 * t_lo), 200)
     curve = temps(grid)
     out = {}
     for name, limit in limits.items():
@@ -846,13 +846,11 @@ def time_to_limits(state: ThermalState, limits: dict):
             continue
         j = above[0]
         lo, hi = (grid[j - 1] if j > 0 else 0.0), grid[j]
-        for _ in range(40):
-            mid = 0.5 * (lo + hi)
-            if temps(mid)[0, k] >= limit:
-                hi = mid
-            else:
-                lo = mid
-            if hi - lo < 1e-4 * hi:
-                break
+        # one finer pass inside the bracket, then linear interpolation between its points
+        sub = np.linspace(lo, hi, 65)
+        vals = temps(sub)[:, k]
+        m = max(int(np.argmax(vals >= limit)), 1)
+        t0, t1, v0, v1 = sub[m - 1], sub[m], vals[m - 1], vals[m]
+        hi = t1 if v1 == v0 else t0 + (limit - v0) * (t1 - t0) / (v1 - v0)
         out[name] = float(hi)
     return out, np.sort(taus)
