@@ -32,6 +32,7 @@ __all__ = [
     "repair_journal",
     "create_or_load",
     "load_existing",
+    "release",
 ]
 
 JOURNAL = "journal.log"
@@ -175,21 +176,34 @@ def load_existing(location, name: str | None = None):
                 f"study {str(location)!r}: no {JOURNAL} there; give a study folder or a URL"
             )
     storage, where = open_storage(location, repair=False)
-    summaries = optuna.get_all_study_summaries(storage, include_best_trial=False)
-    names = [s.study_name for s in summaries]
-    if not names:
-        raise DesignError(f"study {where!r}: the storage holds no study")
-    if name is None:
-        if len(names) > 1:
-            raise DesignError(
-                f"study {where!r}: holds {len(names)} studies ({', '.join(names)}); pick one "
-                "with --name"
-            )
-        name = names[0]
-    elif name not in names:
-        raise DesignError(f"--name {name!r}: not in {where!r}; it holds {', '.join(names)}")
-    study = optuna.load_study(study_name=name, storage=storage)
-    spec = study.user_attrs.get(SPEC_ATTR)
-    if spec is None:
-        raise DesignError(f"study {name!r} in {where!r}: not an eddypull study (no definition)")
+    try:
+        summaries = optuna.get_all_study_summaries(storage, include_best_trial=False)
+        names = [s.study_name for s in summaries]
+        if not names:
+            raise DesignError(f"study {where!r}: the storage holds no study")
+        if name is None:
+            if len(names) > 1:
+                raise DesignError(
+                    f"study {where!r}: holds {len(names)} studies ({', '.join(names)}); pick "
+                    "one with --name"
+                )
+            name = names[0]
+        elif name not in names:
+            raise DesignError(f"--name {name!r}: not in {where!r}; it holds {', '.join(names)}")
+        study = optuna.load_study(study_name=name, storage=storage)
+        spec = study.user_attrs.get(SPEC_ATTR)
+        if spec is None:
+            raise DesignError(f"study {name!r} in {where!r}: not an eddypull study (no definition)")
+    except BaseException:
+        release(storage)
+        raise
     return study, spec, where
+
+
+def release(study_or_storage) -> None:
+    """Close the database connections behind a study or storage (a no-op for a journal)."""
+    storage = getattr(study_or_storage, "_storage", study_or_storage)
+    backend = getattr(storage, "_backend", storage)
+    engine = getattr(backend, "engine", None)
+    if engine is not None:
+        engine.dispose()

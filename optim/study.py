@@ -20,7 +20,7 @@ from pathlib import Path
 from models.errors import DesignError
 from optim.engine import RESULT_NAMES_ATTR, run_worker
 from optim.files import redact_url
-from optim.storage import create_or_load, is_url, open_storage
+from optim.storage import create_or_load, is_url, open_storage, release
 
 __all__ = ["study_folder", "run_study", "Progress", "prepare"]
 
@@ -126,6 +126,7 @@ def run_study(
     log = _file_logger(folder)
     study, where = prepare(spec, location)
     start_count = len(study.get_trials(deepcopy=False))
+    release(study)
     deadline = time.time() + 60.0 * minutes if minutes is not None else None
     progress = Progress(spec, start_count, trials, deadline)
     tty = sys.stdout.isatty() if tty is None else tty

@@ -1,0 +1,185 @@
+"""Studies on a real PostgreSQL server shared by several `study run` processes ("machines").
+
+The server comes from Debian's packages: .ci/run starts one (.ci/postgres) and exports
+EDDYPULL_TEST_POSTGRES_URL; without it these tests skip, unless EDDYPULL_REQUIRE_POSTGRES is set
+(as in CI), where a missing server is a failure.
+"""
+
+from __future__ import annotations
+
+import json
+import os
+import signal
+import subprocess
+import sys
+import time
+import uuid
+from pathlib import Path
+
+import pytest
+
+from optim.storage import load_existing, release
+from tests.conftest import DEMO, ROOT
+from tests.test_study import QUICK
+
+ENV = {**os.environ, "PYTHONPATH": str(ROOT)}
+URL = os.environ.get("EDDYPULL_TEST_POSTGRES_URL")
+PASSWORD = "pw-Zq7-never-printed"
+
+if not URL:
+    if os.environ.get("EDDYPULL_REQUIRE_POSTGRES"):
+        raise RuntimeError("EDDYPULL_REQUIRE_POSTGRES is set but EDDYPULL_TEST_POSTGRES_URL is not")
+    pytest.skip("no PostgreSQL server (set EDDYPULL_TEST_POSTGRES_URL)", allow_module_level=True)
+
+
+def _with_password(url: str) -> str:
+    """The same server with a password in the URL (the test server trusts loopback, so the
+    password is accepted and ignored; what matters is that it is never written anywhere)."""
+    scheme, rest = url.split("://", 1)
+    user, host = rest.split("@", 1)
+    return f"{scheme}://{user.split(':')[0]}:{PASSWORD}@{host}"
+
+
+def _study(tmp_path: Path, name: str) -> Path:
+    path = tmp_path / f"{name}.toml"
+    path.write_text(f'name = "{name}"\ndesign = "{DEMO.as_posix()}"\n{QUICK}', encoding="utf-8")
+    return path
+
+
+def _run(*args, **kw):
+    return subprocess.Popen(
+        [sys.executable, "-m", "optim.cli", *args],
+        stdout=subprocess.PIPE,
+        stderr=subprocess.PIPE,
+        text=True,
+        env=ENV,
+        cwd=ROOT,
+        **kw,
+    )
+
+
+@pytest.mark.slow
+def test_two_machines_share_one_postgresql_study_without_loss_or_duplicates(tmp_path):
+    name = f"pg-{uuid.uuid4().hex[:8]}"
+    study_file = _study(tmp_path, name)
+    url = _with_password(URL)
+    procs = [
+        _run(
+            "study",
+            "run",
+            str(study_file),
+            "--storage",
+            url,
+            "--workers",
+            "2",
+            "--trials",
+            "30",
+            "--out",
+            str(tmp_path / f"m{i}"),
+            "--json",
+        )
+        for i in range(2)
+    ]
+    outs = [p.communicate(timeout=600) for p in procs]
+    reported = 0
+    for p, (out, err) in zip(procs, outs, strict=True):
+        assert p.returncode == 0, err
+        assert PASSWORD not in out + err
+        reported += json.loads(out.strip().splitlines()[-1])["trials_this_run"]
+    assert reported == 60
+    study, spec_json, where = load_existing(url, name)
+    assert PASSWORD not in where
+    trials = study.get_trials(deepcopy=False)
+    release(study)
+    assert len(trials) == 60  # none lost
+    ids = [t.user_attrs["eddypull"]["id"] for t in trials]
+    assert len(set(ids)) == 60  # none duplicated
+    assert sorted(t.number for t in trials) == list(range(60))
+    assert all(t.state.name in ("COMPLETE", "FAIL") for t in trials)
+    workers = {t.user_attrs["eddypull"]["worker"] for t in trials}
+    assert len(workers) == 4  # two processes on each of the two "machines"
+    for i in range(2):
+        log = (tmp_path / f"m{i}" / "run.log").read_text()
+        assert PASSWORD not in log and "ERROR" not in log
+
+
+@pytest.mark.slow
+def test_killed_worker_on_postgresql_loses_nothing_completed(tmp_path):
+    name = f"pgkill-{uuid.uuid4().hex[:8]}"
+    study_file = _study(tmp_path, name)
+    proc = _run(
+        "study",
+        "run",
+        str(study_file),
+        "--storage",
+        URL,
+        "--workers",
+        "2",
+        "--trials",
+        "100",
+        "--out",
+        str(tmp_path / "o"),
+        "--json",
+    )
+    kills, seen = 0, 0
+    deadline = time.time() + 300
+    while time.time() < deadline and kills < 2 and proc.poll() is None:
+        time.sleep(2.0)
+        kids = subprocess.run(["pgrep", "-P", str(proc.pid)], capture_output=True, text=True)
+        pids = [int(x) for x in kids.stdout.split()]
+        pids = [p for p in pids if Path(f"/proc/{p}/cmdline").exists()]
+        pids = [p for p in pids if b"spawn_main" in Path(f"/proc/{p}/cmdline").read_bytes()]
+        try:
+            study = load_existing(URL, name)[0]
+        except Exception:  # the study may not exist yet
+            continue
+        n = len(study.get_trials(deepcopy=False))
+        release(study)
+        assert n >= seen
+        seen = n
+        if pids and n > 8 * (kills + 1):
+            try:
+                os.kill(pids[0], signal.SIGKILL)
+            except ProcessLookupError:  # it had just finished its budget
+                continue
+            kills += 1
+    out, err = proc.communicate(timeout=600)
+    assert proc.returncode == 0, err
+    assert kills >= 1
+    summary = json.loads(out.strip().splitlines()[-1])
+    study = load_existing(URL, name)[0]
+    trials = study.get_trials(deepcopy=False)
+    release(study)
+    assert not [t for t in trials if t.state.name == "RUNNING"]
+    assert summary["trials_this_run"] <= len(trials) <= summary["trials_this_run"] + kills
+
+
+@pytest.mark.slow
+def test_password_never_reaches_outputs(tmp_path):
+    name = f"pgpw-{uuid.uuid4().hex[:8]}"
+    study_file = _study(tmp_path, name)
+    url = _with_password(URL)
+    folder = tmp_path / "o"
+    texts = []
+    for args in (
+        ("study", "run", str(study_file), "--storage", url, "--trials", "12", "--out", str(folder)),
+        ("study", "status", url, "--name", name),
+        ("study", "status", url, "--name", name, "--json"),
+        ("study", "front", url, "--name", name, "--out", str(folder)),
+        ("study", "export", url, "--name", name, "--trial", "0", "--out", str(folder / "h")),
+        (
+            "study",
+            "status",
+            url.replace(PASSWORD, PASSWORD + "x").replace("/eddypull_test", "/no_such_db"),
+        ),
+    ):
+        p = _run(*args)
+        out, err = p.communicate(timeout=600)
+        texts.append(out + err)
+        assert "Traceback" not in err
+    assert "cannot be opened" in texts[-1]  # the bad URL: one line, still redacted
+    for path in folder.rglob("*"):
+        if path.is_file():
+            texts.append(path.read_bytes().decode("utf-8", "replace"))
+    assert any("***" in t for t in texts)  # the URL is shown, redacted
+    assert all(PASSWORD not in t for t in texts)
