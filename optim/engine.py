@@ -9,8 +9,8 @@ How a worker keeps the storage out of the way of a millisecond model:
   to clean up after it.
 * Every ``sync_s`` seconds (and at start, which is how a study resumes) the worker copies the
   trials other workers and machines have finished into its private study, so that its sampler
-  learns from the whole study. NSGA-II's generation marks travel with them: the workers breed one
-  shared population.
+  learns from the whole study; the private study is a bounded window (optim.window), so that
+  asking costs the same at 10^2 and at 10^6 trials.
 * Each worker's sampler is seeded ``seed + worker index`` so that parallel workers do not propose
   identical trials.
 
@@ -31,6 +31,7 @@ import uuid
 from datetime import UTC
 
 from models.errors import DesignError
+from optim.window import SamplerWindow, window_limit
 
 __all__ = [
     "run_worker",
@@ -145,21 +146,6 @@ def _record(spec, params, dists, outcome, worker_id, t0, t1, result_names):
     )
 
 
-def _slim(trial, dists):
-    """A copy of a shared trial for the private sampler study: parameters, values, constraints
-    and the sampler's own marks, none of the results (keeps each worker's memory small)."""
-    import optuna
-
-    system = {k: v for k, v in trial.system_attrs.items() if not k.startswith("eddypull")}
-    return optuna.trial.create_trial(
-        state=trial.state,
-        params=trial.params,
-        distributions={k: dists[k] for k in trial.params if k in dists},
-        values=trial.values,
-        system_attrs=system,
-    )
-
-
 def run_worker(cfg: dict, queue=None, stop=None, counter=None) -> int:
     """Run one worker until its budget ends. Returns the number of trials it recorded.
 
@@ -181,20 +167,24 @@ def run_worker(cfg: dict, queue=None, stop=None, counter=None) -> int:
     result_names = shared.user_attrs[RESULT_NAMES_ATTR]
     dists = {p.name: p.distribution() for p in spec.params}
     worker_id = f"{socket.gethostname()}:{os.getpid()}:{uuid.uuid4().hex[:8]}"
-    private = optuna.create_study(
-        directions=spec.directions, sampler=make_sampler(spec, cfg.get("seed"))
+    seed = cfg.get("seed")
+    window = SamplerWindow(
+        spec.directions,
+        dists,
+        lambda k: make_sampler(spec, None if seed is None else seed + 7919 * k),
+        int(cfg.get("window_limit") or window_limit(int(spec.run.get("population", 40)))),
     )
     study_id = shared._study_id
     seen = -1
     sync_s = float(cfg.get("sync_s", SYNC_S))
 
-    def sync():
+    def sync(first=False):
         nonlocal seen
         trials = storage.get_all_trials(study_id, deepcopy=False, states=(TrialState.COMPLETE,))
         fresh = [t for t in trials if t.number > seen and record_of(t).get("worker") != worker_id]
-        for t in fresh:
-            if set(t.params) == set(dists):
-                private.add_trial(_slim(t, dists))
+        if first:  # a resumed study: the most recent window of it
+            fresh = fresh[-window.limit :]
+        window.add(fresh)
         if trials:
             seen = max(seen, max(t.number for t in trials))
 
@@ -204,7 +194,7 @@ def run_worker(cfg: dict, queue=None, stop=None, counter=None) -> int:
 
         module, _, func = cfg["evaluator"].partition(":")
         evaluator = getattr(importlib.import_module(module), func)
-    sync()
+    sync(first=True)
     last_sync = time.monotonic()
     recorded = 0
     try:
@@ -221,6 +211,7 @@ def run_worker(cfg: dict, queue=None, stop=None, counter=None) -> int:
             if time.monotonic() - last_sync > sync_s:
                 sync()
                 last_sync = time.monotonic()
+            private = window.study
             trial = private.ask(dists)
             params = dict(trial.params)
             t0 = time.time()
@@ -238,6 +229,7 @@ def run_worker(cfg: dict, queue=None, stop=None, counter=None) -> int:
                 private.tell(trial, outcome["values"])
             else:
                 private.tell(trial, state=TrialState.FAIL)
+            window.maybe_roll()
             if queue is not None:
                 queue.put(
                     (
@@ -250,4 +242,6 @@ def run_worker(cfg: dict, queue=None, stop=None, counter=None) -> int:
                 )
     except KeyboardInterrupt:
         pass
+    if queue is None:
+        cfg["_window"] = {"rollovers": window.rollovers, "size": len(window.study.trials)}
     return recorded
