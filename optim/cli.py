@@ -85,13 +85,17 @@ def _cmd_demo(args) -> int:
         minutes = args.minutes
     folder = study_folder(spec, DEMO_STUDY, Path(args.out) if args.out else None)
     print(f"demo study {DEMO_STUDY.name}: {spec.description}")
-    run_study(
+    summary = run_study(
         spec,
         folder,
         workers=args.workers if args.workers is not None else spec.run.get("workers", 1),
         trials=args.trials,
         minutes=minutes,
     )
+    for line in summary["errors"]:
+        print(f"eddypull: error: {line}", file=sys.stderr)
+    if summary["errors"]:
+        return 1
     study, spec_json, where = load_existing(folder)
     out = write_front(study, spec_json, where, folder)
     for line in out["lines"]:

@@ -221,7 +221,13 @@ def run_worker(cfg: dict, queue=None, stop=None, counter=None) -> int:
                 spec, params, dists, outcome, worker_id, t0, t1, result_names
             )
             frozen.datetime_start, frozen.datetime_complete = start, end
-            shared.add_trial(frozen)
+            try:
+                shared.add_trial(frozen)
+            except OSError as err:  # disk full, quota, lost mount: stop, say so, keep the rest
+                raise DesignError(
+                    f"storage write failed ({err.strerror or err}): every trial recorded before "
+                    "is kept; free space and run the same command again to resume"
+                ) from None
             recorded += 1
             for k, v in outcome["violations"].items():
                 trial.set_constraint(k, v)

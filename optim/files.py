@@ -97,13 +97,15 @@ def redact_url(url: str) -> str:
         parts = urlsplit(url)
     except ValueError:
         return re.sub(r"//[^@/]*@", "//***@", url)
-    if parts.password is None and "@" not in parts.netloc:
-        return url
-    host = parts.hostname or ""
-    if parts.port is not None:
-        host = f"{host}:{parts.port}"
-    user = parts.username or ""
-    netloc = f"{user}:***@{host}" if parts.password is not None else f"{user}@{host}"
-    # Query strings can carry a password too (e.g. ?password=...).
     query = re.sub(r"(?i)(password|passwd|pwd)=[^&]*", r"\1=***", parts.query)
+    netloc = parts.netloc
+    if "@" not in netloc and query == parts.query:
+        return url  # nothing secret; keep the URL exactly as given (sqlite:///x.db)
+    if "@" in netloc:
+        host = parts.hostname or ""
+        if parts.port is not None:
+            host = f"{host}:{parts.port}"
+        user = parts.username or ""
+        netloc = f"{user}:***@{host}" if parts.password is not None else f"{user}@{host}"
+    # Query strings can carry a password too (e.g. ?password=...).
     return urlunsplit((parts.scheme, netloc, parts.path, query, parts.fragment))

@@ -164,6 +164,7 @@ def run_study(
     for i in range(workers):
         start(i, 0)
     interrupted = False
+    errors: list[str] = []
     last_print = 0.0
     try:
         while procs:
@@ -172,8 +173,9 @@ def run_study(
                 if msg[0] == "trial":
                     progress.add(msg[1], msg[2], msg[3])
                 elif msg[0] == "error":
-                    echo(f"worker error: {msg[1]}")
-                    log.error(msg[1])
+                    if msg[1] not in errors:
+                        errors.append(msg[1])
+                        log.error(msg[1])
                     stop.set()
             except queue_mod.Empty:
                 pass
@@ -218,6 +220,9 @@ def run_study(
             break
         if msg[0] == "trial":
             progress.add(msg[1], msg[2], msg[3])
+        elif msg[0] == "error" and msg[1] not in errors:
+            errors.append(msg[1])
+            log.error(msg[1])
     if tty:
         sys.stdout.write("\n")
     end = progress.line()
@@ -233,6 +238,7 @@ def run_study(
         "elapsed_s": time.time() - progress.t0,
         "interrupted": interrupted,
         "restarts": restarts,
+        "errors": errors,
     }
 
 

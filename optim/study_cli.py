@@ -3,6 +3,7 @@
 from __future__ import annotations
 
 import json
+import sys
 from pathlib import Path
 
 from models.errors import DesignError
@@ -45,7 +46,9 @@ def _cmd_run(args) -> int:
         print(json.dumps(summary))
     else:
         print(f"study folder: {summary['folder']}")
-    return 0
+    for line in summary["errors"]:
+        print(f"eddypull: error: {line}", file=sys.stderr)
+    return 1 if summary["errors"] else 0
 
 
 def _open(args):
