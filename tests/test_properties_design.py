@@ -16,7 +16,7 @@ the pole, library materials or explicit constants, current or voltage drive. Inv
   frequency / s^2 leave the pull unchanged and divide every loss by s.
 
 Cost: one evaluation takes 30-100 ms here (a new pole geometry each time, so no cached pole
-model); the quick profiles run ~250 designs, the slow ones ~1700.
+model); the quick profiles run ~350 designs in all, the slow one 1000 more.
 """
 
 from __future__ import annotations
@@ -32,6 +32,12 @@ from models import design_from_dict, evaluate
 from models.design import MAX_FEATURE_RATIO, MIN_WALL_MM
 from models.filaments import mutual
 
+# Hypothesis's failure report trips over a deprecation in a dependency under warnings-as-errors;
+# without this a failing example shows as an INTERNALERROR instead of the example.
+pytestmark = pytest.mark.filterwarnings(
+    "ignore:mypy_extensions.TypedDict is deprecated:DeprecationWarning"
+)
+
 #: Conductors of the material library that a ring or target may be made of.
 CONDUCTORS = ["copper", "aluminium-1350", "aluminium-6061-t6", "brass-c26000"]
 
@@ -42,8 +48,8 @@ COMMON = dict(
     database=None,
     suppress_health_check=[HealthCheck.too_slow, HealthCheck.data_too_large],
 )
-QUICK = settings(max_examples=150, **COMMON)
-SLOW = settings(max_examples=1500, **COMMON)
+QUICK = settings(max_examples=100, **COMMON)
+SLOW = settings(max_examples=1000, **COMMON)
 
 
 def _log_uniform(lo, hi):
@@ -110,9 +116,7 @@ def valid_designs(draw, current_drive=None, allow_explicit=True, largest_pole_mm
         ring = {
             "inner_radius_mm": ri,
             "outer_radius_mm": ro,
-            # <= half the pole: a deeper groove breaks the thermal network's face slab
-            # (test_deep_groove_evaluates below)
-            "depth_mm": draw(st.floats(max(0.05, finest), min(10.0, 0.5 * length))),
+            "depth_mm": draw(st.floats(max(0.05, finest), min(10.0, 0.9 * length))),
         }
         if allow_explicit and draw(st.integers(0, 3)) == 0:
             ring["conductivity_S_per_m"] = draw(_log_uniform(1e6, 6e7))
@@ -160,7 +164,23 @@ def _force_scale(design, result) -> float:
     return 4.0 * b0**2 / (2.0 * mu_0) * math.pi * design.target.radius**2
 
 
+#: For the record (printed after the module): designs evaluated, the largest energy-balance
+#: residual relative to VA and the largest |pull| relative to the force scale.
+STATS = {"designs": 0, "balance / VA": 0.0, "pull / force scale": 0.0}
+
+
+@pytest.fixture(scope="module", autouse=True)
+def _report_stats(request):
+    yield
+    reporter = request.config.pluginmanager.get_plugin("terminalreporter")
+    capture = request.config.pluginmanager.get_plugin("capturemanager")
+    if reporter is not None and capture is not None and STATS["designs"]:
+        with capture.global_and_fixture_disabled():
+            reporter.write_line(f"\nvalid designs evaluated: {STATS}")
+
+
 def _check_invariants(design, r):
+    STATS["designs"] += 1
     assert all(math.isfinite(v) for v in _numbers(r)), r
     assert min(r.target_loss_W, r.ring_loss_W, r.coil_loss_W) >= 0.0
     # The split is the pull by definition (models/pull.py); 1e-12 relative to the largest term
@@ -173,15 +193,20 @@ def _check_invariants(design, r):
         assert split["ring"] == 0.0 and r.ring_loss_W == 0.0
     # Energy balance. The real power Re(V conj(I)) is the small real part of a complex number of
     # size VA; a dense double-precision solve leaves an error of (condition number) x 1e-16
-    # relative to VA; with condition numbers up to ~1e6 here, 1e-9 VA is the round-off budget.
+    # relative to VA. Measured: at most 7e-16 VA over the 1000-design sample; 1e-12 VA leaves
+    # room for condition numbers up to 1e4 and still sees a lost loss term of 1e-12 VA.
     losses = r.target_loss_W + r.ring_loss_W + r.coil_loss_W
-    assert abs(r.input_power_W - losses) <= 1e-9 * r.supply_VA
+    residual = abs(r.input_power_W - losses) / r.supply_VA
+    STATS["balance / VA"] = max(STATS["balance / VA"], residual)
+    assert residual <= 1e-12
     # |V| = |Z| |I| and VA = |V| |I| (definitions), to the rounding of two products
     z = complex(*r.coil_impedance_ohm)
     assert r.coil_voltage_V == pytest.approx(abs(z) * r.coil_current_A, rel=1e-12)
     assert r.supply_VA == pytest.approx(r.coil_voltage_V * r.coil_current_A, rel=1e-12)
     # Force scale (derivation at _force_scale)
-    assert abs(r.pull_N) <= _force_scale(design, r)
+    ratio = abs(r.pull_N) / _force_scale(design, r)
+    STATS["pull / force scale"] = max(STATS["pull / force scale"], ratio)
+    assert ratio <= 1.0
     # Weight = rho V g and the lift ratio by definition
     assert r.lift_ratio == pytest.approx(r.pull_N / r.target_weight_N, rel=1e-12)
 
@@ -204,6 +229,20 @@ def test_valid_designs_satisfy_the_invariants(data):
 @given(valid_designs())
 def test_many_valid_designs_satisfy_the_invariants(data):
     _evaluate_checked(data)
+
+
+@settings(max_examples=25, **COMMON)
+@given(valid_designs())
+def test_coupled_evaluation_never_raises(data):
+    # The command line's default: losses and temperatures iterated to agree. A thermal runaway is
+    # a result with a warning (models.evaluate.evaluate), never an exception; otherwise every
+    # number is finite and the split still sums to the pull (definition).
+    r = evaluate(design_from_dict(data), isothermal=False)
+    if r.thermal_status.startswith("runaway"):
+        assert any("runaway" in w for w in r.warnings)
+        return
+    assert all(math.isfinite(v) for v in _numbers(r))
+    assert r.pull_N == pytest.approx(sum(r.pull_by_source_N.values()), rel=1e-12, abs=1e-30)
 
 
 def _drive_consistency(data):
@@ -254,15 +293,11 @@ def _similarity(data, s):
     )
 
 
-@pytest.mark.xfail(
-    strict=True,
-    reason="models/thermal.py: the face slab is capped at half the pole length but the groove "
-    "volume taken from it is not, so a groove deeper than that gives a negative heat capacity",
-)
 def test_deep_groove_evaluates():
     # Found by test_similarity_of_scaled_designs: a legal design (ring depth < pole length) whose
-    # groove reaches past half the pole; the ring nearly fills the pole, so no grid point of the
-    # core-flux check was left either (fixed in models.evaluate._core_peak_flux_density).
+    # groove reaches past half the pole. It crashed twice: no grid point of the core-flux check
+    # was left (fixed in models.evaluate._core_peak_flux_density) and the thermal network's face
+    # slab got a negative heat capacity (fixed in models/thermal.py).
     data = {
         "pole": {"radius_mm": 4.0, "length_mm": 6.0, "material": "electrical-steel-m400"},
         "coil": {"inner_radius_mm": 4.0, "outer_radius_mm": 5.0, "setback_mm": 0.0},
