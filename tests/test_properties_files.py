@@ -611,3 +611,61 @@ def test_code_in_a_design_file_is_never_run(payload, tmp_path, capsys):
         assert main(["evaluate", str(path), "--json", "--isothermal"]) == 0
     capsys.readouterr()
     assert not marker.exists()
+
+
+# ------------------------------------------------------------------ the rules added for these
+@pytest.mark.parametrize(
+    "table, key, value, message",
+    [
+        # the face panels of a 10 mm pole would number in the millions (MemoryError before)
+        ("target", "gap_mm", 0.005, r"target.gap_mm = 0.005: must be >= pole.radius_mm / 1000"),
+        ("target", "radius_mm", 0.01, r"target.radius_mm = 0.01: must be >= pole.radius_mm / 500"),
+        ("ring", "depth_mm", 0.01, r"ring.depth_mm = 0.01: must be >= pole.radius_mm / 500"),
+        # overflowed inside the model (OverflowError before)
+        (
+            "drive",
+            "current_A",
+            1e300,
+            r"drive.current_A = 1e\+300: must be between 1e-06 and 100000$",
+        ),
+        # a denormal frequency made the skin depth divide by zero
+        ("drive", "frequency_Hz", 5e-324, r"drive.frequency_Hz = 5e-324: must be between 0.001"),
+        ("coil", "setback_mm", 1e-9, r"coil.setback_mm = 1e-09: must be 0 or between 0.001"),
+        ("coil", "turns", 10**400, r"coil.turns = 1000+: must be between 1 and 1e\+06"),
+    ],
+)
+def test_design_rules_for_absurd_values(table, key, value, message):
+    from models.design import design_from_dict
+    from models.errors import DesignError
+
+    d = _demo()
+    d[table][key] = value
+    with pytest.raises(DesignError, match=message):
+        design_from_dict(d)
+
+
+def test_long_thin_pole_is_refused():
+    from models.design import design_from_dict
+    from models.errors import DesignError
+
+    d = _demo()
+    d["pole"].update(radius_mm=2.0, length_mm=500.0)
+    del d["ring"]
+    with pytest.raises(DesignError, match=r"pole.length_mm = 500.0: must be <= 100 x pole.radius"):
+        design_from_dict(d)
+
+
+def test_problem_lines_never_break():
+    # A key with a line break in it (found by test_unknown_keys): the problem stays one line.
+    from models.design import design_from_dict
+    from models.errors import DesignError
+
+    d = _demo()
+    d["pole"]["radius\r\nmm"] = 1.0
+    with pytest.raises(DesignError) as info:
+        design_from_dict(d)
+    assert info.value.problems == [
+        "pole.radius\\r\\nmm: unknown key; allowed: "
+        + ", ".join(DESIGN_KEYS["pole"])
+        + " (did you mean 'radius_mm'?)"
+    ]
