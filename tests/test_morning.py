@@ -1,0 +1,119 @@
+"""The morning after, end to end: a finished study's front files, report and hand-off, and the
+demo command (the README's main job)."""
+
+from __future__ import annotations
+
+import csv
+import json
+import math
+from html.parser import HTMLParser
+
+import ezdxf
+import pandas as pd
+import pytest
+
+from models.design import load_design
+from models.evaluate import evaluate
+from optim.cli import main
+from optim.engine import record_of
+from optim.spec import load_study_spec
+from optim.storage import load_existing
+from optim.study import run_study
+from tests.conftest import ROOT
+
+
+@pytest.fixture(scope="module")
+def finished(tmp_path_factory):
+    """The demo study (thermal coupling, worst pull over three gaps), 40 trials, 2 workers."""
+    folder = tmp_path_factory.mktemp("morning") / "study"
+    spec = load_study_spec(ROOT / "studies" / "demo_study.toml")
+    run_study(spec, folder, workers=2, trials=40, echo=lambda *_: None, tty=False)
+    return folder
+
+
+def test_front_files_hold_exactly_the_feasible_non_dominated_trials(finished, capsys):
+    assert main(["study", "front", str(finished)]) == 0
+    study, spec_json, _ = load_existing(finished)
+    # Reference: optuna's constrained Pareto front of the stored trials.
+    expected = {t.number for t in study.best_trials}
+    front = pd.read_csv(finished / "front.csv")
+    assert set(front["trial"]) == expected
+    assert front["feasible"].all() and (front["state"] == "COMPLETE").all()
+    parquet = pd.read_parquet(finished / "front.parquet")
+    assert list(parquet["trial"]) == list(front["trial"])
+    for column in (
+        "worst_lift_ratio",
+        "input_power_W",
+        "ring_depth_mm",
+        "frequency_Hz",
+        "pole_radius_mm",
+        "ring_temperature_C",
+        "margin:core_flux_fraction",
+    ):
+        assert column in front.columns
+    html = (finished / "report.html").read_text(encoding="utf-8")
+
+    class Rows(HTMLParser):
+        def __init__(self):
+            super().__init__()
+            self.cells, self.in_td = [], False
+
+        def handle_starttag(self, tag, attrs):
+            self.in_td = tag == "td"
+
+        def handle_data(self, data):
+            if self.in_td:
+                self.cells.append(data.strip())
+
+    parser = Rows()
+    parser.feed(html)
+    for t in expected:
+        assert str(t) in parser.cells
+    assert "licensed" in html and "implant" in html  # the cautions
+    pngs = sorted(p.name for p in (finished / "plots").glob("*.png"))
+    assert any(p.startswith("front_") for p in pngs) and "pull_vs_gap.png" in pngs
+    assert len(list((finished / "plots").glob("*.svg"))) == len(pngs)
+
+
+def test_export_reproduces_the_stored_numbers(finished, tmp_path, capsys):
+    out = tmp_path / "handoff"
+    assert (
+        main(["study", "export", str(finished), "--best", "worst_lift_ratio", "--out", str(out)])
+        == 0
+    )
+    info = json.loads((out / "handoff.json").read_text())
+    study, spec_json, _ = load_existing(finished)
+    trial = study.trials[info["study"]["trial"]]
+    stored = dict(
+        zip(study.user_attrs["eddypull_result_names"], record_of(trial)["results"], strict=True)
+    )
+    again = evaluate(load_design(out / "design.toml"))  # the study ran with thermal coupling
+    for name in ("pull_N", "input_power_W", "ring_loss_W", "coil_temperature_C"):
+        assert math.isclose(getattr(again, name), stored[name], rel_tol=1e-12), name
+    assert info["study"]["stored_results_match"] is True
+    with (out / "parameters.csv").open(encoding="utf-8") as fh:
+        rows = list(csv.DictReader(fh))
+    by_name = {r["name"]: r for r in rows}
+    assert by_name["ring_depth_mm"]["unit"] == "mm"
+    assert math.isclose(float(by_name["ring_depth_mm"]["value"]), trial.params["ring_depth_mm"])
+    doc = ezdxf.readfile(out / "profile.dxf")
+    assert {"POLE", "RING", "COIL", "TARGET", "AXIS"} <= {layer.dxf.name for layer in doc.layers}
+    assert doc.header["$INSUNITS"] == 4  # millimetres
+
+
+def test_export_refuses_a_failed_or_missing_trial(finished, capsys):
+    assert main(["study", "export", str(finished), "--trial", "100000"]) == 2
+    assert "--trial 100000: must be a trial number" in capsys.readouterr().err
+    assert main(["study", "export", str(finished), "--best", "pull_N"]) == 2
+    assert "--best 'pull_N': must be one of the objectives" in capsys.readouterr().err
+
+
+@pytest.mark.slow
+def test_demo_command_runs_the_main_job(tmp_path, capsys):
+    assert main(["demo", "--trials", "16", "--workers", "1", "--out", str(tmp_path)]) == 0
+    out = capsys.readouterr().out
+    assert "report" in out and (tmp_path / "report.html").exists()
+    assert (tmp_path / "front.csv").exists() and (tmp_path / "journal.log").exists()
+    if "no feasible design yet" not in out:
+        assert (tmp_path / "handoff" / "profile.dxf").exists()
+    assert "licensed professional" in out
