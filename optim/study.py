@@ -17,6 +17,8 @@ import sys
 import time
 from pathlib import Path
 
+import numpy as np
+
 from models.errors import DesignError
 from optim.engine import RESULT_NAMES_ATTR, run_worker
 from optim.files import redact_url
@@ -50,9 +52,11 @@ class Progress:
         self.deadline = deadline
         self.done = self.failed = self.feasible = 0
         self.best = [None] * len(spec.objectives)
-        self.front: list[tuple] = []
+        self.signs = np.array([1.0 if d == "minimize" else -1.0 for d in spec.directions])
+        self.front = np.empty((0, len(spec.objectives)))
 
     def add(self, state, feasible, values):
+        """Count one finished trial; keep the front of feasible ones (minimisation form)."""
         self.done += 1
         if state != "COMPLETE":
             self.failed += 1
@@ -60,24 +64,23 @@ class Progress:
         if not feasible:
             return
         self.feasible += 1
-        signs = [1.0 if d == "minimize" else -1.0 for d in self.spec.directions]
-        v = tuple(s * x for s, x in zip(signs, values, strict=True))
+        v = self.signs * np.asarray(values, float)
         for i, x in enumerate(v):
             if self.best[i] is None or x < self.best[i]:
-                self.best[i] = x
-        if any(all(a <= b for a, b in zip(f, v, strict=True)) for f in self.front):
+                self.best[i] = float(x)
+        f = self.front
+        if len(f) and np.any(np.all(f <= v, axis=1) & np.any(f < v, axis=1)):
             return
-        self.front = [f for f in self.front if not all(a <= b for a, b in zip(v, f, strict=True))]
-        self.front.append(v)
+        keep = ~(np.all(v <= f, axis=1) & np.any(v < f, axis=1))
+        self.front = np.vstack([f[keep], v[None, :]])
 
     def line(self) -> str:
         elapsed = max(time.time() - self.t0, 1e-9)
         rate = self.done / elapsed
         share = self.feasible / self.done if self.done else 0.0
-        signs = [1.0 if d == "minimize" else -1.0 for d in self.spec.directions]
         best = ", ".join(
             f"{o.name} {'-' if b is None else format(s * b, '.4g')}"
-            for o, b, s in zip(self.spec.objectives, self.best, signs, strict=True)
+            for o, b, s in zip(self.spec.objectives, self.best, self.signs, strict=True)
         )
         left = []
         if self.deadline is not None:

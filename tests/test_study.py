@@ -418,3 +418,25 @@ def test_torn_last_journal_line_is_cut_and_kept(tmp_path):
     kept = list(folder.glob("journal.log.torn-*"))
     assert len(kept) == 1 and kept[0].read_bytes().startswith(b'{"op_code": 5')
     assert _count(folder) == (6, 0)
+
+
+def test_progress_front_equals_the_pareto_mask_of_all_points():
+    """The live front of the progress display is the batch Pareto front of what it was fed."""
+    from types import SimpleNamespace
+
+    from optim.study import Progress
+
+    spec = SimpleNamespace(
+        objectives=[
+            SimpleNamespace(name="a"),
+            SimpleNamespace(name="b"),
+            SimpleNamespace(name="c"),
+        ],
+        directions=["maximize", "minimize", "minimize"],
+    )
+    points = np.random.default_rng(5).random((2000, 3))
+    progress = Progress(spec, 0, None, None)
+    for x in points:
+        progress.add("COMPLETE", True, x)
+    expected = points[pareto_mask(points, spec.directions)] * progress.signs
+    assert sorted(map(tuple, progress.front)) == sorted(map(tuple, expected))
