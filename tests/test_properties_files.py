@@ -669,3 +669,17 @@ def test_problem_lines_never_break():
         + ", ".join(DESIGN_KEYS["pole"])
         + " (did you mean 'radius_mm'?)"
     ]
+
+
+@pytest.mark.parametrize("name", ["5000-digit integer", "deep arrays", "BOM and garbage"])
+def test_read_toml_names_what_it_reads(name, workdir):
+    # The one reader of TOML files (models.design.read_toml) for any file a user names: the
+    # problem line says which kind of file and which path.
+    from models.design import read_toml
+    from models.errors import DesignError
+
+    path = workdir / "any.toml"
+    path.write_bytes(FIXED[name])
+    with pytest.raises(DesignError, match=r"^study file '.*any\.toml': not valid TOML \(") as info:
+        read_toml(path, "study file")
+    assert len(info.value.problems) == 1
