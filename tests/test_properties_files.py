@@ -180,9 +180,32 @@ def _demo():
     return copy.deepcopy(_DEMO)
 
 
+#: The demo design with every optional key of [thermal] and [supply] set (valid values), so that
+#: the mutations below reach every key of the file.
 _DEMO = demo_dict()
+_DEMO["thermal"] = {
+    "ambient_C": 30.0,
+    "convection_W_per_m2K": 12.0,
+    "emissivity": 0.5,
+    "duty_cycle": 0.5,
+    "period_s": 10.0,
+    "hold_time_s": 1.0,
+    "coil_insulation_class": "F",
+    "ring_limit_C": 200.0,
+    "target_limit_C": 120.0,
+    "orientation": "face-down",
+    "ring_contact_W_per_m2K": 2000.0,
+    "winding_conductivity_W_per_mK": 1.0,
+}
+_DEMO["supply"] = {"max_voltage_V": 230.0, "max_current_A": 10.0, "max_VA": 2000.0}
 DEMO_FIELDS = [(t, k) for t, v in _DEMO.items() if isinstance(v, dict) for k in v]
 DEMO_NUMERIC = [(t, k) for t, k in DEMO_FIELDS if isinstance(_DEMO[t][k], (int, float))]
+#: Numeric keys for which a negative number is always wrong (temperatures may be below 0)
+SIZES = [
+    (t, k) for t, k in DEMO_NUMERIC if DESIGN_KEYS[t][k][0] in ("pos", "nonneg", "int", "frac")
+]
+#: Numeric keys with plausible limits (models.design.PLAUSIBLE_LIMITS)
+LIMITED = [(t, k) for t, k in DEMO_NUMERIC if any(k.endswith(u) for u in PLAUSIBLE_LIMITS)]
 
 
 # ------------------------------------------------------------------ generated categories
@@ -199,16 +222,22 @@ wrong_type_values = st.one_of(
 @given(st.sampled_from(DEMO_FIELDS), wrong_type_values)
 def test_wrong_types(workdir, capsys, field, value):
     table, key = field
-    if DESIGN_KEYS[table][key][0] == "str":
+    if DESIGN_KEYS[table][key][0] in ("str", "class"):
         assume(not isinstance(value, str))  # any string is the right type (a material name)
+    if DESIGN_KEYS[table][key][0] == "class":
+        assume(not isinstance(value, (int, float)))  # a temperature is the right type
     d = _demo()
     d[table][key] = value
     run_design(d, workdir, capsys, "wrong type", must_name=f"{table}.{key}")
 
 
 @FILES
-@given(st.sampled_from(["pole", "coil", "drive", "target"]), wrong_type_values)
+@given(
+    st.sampled_from(["pole", "coil", "drive", "target", "ring", "thermal", "supply"]),
+    wrong_type_values,
+)
 def test_tables_that_are_not_tables(workdir, capsys, table, value):
+    assume(not isinstance(value, dict))  # a table: another test's business
     d = _demo()
     d[table] = value
     run_design(d, workdir, capsys, "table not a table", must_name=table)
@@ -238,7 +267,7 @@ def test_missing_required_keys(workdir, capsys, field):
 
 @FILES
 @given(
-    st.sampled_from(DEMO_NUMERIC),
+    st.sampled_from(SIZES),
     st.one_of(
         st.just(0.0),
         st.just(0),
@@ -250,7 +279,7 @@ def test_missing_required_keys(workdir, capsys, field):
 def test_negative_and_zero_sizes(workdir, capsys, field, value):
     table, key = field
     kind = DESIGN_KEYS[table][key][0]
-    assume(not (kind == "nonneg" and value == 0))  # 0 is allowed there
+    assume(not (kind in ("nonneg", "unit") and value == 0))  # 0 is allowed there
     d = _demo()
     d[table][key] = value
     run_design(d, workdir, capsys, "negative or zero", must_name=f"{table}.{key}")
@@ -260,7 +289,7 @@ def test_negative_and_zero_sizes(workdir, capsys, field, value):
 def absurd_values(draw):
     """A numeric field and a value beyond PLAUSIBLE_LIMITS for its unit (too large or, where
     the field must be > 0, too small)."""
-    table, key = draw(st.sampled_from(DEMO_NUMERIC))
+    table, key = draw(st.sampled_from(LIMITED))
     lo, hi = next(v for k, v in PLAUSIBLE_LIMITS.items() if key.endswith(k))
     big = draw(st.one_of(st.floats(hi * 1.001, 1e308), st.integers(int(hi) + 1, 10**40)))
     if DESIGN_KEYS[table][key][0] != "pos" or lo <= 0 or draw(st.booleans()):
