@@ -14,6 +14,14 @@ from models.design import load_design
 from models.errors import DesignError
 from models.evaluate import evaluate
 
+
+def _json(obj) -> str:
+    """Strict JSON (infinite values as "inf"/"-inf", NaN as null): what every parser reads."""
+    from optim.handoff import to_jsonable
+
+    return json.dumps(to_jsonable(obj), allow_nan=False)
+
+
 __all__ = ["main"]
 
 DEMO_DESIGN = Path(__file__).resolve().parents[1] / "studies" / "demo_design.toml"
@@ -30,7 +38,7 @@ def _cmd_evaluate(args) -> int:
         key, values = parse_sweep(args.sweep)
         rows = run_sweep(design, key, values, isothermal=args.isothermal)
         if args.json:
-            print(json.dumps({"key": key, "rows": [{key: v, **r.to_dict()} for v, r in rows]}))
+            print(_json({"key": key, "rows": [{key: v, **r.to_dict()} for v, r in rows]}))
         else:
             print(format_sweep(key, rows))
         if args.plot:
@@ -42,7 +50,7 @@ def _cmd_evaluate(args) -> int:
         raise DesignError("--plot: needs --sweep KEY=START:STOP:COUNT")
     result = evaluate(design, isothermal=args.isothermal)
     if args.json:
-        print(json.dumps(result.to_dict()))
+        print(_json(result.to_dict()))
     else:
         print(format_result(design, result))
     return 0
@@ -53,7 +61,7 @@ def _cmd_verify(args) -> int:
 
     design = load_design(args.design)
     out = run_verify(design, refine=args.refine)
-    print(json.dumps(out["json"]) if args.json else out["text"])
+    print(_json(out["json"]) if args.json else out["text"])
     return 0
 
 
@@ -65,7 +73,7 @@ def _cmd_materials(args) -> int:
 
         from models.materials import MATERIALS
 
-        print(json.dumps({k: asdict(m) for k, m in MATERIALS.items()}))
+        print(_json({k: asdict(m) for k, m in MATERIALS.items()}))
     else:
         print(format_materials())
     return 0

@@ -8,6 +8,14 @@ from pathlib import Path
 
 from models.errors import DesignError
 
+
+def _json(obj) -> str:
+    """Strict JSON (infinite values as "inf"/"-inf", NaN as null): what every parser reads."""
+    from optim.handoff import to_jsonable
+
+    return json.dumps(to_jsonable(obj), allow_nan=False)
+
+
 __all__ = ["add_study_parser"]
 
 
@@ -43,7 +51,7 @@ def _cmd_run(args) -> int:
         tty=False if args.json else None,
     )
     if args.json:
-        print(json.dumps(summary))
+        print(_json(summary))
     else:
         print(f"study folder: {summary['folder']}")
     for line in summary["errors"]:
@@ -62,7 +70,7 @@ def _cmd_status(args) -> int:
 
     study, spec_json, where = _open(args)
     s = status_summary(study, spec_json)
-    print(json.dumps(s) if args.json else format_status(s, where))
+    print(_json(s) if args.json else format_status(s, where))
     return 0
 
 

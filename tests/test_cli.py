@@ -115,12 +115,29 @@ def test_console_script_runs_as_a_process():
     assert "Traceback" not in proc.stderr
 
 
-def test_demo_runs_and_shows_the_sign_change(capsys):
-    # The README's main command: the demo design, then the target-size sweep in which the pull
-    # turns to push as the target outgrows the pole face (common practice, no source).
-    assert main(["demo"]) == 0
+def test_target_size_sweep_shows_the_sign_change(capsys):
+    # The demo design swept over target radius: the pull turns to push as the target outgrows
+    # the pole face (common practice, no source). The demo study itself is tested in
+    # tests/test_morning.py.
+    assert main(["evaluate", str(DEMO), "--isothermal", "--sweep", "target.radius_mm=2:14:13"]) == 0
     out = capsys.readouterr().out
-    assert "PULL (toward the face)" in out and "Caution" in out
     rows = [line.split() for line in out.splitlines() if line.strip()[:1].isdigit()]
     pulls = [float(r[1]) for r in rows if len(r) == 7]
+    assert len(pulls) == 13
     assert pulls[0] > 0 > pulls[-1]
+
+
+def test_json_output_is_strict_even_for_a_runaway(tmp_path, capsys):
+    """A runaway puts infinite temperatures in the result; --json still parses with a strict
+    parser (RFC 8259 has no Infinity): they are written as the strings "inf" / "-inf"."""
+    from optim.tomlwrite import dumps_toml
+    from tests.conftest import demo_dict
+
+    d = demo_dict()
+    d.pop("thermal", None)  # continuous duty at 6 A: the demo coil runs away
+    path = tmp_path / "runaway.toml"
+    path.write_text(dumps_toml(d))
+    assert main(["evaluate", str(path), "--json"]) == 0
+    out = json.loads(capsys.readouterr().out, parse_constant=lambda c: pytest.fail(c))
+    assert out["thermal_status"].startswith("runaway")
+    assert out["coil_temperature_C"] == "inf"
