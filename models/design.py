@@ -28,6 +28,7 @@ __all__ = [
     "Supply",
     "Design",
     "load_design",
+    "read_toml",
     "design_from_dict",
     "with_value",
     "DESIGN_KEYS",
@@ -310,6 +311,54 @@ _ALLOWED = {
 }
 
 
+#: Plausible file values, by the end of the key name (inclusive; 0 stays allowed where a key
+#: allows it). Far outside these a value is a slip of units or a typo rather than a design, and
+#: the model's arithmetic under- or overflows or its iron panels run into the millions. They are
+#: deliberately wide: values inside them but outside the validated range only warn
+#: (models.evaluate.VALIDATED_RANGE). Common practice, no source, except where stated.
+PLAUSIBLE_LIMITS = {
+    "_mm": (1e-3, 1e3),  # 1 um to 1 m: parts, gaps and poles of a lifter for small parts
+    # an AC magnet; quasi-static while the parts are << the 0.3 m wavelength at 1 GHz
+    "_Hz": (1e-3, 1e9),
+    "_A": (1e-6, 1e5),
+    "_V": (1e-6, 1e6),
+    "turns": (1, 1e6),
+    "_S_per_m": (1.0, 1e9),  # silver, the best conductor, is 6.3e7 S/m (CRC Handbook, from memory)
+    "relative_permeability": (1.0, 1e7),  # supermalloy reaches about 1e6 (from memory)
+    "_T": (1e-3, 100.0),  # the best iron-cobalt steels saturate near 2.4 T (from memory)
+    "_kg_per_m3": (1.0, 1e5),  # osmium, the densest element, is 22 590 kg/m^3 (from memory)
+    "_C": (-273.15, 5000.0),  # absolute zero to above every metal's boiling point
+    "_s": (1e-6, 1e10),  # a microsecond to three centuries
+    "_W_per_m2K": (1e-3, 1e7),  # boiling water reaches ~1e5 W/(m^2 K) (from memory)
+    "_W_per_mK": (1e-3, 1e4),  # diamond, the best solid conductor of heat, ~2200 (from memory)
+    "_VA": (1e-6, 1e9),
+}
+#: Finest face feature (2 x gap, target radius, ring width, depth, inner radius) as a fraction
+#: of the pole radius: the pole's face panels are a quarter of the finest feature, so their
+#: count grows as this ratio (measured at the limit: up to about 2500 panels, 3 s and 0.6 GB).
+MAX_FEATURE_RATIO = 500.0
+#: Longest pole against its radius: the side panels are at most a quarter radius long.
+MAX_POLE_ASPECT = 100.0
+
+
+def _is_finite(value) -> bool:
+    try:
+        return math.isfinite(value)
+    except OverflowError:  # an int beyond the float range
+        return False
+
+
+def _plausible(where: str, value, kind: str, problems: list[str]):
+    """``value`` if inside PLAUSIBLE_LIMITS for its key (or 0 where allowed), else None."""
+    limits = [v for k, v in PLAUSIBLE_LIMITS.items() if where.endswith(k)]
+    if not limits or (kind == "nonneg" and value == 0) or limits[0][0] <= value <= limits[0][1]:
+        return value
+    lo, hi = limits[0]
+    zero = "0 or " if kind == "nonneg" else ""
+    problems.append(f"{where} = {value!r}: must be {zero}between {lo:g} and {hi:g}")
+    return None
+
+
 def _check_value(where: str, value, kind: str, problems: list[str]):
     """Return the checked value or None (with a line appended to ``problems``)."""
     if kind == "str":
@@ -320,8 +369,8 @@ def _check_value(where: str, value, kind: str, problems: list[str]):
             return value  # checked against IEC 60085 in _thermal (nan and inf fail there)
     elif kind == "int":
         if isinstance(value, int) and not isinstance(value, bool) and value >= 1:
-            return value
-    elif isinstance(value, (int, float)) and not isinstance(value, bool) and math.isfinite(value):
+            return _plausible(where, value, kind, problems)
+    elif isinstance(value, (int, float)) and not isinstance(value, bool) and _is_finite(value):
         if (
             (kind == "pos" and value > 0)
             or (kind == "nonneg" and value >= 0)
@@ -329,7 +378,7 @@ def _check_value(where: str, value, kind: str, problems: list[str]):
             or (kind == "frac" and 0 < value <= 1)
             or (kind == "unit" and 0 <= value <= 1)
         ):
-            return float(value)
+            return _plausible(where, float(value), kind, problems)
     problems.append(f"{where} = {value!r}: must be {_ALLOWED[kind]}")
     return None
 
@@ -594,6 +643,25 @@ def design_from_dict(data: dict, name: str = "design") -> Design:
             )
         if depth >= L:
             problems.append(f"ring.depth_mm = {depth!r}: must be < pole.length_mm (= {L!r})")
+    if L > MAX_POLE_ASPECT * Rp:
+        problems.append(
+            f"pole.length_mm = {L!r}: must be <= {MAX_POLE_ASPECT:g} x pole.radius_mm "
+            f"(= {MAX_POLE_ASPECT * Rp:.4g}); the fast model's panels cannot follow a longer pole"
+        )
+    face = [("target.gap_mm", g["gap_mm"], 2.0), ("target.radius_mm", g["radius_mm"], 1.0)]
+    if r is not None:
+        face += [
+            ("ring.inner_radius_mm", r["inner_radius_mm"], 1.0),
+            ("ring.depth_mm", r["depth_mm"], 1.0),
+            ("ring.outer_radius_mm - ring.inner_radius_mm", ro - ri, 1.0),
+        ]
+    for where, value, factor in face:
+        least = Rp / (MAX_FEATURE_RATIO * factor)
+        if 0 < value < least * (1 - 1e-9):  # 1e-9: rounding of mm values such as 0.22 - 0.2
+            problems.append(
+                f"{where} = {value:.4g}: must be >= pole.radius_mm / {MAX_FEATURE_RATIO * factor:g}"
+                f" (= {least:.4g}); the fast model resolves face features down to that size"
+            )
     tri = g.get("inner_radius_mm", 0.0)
     if tri >= g["radius_mm"]:
         problems.append(
@@ -674,6 +742,33 @@ def _deep_copy(data: dict) -> dict:
     return {k: (_deep_copy(v) if isinstance(v, dict) else v) for k, v in data.items()}
 
 
+def read_toml(path, what: str = "file") -> dict:
+    """The table of a TOML file, or a one-line DesignError naming ``what`` and the path.
+
+    Every way a file can be unreadable ends here: missing, a directory, not UTF-8, not TOML, an
+    integer of more than 4300 digits (Python's int limit), arrays or tables nested past the
+    parser's recursion limit.
+    """
+    path = Path(path)
+    try:
+        text = path.read_text(encoding="utf-8")
+    except OSError as err:
+        raise DesignError(f"{what} {str(path)!r}: cannot be read ({err.strerror})") from None
+    except UnicodeDecodeError as err:
+        raise DesignError(
+            f"{what} {str(path)!r}: not UTF-8 text (byte {err.start}); must be a TOML file"
+        ) from None
+    try:
+        return tomllib.loads(text)
+    except ValueError as err:  # TOMLDecodeError, or an integer of more than 4300 digits
+        reason = str(err).splitlines()[0] if str(err) else type(err).__name__
+        raise DesignError(f"{what} {str(path)!r}: not valid TOML ({reason})") from None
+    except RecursionError:
+        raise DesignError(
+            f"{what} {str(path)!r}: not valid TOML (arrays or tables nested too deeply)"
+        ) from None
+
+
 def load_design(path) -> Design:
     """Read and validate a design TOML file (mm, Hz, A rms, V rms).
 
@@ -683,14 +778,7 @@ def load_design(path) -> Design:
         The file is missing, not TOML, or breaks a rule (one line per violation).
     """
     path = Path(path)
-    try:
-        text = path.read_text(encoding="utf-8")
-    except OSError as err:
-        raise DesignError(f"design file {str(path)!r}: cannot be read ({err.strerror})") from None
-    try:
-        data = tomllib.loads(text)
-    except tomllib.TOMLDecodeError as err:
-        raise DesignError(f"design file {str(path)!r}: not valid TOML ({err})") from None
+    data = read_toml(path, "design file")
     return design_from_dict(data, name=path.stem)
 
 

@@ -14,8 +14,17 @@ class DesignError(ValueError):
     def __init__(self, problems):
         if isinstance(problems, str):
             problems = [problems]
-        self.problems = list(problems)
+        self.problems = [_one_line(p) for p in problems]
         super().__init__("\n".join(self.problems))
+
+
+def _one_line(text) -> str:
+    """``text`` with every unprintable character (newline, carriage return, NUL...) escaped as
+    Python would (a field name from a file may hold any of them): one problem, one line."""
+    text = str(text)
+    if text.isprintable():
+        return text
+    return "".join(c if c.isprintable() else repr(c)[1:-1] for c in text)
 
 
 def nearest(name: str, valid) -> str:

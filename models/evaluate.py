@@ -30,9 +30,15 @@ VALIDATED_RANGE = {
     "frequency_Hz": (50.0, 5000.0),
     "target radius / pole radius": (0.3, 1.5),
     "gap_mm": (0.2, 3.0),
+    "gap / pole radius": (0.02, 0.3),
     "target thickness_mm": (0.5, 5.0),
     "pole relative_permeability": (200.0, 5000.0),
 }
+
+#: Flux density above which a steel of unknown grade is taken to leave its linear range [T]:
+#: silicon electrical steels reach their knee at about 1.3-1.6 T (from memory; the library's
+#: M400 grade uses 1.5 T, models/materials.py).
+TYPICAL_SATURATION_T = 1.5
 
 
 @dataclass(frozen=True)
@@ -201,6 +207,11 @@ def _core_peak_flux_density(design: Design, sol: CircuitSolution) -> float:
             (R > g.inner_radius - margin) & (R < g.outer_radius + margin) & (Z > -g.depth - margin)
         )
         R, Z = R[~inside], Z[~inside]
+        if R.size == 0:  # a groove that leaves only thin walls: the mid-lines of post and wall
+            R, Z = (
+                a.ravel()
+                for a in np.meshgrid([0.5 * g.inner_radius, 0.5 * (g.outer_radius + p.radius)], z)
+            )
     c = sol.cells
     br_c, bz_c = loop_field(c.rc[None, :], c.zc[None, :], R[:, None], Z[:, None])
     br = br_c @ sol.cell_current
@@ -239,11 +250,18 @@ def _range_warnings(design: Design, sol: CircuitSolution, fineness: Fineness, b_
             f"core peak flux density {b_peak:.3g} T exceeds the steel's linear limit {bsat:.3g} T: "
             "saturation makes the linear model optimistic"
         )
+    elif bsat is None and b_peak > TYPICAL_SATURATION_T:
+        out.append(
+            f"core peak flux density {b_peak:.3g} T is above {TYPICAL_SATURATION_T:g} T, where "
+            "electrical steels saturate, and pole.saturation_flux_density_T is not given: the "
+            "linear model may be optimistic"
+        )
     f = design.drive.frequency
     values = {
         "frequency_Hz": f,
         "target radius / pole radius": design.target.radius / design.pole.radius,
         "gap_mm": design.target.gap * 1e3,
+        "gap / pole radius": design.target.gap / design.pole.radius,
         "target thickness_mm": design.target.thickness * 1e3,
         "pole relative_permeability": design.pole.relative_permeability,
     }
