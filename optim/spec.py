@@ -34,13 +34,12 @@ from __future__ import annotations
 import hashlib
 import json
 import math
-import tomllib
 from dataclasses import dataclass, field
 from pathlib import Path
 
 import numpy as np
 
-from models.design import DESIGN_KEYS, design_from_dict
+from models.design import DESIGN_KEYS, design_from_dict, read_toml
 from models.errors import DesignError, nearest
 from optim.files import safe_name
 from optim.objectives import Constraint, Objective, results_of
@@ -153,12 +152,9 @@ def _base_design(data: dict, folder: Path, problems: list[str]) -> dict | None:
             return None
         path = (folder / ref) if not Path(ref).is_absolute() else Path(ref)
         try:
-            base = tomllib.loads(path.read_text(encoding="utf-8"))
-        except OSError as err:
-            problems.append(f"design = {ref!r}: cannot be read ({err.strerror})")
-            return None
-        except (tomllib.TOMLDecodeError, UnicodeDecodeError) as err:
-            problems.append(f"design = {ref!r}: not valid TOML ({err})")
+            base = read_toml(path, "design file")
+        except DesignError as err:
+            problems.append(f"design = {ref!r}: " + err.problems[0])
             return None
         base.pop("name", None)
         base.pop("description", None)
@@ -342,15 +338,7 @@ def _mid(p: Parameter):
 def load_study_spec(path) -> StudySpec:
     """Read and validate a study file; DesignError (one line per problem) if it is wrong."""
     path = Path(path)
-    try:
-        text = path.read_text(encoding="utf-8")
-    except (OSError, UnicodeDecodeError) as err:
-        why = getattr(err, "strerror", None) or "not UTF-8 text"
-        raise DesignError(f"study file {str(path)!r}: cannot be read ({why})") from None
-    try:
-        data = tomllib.loads(text)
-    except tomllib.TOMLDecodeError as err:
-        raise DesignError(f"study file {str(path)!r}: not valid TOML ({err})") from None
+    data = read_toml(path, "study file")
     return spec_from_dict(data, folder=path.resolve().parent, name=path.stem)
 
 

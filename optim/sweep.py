@@ -33,6 +33,8 @@ def parse_sweep(text: str):
         raise DesignError(
             f"--sweep {text!r}: START and STOP must be numbers and COUNT a whole number"
         ) from None
+    if not (np.isfinite(start) and np.isfinite(stop)):
+        raise DesignError(f"--sweep {text!r}: START and STOP must be finite numbers")
     if count < 2 or count > 10_000:
         raise DesignError(f"--sweep {text!r}: COUNT = {count} must be between 2 and 10000")
     return key.strip(), np.linspace(start, stop, count)
@@ -52,10 +54,17 @@ def run_sweep(design, key: str, values, isothermal=True):
 
 
 def format_sweep(key: str, rows) -> str:
+    """The sweep as a table; each warning once below it, with the values it applies to."""
     head = f"{key:>14s} " + " ".join(f"{c[1]:>14s}" for c in COLUMNS)
     lines = [head]
+    warned: dict[str, list[float]] = {}
     for v, r in rows:
         lines.append(f"{v:14.5g} " + " ".join(f"{getattr(r, a) * s:14.5g}" for a, _, s in COLUMNS))
+        for w in r.warnings:
+            warned.setdefault(w.split(":")[0], []).append(v)
+    for what, values in warned.items():
+        where = ", ".join(f"{v:g}" for v in values[:6]) + (" ..." if len(values) > 6 else "")
+        lines.append(f"WARNING at {key} = {where}: {what}")
     return "\n".join(lines)
 
 
