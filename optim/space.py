@@ -25,7 +25,7 @@ from __future__ import annotations
 import math
 from dataclasses import dataclass
 
-from models.design import DESIGN_KEYS, Design, design_from_dict
+from models.design import DESIGN_KEYS, PLAUSIBLE_LIMITS, Design, design_from_dict
 from models.errors import DesignError, nearest
 
 __all__ = ["Parameter", "ALIASES", "parse_search", "design_source", "build_design"]
@@ -67,7 +67,8 @@ class Parameter:
         import optuna.distributions as od
 
         if self.integer:
-            return od.IntDistribution(int(self.low), int(self.high), log=self.log, step=1)
+            step = int(self.step) if self.step else 1
+            return od.IntDistribution(int(self.low), int(self.high), log=self.log, step=step)
         return od.FloatDistribution(self.low, self.high, log=self.log, step=self.step)
 
 
@@ -82,10 +83,25 @@ def _all_keys() -> dict[str, str]:
 
 
 def _number(where, value, problems):
-    if isinstance(value, bool) or not isinstance(value, (int, float)) or not math.isfinite(value):
+    if value is None:
+        problems.append(f"{where}: missing; must be a finite number")
+        return None
+    finite = isinstance(value, (int, float)) and not isinstance(value, bool)
+    try:
+        finite = finite and math.isfinite(value)
+    except OverflowError:  # an int beyond the float range
+        finite = False
+    if not finite:
         problems.append(f"{where} = {value!r}: must be a finite number")
         return None
     return float(value)
+
+
+def _limits(key: str | None):
+    """PLAUSIBLE_LIMITS of a design key's unit (None for the ring fractions, unitless keys)."""
+    if key is None:
+        return None
+    return next((v for unit, v in PLAUSIBLE_LIMITS.items() if key.endswith(unit)), None)
 
 
 def parse_search(table, problems: list[str]) -> list[Parameter]:
@@ -146,6 +162,16 @@ def parse_search(table, problems: list[str]) -> list[Parameter]:
         if kind == "nonneg" and low < 0:
             problems.append(f"{where}.low = {low:g}: must be >= 0")
             continue
+        limits = _limits(key)
+        if limits and not (limits[0] <= high <= limits[1] and (low == 0 or limits[0] <= low)):
+            problems.append(
+                f"{where}: bounds {low:g}..{high:g} must lie between {limits[0]:g} and "
+                f"{limits[1]:g} (the plausible range of {key})"
+            )
+            continue
+        if scale == "log" and low <= 0:
+            problems.append(f"{where}.low = {low:g}: must be > 0 with scale 'log'")
+            continue
         if scale == "log" and step is not None:
             problems.append(f"{where}: scale 'log' and step cannot be combined")
             continue
@@ -153,6 +179,19 @@ def parse_search(table, problems: list[str]) -> list[Parameter]:
         if integer and (low != int(low) or high != int(high)):
             problems.append(f"{where}: bounds {low:g}..{high:g} must be whole numbers")
             continue
+        if step is not None and step > 0:
+            count = (high - low) / step
+            if step > high - low or abs(count - round(count)) > 1e-9 * max(count, 1.0):
+                problems.append(
+                    f"{where}.step = {step:g}: must divide high - low = {high - low:g} "
+                    "a whole number of times"
+                )
+                continue
+            if integer and step != int(step):
+                problems.append(f"{where}.step = {step:g}: must be a whole number (integer key)")
+                continue
+        elif step is not None:
+            continue  # step <= 0: reported above
         params.append(Parameter(name, key, low, high, scale == "log", integer, step))
     names = {p.name for p in params}
     if ("ring_outer_fraction" in names or "ring_inner_fraction" in names) and (

@@ -39,13 +39,20 @@ from pathlib import Path
 
 import numpy as np
 
-from models.design import DESIGN_KEYS, design_from_dict, read_toml
+from models.design import DESIGN_KEYS, PLAUSIBLE_LIMITS, design_from_dict, read_toml
 from models.errors import DesignError, nearest
 from optim.files import safe_name
 from optim.objectives import Constraint, Objective, results_of
 from optim.space import Parameter, parse_search
 
-__all__ = ["StudySpec", "load_study_spec", "spec_from_dict", "spec_from_json", "SAMPLERS"]
+__all__ = [
+    "StudySpec",
+    "load_study_spec",
+    "spec_from_dict",
+    "spec_from_json",
+    "SAMPLERS",
+    "RUN_MAX",
+]
 
 SAMPLERS = ("nsga2", "tpe", "random")
 _TOP = {"name", "description", "design", "search", "objectives", "robust", "constraints", "run"}
@@ -57,10 +64,22 @@ _RUN_KEYS = {
     "sampler": "str",
     "population": "int",
     "seed": "int0",
-    "storage": "str",
+    "storage": "url",
     "isothermal": "bool",
 }
+#: Largest sensible value of each [run] number: a year of wall time, the worker limit of one
+#: machine, a NSGA-II population far beyond any useful one (common practice, no source), and the
+#: largest seed every worker's sampler accepts (seed + 7919 * worker index must stay below 2**32).
+RUN_MAX = {
+    "trials": 10**9,
+    "minutes": 525_600,
+    "hours": 8_760,
+    "workers": 64,
+    "population": 10_000,
+    "seed": 2**31 - 1,
+}
 _WORST = ("worst_pull_N", "worst_lift_ratio")
+GAP_LIMITS_MM = PLAUSIBLE_LIMITS["_mm"]
 
 
 @dataclass
@@ -119,17 +138,28 @@ class StudySpec:
         return [o.direction for o in self.objectives]
 
 
-def _check(where, value, kind, problems):
+def finite_number(value) -> bool:
+    """True for an int or float (not a bool) that is finite as a float (10**400 is not)."""
+    if isinstance(value, bool) or not isinstance(value, (int, float)):
+        return False
+    try:
+        return math.isfinite(value)
+    except OverflowError:  # an int beyond the float range
+        return False
+
+
+def _check(where, value, kind, problems, most=None):
     ok = {
         "int": isinstance(value, int) and not isinstance(value, bool) and value >= 1,
         "int0": isinstance(value, int) and not isinstance(value, bool) and value >= 0,
-        "pos": isinstance(value, (int, float))
-        and not isinstance(value, bool)
-        and math.isfinite(value)
-        and value > 0,
+        "pos": finite_number(value) and value > 0,
         "str": isinstance(value, str),
         "bool": isinstance(value, bool),
+        "url": isinstance(value, str) and "://" in value,
     }[kind]
+    if ok and most is not None and value > most:
+        problems.append(f"{where} = {value!r}: must be at most {most}")
+        return None
     if not ok:
         allowed = {
             "int": "a whole number >= 1",
@@ -137,8 +167,10 @@ def _check(where, value, kind, problems):
             "pos": "a number > 0",
             "str": "a string",
             "bool": "true or false",
+            "url": "a database URL (scheme://...); leave it out for the study folder's journal",
         }[kind]
-        problems.append(f"{where} = {value!r}: must be {allowed}")
+        shown = "missing" if value is None else f"= {value!r}"
+        problems.append(f"{where} {shown}: must be {allowed}")
         return None
     return value
 
@@ -188,6 +220,11 @@ def _objectives(table, problems) -> tuple[list[Objective], dict]:
                     "gap_max_mm, points"
                 )
             robust.update({k: v for k, v in spec.items() if k != "direction"})
+        if isinstance(spec, dict) and direction is None:
+            problems.append(
+                f"objectives.{name}.direction: missing; must be 'maximize' or 'minimize'"
+            )
+            continue
         if direction not in ("maximize", "minimize"):
             problems.append(f"objectives.{name} = {direction!r}: must be 'maximize' or 'minimize'")
             continue
@@ -213,7 +250,7 @@ def _constraints(table, problems) -> list[Constraint]:
                 problems.append(
                     f"{where}.{k}: unknown key; allowed: min, max{nearest(k, ['min', 'max'])}"
                 )
-            elif isinstance(v, bool) or not isinstance(v, (int, float)) or not math.isfinite(v):
+            elif not finite_number(v):
                 problems.append(f"{where}.{k} = {v!r}: must be a finite number")
             else:
                 bounds[k] = float(v)
@@ -236,6 +273,11 @@ def _robust_gaps(robust: dict, problems) -> tuple:
         return ()
     if _check(f"{where}.points", n, "int", problems) is None:
         return ()
+    for key, value in (("gap_min_mm", lo), ("gap_max_mm", hi)):
+        if not GAP_LIMITS_MM[0] <= value <= GAP_LIMITS_MM[1]:
+            low, high = GAP_LIMITS_MM
+            problems.append(f"{where}.{key} = {value!r}: must be between {low:g} and {high:g}")
+            return ()
     if hi < lo:
         problems.append(f"robust: gap_max_mm = {hi:g} must be >= gap_min_mm = {lo:g}")
         return ()
@@ -258,6 +300,8 @@ def spec_from_dict(data: dict, folder: Path | None = None, name: str = "study") 
                 f"{key}: unknown table or key of a study file; allowed: {', '.join(allowed)}"
                 f"{nearest(key, allowed)}"
             )
+    if not isinstance(data.get("description", ""), str):
+        problems.append(f"description = {data['description']!r}: must be a string")
     study_name = data.get("name", name)
     try:
         safe_name(study_name, "name")
@@ -281,8 +325,8 @@ def spec_from_dict(data: dict, folder: Path | None = None, name: str = "study") 
                 f"run.{k}: unknown key; allowed: {', '.join(_RUN_KEYS)}{nearest(k, _RUN_KEYS)}"
             )
         else:
-            _check(f"run.{k}", v, _RUN_KEYS[k], problems)
-    if run.get("sampler", "nsga2") not in SAMPLERS:
+            _check(f"run.{k}", v, _RUN_KEYS[k], problems, RUN_MAX.get(k))
+    if isinstance(run.get("sampler"), str) and run["sampler"] not in SAMPLERS:
         problems.append(f"run.sampler = {run['sampler']!r}: must be one of {', '.join(SAMPLERS)}")
     if problems:
         raise DesignError(problems)

@@ -2,6 +2,7 @@
 
 from __future__ import annotations
 
+import argparse
 import json
 import sys
 from pathlib import Path
@@ -20,7 +21,8 @@ __all__ = ["add_study_parser"]
 
 
 def _cmd_run(args) -> int:
-    from optim.spec import load_study_spec
+    from optim.spec import RUN_MAX, load_study_spec
+    from optim.storage import is_url
     from optim.study import budget_minutes, run_study, study_folder
 
     spec = load_study_spec(args.study)
@@ -33,10 +35,19 @@ def _cmd_run(args) -> int:
     for flag, value in (("--workers", workers), ("--trials", trials)):
         if value is not None and (not isinstance(value, int) or value < 1):
             raise DesignError(f"{flag} = {value!r}: must be a whole number >= 1")
-    if minutes is not None and not minutes > 0:
-        raise DesignError(f"--minutes/--hours = {minutes!r}: must be > 0")
-    if workers > 64:
-        raise DesignError(f"--workers = {workers}: must be at most 64")
+    if minutes is not None and not 0 < minutes <= RUN_MAX["minutes"]:
+        raise DesignError(
+            f"--minutes/--hours = {minutes!r} min: must be > 0 and at most a year (525600 min)"
+        )
+    if workers > RUN_MAX["workers"]:
+        raise DesignError(f"--workers = {workers}: must be at most {RUN_MAX['workers']}")
+    if args.seed is not None and not 0 <= args.seed <= RUN_MAX["seed"]:
+        raise DesignError(f"--seed = {args.seed}: must be between 0 and {RUN_MAX['seed']}")
+    if args.storage is not None and not is_url(args.storage):
+        raise DesignError(
+            f"--storage = {args.storage!r}: must be a database URL (scheme://...); leave it out "
+            "for the study folder's journal"
+        )
     storage = args.storage if args.storage is not None else run.get("storage")
     folder = study_folder(spec, Path(args.study), Path(args.out) if args.out else None)
     summary = run_study(
@@ -127,9 +138,23 @@ def _folder_for(location, spec_json, out) -> Path:
     return Path.cwd() / "studies" / safe_name(spec_json["name"], "name")
 
 
+class _OneLineParser(argparse.ArgumentParser):
+    """A bad flag (``--workers x``, ``--hours`` with ``--minutes``) is one line and exit code 2,
+    as every other input error, instead of argparse's usage block."""
+
+    def error(self, message):
+        self.exit(2, f"eddypull: error: {message} (see '{self.prog} --help')\n")
+
+    def parse_known_args(self, args=None, namespace=None):
+        namespace, extras = super().parse_known_args(args, namespace)
+        if extras:  # refused here: the top-level parser would print its usage block
+            self.error(f"unrecognized arguments: {' '.join(extras)}")
+        return namespace, extras
+
+
 def add_study_parser(sub) -> None:
     s = sub.add_parser("study", help="run and read optimisation studies")
-    ss = s.add_subparsers(dest="study_command", required=True)
+    ss = s.add_subparsers(dest="study_command", required=True, parser_class=_OneLineParser)
 
     r = ss.add_parser("run", help="run (or resume) a study from its study file")
     r.add_argument("study", help="study TOML file")
