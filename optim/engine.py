@@ -45,8 +45,12 @@ __all__ = [
 RESULT_NAMES_ATTR = "eddypull_result_names"
 #: The one user attribute of a trial that holds eddypull's record (one write per trial).
 RECORD_ATTR = "eddypull"
-#: Import other workers' trials this often [s] (shorter for small studies, see ``_sync_period``).
-SYNC_S = 20.0
+
+
+def sync_period(n_trials: int) -> float:
+    """Seconds between imports of other workers' trials [s]: short while the study is small (the
+    sampler's early generations matter), longer as each import reads more."""
+    return float(min(60.0, max(2.0, n_trials / 2000.0)))
 
 
 def record_of(trial) -> dict:
@@ -125,7 +129,7 @@ def _record(spec, params, dists, outcome, worker_id, t0, t1, result_names):
         "results": [flat.get(n, math.nan) for n in result_names] if flat else [],
         "margins": outcome["margins"],
         "reason": outcome["reason"],
-        "binding": outcome.get("binding", ""),
+        "binding_limit": outcome.get("binding", ""),
         "warnings": outcome["warnings"],
         "worker": worker_id,
         "id": uuid.uuid4().hex[:16],
@@ -151,7 +155,7 @@ def run_worker(cfg: dict, queue=None, stop=None, counter=None) -> int:
 
     cfg: ``spec`` (StudySpec.to_json()), ``location`` (folder path or URL), ``index``, ``seed``,
     ``deadline`` (time.time() or None), ``trials`` (this machine's trial budget or None),
-    ``sync_s``. ``counter`` is a shared integer (this machine's trials started), ``stop`` an
+    ``sync_s``, ``parent_pid``. ``counter`` is this worker slot's count of trials started, ``stop`` an
     event, ``queue`` receives one message per recorded trial.
     """
     import optuna
@@ -175,12 +179,13 @@ def run_worker(cfg: dict, queue=None, stop=None, counter=None) -> int:
         int(cfg.get("window_limit") or window_limit(int(spec.run.get("population", 40)))),
     )
     study_id = shared._study_id
+    # optuna's own wrapper of a database storage keeps finished trials and reads only new ones.
+    reader = shared._storage
     seen = -1
-    sync_s = float(cfg.get("sync_s", SYNC_S))
 
     def sync(first=False):
         nonlocal seen
-        trials = storage.get_all_trials(study_id, deepcopy=False, states=(TrialState.COMPLETE,))
+        trials = reader.get_all_trials(study_id, deepcopy=False, states=(TrialState.COMPLETE,))
         fresh = [t for t in trials if t.number > seen and record_of(t).get("worker") != worker_id]
         if first:  # a resumed study: the most recent window of it
             fresh = fresh[-window.limit :]
@@ -208,6 +213,9 @@ def run_worker(cfg: dict, queue=None, stop=None, counter=None) -> int:
                     if cfg.get("trials") is not None and counter.value >= cfg["trials"]:
                         break
                     counter.value += 1
+            if os.getppid() != cfg.get("parent_pid", os.getppid()):
+                break  # the run that started this worker is gone: stop with it
+            sync_s = cfg.get("sync_s") or sync_period(seen + 1)
             if time.monotonic() - last_sync > sync_s:
                 sync()
                 last_sync = time.monotonic()

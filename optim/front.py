@@ -82,7 +82,7 @@ def trials_table(study, spec_json: dict) -> pd.DataFrame:
             "completed_at": t.datetime_complete,
             "eval_s": ua.get("eval_s", math.nan),
             "reason": ua.get("reason", ""),
-            "binding_limit": ua.get("binding", ""),
+            "binding_limit": ua.get("binding_limit", ""),
             "worker": ua.get("worker", ""),
         }
         feasible = t.state.name == "COMPLETE" and all(v <= 0 for v in t.constraints.values())

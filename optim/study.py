@@ -11,10 +11,13 @@ from __future__ import annotations
 
 import logging
 import multiprocessing as mp
+import multiprocessing.connection as mp_connection
 import os
-import queue as queue_mod
+import signal
+import socket
 import sys
 import time
+import zlib
 from pathlib import Path
 
 import numpy as np
@@ -116,6 +119,7 @@ def run_study(
     tty: bool | None = None,
     sync_s: float | None = None,
     evaluator: str | None = None,
+    salt: int | None = None,
 ) -> dict:
     """Run ``spec`` until the budget ends or Ctrl-C; return a summary dict.
 
@@ -141,58 +145,93 @@ def run_study(
     echo(msg)
     log.info(msg)
     base_seed = seed if seed is not None else spec.run.get("seed")
+    if salt is None:  # parallel runs (same file, same seed) must not propose the same trials
+        salt = zlib.crc32(f"{socket.gethostname()}:{os.getpid()}:{time.time_ns()}".encode())
     ctx = mp.get_context("spawn")
-    q = ctx.Queue()
     stop = ctx.Event()
-    counter = ctx.Value("q", 0)
+    quotas = _split(trials, workers)
     cfg = {
         "spec": spec.to_json(),
         "location": str(location),
         "deadline": deadline,
-        "trials": trials,
-        "sync_s": sync_s if sync_s is not None else _sync_period(start_count),
+        "sync_s": sync_s,
         "evaluator": evaluator,
+        "parent_pid": os.getpid(),
     }
     procs: dict[int, mp.Process] = {}
+    counters: dict[int, object] = {}
+    readers: dict[object, int] = {}
+    done = [0] * workers
+    errors: list[str] = []
+    reported_error = [False] * workers
     restarts = 0
 
     def start(index, generation):
-        c = dict(cfg, index=index)
+        c = dict(cfg, index=index, trials=quotas[index])
         if base_seed is not None:
-            c["seed"] = int(base_seed) + index + 1000 * generation + start_count
-        p = ctx.Process(target=_worker_entry, args=(c, q, stop, counter), daemon=False)
-        p.start()
+            c["seed"] = (int(base_seed) + index + 1000 * generation + start_count + salt) % 2**31
+        counter = ctx.Value("q", done[index])  # this slot's trials so far: one lock per worker
+        counters[index] = counter  # kept alive until the child has attached to it
+        reader, writer = ctx.Pipe(duplex=False)  # one pipe per worker: a kill blocks no other
+        p = ctx.Process(target=_worker_entry, args=(c, writer, stop, counter))
+        old = signal.signal(signal.SIGINT, signal.SIG_IGN)  # inherited: Ctrl-C is the parent's
+        try:
+            p.start()
+        finally:
+            signal.signal(signal.SIGINT, old)
+        writer.close()
         procs[index] = p
+        readers[reader] = index
 
-    for i in range(workers):
-        start(i, 0)
-    interrupted = False
-    errors: list[str] = []
-    last_print = 0.0
-    try:
-        while procs:
-            try:
-                msg = q.get(timeout=0.5)
+    def receive(reader, index):
+        try:
+            while reader.poll():
+                msg = reader.recv()
                 if msg[0] == "trial":
+                    done[index] += 1
                     progress.add(msg[1], msg[2], msg[3])
                 elif msg[0] == "error":
+                    reported_error[index] = True
                     if msg[1] not in errors:
                         errors.append(msg[1])
                         log.error(msg[1])
                     stop.set()
-            except queue_mod.Empty:
-                pass
+        except (EOFError, OSError):
+            readers.pop(reader, None)
+            reader.close()
+
+    interrupted = False
+    last_print = 0.0
+    previous = {sig: signal.getsignal(sig) for sig in (signal.SIGTERM, signal.SIGHUP)}
+    for sig in previous:  # a terminal closed or a `kill`: stop like Ctrl-C, workers included
+        signal.signal(sig, _interrupt)
+    try:
+        for i in range(workers):
+            start(i, 0)
+        while procs:
+            for reader in mp_connection.wait(list(readers), timeout=0.5):
+                receive(reader, readers[reader])
             for index, p in list(procs.items()):
                 if p.is_alive():
                     continue
                 p.join()
                 del procs[index]
-                if p.exitcode is not None and p.exitcode < 0 and not stop.is_set():
+                for reader, slot in list(readers.items()):
+                    if slot == index:
+                        receive(reader, index)
+                        readers.pop(reader, None)
+                        reader.close()
+                code = p.exitcode
+                if code is not None and code > 0 and not reported_error[index]:
+                    errors.append(f"worker {index} ended with exit code {code}")
+                    log.error(errors[-1])
+                    stop.set()
+                if code is not None and code < 0 and not stop.is_set():
                     budget_left = (deadline is None or time.time() < deadline) and (
-                        trials is None or counter.value < trials
+                        quotas[index] is None or done[index] < quotas[index]
                     )
                     why = (
-                        f"worker {index} was killed (signal {-p.exitcode}); only the trial it was "
+                        f"worker {index} was killed (signal {-code}); only the trial it was "
                         "evaluating is lost"
                     )
                     log.warning(why)
@@ -212,20 +251,19 @@ def run_study(
     except KeyboardInterrupt:
         interrupted = True
         stop.set()
+        signal.signal(signal.SIGINT, signal.SIG_IGN)  # a second Ctrl-C must not break the stop
         for p in procs.values():
-            p.join(timeout=30)
+            p.join(timeout=60)
             if p.is_alive():
                 p.terminate()
-    while True:  # messages still in flight
-        try:
-            msg = q.get_nowait()
-        except (queue_mod.Empty, OSError, ValueError):
-            break
-        if msg[0] == "trial":
-            progress.add(msg[1], msg[2], msg[3])
-        elif msg[0] == "error" and msg[1] not in errors:
-            errors.append(msg[1])
-            log.error(msg[1])
+                p.join(timeout=5)
+        for reader, index in list(readers.items()):
+            receive(reader, index)
+    finally:
+        for sig, handler in previous.items():
+            signal.signal(sig, handler)
+        if interrupted:
+            signal.signal(signal.SIGINT, signal.default_int_handler)
     if tty:
         sys.stdout.write("\n")
     end = progress.line()
@@ -245,25 +283,43 @@ def run_study(
     }
 
 
-def _sync_period(n_trials: int) -> float:
-    """Seconds between imports of other workers' trials: short while the study is small (the
-    sampler's early generations matter), longer as each import reads more."""
-    return float(min(60.0, max(2.0, n_trials / 2000.0)))
+def _interrupt(signum, frame):
+    raise KeyboardInterrupt
 
 
-def _worker_entry(cfg, q, stop, counter):
-    """Process target: run the worker; report an unexpected error as one line, not a traceback."""
-    import signal
+def _split(trials: int | None, workers: int) -> list:
+    """Each worker's share of a trial budget (None: no budget)."""
+    if trials is None:
+        return [None] * workers
+    return [trials // workers + (1 if i < trials % workers else 0) for i in range(workers)]
 
-    signal.signal(signal.SIGINT, signal.SIG_IGN)  # the parent stops workers through ``stop``
+
+class _Sender:
+    """The worker's end of its pipe with the ``put`` of a queue."""
+
+    def __init__(self, conn):
+        self.conn = conn
+
+    def put(self, msg):
+        self.conn.send(msg)
+
+
+def _worker_entry(cfg, conn, stop, counter):
+    """Process target: run the worker; report an unexpected error as one line, not a traceback.
+    The message is written to the pipe before the process ends (a pipe write is synchronous)."""
+    sender = _Sender(conn)
+    code = 0
     try:
-        run_worker(cfg, q, stop, counter)
+        run_worker(cfg, sender, stop, counter)
     except DesignError as err:
-        q.put(("error", "; ".join(err.problems)))
-        os._exit(3)
+        sender.put(("error", "; ".join(err.problems)))
+        code = 3
     except Exception as err:  # reported once by the parent; the study itself is intact
-        q.put(("error", redact_url(f"{type(err).__name__}: {err}")[:500]))
-        os._exit(3)
+        sender.put(("error", redact_url(f"{type(err).__name__}: {err}")[:500]))
+        code = 3
+    finally:
+        conn.close()
+    sys.exit(code)
 
 
 def _file_logger(folder: Path) -> logging.Logger:

@@ -27,7 +27,7 @@ def finished(tmp_path_factory):
     """The demo study (thermal coupling, worst pull over three gaps), 40 trials, 2 workers."""
     folder = tmp_path_factory.mktemp("morning") / "study"
     spec = load_study_spec(ROOT / "studies" / "demo_study.toml")
-    run_study(spec, folder, workers=2, trials=40, echo=lambda *_: None, tty=False)
+    run_study(spec, folder, workers=2, trials=40, echo=lambda *_: None, tty=False, salt=0)
     return folder
 
 

@@ -11,7 +11,6 @@ import json
 import os
 import signal
 import subprocess
-import sys
 import time
 from pathlib import Path
 
@@ -24,9 +23,8 @@ from optim.front import pareto_mask, trials_table
 from optim.spec import load_study_spec
 from optim.storage import load_existing
 from optim.study import run_study
-from tests.conftest import DEMO, ROOT
-
-ENV = {**os.environ, "PYTHONPATH": str(ROOT)}
+from tests.conftest import DEMO
+from tests.proc_tools import eddypull, run_eddypull, workers_of
 
 
 def _study_file(tmp_path: Path, name: str, body: str) -> Path:
@@ -53,16 +51,8 @@ isothermal = true
 """
 
 
-def _cli(*args, timeout=300, **kw):
-    return subprocess.run(
-        [sys.executable, "-m", "optim.cli", *args],
-        capture_output=True,
-        text=True,
-        env=ENV,
-        cwd=ROOT,
-        timeout=timeout,
-        **kw,
-    )
+def _cli(*args, timeout=300):
+    return run_eddypull(*args, timeout=timeout)
 
 
 @pytest.mark.slow
@@ -82,7 +72,9 @@ seed = 11
 isothermal = true
 """
     spec = load_study_spec(_study_file(tmp_path, "grid", body))
-    run_study(spec, tmp_path / "grid", workers=1, trials=70, echo=lambda *_: None, tty=False)
+    run_study(
+        spec, tmp_path / "grid", workers=1, trials=70, echo=lambda *_: None, tty=False, salt=0
+    )
     study, spec_json, _ = load_existing(tmp_path / "grid")
     best = study.best_trial
     base = spec.base
@@ -101,7 +93,9 @@ isothermal = true
 @pytest.mark.slow
 def test_multi_objective_front_is_feasible_and_non_dominated(tmp_path):
     spec = load_study_spec(_study_file(tmp_path, "front", QUICK))
-    run_study(spec, tmp_path / "front", workers=2, trials=60, echo=lambda *_: None, tty=False)
+    run_study(
+        spec, tmp_path / "front", workers=2, trials=60, echo=lambda *_: None, tty=False, salt=0
+    )
     study, spec_json, _ = load_existing(tmp_path / "front")
     df = trials_table(study, spec_json)
     assert len(df) == 60
@@ -125,18 +119,15 @@ def test_geometry_that_cannot_be_built_is_a_failed_trial_with_its_reason(tmp_pat
         "ring_outer_fraction = { low = 0.4", "ring_outer_fraction = { low = 0.985"
     )
     spec = load_study_spec(_study_file(tmp_path, "walls", body))
-    run_study(spec, tmp_path / "walls", workers=1, trials=8, echo=lambda *_: None, tty=False)
+    run_study(
+        spec, tmp_path / "walls", workers=1, trials=8, echo=lambda *_: None, tty=False, salt=0
+    )
     study, spec_json, _ = load_existing(tmp_path / "walls")
     df = trials_table(study, spec_json)
     failed = df[df["state"] == "FAIL"]
     assert len(failed) >= 1
     assert failed["reason"].str.startswith("geometry: ring.outer_radius_mm").all()
     assert not failed["on_front"].any()
-
-
-def _children(pid: int) -> list[int]:
-    out = subprocess.run(["pgrep", "-P", str(pid)], capture_output=True, text=True)
-    return [int(x) for x in out.stdout.split()]
 
 
 def _count(folder: Path) -> tuple[int, int]:
@@ -148,47 +139,43 @@ def _count(folder: Path) -> tuple[int, int]:
 
 @pytest.mark.slow
 def test_killed_worker_loses_nothing_completed_and_the_study_resumes(tmp_path):
+    """SIGKILL workers at seeded random moments: every recorded trial stays, the run restarts the
+    killed worker, and the same command resumes the study."""
+    import random
+
+    rng = random.Random(20261202)
     study_file = _study_file(tmp_path, "kill", QUICK)
     folder = tmp_path / "kill"
-    proc = subprocess.Popen(
-        [
-            sys.executable,
-            "-m",
-            "optim.cli",
-            "study",
-            "run",
-            str(study_file),
-            "--workers",
-            "2",
-            "--trials",
-            "150",
-            "--out",
-            str(folder),
-            "--json",
-        ],
-        stdout=subprocess.PIPE,
-        stderr=subprocess.PIPE,
-        text=True,
-        env=ENV,
-        cwd=ROOT,
+    args = (
+        "study",
+        "run",
+        str(study_file),
+        "--workers",
+        "2",
+        "--trials",
+        "400",
+        "--out",
+        str(folder),
+        "--json",
     )
     kills, before = 0, 0
-    deadline = time.time() + 240
-    while time.time() < deadline and kills < 3:
-        time.sleep(2.0)
-        workers = [p for p in _children(proc.pid) if Path(f"/proc/{p}/cmdline").exists()]
-        workers = [p for p in workers if b"spawn_main" in Path(f"/proc/{p}/cmdline").read_bytes()]
-        if (folder / "journal.log").exists() and workers:
+    with eddypull(*args) as proc:
+        deadline = time.time() + 300
+        while time.time() < deadline and kills < 3 and proc.poll() is None:
+            time.sleep(rng.uniform(0.3, 1.5))
+            pids = workers_of(proc.pid)
+            if not (folder / "journal.log").exists() or not pids:
+                continue
             n, _ = _count(folder)
             assert n >= before  # completed trials never disappear
             before = n
-            if n > 10 * (kills + 1):
+            if 10 < n < 300:
                 try:
-                    os.kill(workers[0], signal.SIGKILL)
+                    os.kill(rng.choice(pids), signal.SIGKILL)
                 except ProcessLookupError:  # it had just finished its budget
                     continue
                 kills += 1
-    out, err = proc.communicate(timeout=300)
+        out, err = proc.communicate(timeout=600)
     assert proc.returncode == 0, err
     assert kills >= 1
     first = json.loads(out.strip().splitlines()[-1])
@@ -196,8 +183,9 @@ def test_killed_worker_loses_nothing_completed_and_the_study_resumes(tmp_path):
     assert running == 0  # a killed worker leaves nothing RUNNING in the storage
     # Each recorded trial is reported after it is written: a kill between the two can only add.
     assert first["trials_this_run"] <= n1 <= first["trials_this_run"] + kills
-    assert first["restarts"] == kills
-    # Resume: the same command adds to the study.
+    # Killed workers are restarted (a kill that lands on a worker already past its budget is not).
+    assert 1 <= first["restarts"] <= kills
+    assert first["errors"] == []
     again = _cli(
         "study",
         "run",
@@ -212,9 +200,7 @@ def test_killed_worker_loses_nothing_completed_and_the_study_resumes(tmp_path):
     )
     assert again.returncode == 0, again.stderr
     n2, _ = _count(folder)
-    assert (
-        n2 == n1 + json.loads(again.stdout.strip().splitlines()[-1])["trials_this_run"] == n1 + 10
-    )
+    assert n2 == n1 + 10
     study, spec_json, _ = load_existing(folder)
     numbers = [t.number for t in study.get_trials(deepcopy=False)]
     assert numbers == list(range(n2))
@@ -224,34 +210,25 @@ def test_killed_worker_loses_nothing_completed_and_the_study_resumes(tmp_path):
 def test_whole_run_killed_then_resumed(tmp_path):
     study_file = _study_file(tmp_path, "crash", QUICK)
     folder = tmp_path / "crash"
-    proc = subprocess.Popen(
-        [
-            sys.executable,
-            "-m",
-            "optim.cli",
-            "study",
-            "run",
-            str(study_file),
-            "--workers",
-            "2",
-            "--minutes",
-            "5",
-            "--out",
-            str(folder),
-        ],
-        stdout=subprocess.DEVNULL,
-        stderr=subprocess.DEVNULL,
-        env=ENV,
-        cwd=ROOT,
-        start_new_session=True,
+    args = (
+        "study",
+        "run",
+        str(study_file),
+        "--workers",
+        "2",
+        "--minutes",
+        "5",
+        "--out",
+        str(folder),
     )
-    deadline = time.time() + 120
-    while time.time() < deadline:
-        time.sleep(1.0)
-        if (folder / "journal.log").exists() and _count(folder)[0] >= 15:
-            break
-    os.killpg(proc.pid, signal.SIGKILL)  # parent and workers at once, as a power cut would
-    proc.wait(timeout=30)
+    with eddypull(*args, stdout=subprocess.DEVNULL, stderr=subprocess.DEVNULL) as proc:
+        deadline = time.time() + 120
+        while time.time() < deadline:
+            time.sleep(1.0)
+            if (folder / "journal.log").exists() and _count(folder)[0] >= 15:
+                break
+        os.killpg(proc.pid, signal.SIGKILL)  # parent and workers at once, as a power cut would
+        proc.wait(timeout=30)
     n1, running = _count(folder)
     assert n1 >= 15 and running == 0
     again = _cli("study", "run", str(study_file), "--trials", "5", "--out", str(folder), "--json")
@@ -260,40 +237,35 @@ def test_whole_run_killed_then_resumed(tmp_path):
 
 
 @pytest.mark.slow
-def test_ctrl_c_stops_cleanly(tmp_path):
+@pytest.mark.parametrize("sig", [signal.SIGINT, signal.SIGTERM])
+def test_ctrl_c_or_terminate_stops_cleanly(tmp_path, sig):
     study_file = _study_file(tmp_path, "ctrlc", QUICK)
     folder = tmp_path / "ctrlc"
-    proc = subprocess.Popen(
-        [
-            sys.executable,
-            "-m",
-            "optim.cli",
-            "study",
-            "run",
-            str(study_file),
-            "--workers",
-            "2",
-            "--minutes",
-            "5",
-            "--out",
-            str(folder),
-        ],
-        stdout=subprocess.PIPE,
-        stderr=subprocess.PIPE,
-        text=True,
-        env=ENV,
-        cwd=ROOT,
+    args = (
+        "study",
+        "run",
+        str(study_file),
+        "--workers",
+        "2",
+        "--minutes",
+        "5",
+        "--out",
+        str(folder),
     )
-    deadline = time.time() + 120
-    while time.time() < deadline:
-        time.sleep(1.0)
-        if (folder / "journal.log").exists() and _count(folder)[0] >= 10:
-            break
-    proc.send_signal(signal.SIGINT)
-    out, err = proc.communicate(timeout=120)
+    with eddypull(*args) as proc:
+        deadline = time.time() + 120
+        while time.time() < deadline:
+            time.sleep(1.0)
+            if (folder / "journal.log").exists() and _count(folder)[0] >= 10:
+                break
+        workers = workers_of(proc.pid)
+        proc.send_signal(sig)
+        out, err = proc.communicate(timeout=120)
     assert proc.returncode == 0, err
     assert "Traceback" not in err
     assert "stopped by Ctrl-C" in out
+    time.sleep(0.5)
+    assert not [p for p in workers if Path(f"/proc/{p}").exists()]  # no worker outlives the run
     n, running = _count(folder)
     assert running == 0 and n >= 10
 
@@ -303,10 +275,9 @@ def test_two_processes_share_one_journal_without_lock_errors(tmp_path):
     """Two `study run` processes (two workers each) on one embedded storage for a while."""
     study_file = _study_file(tmp_path, "shared", QUICK)
     folder = tmp_path / "shared"
-    cmd = [
-        sys.executable,
-        "-m",
-        "optim.cli",
+    first = _cli("study", "run", str(study_file), "--trials", "1", "--out", str(folder), "--json")
+    assert first.returncode == 0, first.stderr
+    args = (
         "study",
         "run",
         str(study_file),
@@ -317,33 +288,29 @@ def test_two_processes_share_one_journal_without_lock_errors(tmp_path):
         "--out",
         str(folder),
         "--json",
-    ]
-    first = subprocess.run(
-        cmd[:-3] + ["--trials", "1", "--out", str(folder), "--json"],
-        capture_output=True,
-        text=True,
-        env=ENV,
-        cwd=ROOT,
-        timeout=120,
     )
-    assert first.returncode == 0, first.stderr
-    procs = [
-        subprocess.Popen(
-            cmd, stdout=subprocess.PIPE, stderr=subprocess.PIPE, text=True, env=ENV, cwd=ROOT
-        )
-        for _ in range(2)
-    ]
-    outs = [p.communicate(timeout=300) for p in procs]
+    with eddypull(*args) as p1, eddypull(*args) as p2:
+        outs = [p.communicate(timeout=300) for p in (p1, p2)]
     reported = 1
-    for p, (out, err) in zip(procs, outs, strict=True):
+    for p, (out, err) in zip((p1, p2), outs, strict=True):
         assert p.returncode == 0, err
         assert "Error" not in err and "Traceback" not in err
         reported += json.loads(out.strip().splitlines()[-1])["trials_this_run"]
     n, running = _count(folder)
     assert n == reported and running == 0
     study, _, _ = load_existing(folder)
-    ids = [t.user_attrs["eddypull"]["id"] for t in study.get_trials(deepcopy=False)]
+    trials = study.get_trials(deepcopy=False)
+    ids = [t.user_attrs["eddypull"]["id"] for t in trials]
     assert len(set(ids)) == len(ids)
+    # The two runs share file and seed, yet their workers start from different random draws (each
+    # process mixes its own salt into the seed): the first five designs of the four workers
+    # (NSGA-II's random first generation) are all different. With equal seeds, worker 0 of one
+    # run would repeat worker 0 of the other exactly.
+    by_worker: dict[str, list] = {}
+    for t in trials[1:]:
+        by_worker.setdefault(t.user_attrs["eddypull"]["worker"], []).append(t)
+    firsts = [tuple(sorted(t.params.items())) for ts in by_worker.values() for t in ts[:5]]
+    assert len(by_worker) == 4 and len(set(firsts)) == len(firsts)
     log = (folder / "run.log").read_text()
     assert "ERROR" not in log
 
