@@ -14,7 +14,6 @@ import os
 import re
 import tempfile
 from pathlib import Path
-from urllib.parse import urlsplit, urlunsplit
 
 from models.errors import DesignError
 
@@ -25,6 +24,7 @@ __all__ = [
     "safe_child",
     "safe_name",
     "redact_url",
+    "redact_text",
 ]
 
 
@@ -89,23 +89,41 @@ def safe_child(folder, name) -> Path:
     return child
 
 
+_QUERY_SECRET = re.compile(r"(?i)(password|passwd|pwd)=[^&\s]*")
+_USERINFO = re.compile(r"(://[^:/@\s]*):[^\s]*@")
+
+
 def redact_url(url: str) -> str:
-    """The storage URL with any password replaced by '***' (safe to print, log and write)."""
+    """The storage URL with any password replaced by '***' (safe to print, log and write).
+
+    Parsed as the database layer parses it (a password may hold '/', '#', '?' unencoded), with a
+    plain pattern as the fallback for text that does not parse at all.
+    """
     if not isinstance(url, str) or "://" not in url:
         return url
+    out = url
     try:
-        parts = urlsplit(url)
-    except ValueError:
-        return re.sub(r"//[^@/]*@", "//***@", url)
-    query = re.sub(r"(?i)(password|passwd|pwd)=[^&]*", r"\1=***", parts.query)
-    netloc = parts.netloc
-    if "@" not in netloc and query == parts.query:
-        return url  # nothing secret; keep the URL exactly as given (sqlite:///x.db)
-    if "@" in netloc:
-        host = parts.hostname or ""
-        if parts.port is not None:
-            host = f"{host}:{parts.port}"
-        user = parts.username or ""
-        netloc = f"{user}:***@{host}" if parts.password is not None else f"{user}@{host}"
-    # Query strings can carry a password too (e.g. ?password=...).
-    return urlunsplit((parts.scheme, netloc, parts.path, query, parts.fragment))
+        from sqlalchemy.engine import make_url
+
+        parsed = make_url(url)
+        if parsed.password is not None:
+            out = parsed.render_as_string(hide_password=True)
+    except Exception:  # not a URL the database layer reads: hide everything after user name
+        out = _USERINFO.sub(r"\1:***@", url)
+    return _QUERY_SECRET.sub(r"\1=***", out)
+
+
+def redact_text(text: str, url) -> str:
+    """``text`` (an error message, a log line) with the password of ``url`` replaced by '***'."""
+    text = str(text)
+    if isinstance(url, str) and "://" in url:
+        try:
+            from sqlalchemy.engine import make_url
+
+            password = make_url(url).password
+        except Exception:
+            password = None
+        if password:
+            text = text.replace(str(password), "***")
+        text = text.replace(url, redact_url(url))
+    return _USERINFO.sub(r"\1:***@", _QUERY_SECRET.sub(r"\1=***", text))

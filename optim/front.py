@@ -44,7 +44,11 @@ DIMENSIONS = {
 
 
 def pareto_mask(values: np.ndarray, directions) -> np.ndarray:
-    """Boolean mask of the non-dominated rows of ``values`` (n x k) for the given directions."""
+    """Boolean mask of the non-dominated rows of ``values`` (n x k) for the given directions.
+
+    Rows are visited in lexicographic order (a row can only be dominated by one before it) and
+    each is compared with the whole front found so far at once; equal rows are all kept.
+    """
     values = np.asarray(values, float)
     n = values.shape[0]
     if n == 0:
@@ -53,16 +57,16 @@ def pareto_mask(values: np.ndarray, directions) -> np.ndarray:
     v = values * signs
     order = np.lexsort(v.T[::-1])
     keep = np.zeros(n, bool)
-    front: list[np.ndarray] = []
+    front = np.empty((n, v.shape[1]))
+    size = 0
     for i in order:
         x = v[i]
-        if any(np.all(f <= x) and np.any(f < x) for f in front):
+        f = front[:size]
+        if size and np.any(np.all(f <= x, axis=1) & np.any(f < x, axis=1)):
             continue
-        if any(np.all(f == x) for f in front):
-            keep[i] = True  # equal points: both on the front
-            continue
-        front.append(x)
         keep[i] = True
+        front[size] = x
+        size += 1
     return keep
 
 

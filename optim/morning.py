@@ -116,8 +116,9 @@ def write_front(study, spec_json: dict, where: str, folder: Path, echo=print) ->
 
     plot_dir = folder / "plots"
     images: list[Path] = []
-    images += plots.plot_front_pairs(df, objectives, plot_dir)
-    images += plots.plot_front_progress(df, objectives, plot_dir)
+    pairs = list(objectives.items())  # [(name, direction)] in the study's order
+    images += plots.plot_front_pairs(df, pairs, plot_dir)
+    images += plots.plot_front_progress(df, pairs, plot_dir)
     images += plots.plot_parameter_coupling(front, [p.name for p in spec.params], plot_dir)
     picked = _picked(front, objectives)
     designs = []

@@ -28,7 +28,7 @@ __all__ = ["Objective", "Constraint", "results_of", "flatten", "objective_values
 
 #: Density of electrical steel [kg/m^3] when the material library has none (common practice, no
 #: source: 7,600-7,800 for silicon steels).
-STEEL_DENSITY = 7700.0
+STEEL_DENSITY_KG_PER_M3 = 7700.0
 
 
 @dataclass(frozen=True)
@@ -49,15 +49,15 @@ class Constraint:
 
     def violation(self, value: float) -> float:
         """Scaled violation for the sampler (<= 0 feasible): the excess over the limit divided by
-        the limit's magnitude (or 1 for a zero limit), so that limits in different units weigh
-        alike."""
+        the limit's magnitude where that exceeds 1 (in the result's unit), so that large limits
+        in different units weigh alike and a zero limit does not swamp the others."""
         if not math.isfinite(value):
             return 1e6
         worst = -math.inf
         if self.high is not None:
-            worst = max(worst, (value - self.high) / max(abs(self.high), 1e-12))
+            worst = max(worst, (value - self.high) / max(abs(self.high), 1.0))
         if self.low is not None:
-            worst = max(worst, (self.low - value) / max(abs(self.low), 1e-12))
+            worst = max(worst, (self.low - value) / max(abs(self.low), 1.0))
         return worst
 
     def margin(self, value: float) -> float:
@@ -91,7 +91,7 @@ def _pole_mass(design: Design) -> float:
     if design.ring is not None:
         g = design.ring
         volume -= math.pi * (g.outer_radius**2 - g.inner_radius**2) * g.depth
-    return STEEL_DENSITY * volume
+    return STEEL_DENSITY_KG_PER_M3 * volume
 
 
 def results_of(design: Design, gaps_mm=(), isothermal: bool = False):

@@ -47,7 +47,7 @@ ALIASES = {
     "coil_setback_mm": "coil.setback_mm",
 }
 FRACTIONS = ("ring_outer_fraction", "ring_inner_fraction")
-_NUMERIC = ("pos", "nonneg", "int")
+_NUMERIC = ("pos", "nonneg", "int", "num", "frac", "unit")
 
 
 @dataclass(frozen=True)
@@ -162,6 +162,12 @@ def parse_search(table, problems: list[str]) -> list[Parameter]:
         if kind == "nonneg" and low < 0:
             problems.append(f"{where}.low = {low:g}: must be >= 0")
             continue
+        if kind == "frac" and not (0.0 < low and high <= 1.0):
+            problems.append(f"{where}: bounds {low:g}..{high:g} must lie in (0, 1]")
+            continue
+        if kind == "unit" and not (0.0 <= low and high <= 1.0):
+            problems.append(f"{where}: bounds {low:g}..{high:g} must lie in [0, 1]")
+            continue
         limits = _limits(key)
         if limits and not (limits[0] <= high <= limits[1] and (low == 0 or limits[0] <= low)):
             problems.append(
@@ -215,6 +221,10 @@ def design_source(base: dict, params: list[Parameter], values: dict) -> dict:
         for k in ("inner_radius_mm", "outer_radius_mm"):
             if f"coil.{k}" not in by_key:
                 coil[k] = base["coil"][k] + (pole - pole0)
+    for drive in ("current_A", "voltage_V"):  # a searched drive replaces the base's other one
+        if f"drive.{drive}" in by_key:
+            other = "voltage_V" if drive == "current_A" else "current_A"
+            data["drive"].pop(other, None)
     if "coil.turns" in by_key and "wire_diameter_mm" in base["coil"]:
         if "coil.wire_diameter_mm" not in by_key:
             n0, n = base["coil"]["turns"], data["coil"]["turns"]

@@ -130,6 +130,7 @@ class StudySpec:
         d = self.to_json()
         key = {k: d[k] for k in ("base", "search", "objectives", "robust", "constraints")}
         key["isothermal"] = bool(self.run.get("isothermal", False))
+        key["objectives"] = [[o.name, o.direction] for o in self.objectives]  # order matters
         text = json.dumps(key, sort_keys=True, separators=(",", ":"))
         return hashlib.sha256(text.encode()).hexdigest()[:16]
 
@@ -343,7 +344,14 @@ def spec_from_dict(data: dict, folder: Path | None = None, name: str = "study") 
         base_design = design_from_dict(base, name=str(study_name))
     except DesignError as err:
         raise DesignError([f"base design: {line}" for line in err.problems]) from None
-    design_source(base, params, mid)  # structural problems (fractions without a ring) raise
+    try:  # a search whose middle cannot be built would spend its night on failed trials
+        design_from_dict(design_source(base, params, mid), name=str(study_name))
+    except DesignError as err:
+        raise DesignError(
+            "search: the design at the middle of the search space cannot be built ("
+            + "; ".join(err.problems)
+            + "); narrow the bounds"
+        ) from None
     flat, _, _ = results_of(base_design, gaps, isothermal=bool(run.get("isothermal", False)))
     known = sorted(flat)
     for what, items in (("objectives", objectives), ("constraints", constraints)):

@@ -18,10 +18,11 @@ import json
 import logging
 import os
 import time
+import uuid
 from pathlib import Path
 
 from models.errors import DesignError
-from optim.files import redact_url, safe_child
+from optim.files import redact_text, redact_url, safe_child
 
 __all__ = [
     "JOURNAL",
@@ -48,7 +49,11 @@ def is_url(text) -> bool:
 
 
 def _database_url(url: str) -> str:
-    if url.startswith("postgresql://") or url.startswith("postgres://"):
+    """``postgres://`` (which the database layer no longer reads) and, when the psycopg2 driver
+    is missing, ``postgresql://`` become ``postgresql+psycopg://`` (the driver eddypull installs)."""
+    if url.startswith("postgres://"):
+        return "postgresql+psycopg://" + url.split("://", 1)[1]
+    if url.startswith("postgresql://"):
         try:
             import psycopg2  # noqa: F401
         except ImportError:
@@ -56,50 +61,70 @@ def _database_url(url: str) -> str:
     return url
 
 
-def repair_journal(path: Path) -> str | None:
-    """Cut a torn or unreadable last line off the journal at ``path``.
+#: How much of the journal's end is checked for a torn record [bytes] (records are ~1-2 kB).
+TAIL_BYTES = 1 << 20
 
-    The cut bytes are kept in ``<path>.torn-<time>`` beside it. Returns a one-line description of
-    what was done, or None if the journal was whole. Lines before the last must be whole JSON: a
-    journal broken in the middle is refused (DesignError) rather than silently shortened.
+
+def repair_journal(path: Path) -> str | None:
+    """Cut a torn or unreadable last record off the journal at ``path``.
+
+    Done under the journal's own lock, so that a writer of another process is never cut short;
+    only the last ``TAIL_BYTES`` are read. The cut bytes are kept beside the journal in
+    ``<name>.torn-<time>-<id>``. Returns a one-line description of what was done, or None if the
+    journal ended with a whole record. A journal damaged before its last record is left alone:
+    opening it then fails with one line (``open_storage``).
     """
+    from optuna.storages.journal import JournalFileOpenLock
+
     path = Path(path)
     if not path.exists() or path.stat().st_size == 0:
         return None
-    with open(path, "rb") as fh:
-        data = fh.read()
-    cut = len(data)
-    if not data.endswith(b"\n"):
-        cut = data.rfind(b"\n") + 1
-    else:
-        start = data.rfind(b"\n", 0, len(data) - 1) + 1
+    lock = JournalFileOpenLock(str(path))
+    lock.acquire()
+    try:
+        with open(path, "rb") as fh:
+            size = fh.seek(0, os.SEEK_END)
+            start = max(0, size - TAIL_BYTES)
+            fh.seek(start)
+            tail = fh.read()
+        if tail.endswith(b"\n"):
+            last = tail.rfind(b"\n", 0, len(tail) - 1) + 1
+            try:
+                json.loads(tail[last:])
+                return None
+            except ValueError:
+                cut = start + last
+        else:
+            newline = tail.rfind(b"\n")
+            if newline < 0 and start > 0:
+                raise DesignError(
+                    f"storage {str(path)!r}: its last {TAIL_BYTES} bytes hold no whole record; "
+                    "the file is damaged (restore it from a copy)"
+                )
+            cut = start + newline + 1
+        torn = tail[cut - start :]
+        keep = path.with_name(
+            f"{path.name}.torn-{time.strftime('%Y%m%dT%H%M%S')}-{uuid.uuid4().hex[:6]}"
+        )
         try:
-            json.loads(data[start:])
-        except ValueError:
-            cut = start
-    if cut == len(data):
-        return None
-    body = data[:cut]
-    for number, line in enumerate(body.splitlines(), start=1):
-        try:
-            json.loads(line)
-        except ValueError:
+            keep.write_bytes(torn)
+        except OSError as err:
             raise DesignError(
-                f"storage {str(path)!r}: line {number} is not a journal record; the file is "
-                "damaged before its last line (restore it from a copy)"
+                f"storage {str(path)!r}: ends in a torn record that cannot be set aside "
+                f"({err.strerror}); free space and run again"
             ) from None
-    keep = path.with_name(f"{path.name}.torn-{time.strftime('%Y%m%dT%H%M%S')}")
-    keep.write_bytes(data[cut:])
-    with open(path, "rb+") as fh:
-        fh.truncate(cut)
-        os.fsync(fh.fileno())
+        with open(path, "rb+") as fh:
+            fh.truncate(cut)
+            os.fsync(fh.fileno())
+    finally:
+        lock.release()
     return (
-        f"storage {path.name}: cut {len(data) - cut} bytes of a torn last record "
+        f"storage {path.name}: cut {len(torn)} bytes of a torn last record "
         f"(kept in {keep.name}); every whole record is kept"
     )
 
 
-def open_storage(location, repair: bool = True):
+def open_storage(location, repair: bool = True, create: bool = True):
     """An optuna storage for a study folder's journal (a Path) or a database URL (a str).
 
     Returns (storage, description) with the description safe to print.
@@ -109,12 +134,15 @@ def open_storage(location, repair: bool = True):
     if is_url(location):
         try:
             storage = optuna.storages.RDBStorage(
-                _database_url(location), engine_kwargs={"pool_pre_ping": True}
+                _database_url(location),
+                engine_kwargs={"pool_pre_ping": True},
+                skip_table_creation=not create,
             )
         except Exception as err:  # sqlalchemy/driver errors: one line, no password
             msg = str(err).splitlines()[0] if str(err) else type(err).__name__
             raise DesignError(
-                f"storage = {redact_url(location)!r}: cannot be opened ({redact_url(msg)[:200]})"
+                f"storage = {redact_url(location)!r}: cannot be opened "
+                f"({redact_text(msg, location)[:200]})"
             ) from None
         return storage, redact_url(location)
     folder = Path(location)
@@ -127,7 +155,10 @@ def open_storage(location, repair: bool = True):
     try:
         storage = JournalStorage(backend)
     except (ValueError, json.JSONDecodeError) as err:
-        raise DesignError(f"storage {str(path)!r}: cannot be read ({err})") from None
+        raise DesignError(
+            f"storage {str(path)!r}: cannot be read, a record before the last is damaged "
+            f"({str(err).splitlines()[0][:120]}); restore the file from a copy"
+        ) from None
     if note:
         logging.getLogger("eddypull").warning(note)
     return storage, str(path)
@@ -175,9 +206,17 @@ def load_existing(location, name: str | None = None):
             raise DesignError(
                 f"study {str(location)!r}: no {JOURNAL} there; give a study folder or a URL"
             )
-    storage, where = open_storage(location, repair=False)
+    storage, where = open_storage(location, repair=False, create=False)
     try:
-        summaries = optuna.get_all_study_summaries(storage, include_best_trial=False)
+        try:
+            summaries = optuna.get_all_study_summaries(storage, include_best_trial=False)
+        except DesignError:
+            raise
+        except Exception as err:  # e.g. a database without optuna's tables
+            why = str(err).splitlines()[0] if str(err) else type(err).__name__
+            raise DesignError(
+                f"study {where!r}: holds no study that can be read ({redact_text(why, location)[:160]})"
+            ) from None
         names = [s.study_name for s in summaries]
         if not names:
             raise DesignError(f"study {where!r}: the storage holds no study")

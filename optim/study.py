@@ -24,7 +24,7 @@ import numpy as np
 
 from models.errors import DesignError
 from optim.engine import RESULT_NAMES_ATTR, run_worker
-from optim.files import redact_url
+from optim.files import redact_text, redact_url
 from optim.storage import create_or_load, is_url, open_storage, release
 
 __all__ = ["study_folder", "run_study", "Progress", "prepare"]
@@ -312,10 +312,10 @@ def _worker_entry(cfg, conn, stop, counter):
     try:
         run_worker(cfg, sender, stop, counter)
     except DesignError as err:
-        sender.put(("error", "; ".join(err.problems)))
+        sender.put(("error", redact_text("; ".join(err.problems), cfg["location"])))
         code = 3
     except Exception as err:  # reported once by the parent; the study itself is intact
-        sender.put(("error", redact_url(f"{type(err).__name__}: {err}")[:500]))
+        sender.put(("error", redact_text(f"{type(err).__name__}: {err}", cfg["location"])[:500]))
         code = 3
     finally:
         conn.close()

@@ -77,8 +77,12 @@ def test_journal_broken_in_the_middle_is_refused_not_shortened(tmp_path, capsys)
     before = journal.read_bytes()
     assert main(["study", "run", str(path), "--trials", "1", "--out", str(folder)]) == 2
     err = capsys.readouterr().err
-    assert "line 2 is not a journal record" in err and "Traceback" not in err
-    assert journal.read_bytes() == before  # nothing was cut or rewritten
+    assert "cannot be read, a record before the last is damaged" in err
+    assert "Traceback" not in err and len(err.strip().splitlines()) == 1
+    # Only the torn tail was set aside; every other byte is where it was.
+    kept = list(folder.glob("journal.log.torn-*"))
+    assert len(kept) == 1
+    assert journal.read_bytes() + kept[0].read_bytes() == before
 
 
 def test_atomic_write_leaves_the_old_file_or_the_new_one(tmp_path):
@@ -129,11 +133,24 @@ def test_study_name_with_a_path_is_refused_in_one_line(tmp_path, capsys):
         ),
         ("postgresql://db/s?user=u&password=pa55", "postgresql://db/s?user=u&password=***"),
         ("sqlite:///x.db", "sqlite:///x.db"),
+        # Unencoded '/', '#', '?' in a password: the database layer still reads them.
+        ("postgresql://u:se/cret@db:5432/s", "postgresql://u:***@db:5432/s"),
+        ("postgresql://u:a#b?c@db/s", "postgresql://u:***@db/s"),
+        ("postgresql://u:pw@db:abc/s", "postgresql://u:***@db:abc/s"),
         ("mysql://u@h/s", "mysql://u@h/s"),
     ],
 )
 def test_passwords_are_redacted(url, shown):
     assert redact_url(url) == shown
+
+
+def test_password_is_removed_from_free_text():
+    from optim.files import redact_text
+
+    url = "postgresql://u:se/cret@db/s"
+    text = f"OperationalError: could not connect to {url} as u with se/cret"
+    out = redact_text(text, url)
+    assert "se/cret" not in out and "postgresql://u:***@db/s" in out
 
 
 def test_bad_storage_url_is_one_line_without_the_password(tmp_path, capsys):

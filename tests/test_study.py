@@ -88,6 +88,12 @@ isothermal = true
             src["ring"]["depth_mm"] = depth
             grid_best = max(grid_best, evaluate(design_from_dict(src), isothermal=True).pull_N)
     assert best.value >= 0.99 * grid_best, (best.value, grid_best)
+    # A single-objective study's morning files: the front is its best trial.
+    from optim.morning import write_front
+
+    out = write_front(study, spec_json, "grid", tmp_path / "grid")
+    assert list(out["front"]["trial"]) == [best.number]
+    assert (tmp_path / "grid" / "report.html").exists()
 
 
 @pytest.mark.slow
@@ -114,13 +120,14 @@ def test_multi_objective_front_is_feasible_and_non_dominated(tmp_path):
 
 
 def test_geometry_that_cannot_be_built_is_a_failed_trial_with_its_reason(tmp_path):
-    """ring_outer_fraction near 1 leaves less than the 0.2 mm wall: refused before the model."""
+    """ring_outer_fraction above 0.98 leaves less than the 0.2 mm wall of a 10 mm pole: those
+    trials are refused before the model (the middle of the range, 0.9495, is buildable)."""
     body = QUICK.replace("high = 0.95 }", "high = 0.999 }").replace(
-        "ring_outer_fraction = { low = 0.4", "ring_outer_fraction = { low = 0.985"
+        "ring_outer_fraction = { low = 0.4", "ring_outer_fraction = { low = 0.9"
     )
     spec = load_study_spec(_study_file(tmp_path, "walls", body))
     run_study(
-        spec, tmp_path / "walls", workers=1, trials=8, echo=lambda *_: None, tty=False, salt=0
+        spec, tmp_path / "walls", workers=1, trials=16, echo=lambda *_: None, tty=False, salt=0
     )
     study, spec_json, _ = load_existing(tmp_path / "walls")
     df = trials_table(study, spec_json)
@@ -361,6 +368,29 @@ def test_bad_study_file_gives_one_clear_line_and_exit_2(tmp_path, edit, expected
     assert not (tmp_path / "o" / "journal.log").exists()
 
 
+def test_a_search_whose_middle_cannot_be_built_is_refused(tmp_path, capsys):
+    from optim.cli import main
+
+    body = QUICK.replace(
+        "ring_depth_mm = { low = 0.5, high = 6.0 }", "ring_depth_mm = { low = 45.0, high = 50.0 }"
+    )  # the pole is 40 mm long
+    path = _study_file(tmp_path, "deep", body)
+    assert main(["study", "run", str(path), "--trials", "1", "--out", str(tmp_path / "o")]) == 2
+    err = capsys.readouterr().err
+    assert "search: the design at the middle of the search space cannot be built" in err
+    assert "ring.depth_mm = 47.5: must be < pole.length_mm" in err
+
+
+def test_searching_the_voltage_replaces_the_base_current(tmp_path):
+    """The demo design is driven by a current; a search over voltage_V drives it by voltage."""
+    from optim.space import build_design, parse_search
+
+    spec = load_study_spec(_study_file(tmp_path, "v", QUICK))
+    params = parse_search({"voltage_V": {"low": 20.0, "high": 60.0}}, [])
+    design = build_design(spec.base, params, {"voltage_V": 40.0}, "v")
+    assert design.drive.voltage == 40.0 and design.drive.current is None
+
+
 def test_resuming_with_a_changed_search_is_refused(tmp_path, capsys):
     from optim.cli import main
 
@@ -407,3 +437,17 @@ def test_progress_front_equals_the_pareto_mask_of_all_points():
         progress.add("COMPLETE", True, x)
     expected = points[pareto_mask(points, spec.directions)] * progress.signs
     assert sorted(map(tuple, progress.front)) == sorted(map(tuple, expected))
+
+
+def test_pareto_mask_matches_the_definition():
+    """Against the definition itself (no row is at least as good everywhere and better
+    somewhere), by brute force over every pair; ties kept."""
+    rng = np.random.default_rng(11)
+    values = np.round(rng.random((300, 3)), 1)  # coarse: many ties and equal rows
+    directions = ["maximize", "minimize", "minimize"]
+    s = values * np.array([-1.0, 1.0, 1.0])
+    dominated = (
+        np.all(s[None, :, :] <= s[:, None, :], axis=2)
+        & np.any(s[None, :, :] < s[:, None, :], axis=2)
+    ).any(axis=1)
+    assert (pareto_mask(values, directions) == ~dominated).all()
