@@ -86,17 +86,20 @@ def _cmd_demo(args) -> int:
     from optim.spec import load_study_spec
     from optim.storage import load_existing
     from optim.study import run_study, study_folder
+    from optim.study_cli import check_budget
 
     spec = load_study_spec(DEMO_STUDY)
     minutes = args.minutes if args.minutes is not None else spec.run.get("minutes", 3.0)
     if args.trials is not None:
         minutes = args.minutes
+    workers = args.workers if args.workers is not None else spec.run.get("workers", 1)
+    check_budget(workers, args.trials, minutes)
     folder = study_folder(spec, DEMO_STUDY, Path(args.out) if args.out else None)
     print(f"demo study {DEMO_STUDY.name}: {spec.description}")
     summary = run_study(
         spec,
         folder,
-        workers=args.workers if args.workers is not None else spec.run.get("workers", 1),
+        workers=workers,
         trials=args.trials,
         minutes=minutes,
     )
@@ -170,6 +173,10 @@ def main(argv=None) -> int:
     except DesignError as err:
         for line in err.problems:
             print(f"eddypull: error: {line}", file=sys.stderr)
+        return 2
+    except OSError as err:  # a folder that cannot be made, a full disk, no permission
+        where = f"{err.filename}: " if err.filename else ""
+        print(f"eddypull: error: {where}{err.strerror or err}", file=sys.stderr)
         return 2
 
 

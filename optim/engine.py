@@ -68,7 +68,7 @@ def make_sampler(spec, seed: int | None):
     if kind == "tpe":
         return optuna.samplers.TPESampler(seed=seed, multivariate=True)
     population = int(spec.run.get("population", 40))
-    return optuna.samplers.NSGAIISampler(population_size=max(population, 2), seed=seed)
+    return optuna.samplers.NSGAIISampler(population_size=population, seed=seed)
 
 
 def evaluate_trial(spec, values: dict):

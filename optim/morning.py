@@ -14,7 +14,7 @@ from datetime import UTC, datetime
 from pathlib import Path
 
 from models.errors import DesignError
-from optim.files import atomic_path, atomic_write_text, safe_name
+from optim.files import atomic_path, atomic_write_text
 from optim.front import status_summary, trials_table
 
 __all__ = ["write_front", "export_trial", "pick_trial", "design_of"]
@@ -117,9 +117,11 @@ def write_front(study, spec_json: dict, where: str, folder: Path, echo=print) ->
     plot_dir = folder / "plots"
     images: list[Path] = []
     pairs = list(objectives.items())  # [(name, direction)] in the study's order
-    images += plots.plot_front_pairs(df, pairs, plot_dir)
-    images += plots.plot_front_progress(df, pairs, plot_dir)
-    images += plots.plot_parameter_coupling(front, [p.name for p in spec.params], plot_dir)
+    if len(df):
+        images += plots.plot_front_pairs(df, pairs, plot_dir)
+        images += plots.plot_front_progress(df, pairs, plot_dir)
+    if len(front):
+        images += plots.plot_parameter_coupling(front, [p.name for p in spec.params], plot_dir)
     picked = _picked(front, objectives)
     designs = []
     for t in picked:
@@ -204,8 +206,10 @@ def export_trial(
     best: str | None = None,
     out=None,
     verify: bool = False,
+    echo=None,
 ) -> dict:
-    """Write the hand-off of one trial; returns file name -> path."""
+    """Write the hand-off of one trial; returns file name -> path. ``echo`` receives a note when
+    the re-evaluated numbers differ from the stored ones (the model changed since the study)."""
     from models.evaluate import evaluate
     from optim.engine import record_of
     from optim.handoff import write_handoff
@@ -218,13 +222,8 @@ def export_trial(
     record = record_of(t)
     names = study.user_attrs.get("eddypull_result_names", [])
     stored = dict(zip(names, record.get("results", []), strict=False))
-    if out is None:
-        target = Path(folder) / f"handoff-trial-{t.number}"
-    else:
-        target = Path(out)
-        if not target.is_absolute() and len(target.parts) == 1:
-            safe_name(str(out), "--out")
-            target = Path(folder) / target
+    # Default: a folder in the study's; --out is a path like any other on the command line.
+    target = Path(folder) / f"handoff-trial-{t.number}" if out is None else Path(out)
     objective_values = dict(zip(spec_json["objectives"], t.values, strict=True))
     now = result.to_dict()
     drift = [
@@ -251,8 +250,9 @@ def export_trial(
 
         checked = run_verify(design)
     paths = write_handoff(design, result, target, meta, verify=checked)
-    if drift:
-        paths["note"] = Path(
-            f"re-evaluation differs from the stored {', '.join(drift)} (model changed since)"
+    if drift and echo is not None:
+        echo(
+            f"note: re-evaluated {', '.join(drift)} differ from the study's stored values (the "
+            "model changed since the study ran); the hand-off carries the new values"
         )
     return paths

@@ -327,6 +327,9 @@ def spec_from_dict(data: dict, folder: Path | None = None, name: str = "study") 
             )
         else:
             _check(f"run.{k}", v, _RUN_KEYS[k], problems, RUN_MAX.get(k))
+    population = run.get("population")
+    if isinstance(population, int) and not isinstance(population, bool) and population == 1:
+        problems.append("run.population = 1: must be >= 2 (NSGA-II breeds pairs)")
     if isinstance(run.get("sampler"), str) and run["sampler"] not in SAMPLERS:
         problems.append(f"run.sampler = {run['sampler']!r}: must be one of {', '.join(SAMPLERS)}")
     if problems:

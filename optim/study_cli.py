@@ -4,6 +4,7 @@ from __future__ import annotations
 
 import argparse
 import json
+import os
 import sys
 from pathlib import Path
 
@@ -20,6 +21,21 @@ def _json(obj) -> str:
 __all__ = ["add_study_parser"]
 
 
+def check_budget(workers, trials, minutes) -> None:
+    """The run's workers, trials and minutes, or a one-line DesignError."""
+    from optim.spec import RUN_MAX
+
+    for flag, value in (("--workers", workers), ("--trials", trials)):
+        if value is not None and (not isinstance(value, int) or value < 1):
+            raise DesignError(f"{flag} = {value!r}: must be a whole number >= 1")
+    if minutes is not None and not 0 < minutes <= RUN_MAX["minutes"]:
+        raise DesignError(
+            f"--minutes/--hours = {minutes!r} min: must be > 0 and at most a year (525600 min)"
+        )
+    if workers > RUN_MAX["workers"]:
+        raise DesignError(f"--workers = {workers}: must be at most {RUN_MAX['workers']}")
+
+
 def _cmd_run(args) -> int:
     from optim.spec import RUN_MAX, load_study_spec
     from optim.storage import is_url
@@ -32,15 +48,7 @@ def _cmd_run(args) -> int:
     if args.trials is None and (args.hours is not None or args.minutes is not None):
         trials = None  # a time given on the command line replaces the file's whole budget
     workers = args.workers if args.workers is not None else run.get("workers", 1)
-    for flag, value in (("--workers", workers), ("--trials", trials)):
-        if value is not None and (not isinstance(value, int) or value < 1):
-            raise DesignError(f"{flag} = {value!r}: must be a whole number >= 1")
-    if minutes is not None and not 0 < minutes <= RUN_MAX["minutes"]:
-        raise DesignError(
-            f"--minutes/--hours = {minutes!r} min: must be > 0 and at most a year (525600 min)"
-        )
-    if workers > RUN_MAX["workers"]:
-        raise DesignError(f"--workers = {workers}: must be at most {RUN_MAX['workers']}")
+    check_budget(workers, trials, minutes)
     if args.seed is not None and not 0 <= args.seed <= RUN_MAX["seed"]:
         raise DesignError(f"--seed = {args.seed}: must be between 0 and {RUN_MAX['seed']}")
     if args.storage is not None and not is_url(args.storage):
@@ -48,7 +56,8 @@ def _cmd_run(args) -> int:
             f"--storage = {args.storage!r}: must be a database URL (scheme://...); leave it out "
             "for the study folder's journal"
         )
-    storage = args.storage if args.storage is not None else run.get("storage")
+    # A password is safer in the environment than on a command line (shell history, ps).
+    storage = args.storage or os.environ.get("EDDYPULL_STORAGE_URL") or run.get("storage")
     folder = study_folder(spec, Path(args.study), Path(args.out) if args.out else None)
     summary = run_study(
         spec,
@@ -121,6 +130,7 @@ def _cmd_export(args) -> int:
         best=args.best,
         out=args.out,
         verify=args.verify,
+        echo=print,
     )
     for name, path in paths.items():
         print(f"{name:16s} {path}")
