@@ -112,16 +112,17 @@ def _cmd_demo(args) -> int:
     for line in out["lines"]:
         print(line)
     first = next(iter(spec_json["objectives"]))
+    from optim.summary import CAUTION
+
     if out["front"].empty:
         print("no feasible design yet: run the demo longer (eddypull demo --minutes 10)")
+        print(CAUTION)
         return 0
     paths = export_trial(study, spec_json, where, folder, best=first, out=folder / "handoff")
     print(f"hand-off of the best {first} design (CAD): {paths['design.toml'].parent}")
     for name, path in paths.items():
         print(f"  {name:16s} {path}")
     print(f"open {out['paths']['report.html']} in a browser to read the study")
-    from optim.summary import CAUTION
-
     print(CAUTION)
     return 0
 

@@ -124,20 +124,37 @@ def repair_journal(path: Path) -> str | None:
     )
 
 
+def _rdb_storage(location: str, create: bool):
+    """optuna's database storage. Two machines starting on a new database at once race to create
+    its tables (the loser sees a unique-key violation): a failed first attempt is retried once the
+    other has finished, a few times with growing pauses."""
+    import optuna
+
+    for attempt in range(5):
+        try:
+            return optuna.storages.RDBStorage(
+                _database_url(location),
+                engine_kwargs={"pool_pre_ping": True},
+                skip_table_creation=not create,
+            )
+        except Exception as err:
+            text = str(err)
+            racing = "UniqueViolation" in text or "already exists" in text
+            if not create or not racing or attempt == 4:
+                raise
+            time.sleep(0.5 * (attempt + 1))
+    raise AssertionError("unreachable")
+
+
 def open_storage(location, repair: bool = True, create: bool = True):
     """An optuna storage for a study folder's journal (a Path) or a database URL (a str).
 
     Returns (storage, description) with the description safe to print.
     """
-    import optuna
 
     if is_url(location):
         try:
-            storage = optuna.storages.RDBStorage(
-                _database_url(location),
-                engine_kwargs={"pool_pre_ping": True},
-                skip_table_creation=not create,
-            )
+            storage = _rdb_storage(location, create)
         except Exception as err:  # sqlalchemy/driver errors: one line, no password
             msg = str(err).splitlines()[0] if str(err) else type(err).__name__
             raise DesignError(

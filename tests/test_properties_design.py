@@ -18,7 +18,7 @@ the pole, library materials or explicit constants, current or voltage drive, wit
 * the coupled (electro-thermal) evaluation, the command line's default, never raises.
 
 Cost: one evaluation takes about 0.14 s of CPU here (a new pole geometry each time, so no cached
-pole model, and the thermal network); the quick tests evaluate ~420 designs, the slow one 1000.
+pole model, and the thermal network); the quick tests evaluate ~420 designs, the slow one 500.
 """
 
 from __future__ import annotations
@@ -51,7 +51,7 @@ COMMON = dict(
     suppress_health_check=[HealthCheck.too_slow, HealthCheck.data_too_large],
 )
 QUICK = settings(max_examples=100, **COMMON)
-SLOW = settings(max_examples=1000, **COMMON)
+SLOW = settings(max_examples=500, **COMMON)
 
 
 def _log_uniform(lo, hi):

@@ -9,7 +9,7 @@ checks the starting point itself. Categories: wrong types at every key, tables t
 tables, missing tables, inverted or equal bounds, negative, zero and absurd sizes, NaN, inf and
 huge numbers, unknown keys and tables, wrong units in names, unknown results, broken TOML, binary
 garbage, invalid UTF-8 and bad ``design`` paths. The quick tests try about 2,800 inputs (under a
-minute on a loaded 2-core machine); the slow one draws 4,000 more from six categories at once.
+minute on a loaded 2-core machine); the slow one draws 2,000 more from six categories at once.
 
 ``study status``, ``front`` and ``export`` get bad locations (missing, a file, no journal, a
 damaged journal, URLs with a bad scheme or an unreachable port) and bad ``--trial``/``--best``
@@ -618,7 +618,7 @@ _CATEGORIES = st.sampled_from(["wrong type", "size", "nan", "unknown key", "name
 
 
 @pytest.mark.slow
-@settings(QUICK, max_examples=4000)
+@settings(QUICK, max_examples=2000)
 @given(_CATEGORIES, st.data())
 def test_many_malformed_studies(workdir, capsys, category, data):
     if category == "garbage":
