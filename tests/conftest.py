@@ -35,3 +35,13 @@ def demo_dict() -> dict:
 @pytest.fixture
 def demo():
     return copy.deepcopy(demo_dict())
+
+
+def write_counts(request, label: str, counts: dict) -> None:
+    """Print how many inputs each category tried, once a module is done (for the record)."""
+    reporter = request.config.pluginmanager.get_plugin("terminalreporter")
+    capture = request.config.pluginmanager.get_plugin("capturemanager")
+    if reporter is not None and capture is not None and counts:
+        total = sum(counts.values())
+        with capture.global_and_fixture_disabled():
+            reporter.write_line(f"\n{label}: {total}: {dict(sorted(counts.items()))}")

@@ -27,7 +27,7 @@ from hypothesis import strategies as st
 
 from models.design import DESIGN_KEYS, PLAUSIBLE_LIMITS
 from optim.cli import main
-from tests.conftest import demo_dict
+from tests.conftest import demo_dict, write_counts
 
 # Hypothesis's failure report trips over a deprecation in a dependency under warnings-as-errors;
 # without this a failing example shows as an INTERNALERROR instead of the example.
@@ -138,14 +138,7 @@ COUNTS: dict[str, int] = {}
 def _report_counts(request):
     """After the module: how many malformed inputs each category tried (for the record)."""
     yield
-    reporter = request.config.pluginmanager.get_plugin("terminalreporter")
-    capture = request.config.pluginmanager.get_plugin("capturemanager")
-    if reporter is not None and capture is not None and COUNTS:
-        total = sum(COUNTS.values())
-        with capture.global_and_fixture_disabled():
-            reporter.write_line(
-                f"\nmalformed inputs tried: {total}: {dict(sorted(COUNTS.items()))}"
-            )
+    write_counts(request, "malformed inputs tried", COUNTS)
 
 
 def run_cli(path, capsys, category):

@@ -31,7 +31,7 @@ from hypothesis import strategies as st
 from models.design import DESIGN_KEYS
 from optim.cli import main
 from optim.spec import RUN_MAX, load_study_spec
-from tests.conftest import ROOT
+from tests.conftest import ROOT, write_counts
 from tests.test_properties_files import BREAKERS, UNITS, Raw, _time_box, to_toml
 
 # Hypothesis's failure report trips over a deprecation in a dependency under warnings-as-errors;
@@ -132,14 +132,7 @@ COUNTS: dict[str, int] = {}
 def _report_counts(request):
     """After the module: how many malformed inputs each category tried (for the record)."""
     yield
-    reporter = request.config.pluginmanager.get_plugin("terminalreporter")
-    capture = request.config.pluginmanager.get_plugin("capturemanager")
-    if reporter is not None and capture is not None and COUNTS:
-        total = sum(COUNTS.values())
-        with capture.global_and_fixture_disabled():
-            reporter.write_line(
-                f"\nbad study inputs tried: {total}: {dict(sorted(COUNTS.items()))}"
-            )
+    write_counts(request, "bad study inputs tried", COUNTS)
 
 
 def refused(argv, capsys, category, one_line=False) -> list[str]:

@@ -144,6 +144,15 @@ def _count(folder: Path) -> tuple[int, int]:
     return len(trials), running
 
 
+def _wait_for_trials(folder: Path, n: int, timeout: float = 120.0) -> None:
+    """Wait until the study in ``folder`` holds ``n`` trials (or the time is up)."""
+    deadline = time.time() + timeout
+    while time.time() < deadline:
+        time.sleep(1.0)
+        if (folder / "journal.log").exists() and _count(folder)[0] >= n:
+            return
+
+
 @pytest.mark.slow
 def test_killed_worker_loses_nothing_completed_and_the_study_resumes(tmp_path):
     """SIGKILL workers at seeded random moments: every recorded trial stays, the run restarts the
@@ -229,11 +238,7 @@ def test_whole_run_killed_then_resumed(tmp_path):
         str(folder),
     )
     with eddypull(*args, stdout=subprocess.DEVNULL, stderr=subprocess.DEVNULL) as proc:
-        deadline = time.time() + 120
-        while time.time() < deadline:
-            time.sleep(1.0)
-            if (folder / "journal.log").exists() and _count(folder)[0] >= 15:
-                break
+        _wait_for_trials(folder, 15)
         os.killpg(proc.pid, signal.SIGKILL)  # parent and workers at once, as a power cut would
         proc.wait(timeout=30)
     n1, running = _count(folder)
@@ -260,11 +265,7 @@ def test_ctrl_c_or_terminate_stops_cleanly(tmp_path, sig):
         str(folder),
     )
     with eddypull(*args) as proc:
-        deadline = time.time() + 120
-        while time.time() < deadline:
-            time.sleep(1.0)
-            if (folder / "journal.log").exists() and _count(folder)[0] >= 10:
-                break
+        _wait_for_trials(folder, 10)
         workers = workers_of(proc.pid)
         proc.send_signal(sig)
         out, err = proc.communicate(timeout=120)
