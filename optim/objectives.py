@@ -6,12 +6,11 @@ their names (``pull_N``, ``ring_loss_W``, ``ring_temperature_C`` ...), dictionar
 ``<field>.<key>`` (``pull_by_source_N.ring``, ``margins.coil_temperature_C``). The study adds:
 
 * ``worst_pull_N``: the smallest pull over a gap range (``gap_min_mm`` .. ``gap_max_mm`` at
-  ``points`` evenly spaced gaps, the design's own gap among them when it lies inside), the pull a
-  part is sure of wherever it sits in that range;
-* ``worst_lift_ratio``: ``worst_pull_N`` / target weight;
-* ``pole_mass_kg``: mass of the pole's steel with the groove removed (where the model does not
-  report it itself);
-* ``core_flux_fraction``: core peak flux density / the steel's saturation flux density.
+  ``points`` evenly spaced gaps; the design's own evaluation is reused where a gap coincides with
+  its own), the pull a part is sure of wherever it sits in that range;
+* ``worst_lift_ratio``: ``worst_pull_N`` / target weight.
+
+``pole_mass_kg`` and ``core_flux_fraction`` come from the model's result itself.
 """
 
 from __future__ import annotations
@@ -25,10 +24,6 @@ from models.design import Design, with_value
 from models.evaluate import evaluate
 
 __all__ = ["Objective", "Constraint", "results_of", "flatten", "objective_values", "margins"]
-
-#: Density of electrical steel [kg/m^3] when the material library has none (common practice, no
-#: source: 7,600-7,800 for silicon steels).
-STEEL_DENSITY_KG_PER_M3 = 7700.0
 
 
 @dataclass(frozen=True)
@@ -85,15 +80,6 @@ def flatten(d: dict) -> dict[str, float]:
     return out
 
 
-def _pole_mass(design: Design) -> float:
-    p = design.pole
-    volume = math.pi * p.radius**2 * p.length
-    if design.ring is not None:
-        g = design.ring
-        volume -= math.pi * (g.outer_radius**2 - g.inner_radius**2) * g.depth
-    return STEEL_DENSITY_KG_PER_M3 * volume
-
-
 def results_of(design: Design, gaps_mm=(), isothermal: bool = False):
     """Evaluate ``design`` and return (flat results, warnings, binding limit name or "").
 
@@ -103,10 +89,6 @@ def results_of(design: Design, gaps_mm=(), isothermal: bool = False):
     result = evaluate(design, isothermal=isothermal)
     flat = flatten(result.to_dict())
     flat.pop("run_time_s", None)
-    flat.setdefault("pole_mass_kg", _pole_mass(design))
-    bsat = design.pole.saturation_flux_density
-    if bsat:
-        flat.setdefault("core_flux_fraction", result.core_peak_flux_density_T / bsat)
     if len(gaps_mm):
         pulls = []
         for g in gaps_mm:

@@ -222,11 +222,9 @@ def test_killed_worker_loses_nothing_completed_and_the_study_resumes(tmp_path):
     assert numbers == list(range(n2))
 
 
-@pytest.mark.slow
-def test_whole_run_killed_then_resumed(tmp_path):
-    study_file = _study_file(tmp_path, "crash", QUICK)
-    folder = tmp_path / "crash"
-    args = (
+def _five_minute_run(study_file: Path, folder: Path) -> tuple:
+    """`study run` with two workers and a budget far longer than the test waits."""
+    return (
         "study",
         "run",
         str(study_file),
@@ -237,6 +235,13 @@ def test_whole_run_killed_then_resumed(tmp_path):
         "--out",
         str(folder),
     )
+
+
+@pytest.mark.slow
+def test_whole_run_killed_then_resumed(tmp_path):
+    study_file = _study_file(tmp_path, "crash", QUICK)
+    folder = tmp_path / "crash"
+    args = _five_minute_run(study_file, folder)
     with eddypull(*args, stdout=subprocess.DEVNULL, stderr=subprocess.DEVNULL) as proc:
         _wait_for_trials(folder, 15)
         os.killpg(proc.pid, signal.SIGKILL)  # parent and workers at once, as a power cut would
@@ -253,17 +258,7 @@ def test_whole_run_killed_then_resumed(tmp_path):
 def test_ctrl_c_or_terminate_stops_cleanly(tmp_path, sig):
     study_file = _study_file(tmp_path, "ctrlc", QUICK)
     folder = tmp_path / "ctrlc"
-    args = (
-        "study",
-        "run",
-        str(study_file),
-        "--workers",
-        "2",
-        "--minutes",
-        "5",
-        "--out",
-        str(folder),
-    )
+    args = _five_minute_run(study_file, folder)
     with eddypull(*args) as proc:
         _wait_for_trials(folder, 10)
         workers = workers_of(proc.pid)
