@@ -10,14 +10,14 @@ from dataclasses import asdict, dataclass, field
 import numpy as np
 from scipy.constants import g as standard_gravity
 
-from models.circuit import RING, TARGET, CircuitSolution, assemble_circuit, solve_system
 from models.design import Design
-from models.discretize import Fineness, skin_depth
 from models.errors import DesignError
-from models.filaments import loop_field, mutual
+from models.fast.circuit import RING, TARGET, CircuitSolution, assemble_circuit, solve_system
+from models.fast.discretize import Fineness, skin_depth
+from models.fast.filaments import loop_field, mutual
+from models.fast.pull import pull_by_source
 from models.materials import MATERIALS
-from models.pull import pull_by_source
-from models.thermal import build_network, hold_temperature, solve_coupled, time_to_limits
+from models.thermal.network import build_network, hold_temperature, solve_coupled, time_to_limits
 
 __all__ = ["Result", "evaluate", "DEFAULT_FINENESS", "MODEL_VERSION"]
 
@@ -63,7 +63,7 @@ class Result:
     warnings : where the linear model or its discretisation is outside its validated range, and
         a thermal runaway
 
-    Thermal fields (models.thermal; steady state at the duty-averaged losses, degC):
+    Thermal fields (models.thermal.network; steady state at the duty-averaged losses, degC):
     coil_temperature_C : the winding's hot spot (what its insulation class limits);
     core_temperature_C, ring_temperature_C (the face's without a ring), target_temperature_C;
     target_hold_temperature_C : a part held for thermal.hold_time_s, arriving at ambient;
@@ -167,7 +167,7 @@ def _cached_pole_model(radius, length, relative_permeability, groove, panel_size
     fields of the pole and the ring, so they stand in for the design's dataclasses here."""
     from types import SimpleNamespace
 
-    from models.pole import MagnetisedPole, build_panels
+    from models.fast.pole import MagnetisedPole, build_panels
 
     pole = SimpleNamespace(radius=radius, length=length)
     ring = None
@@ -194,7 +194,7 @@ def _core_peak_flux_density(design: Design, sol: CircuitSolution) -> float:
     """
     if sol.panels is None:
         return 0.0
-    from models.pole import panel_field
+    from models.fast.pole import panel_field
 
     p = design.pole
     margin = 0.08 * p.radius
@@ -226,11 +226,11 @@ def _core_peak_flux_density(design: Design, sol: CircuitSolution) -> float:
 def _pole_flux_density(design: Design, sol: CircuitSolution) -> float:
     """Peak section-averaged flux density of the pole [T]: sqrt 2 |Phi(z)| / (pi R_p^2), the flux
     Phi through the pole's cross-section at height z from every loop (cells at 2 x 2 Gauss nodes,
-    panels by models.pole.panel_mutual), largest over 11 heights."""
+    panels by models.fast.pole.panel_mutual), largest over 11 heights."""
     if sol.panels is None:
         return 0.0
-    from models.circuit import _gauss_nodes
-    from models.pole import panel_mutual
+    from models.fast.circuit import _gauss_nodes
+    from models.fast.pole import panel_mutual
 
     p = design.pole
     z = np.linspace(-p.length, 0.0, 11)[1:-1]
@@ -435,7 +435,7 @@ def evaluate(
     isothermal : bool
         True: every part's resistivity at 20 degC (no electro-thermal coupling); the temperatures
         reported are then the network's response to the 20 degC losses. False (default): losses
-        and temperatures iterated to agree (models.thermal.solve_coupled), resistivities
+        and temperatures iterated to agree (models.thermal.network.solve_coupled), resistivities
         rho_20 (1 + alpha (T - 20 degC)). A design without [thermal] uses
         models.design.Thermal's defaults (25 degC ambient, natural convection, continuous duty).
     fineness : Fineness, optional

@@ -76,7 +76,7 @@ QUANTITIES = ("pull_N", "target_loss_W", "ring_loss_W", "pole_flux_density_T")
 def run_case(name: str):
     """Fast model and FEM reference of one case: a flat dict row for the CSV."""
     from models import evaluate
-    from models.fem import reference
+    from models.fem.reference import reference
 
     design = case_design(name)
     t = time.perf_counter()
@@ -114,7 +114,7 @@ def main(names=None) -> None:
     CSV_PATH.parent.mkdir(exist_ok=True)
     with CSV_PATH.open("w", newline="") as fh:
         fh.write(
-            "# Fast multi-loop model vs the FEM reference (models/fem.py: reference(), finest of a\n"
+            "# Fast multi-loop model vs the FEM reference (models/fem/reference.py: reference(), finest of a\n"
             "# two-mesh, two-boundary study). Produced by `python -m tests.cross_model`.\n"
         )
         w = csv.DictWriter(fh, fieldnames=list(rows[0]))

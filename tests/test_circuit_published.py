@@ -28,17 +28,17 @@ import pytest
 from scipy.constants import mu_0
 from scipy.integrate import quad
 
-from models.circuit import COIL, TARGET, build_cells, cell_mutual_matrix
 from models.design import design_from_dict, load_design
-from models.discretize import Cells, Fineness, conductor_cells, graded_edges
 from models.evaluate import DEFAULT_FINENESS, evaluate
-from models.filaments import mutual, mutual_dz, self_inductance_rect
+from models.fast.circuit import COIL, TARGET, build_cells, cell_mutual_matrix
+from models.fast.discretize import Cells, Fineness, conductor_cells, graded_edges
+from models.fast.filaments import mutual, mutual_dz, self_inductance_rect
 from tests.conftest import TEST_COIL
 
 DEMO = Path(__file__).resolve().parents[1] / "studies" / "demo_design.toml"
 SIGMA_CU = 58.0e6  # annealed copper, 100 % IACS [S/m] (IEC 60028)
 DENSITY_CU = 8890.0  # [kg/m^3] (common handbook value, from memory; only the weight uses it)
-HAVE_POLE = importlib.util.find_spec("models.pole") is not None
+HAVE_POLE = importlib.util.find_spec("models.fast.pole") is not None
 
 
 # ------------------------------------------------------------------------------------------------
@@ -507,7 +507,7 @@ def test_energy_balance_air_cored():
     assert r.input_power_W == pytest.approx(total, rel=1e-9)
 
 
-@pytest.mark.skipif(not HAVE_POLE, reason="models/pole.py (laminated pole) is not there yet")
+@pytest.mark.skipif(not HAVE_POLE, reason="models/fast/pole.py (laminated pole) is not there yet")
 def test_energy_balance_laminated_demo():
     """The laminated pole adds 0.5 (M_iron + M_iron^T), real and symmetric: no loss of its own."""
     r = evaluate(load_design(DEMO), isothermal=True)
@@ -537,7 +537,7 @@ def test_voltage_drive_reproduces_current_drive_air_cored():
     assert r_v.coil_impedance_ohm == pytest.approx(r_i.coil_impedance_ohm, rel=1e-9)
 
 
-@pytest.mark.skipif(not HAVE_POLE, reason="models/pole.py (laminated pole) is not there yet")
+@pytest.mark.skipif(not HAVE_POLE, reason="models/fast/pole.py (laminated pole) is not there yet")
 def test_voltage_drive_reproduces_current_drive_laminated_demo():
     data = _demo_dict()
     r_i = evaluate(design_from_dict(data), isothermal=True)

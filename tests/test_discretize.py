@@ -5,9 +5,9 @@ from __future__ import annotations
 import numpy as np
 import pytest
 
-from models.circuit import RING, TARGET, build_cells
 from models.design import load_design
-from models.discretize import Fineness, graded_edges, skin_depth
+from models.fast.circuit import RING, TARGET, build_cells
+from models.fast.discretize import Fineness, graded_edges, skin_depth
 from tests.conftest import DEMO
 
 

@@ -17,12 +17,12 @@ from pathlib import Path
 import pytest
 
 from models.errors import DesignError
-from optim.engine import run_worker
 from optim.files import atomic_path, atomic_write_text, redact_url, safe_child, safe_name
-from optim.front import trials_table
-from optim.spec import load_study_spec
-from optim.storage import load_existing, open_storage
-from optim.study import prepare
+from optim.morning.front import trials_table
+from optim.study.engine import run_worker
+from optim.study.run import prepare
+from optim.study.spec import load_study_spec
+from optim.study.storage import load_existing, open_storage
 from tests.conftest import DEMO, ROOT
 from tests.test_study import QUICK, _study_file
 

@@ -1,4 +1,4 @@
-"""Checks of the coaxial-filament kernels in ``models/filaments.py`` against independent references.
+"""Checks of the coaxial-filament kernels in ``models/fast/filaments.py`` against independent references.
 
 References used here, each computed in this file without calling the function under test:
 
@@ -28,7 +28,7 @@ from scipy.constants import mu_0
 from scipy.integrate import quad
 from scipy.special import ellipe, ellipkm1
 
-from models.filaments import (
+from models.fast.filaments import (
     gmd_rectangle,
     loop_field,
     mutual,
@@ -725,7 +725,7 @@ def test_broadcasting_shapes_and_values():
 
 
 def test_rect_log_mean_matches_maxwell_gmd_and_monte_carlo():
-    from models.filaments import gmd_rectangle, rect_log_mean
+    from models.fast.filaments import gmd_rectangle, rect_log_mean
 
     # A rectangle with itself: Maxwell's exact GMD (Grover 1946, eq. 9), both exact: 1e-12.
     for a, b in [(1.0, 1.0), (1.0, 0.1), (0.05, 2.0)]:

@@ -17,8 +17,8 @@ from hypothesis import strategies as st
 from models.design import DESIGN_KEYS, design_from_dict, load_design
 from models.errors import DesignError
 from models.evaluate import MODEL_VERSION, evaluate
-from optim.handoff import dumps_toml, write_handoff
-from optim.verify import compare, format_table, to_json
+from optim.morning.handoff import dumps_toml, write_handoff
+from optim.morning.verify import compare, format_table, to_json
 from tests.conftest import demo_dict
 
 # 1 um: the tolerance for the CAD profile (a machinist's finest practical step; common
@@ -310,7 +310,7 @@ def test_verification_is_written_beside_the_hand_off(tmp_path):
 
 @pytest.mark.slow
 def test_export_with_a_real_fem_verification(tmp_path):
-    from optim.verify import run_verify
+    from optim.morning.verify import run_verify
 
     design = design_from_dict(demo_dict())
     # refine 0.5: the FEM's coarse level (tests/test_fem.py: error ~h^4, a few 1e-4 here), far

@@ -15,10 +15,10 @@ import pytest
 from models.design import load_design
 from models.evaluate import evaluate
 from optim.cli import main
-from optim.engine import record_of
-from optim.spec import load_study_spec
-from optim.storage import load_existing
-from optim.study import run_study
+from optim.study.engine import record_of
+from optim.study.run import run_study
+from optim.study.spec import load_study_spec
+from optim.study.storage import load_existing
 from tests.conftest import ROOT
 
 

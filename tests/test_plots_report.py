@@ -16,15 +16,15 @@ import pytest
 
 from models.design import design_from_dict, with_value
 from models.errors import DesignError
-from optim.plots import (
+from optim.morning.plots import (
     plot_front_pairs,
     plot_front_progress,
     plot_parameter_coupling,
     plot_pull_vs_gap,
     plot_section,
 )
-from optim.progress import front_history
-from optim.report import binding_counts, write_report
+from optim.morning.report import binding_counts, write_report
+from optim.study.progress import front_history
 from tests.conftest import demo_dict
 
 matplotlib.use("Agg")
@@ -299,7 +299,7 @@ var ids = function () { return body.rows.map(function (r) { return r.id; }).join
 
 @pytest.mark.skipif(shutil.which("node") is None, reason="needs node to run the page's script")
 def test_report_table_sorts_by_any_column(tmp_path):
-    from optim.report import _JS
+    from optim.morning.report import _JS
 
     # Click column 0 twice, then column 1, on a stub DOM; numbers sort numerically, "-" stays last.
     script = (

@@ -1,12 +1,12 @@
-"""Bound-current model of the laminated pole (models/pole.py) against analytic and published values."""
+"""Bound-current model of the laminated pole (models/fast/pole.py) against analytic and published values."""
 
 import numpy as np
 import pytest
 
 from models.design import Pole, Ring
 from models.errors import DesignError
-from models.filaments import mutual, mutual_dz
-from models.pole import (
+from models.fast.filaments import mutual, mutual_dz
+from models.fast.pole import (
     MagnetisedPole,
     PanelSet,
     bound_current_operator,

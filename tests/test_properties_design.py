@@ -32,7 +32,7 @@ from scipy.constants import mu_0
 
 from models import design_from_dict, evaluate
 from models.design import MAX_FEATURE_RATIO, MIN_WALL_MM
-from models.filaments import mutual
+from models.fast.filaments import mutual
 
 # Hypothesis's failure report trips over a deprecation in a dependency under warnings-as-errors;
 # without this a failing example shows as an INTERNALERROR instead of the example.
@@ -207,7 +207,7 @@ def _check_invariants(design, r):
     STATS["designs"] += 1
     assert all(math.isfinite(v) for v in _numbers(r)), r
     assert min(r.target_loss_W, r.ring_loss_W, r.coil_loss_W) >= 0.0
-    # The split is the pull by definition (models/pull.py); 1e-12 relative to the largest term
+    # The split is the pull by definition (models/fast/pull.py); 1e-12 relative to the largest term
     # is the rounding of a 3-term sum.
     split = r.pull_by_source_N
     assert set(split) == {"coil", "ring", "pole"}
@@ -302,10 +302,10 @@ def _similarity(data, s):
     # every resistance and reactance as 1/s and every current is unchanged, so forces
     # (I^2 dM/dz, dimensionless dM/dz) are unchanged and losses (I^2 R) scale as 1/s. The cells
     # and panels are sized relative to the skin depth and the features, so the discretisation
-    # is similar too, except (a) the side panels' absolute cap of 2.5 mm (models/pole.py),
+    # is similar too, except (a) the side panels' absolute cap of 2.5 mm (models/fast/pole.py),
     # which the strategy keeps inactive (pole radius x s <= 10 mm), and (b) the switch of a
     # cell's self-inductance formula where a side reaches rc / 5
-    # (models.filaments.self_inductance_rect): this test found that rounding of s x rc can move
+    # (models.fast.filaments.self_inductance_rect): this test found that rounding of s x rc can move
     # a cell across it, a jump of 0.6 % in that cell's self term. 1 % covers (b); a unit slip
     # anywhere shows as a factor s >= 1.5.
     tol = 1e-2
@@ -321,7 +321,7 @@ def test_deep_groove_evaluates():
     # Found by test_similarity_of_scaled_designs: a legal design (ring depth < pole length) whose
     # groove reaches past half the pole. It crashed twice: no grid point of the core-flux check
     # was left (fixed in models.evaluate._core_peak_flux_density) and the thermal network's face
-    # slab got a negative heat capacity (fixed in models/thermal.py).
+    # slab got a negative heat capacity (fixed in models/thermal/network.py).
     data = {
         "pole": {"radius_mm": 4.0, "length_mm": 6.0, "material": "electrical-steel-m400"},
         "coil": {"inner_radius_mm": 4.0, "outer_radius_mm": 5.0, "setback_mm": 0.0},

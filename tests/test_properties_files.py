@@ -540,10 +540,10 @@ UNSAFE_MODULES = {
 }
 UNSAFE_BUILTINS = {"eval", "exec", "compile", "__import__", "breakpoint"}
 UNSAFE_ATTRIBUTES = {"read_pickle", "to_pickle", "loads_pickle", "system", "popen"}
-#: The one dynamic import, with why it is safe. optim/engine.py: benchmarks swap the model for a
+#: The one dynamic import, with why it is safe. optim/study/engine.py: benchmarks swap the model for a
 #: stand-in named by a Python keyword argument of run_study (tests/perf/bench_study.py); no study
 #: or design file can set it.
-ALLOWED_DYNAMIC_IMPORTS = {"optim/engine.py"}
+ALLOWED_DYNAMIC_IMPORTS = {"optim/study/engine.py"}
 
 
 def _unsafe_uses(root) -> list[str]:

@@ -30,7 +30,7 @@ from hypothesis import strategies as st
 
 from models.design import DESIGN_KEYS
 from optim.cli import main
-from optim.spec import RUN_MAX, load_study_spec
+from optim.study.spec import RUN_MAX, load_study_spec
 from tests.conftest import ROOT, write_counts
 from tests.test_properties_files import BREAKERS, UNITS, Raw, _time_box, to_toml
 

@@ -19,10 +19,10 @@ import pytest
 
 from models.design import design_from_dict
 from models.evaluate import evaluate
-from optim.front import pareto_mask, trials_table
-from optim.spec import load_study_spec
-from optim.storage import load_existing
-from optim.study import run_study
+from optim.morning.front import pareto_mask, trials_table
+from optim.study.run import run_study
+from optim.study.spec import load_study_spec
+from optim.study.storage import load_existing
 from tests.conftest import DEMO
 from tests.proc_tools import eddypull, run_eddypull, workers_of
 
@@ -89,7 +89,7 @@ isothermal = true
             grid_best = max(grid_best, evaluate(design_from_dict(src), isothermal=True).pull_N)
     assert best.value >= 0.99 * grid_best, (best.value, grid_best)
     # A single-objective study's morning files: the front is its best trial.
-    from optim.morning import write_front
+    from optim.morning.outputs import write_front
 
     out = write_front(study, spec_json, "grid", tmp_path / "grid")
     assert list(out["front"]["trial"]) == [best.number]
@@ -379,7 +379,7 @@ def test_a_search_whose_middle_cannot_be_built_is_refused(tmp_path, capsys):
 
 def test_searching_the_voltage_replaces_the_base_current(tmp_path):
     """The demo design is driven by a current; a search over voltage_V drives it by voltage."""
-    from optim.space import build_design, parse_search
+    from optim.study.space import build_design, parse_search
 
     spec = load_study_spec(_study_file(tmp_path, "v", QUICK))
     params = parse_search({"voltage_V": {"low": 20.0, "high": 60.0}}, [])
@@ -417,7 +417,7 @@ def test_progress_front_equals_the_pareto_mask_of_all_points():
     """The live front of the progress display is the batch Pareto front of what it was fed."""
     from types import SimpleNamespace
 
-    from optim.study import Progress
+    from optim.study.run import Progress
 
     spec = SimpleNamespace(
         objectives=[

@@ -16,7 +16,7 @@ from pathlib import Path
 
 import pytest
 
-from optim.storage import load_existing, release
+from optim.study.storage import load_existing, release
 from tests.conftest import DEMO
 from tests.proc_tools import eddypull, run_eddypull, workers_of
 from tests.test_study import QUICK

@@ -16,7 +16,7 @@ from models import evaluate
 from models.design import INSULATION_CLASSES, design_from_dict, with_value
 from models.errors import DesignError
 from models.materials import MATERIALS
-from models.thermal import (
+from models.thermal.network import (
     air_properties,
     build_network,
     churchill_chu_vertical,
@@ -354,8 +354,8 @@ def test_supply_table_errors():
 def _damped_fixed_point(design):
     """The coupled steady state by a different route: half-damped fixed-point iteration (losses
     and conductances frozen per step), 1e-4 K. None if it passes 3000 degC (no steady state)."""
-    from models.circuit import assemble_circuit, solve_system
     from models.evaluate import DEFAULT_FINENESS, _part_losses, pole_model_for
+    from models.fast.circuit import assemble_circuit, solve_system
 
     system = assemble_circuit(design, DEFAULT_FINENESS, pole_model_for(design, DEFAULT_FINENESS))
     net = build_network(design)

@@ -6,10 +6,10 @@ import multiprocessing as mp
 
 import numpy as np
 
-from optim.engine import run_worker
-from optim.spec import load_study_spec
-from optim.storage import load_existing
-from optim.study import prepare
+from optim.study.engine import run_worker
+from optim.study.run import prepare
+from optim.study.spec import load_study_spec
+from optim.study.storage import load_existing
 from tests.test_study import QUICK, _study_file
 
 

@@ -1,7 +1,7 @@
-"""Benchmark of the magnetised-pole model (models/pole.py): median time of each stage and of evaluate.
+"""Benchmark of the magnetised-pole model (models/fast/pole.py): median time of each stage and of evaluate.
 
 Run on demand: ``OPENBLAS_NUM_THREADS=1 python tests/perf/bench_pole.py [--compare OLD_POLE_PY]``.
-With ``--compare`` another copy of ``models/pole.py`` (e.g. the version before a change) is timed
+With ``--compare`` another copy of ``models/fast/pole.py`` (e.g. the version before a change) is timed
 in the same process, interleaved with the current one so that both see the same machine load.
 Prints a table; asserts nothing about time.
 """
@@ -16,12 +16,12 @@ import sys
 import time
 from pathlib import Path
 
-import models.pole
+import models.fast.pole
 from models import load_design
-from models.circuit import build_cells
+from models.fast.circuit import build_cells
 
 try:
-    from models.circuit import iron_nodes
+    from models.fast.circuit import iron_nodes
 except ImportError:  # older circuit: the cell centres are the points
     iron_nodes = None
 from models.evaluate import DEFAULT_FINENESS, _panel_size, evaluate
@@ -44,17 +44,19 @@ def _stages(pole, design):
     mp = pole.MagnetisedPole(panels, design.pole.relative_permeability)
     cells = build_cells(design, DEFAULT_FINENESS)
     rc, zc = cells.rc, cells.zc  # cell centres as the source / field points
-    if iron_nodes is not None:  # the points models.circuit couples to the panels, if it has them
+    if (
+        iron_nodes is not None
+    ):  # the points models.fast.circuit couples to the panels, if it has them
         rc, zc, _ = iron_nodes(cells, panels, getattr(DEFAULT_FINENESS, "iron_nodes", 1))
     bt = mp.applied_tangential_field(rc, zc)
 
     def run_evaluate():
-        saved = sys.modules["models.pole"]
-        sys.modules["models.pole"] = pole
+        saved = sys.modules["models.fast.pole"]
+        sys.modules["models.fast.pole"] = pole
         try:
             evaluate(design)
         finally:
-            sys.modules["models.pole"] = saved
+            sys.modules["models.fast.pole"] = saved
 
     def cold(fn):
         # Each stage on its own: drop the (point, panel) rules that an earlier stage cached.
@@ -68,7 +70,7 @@ def _stages(pole, design):
         return run
 
     def cells_stage():
-        # As in models.circuit.solve_circuit: operator, mutual inductance, derivative, same points.
+        # As in models.fast.circuit.solve_circuit: operator, mutual inductance, derivative, same points.
         cold(lambda: None)()
         mp.operator(rc, zc)
         pole.panel_mutual(panels, rc, zc)
@@ -98,11 +100,11 @@ def _stages(pole, design):
 
 def main():
     parser = argparse.ArgumentParser(description=__doc__.splitlines()[0])
-    parser.add_argument("--compare", help="path of another models/pole.py to time alongside")
+    parser.add_argument("--compare", help="path of another models/fast/pole.py to time alongside")
     parser.add_argument("--repeats", type=int, default=20)
     args = parser.parse_args()
     design = load_design(DEMO)
-    impls = {"current": models.pole}
+    impls = {"current": models.fast.pole}
     if args.compare:
         impls = {"compare": _load(args.compare), **impls}
     stages = {}

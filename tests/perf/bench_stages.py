@@ -16,10 +16,11 @@ from pathlib import Path
 
 import numpy as np
 
-import models.pole as pole
-from models import circuit, load_design
-from models.circuit import TARGET, build_cells, cell_mutual_matrix, iron_nodes, solve_circuit
+import models.fast.pole as pole
+from models import load_design
 from models.evaluate import DEFAULT_FINENESS
+from models.fast import circuit
+from models.fast.circuit import TARGET, build_cells, cell_mutual_matrix, iron_nodes, solve_circuit
 
 # models/__init__ exports the function evaluate, which hides the module of that name.
 ev = importlib.import_module("models.evaluate")

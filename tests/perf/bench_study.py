@@ -23,8 +23,8 @@ from pathlib import Path
 ROOT = Path(__file__).resolve().parents[2]
 sys.path.insert(0, str(ROOT))
 
-from optim.spec import load_study_spec  # noqa: E402
-from optim.study import run_study  # noqa: E402
+from optim.study.run import run_study  # noqa: E402
+from optim.study.spec import load_study_spec  # noqa: E402
 
 
 def stand_in(spec, values):

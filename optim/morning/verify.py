@@ -2,7 +2,7 @@
 
 Typical use (the CLI wiring lives in optim/cli.py)::
 
-    from models.fem import reference
+    from models.fem.reference import reference
     ref = reference(design)                       # FEM, finest run + its own uncertainty
     rows = compare(fast_result, ref.result, ref.uncertainty)
     print(format_table(rows, ref.run_time_s, fast_time_s))
@@ -62,7 +62,7 @@ def compare(fast: dict | None, fem_result, uncertainty: dict) -> list[dict]:
     fast : dict or None
         Fast-model result (SI; keys as in `QUANTITIES`, impedance [re, im] or complex); None when
         the fast model does not cover the design (solid pole): FEM-only rows, fast = nan.
-    fem_result : models.fem.FemResult or dict
+    fem_result : models.fem.reference.FemResult or dict
         Reference result (``FemResult`` or its ``to_dict()``).
     uncertainty : dict
         Relative FEM uncertainty [-] per flattened key (``ReferenceResult.uncertainty``); missing
@@ -174,7 +174,7 @@ def to_json(
         From `compare`.
     fem_time_s, fast_time_s : float
         Wall times [s].
-    reference_result : models.fem.ReferenceResult, optional
+    reference_result : models.fem.reference.ReferenceResult, optional
         Adds the reference's full output (runs, mesh and domain changes).
     design_name : str, optional
     """
@@ -206,20 +206,20 @@ def run_verify(design, refine: float = 1.0, far_factor: float = 1.0) -> dict:
     ----------
     design : models.design.Design
     refine, far_factor : float
-        Coarse level of the FEM refinement study (see `models.fem.reference`).
+        Coarse level of the FEM refinement study (see `models.fem.reference.reference`).
 
     Returns
     -------
     dict
         ``text`` (the table), ``json`` (`to_json`), ``rows`` and ``reference``
-        (`models.fem.ReferenceResult`). When the fast model refuses the design (a solid pole) the
+        (`models.fem.reference.ReferenceResult`). When the fast model refuses the design (a solid pole) the
         table is FEM-only and ``json["fast_error"]`` gives its reason.
     """
     import time
 
     from models.errors import DesignError
     from models.evaluate import evaluate
-    from models.fem import reference
+    from models.fem.reference import reference
 
     fast, fast_error, fast_time = None, None, math.nan
     try:
@@ -230,7 +230,7 @@ def run_verify(design, refine: float = 1.0, far_factor: float = 1.0) -> dict:
         fast_error = str(err)
     ref = reference(design, refine=refine, far_factor=far_factor)
     rows = compare(fast, ref.result, ref.uncertainty)
-    from optim.summary import CAUTION
+    from optim.cli.summary import CAUTION
 
     text = (
         f"design {design.name}\n" + format_table(rows, ref.run_time_s, fast_time) + "\n" + CAUTION

@@ -19,7 +19,7 @@ import math
 import numpy as np
 import pandas as pd
 
-from optim.engine import RESULT_NAMES_ATTR, record_of
+from optim.study.engine import RESULT_NAMES_ATTR, record_of
 
 __all__ = ["trials_table", "pareto_mask", "status_summary", "format_status", "DIMENSIONS"]
 
@@ -72,7 +72,7 @@ def pareto_mask(values: np.ndarray, directions) -> np.ndarray:
 
 def trials_table(study, spec_json: dict) -> pd.DataFrame:
     """Every trial of ``study`` as one row (see the module docstring for the columns)."""
-    from optim.space import design_source, parse_search
+    from optim.study.space import design_source, parse_search
 
     names = study.user_attrs.get(RESULT_NAMES_ATTR, [])
     params = parse_search(spec_json["search"], [])

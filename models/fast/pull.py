@@ -14,7 +14,7 @@ from __future__ import annotations
 
 import numpy as np
 
-from models.circuit import COIL, RING, TARGET, CircuitSolution
+from models.fast.circuit import COIL, RING, TARGET, CircuitSolution
 
 __all__ = ["pull_by_source"]
 

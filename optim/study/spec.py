@@ -6,7 +6,7 @@ A study file::
     design = "demo_design.toml"       # base design (path relative to this file), and/or inline
     [target]                          # tables as in a design file, which override it key by key
     gap_mm = 2.5
-    [search]                          # free parameters: optim.space
+    [search]                          # free parameters: optim.study.space
     ring_outer_fraction = { low = 0.4, high = 0.95 }
     frequency_Hz = { low = 50, high = 5000, scale = "log" }
     [objectives]                      # result = "maximize" | "minimize", in order
@@ -42,8 +42,8 @@ import numpy as np
 from models.design import DESIGN_KEYS, PLAUSIBLE_LIMITS, design_from_dict, read_toml
 from models.errors import DesignError, nearest
 from optim.files import safe_name
-from optim.objectives import Constraint, Objective, results_of
-from optim.space import Parameter, parse_search
+from optim.study.objectives import Constraint, Objective, results_of
+from optim.study.space import Parameter, parse_search
 
 __all__ = [
     "StudySpec",
@@ -340,7 +340,7 @@ def spec_from_dict(data: dict, folder: Path | None = None, name: str = "study") 
     if problems:
         raise DesignError(problems)
     # The base design must itself be a valid design, and every trial is built from it.
-    from optim.space import design_source
+    from optim.study.space import design_source
 
     mid = {p.name: _mid(p) for p in params}
     try:

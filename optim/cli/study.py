@@ -13,7 +13,7 @@ from models.errors import DesignError
 
 def _json(obj) -> str:
     """Strict JSON (infinite values as "inf"/"-inf", NaN as null): what every parser reads."""
-    from optim.handoff import to_jsonable
+    from optim.morning.handoff import to_jsonable
 
     return json.dumps(to_jsonable(obj), allow_nan=False)
 
@@ -23,7 +23,7 @@ __all__ = ["add_study_parser"]
 
 def check_budget(workers, trials, minutes) -> None:
     """The run's workers, trials and minutes, or a one-line DesignError."""
-    from optim.spec import RUN_MAX
+    from optim.study.spec import RUN_MAX
 
     for flag, value in (("--workers", workers), ("--trials", trials)):
         if value is not None and (not isinstance(value, int) or value < 1):
@@ -37,9 +37,9 @@ def check_budget(workers, trials, minutes) -> None:
 
 
 def _cmd_run(args) -> int:
-    from optim.spec import RUN_MAX, load_study_spec
-    from optim.storage import is_url
-    from optim.study import budget_minutes, run_study, study_folder
+    from optim.study.run import budget_minutes, run_study, study_folder
+    from optim.study.spec import RUN_MAX, load_study_spec
+    from optim.study.storage import is_url
 
     spec = load_study_spec(args.study)
     run = spec.run
@@ -80,13 +80,13 @@ def _cmd_run(args) -> int:
 
 
 def _open(args):
-    from optim.storage import load_existing
+    from optim.study.storage import load_existing
 
     return load_existing(args.location, args.name)
 
 
 def _cmd_status(args) -> int:
-    from optim.front import format_status, status_summary
+    from optim.morning.front import format_status, status_summary
 
     study, spec_json, where = _open(args)
     s = status_summary(study, spec_json)
@@ -95,7 +95,7 @@ def _cmd_status(args) -> int:
 
 
 def _cmd_results(args) -> int:
-    from optim.spec import load_study_spec
+    from optim.study.spec import load_study_spec
 
     spec = load_study_spec(args.study)
     print("results a study can optimise or constrain (units in the names):")
@@ -105,7 +105,7 @@ def _cmd_results(args) -> int:
 
 
 def _cmd_front(args) -> int:
-    from optim.morning import write_front
+    from optim.morning.outputs import write_front
 
     study, spec_json, where = _open(args)
     out = write_front(study, spec_json, where, _folder_for(args.location, spec_json, args.out))
@@ -115,7 +115,7 @@ def _cmd_front(args) -> int:
 
 
 def _cmd_export(args) -> int:
-    from optim.morning import export_trial
+    from optim.morning.outputs import export_trial
 
     if (args.trial is None) == (args.best is None):
         raise DesignError("export: give exactly one of --trial N and --best OBJECTIVE")
@@ -139,7 +139,7 @@ def _cmd_export(args) -> int:
 
 def _folder_for(location, spec_json, out) -> Path:
     from optim.files import safe_name
-    from optim.storage import is_url
+    from optim.study.storage import is_url
 
     if out:
         return Path(out)

@@ -2,7 +2,7 @@
 
 The same code runs one worker, several worker processes and several machines: each machine runs
 ``eddypull study run`` with the same study file and storage; every worker is an independent
-optuna worker (see optim.engine). The parent process only starts workers, restarts one that dies
+optuna worker (see optim.study.engine). The parent process only starts workers, restarts one that dies
 (a killed worker loses the trial it was evaluating, nothing else), shows progress and stops them
 on Ctrl-C or when the budget ends.
 """
@@ -23,9 +23,9 @@ from pathlib import Path
 import numpy as np
 
 from models.errors import DesignError
-from optim.engine import RESULT_NAMES_ATTR, run_worker
 from optim.files import redact_text, redact_url
-from optim.storage import create_or_load, is_url, open_storage, release
+from optim.study.engine import RESULT_NAMES_ATTR, run_worker
+from optim.study.storage import create_or_load, is_url, open_storage, release
 
 __all__ = ["study_folder", "run_study", "Progress", "prepare"]
 

@@ -2,7 +2,7 @@
 
 Loops: every ring and target cell is a shorted loop; the coil is one loop of N turns spread over
 sub-cells of its window. The laminated pole enters through bound sheet currents on its contour that
-follow linearly from all free currents (models.pole), so it adds a real, symmetric inductance
+follow linearly from all free currents (models.fast.pole), so it adds a real, symmetric inductance
 M_iron = M_cp P to the loop matrix. Loop equations (Kirchhoff's voltage law for each loop)::
 
     (R + j omega (M + M_iron)) I = V,   V = 0 for cells, V = supply for the coil
@@ -17,8 +17,8 @@ from dataclasses import dataclass
 import numpy as np
 from scipy.constants import mu_0
 
-from models.discretize import Cells, Fineness, coil_filaments, conductor_cells
-from models.filaments import mutual, mutual_pair, rect_log_mean, self_inductance_rect
+from models.fast.discretize import Cells, Fineness, coil_filaments, conductor_cells
+from models.fast.filaments import mutual, mutual_pair, rect_log_mean, self_inductance_rect
 
 __all__ = [
     "CircuitSolution",
@@ -168,9 +168,9 @@ def cell_mutual_matrix(cells: Cells, dz_rows=None):
 
     Far pairs use Maxwell's formula between centres; pairs within one cell size average it over 2 x 2
     Gauss nodes of both cells, with the kernel's logarithmic part, mu0 R ln(1/rho), averaged exactly
-    (models.filaments.rect_log_mean, the cells' GMD) in place of its Gauss average, so that long
+    (models.fast.filaments.rect_log_mean, the cells' GMD) in place of its Gauss average, so that long
     thin neighbours keep M positive definite; the diagonal is the self-inductance of a rectangular-section ring
-    (models.filaments.self_inductance_rect). dMdz[i, j] is the derivative with respect to the axial
+    (models.fast.filaments.self_inductance_rect). dMdz[i, j] is the derivative with respect to the axial
     position of cell i.
 
     Parameters
@@ -295,7 +295,7 @@ def assemble_circuit(design, fineness: Fineness, pole_model=None) -> CircuitSyst
     design : models.design.Design
     fineness : Fineness
     pole_model : object or None
-        Magnetised-pole model with ``panels`` and ``operator(r, z)`` (models.pole); None: no iron.
+        Magnetised-pole model with ``panels`` and ``operator(r, z)`` (models.fast.pole); None: no iron.
     """
     cells = build_cells(design, fineness)
     omega = design.drive.omega
@@ -305,7 +305,7 @@ def assemble_circuit(design, fineness: Fineness, pole_model=None) -> CircuitSyst
     panel_M = panel_D = None
     P = None
     if pole_model is not None:
-        from models.pole import panel_mutual, panel_mutual_dz
+        from models.fast.pole import panel_mutual, panel_mutual_dz
 
         panels = pole_model.panels
         # Node quantities to cell quantities: W.T @ (nodes x panels), (panels x nodes) @ W, with
@@ -418,7 +418,7 @@ def solve_circuit(
     design : models.design.Design
     fineness : Fineness
     pole_model : object or None
-        Magnetised-pole model with ``panels`` and ``operator(r, z)`` (models.pole); None: no iron.
+        Magnetised-pole model with ``panels`` and ``operator(r, z)`` (models.fast.pole); None: no iron.
     temperatures : dict or None
         Part temperatures [degC] by "ring", "target", "coil"; None: all at 20 degC.
     """

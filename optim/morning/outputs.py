@@ -1,8 +1,8 @@
 """The morning after a study: front table and plots, the report, and the hand-off of one design.
 
 ``write_front`` writes, in the study folder: ``front.csv`` and ``front.parquet`` (the front's
-rows of ``optim.front.trials_table``), ``trials.csv`` (every trial), the plots (``plots/``, PNG and
-SVG) and ``report.html``. ``export_trial`` writes the hand-off of one trial (``optim.handoff``),
+rows of ``optim.morning.front.trials_table``), ``trials.csv`` (every trial), the plots (``plots/``, PNG and
+SVG) and ``report.html``. ``export_trial`` writes the hand-off of one trial (``optim.morning.handoff``),
 after re-evaluating its design and checking that the numbers are the ones the study stored.
 """
 
@@ -15,20 +15,20 @@ from pathlib import Path
 
 from models.errors import DesignError
 from optim.files import atomic_path, atomic_write_text
-from optim.front import status_summary, trials_table
+from optim.morning.front import status_summary, trials_table
 
 __all__ = ["write_front", "export_trial", "pick_trial", "design_of"]
 
 
 def _spec(spec_json):
-    from optim.spec import spec_from_json
+    from optim.study.spec import spec_from_json
 
     return spec_from_json(spec_json)
 
 
 def design_of(spec, params: dict):
     """The trial's design (validated) from the study's base design and the trial's parameters."""
-    from optim.space import build_design
+    from optim.study.space import build_design
 
     return build_design(spec.base, spec.params, params, spec.name)
 
@@ -91,8 +91,8 @@ def _notes(spec, df, front) -> list[str]:
 def write_front(study, spec_json: dict, where: str, folder: Path, echo=print) -> dict:
     """Write the front table, plots and report of a study into ``folder``; returns the paths and
     the lines to print."""
-    from optim import plots
-    from optim.report import binding_counts, write_report
+    from optim.morning import plots
+    from optim.morning.report import binding_counts, write_report
 
     folder = Path(folder)
     folder.mkdir(parents=True, exist_ok=True)
@@ -211,8 +211,8 @@ def export_trial(
     """Write the hand-off of one trial; returns file name -> path. ``echo`` receives a note when
     the re-evaluated numbers differ from the stored ones (the model changed since the study)."""
     from models.evaluate import evaluate
-    from optim.engine import record_of
-    from optim.handoff import write_handoff
+    from optim.morning.handoff import write_handoff
+    from optim.study.engine import record_of
 
     spec = _spec(spec_json)
     t = pick_trial(study, spec_json, trial, best)
@@ -246,7 +246,7 @@ def export_trial(
     }
     checked = None
     if verify:
-        from optim.verify import run_verify
+        from optim.morning.verify import run_verify
 
         checked = run_verify(design)
     paths = write_handoff(design, result, target, meta, verify=checked)

@@ -1,7 +1,7 @@
 """Front measures over a study's trials: the front's progress (front size and hypervolume).
 
-Plain numpy/pandas, no plotting: `optim.plots` draws what these compute. Trial tables and objective
-lists follow `optim.plots` (columns ``trial``, ``state``, ``feasible``, ``on_front``,
+Plain numpy/pandas, no plotting: `optim.morning.plots` draws what these compute. Trial tables and objective
+lists follow `optim.morning.plots` (columns ``trial``, ``state``, ``feasible``, ``on_front``,
 ``completed_at``; objectives ``(column, "maximize" | "minimize")``).
 """
 

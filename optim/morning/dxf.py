@@ -15,7 +15,7 @@ AXIS      axis of symmetry (a line on x = 0, dash-dot), not a part
 ========  ==============================================================================
 
 Revolving each closed polyline about the y axis gives the solid of that part. `section_mm` is the
-one source of this geometry: the DXF and the plotted section (`optim.plots.plot_section`) both use
+one source of this geometry: the DXF and the plotted section (`optim.morning.plots.plot_section`) both use
 it.
 """
 

@@ -9,7 +9,7 @@ How a worker keeps the storage out of the way of a millisecond model:
   to clean up after it.
 * Every ``sync_s`` seconds (and at start, which is how a study resumes) the worker copies the
   trials other workers and machines have finished into its private study, so that its sampler
-  learns from the whole study; the private study is a bounded window (optim.window), so that
+  learns from the whole study; the private study is a bounded window (optim.study.window), so that
   asking costs the same at 10^2 and at 10^6 trials.
 * Each worker's sampler is seeded ``seed + worker index`` so that parallel workers do not propose
   identical trials.
@@ -31,7 +31,7 @@ import uuid
 from datetime import UTC
 
 from models.errors import DesignError
-from optim.window import SamplerWindow, window_limit
+from optim.study.window import SamplerWindow, window_limit
 
 __all__ = [
     "run_worker",
@@ -74,8 +74,8 @@ def make_sampler(spec, seed: int | None):
 def evaluate_trial(spec, values: dict):
     """Evaluate one set of parameter values. Returns a dict with state ("COMPLETE" or "FAIL"),
     objective values, constraint violations, margins, flat results, warnings and the reason."""
-    from optim.objectives import objective_values, results_of
-    from optim.space import build_design
+    from optim.study.objectives import objective_values, results_of
+    from optim.study.space import build_design
 
     out = {"state": "FAIL", "values": None, "violations": {}, "margins": {}, "flat": {}}
     out["warnings"], out["reason"] = [], ""
@@ -161,8 +161,8 @@ def run_worker(cfg: dict, queue=None, stop=None, counter=None) -> int:
     import optuna
     from optuna.trial import TrialState
 
-    from optim.spec import spec_from_json
-    from optim.storage import open_storage
+    from optim.study.spec import spec_from_json
+    from optim.study.storage import open_storage
 
     optuna.logging.set_verbosity(optuna.logging.WARNING)
     spec = spec_from_json(cfg["spec"])

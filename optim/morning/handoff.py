@@ -7,7 +7,7 @@ The folder is what a mechanical engineer receives in the morning:
 * ``handoff.json`` - every dimension in mm, materials, drive, predicted results, limits and
   margins, tool and model version, study, trial and time;
 * ``parameters.csv`` - ``name,value,unit,description`` rows a parametric CAD model can read;
-* ``profile.dxf`` - the half cross-section in mm, one layer per part (`optim.dxf`);
+* ``profile.dxf`` - the half cross-section in mm, one layer per part (`optim.morning.dxf`);
 * ``verify.txt`` - the fast model beside the FEM reference, when a verification was run.
 
 Non-finite numbers (a thermal runaway gives inf temperatures and -inf margins) are written to JSON
@@ -27,8 +27,8 @@ from pathlib import Path
 
 from models.design import DESIGN_KEYS, design_from_dict
 from models.errors import DesignError
-from optim.dxf import LAYERS, section_mm, write_profile_dxf
 from optim.files import atomic_write_text, redact_url, safe_child
+from optim.morning.dxf import LAYERS, section_mm, write_profile_dxf
 from optim.tomlwrite import dumps_toml
 
 __all__ = ["write_handoff", "dumps_toml", "parameter_rows", "unit_of", "to_jsonable"]
@@ -330,7 +330,7 @@ def write_handoff(design, result, out_dir, meta: dict, verify: dict | None = Non
         ``created_at``, ``isothermal`` (True when the study evaluated at 20 degC: the reproducing
         command then carries ``--isothermal``).
     verify : dict, optional
-        What `optim.verify.run_verify` returns: its ``text`` goes to verify.txt, its ``json`` under
+        What `optim.morning.verify.run_verify` returns: its ``text`` goes to verify.txt, its ``json`` under
         ``"verify"`` in handoff.json.
 
     Returns

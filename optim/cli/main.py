@@ -17,23 +17,23 @@ from models.evaluate import evaluate
 
 def _json(obj) -> str:
     """Strict JSON (infinite values as "inf"/"-inf", NaN as null): what every parser reads."""
-    from optim.handoff import to_jsonable
+    from optim.morning.handoff import to_jsonable
 
     return json.dumps(to_jsonable(obj), allow_nan=False)
 
 
 __all__ = ["main"]
 
-DEMO_DESIGN = Path(__file__).resolve().parents[1] / "studies" / "demo_design.toml"
+DEMO_DESIGN = Path(__file__).resolve().parents[2] / "studies" / "demo_design.toml"
 DEMO_STUDY = DEMO_DESIGN.with_name("demo_study.toml")
 
 
 def _cmd_evaluate(args) -> int:
-    from optim.summary import format_result
+    from optim.cli.summary import format_result
 
     design = load_design(args.design)
     if args.sweep:
-        from optim.sweep import format_sweep, parse_sweep, plot_sweep, run_sweep
+        from optim.morning.sweep import format_sweep, parse_sweep, plot_sweep, run_sweep
 
         key, values = parse_sweep(args.sweep)
         rows = run_sweep(design, key, values, isothermal=args.isothermal)
@@ -57,7 +57,7 @@ def _cmd_evaluate(args) -> int:
 
 
 def _cmd_verify(args) -> int:
-    from optim.verify import run_verify
+    from optim.morning.verify import run_verify
 
     design = load_design(args.design)
     out = run_verify(design, refine=args.refine)
@@ -66,7 +66,7 @@ def _cmd_verify(args) -> int:
 
 
 def _cmd_materials(args) -> int:
-    from optim.summary import format_materials
+    from optim.cli.summary import format_materials
 
     if args.json:
         from dataclasses import asdict
@@ -82,11 +82,11 @@ def _cmd_materials(args) -> int:
 def _cmd_demo(args) -> int:
     """The main job on the demo scenario: run the demo study (resuming it if it exists), then
     write its front, plots and report and the hand-off of its best design."""
-    from optim.morning import export_trial, write_front
-    from optim.spec import load_study_spec
-    from optim.storage import load_existing
-    from optim.study import run_study, study_folder
-    from optim.study_cli import check_budget
+    from optim.cli.study import check_budget
+    from optim.morning.outputs import export_trial, write_front
+    from optim.study.run import run_study, study_folder
+    from optim.study.spec import load_study_spec
+    from optim.study.storage import load_existing
 
     spec = load_study_spec(DEMO_STUDY)
     minutes = args.minutes if args.minutes is not None else spec.run.get("minutes", 3.0)
@@ -112,7 +112,7 @@ def _cmd_demo(args) -> int:
     for line in out["lines"]:
         print(line)
     first = next(iter(spec_json["objectives"]))
-    from optim.summary import CAUTION
+    from optim.cli.summary import CAUTION
 
     if out["front"].empty:
         print("no feasible design yet: run the demo longer (eddypull demo --minutes 10)")
@@ -161,7 +161,7 @@ def _parser() -> argparse.ArgumentParser:
     d.add_argument("--out", metavar="DIR", help="study folder (default studies/harrowgate-night)")
     d.set_defaults(func=_cmd_demo)
 
-    from optim.study_cli import add_study_parser
+    from optim.cli.study import add_study_parser
 
     add_study_parser(sub)
     return p

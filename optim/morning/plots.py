@@ -22,9 +22,9 @@ import pandas as pd
 from matplotlib.figure import Figure
 
 from models.errors import DesignError
-from optim.dxf import section_mm
 from optim.files import atomic_path, safe_child
-from optim.progress import check_objectives, column, front_history, trial_flags
+from optim.morning.dxf import section_mm
+from optim.study.progress import check_objectives, column, front_history, trial_flags
 
 __all__ = [
     "plot_front_pairs",
@@ -364,7 +364,7 @@ _PART_STYLE = {
 
 
 def plot_section(design, out_dir, label: str) -> list[Path]:
-    """Cross-section of a design to scale (the DXF's geometry, `optim.dxf.section_mm`).
+    """Cross-section of a design to scale (the DXF's geometry, `optim.morning.dxf.section_mm`).
 
     The half-section r >= 0 is drawn solid, its mirror image faint, so the part reads as a full
     section; the axis is dash-dot; the pole face is y = 0.

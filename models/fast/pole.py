@@ -30,7 +30,7 @@ each panel)::
     (mu0 / length_i) I_i + 2 lambda sum_p G_ip I_p = -2 lambda <B_t,source>_i
 
 G_ip is the panel-averaged tangential field on panel i of panel p carrying 1 A. The field of a loop
-is that of Smythe (``models.filaments.loop_field``). Near and self terms are integrated with
+is that of Smythe (``models.fast.filaments.loop_field``). Near and self terms are integrated with
 composite Gauss-Legendre rules graded geometrically toward the point of the panel nearest the field
 point; the grading is symmetric about a point on the panel itself, so the principal value of the
 1/rho (two-dimensional) part is taken exactly and the log singularity of a curved sheet is
@@ -54,7 +54,7 @@ from scipy.linalg import lu_factor, lu_solve
 from scipy.special import ellipe, ellipkm1
 
 from models.errors import DesignError
-from models.filaments import loop_field, mutual_pair
+from models.fast.filaments import loop_field, mutual_pair
 
 __all__ = [
     "PanelSet",
@@ -600,7 +600,7 @@ def _blocked(kernel, n_out, *arrays):
 
 
 def _loop_field(a, z0, r, z):
-    """Smythe's loop field per ampere [T/A], as ``models.filaments.loop_field``, with K(m) from
+    """Smythe's loop field per ampere [T/A], as ``models.fast.filaments.loop_field``, with K(m) from
     ``ellipkm1(alpha^2 / beta^2)`` so that points within 1e-8 radii of the loop keep their digits.
 
     Off the axis only (r > 1e-6 a); points nearer the axis use ``loop_field``'s expansion.
@@ -651,7 +651,7 @@ def _loop_field_block(a, z0, r, z):
 
 
 def _mutual_pair_block(node_r, node_z, pr, pz):
-    """(``mutual(node, point)``, dM/dz at the point) in one pass (``models.filaments.mutual_pair``;
+    """(``mutual(node, point)``, dM/dz at the point) in one pass (``models.fast.filaments.mutual_pair``;
     dM/dz_point = -dM/dz_node)."""
     mut, dz_node = mutual_pair(node_r, node_z, pr, pz)
     return mut, -dz_node
@@ -758,7 +758,7 @@ def panel_field(panels, r, z):
 
     Notes
     -----
-    Integral of Smythe's loop field (``models.filaments.loop_field``) over the panel, by Gauss
+    Integral of Smythe's loop field (``models.fast.filaments.loop_field``) over the panel, by Gauss
     rules graded toward the point (module docstring).
     """
     br, bz = _dense(panels, r, z, _field_kernel)
@@ -781,7 +781,7 @@ def panel_mutual(panels, r, z):
 
     Notes
     -----
-    Maxwell's formula (``models.filaments.mutual``) averaged over the panel with graded Gauss rules;
+    Maxwell's formula (``models.fast.filaments.mutual``) averaged over the panel with graded Gauss rules;
     finite (log-integrable) even for a filament on the panel.
     """
     return _mutual_pair(panels, r, z, 0)
@@ -798,7 +798,7 @@ def panel_mutual_dz(panels, r, z):
 
     Notes
     -----
-    Closed-form dM/dz of Maxwell's formula (``models.filaments.mutual_dz``) averaged over the panel.
+    Closed-form dM/dz of Maxwell's formula (``models.fast.filaments.mutual_dz``) averaged over the panel.
     """
     return _mutual_pair(panels, r, z, 1)
 

@@ -29,7 +29,7 @@ from scipy.constants import mu_0
 from skfem import Basis, BilinearForm, ElementQuad2, LinearForm, MeshQuad, asm
 
 from models.errors import DesignError
-from models.fem_mesh import MeshOptions, grid_nodes
+from models.fem.mesh import MeshOptions, grid_nodes
 
 __all__ = [
     "Region",

@@ -1,0 +1,1 @@
+"""Axisymmetric time-harmonic finite-element reference (scikit-fem) and its own uncertainty."""
