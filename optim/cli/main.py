@@ -6,21 +6,14 @@ Exit codes: 0 success, 2 bad input (one line per problem, no traceback).
 from __future__ import annotations
 
 import argparse
-import json
 import sys
 from pathlib import Path
 
 from models.design import load_design
 from models.errors import DesignError
 from models.evaluate import evaluate
-
-
-def _json(obj) -> str:
-    """Strict JSON (infinite values as "inf"/"-inf", NaN as null): what every parser reads."""
-    from optim.morning.handoff import to_jsonable
-
-    return json.dumps(to_jsonable(obj), allow_nan=False)
-
+from optim.cli.usage import UsageError
+from optim.jsonout import strict_json
 
 __all__ = ["main"]
 
@@ -38,7 +31,7 @@ def _cmd_evaluate(args) -> int:
         key, values = parse_sweep(args.sweep)
         rows = run_sweep(design, key, values, isothermal=args.isothermal)
         if args.json:
-            print(_json({"key": key, "rows": [{key: v, **r.to_dict()} for v, r in rows]}))
+            print(strict_json({"key": key, "rows": [{key: v, **r.to_dict()} for v, r in rows]}))
         else:
             print(format_sweep(key, rows))
         if args.plot:
@@ -47,10 +40,10 @@ def _cmd_evaluate(args) -> int:
                 print(f"plot written to {args.plot}")
         return 0
     if args.plot:
-        raise DesignError("--plot: needs --sweep KEY=START:STOP:COUNT")
+        raise UsageError("--plot: needs --sweep KEY=START:STOP:COUNT")
     result = evaluate(design, isothermal=args.isothermal)
     if args.json:
-        print(_json(result.to_dict()))
+        print(strict_json(result.to_dict()))
     else:
         print(format_result(design, result))
     return 0
@@ -61,7 +54,7 @@ def _cmd_verify(args) -> int:
 
     design = load_design(args.design)
     out = run_verify(design, refine=args.refine)
-    print(_json(out["json"]) if args.json else out["text"])
+    print(strict_json(out["json"]) if args.json else out["text"])
     return 0
 
 
@@ -73,7 +66,7 @@ def _cmd_materials(args) -> int:
 
         from models.materials import MATERIALS
 
-        print(_json({k: asdict(m) for k, m in MATERIALS.items()}))
+        print(strict_json({k: asdict(m) for k, m in MATERIALS.items()}))
     else:
         print(format_materials())
     return 0

@@ -3,20 +3,12 @@
 from __future__ import annotations
 
 import argparse
-import json
 import os
 import sys
 from pathlib import Path
 
-from models.errors import DesignError
-
-
-def _json(obj) -> str:
-    """Strict JSON (infinite values as "inf"/"-inf", NaN as null): what every parser reads."""
-    from optim.morning.handoff import to_jsonable
-
-    return json.dumps(to_jsonable(obj), allow_nan=False)
-
+from optim.cli.usage import UsageError
+from optim.jsonout import strict_json
 
 __all__ = ["add_study_parser"]
 
@@ -27,13 +19,13 @@ def check_budget(workers, trials, minutes) -> None:
 
     for flag, value in (("--workers", workers), ("--trials", trials)):
         if value is not None and (not isinstance(value, int) or value < 1):
-            raise DesignError(f"{flag} = {value!r}: must be a whole number >= 1")
+            raise UsageError(f"{flag} = {value!r}: must be a whole number >= 1")
     if minutes is not None and not 0 < minutes <= RUN_MAX["minutes"]:
-        raise DesignError(
+        raise UsageError(
             f"--minutes/--hours = {minutes!r} min: must be > 0 and at most a year (525600 min)"
         )
     if workers > RUN_MAX["workers"]:
-        raise DesignError(f"--workers = {workers}: must be at most {RUN_MAX['workers']}")
+        raise UsageError(f"--workers = {workers}: must be at most {RUN_MAX['workers']}")
 
 
 def _cmd_run(args) -> int:
@@ -50,9 +42,9 @@ def _cmd_run(args) -> int:
     workers = args.workers if args.workers is not None else run.get("workers", 1)
     check_budget(workers, trials, minutes)
     if args.seed is not None and not 0 <= args.seed <= RUN_MAX["seed"]:
-        raise DesignError(f"--seed = {args.seed}: must be between 0 and {RUN_MAX['seed']}")
+        raise UsageError(f"--seed = {args.seed}: must be between 0 and {RUN_MAX['seed']}")
     if args.storage is not None and not is_url(args.storage):
-        raise DesignError(
+        raise UsageError(
             f"--storage = {args.storage!r}: must be a database URL (scheme://...); leave it out "
             "for the study folder's journal"
         )
@@ -71,7 +63,7 @@ def _cmd_run(args) -> int:
         tty=False if args.json else None,
     )
     if args.json:
-        print(_json(summary))
+        print(strict_json(summary))
     else:
         print(f"study folder: {summary['folder']}")
     for line in summary["errors"]:
@@ -90,7 +82,7 @@ def _cmd_status(args) -> int:
 
     study, spec_json, where = _open(args)
     s = status_summary(study, spec_json)
-    print(_json(s) if args.json else format_status(s, where))
+    print(strict_json(s) if args.json else format_status(s, where))
     return 0
 
 
@@ -118,7 +110,7 @@ def _cmd_export(args) -> int:
     from optim.morning.outputs import export_trial
 
     if (args.trial is None) == (args.best is None):
-        raise DesignError("export: give exactly one of --trial N and --best OBJECTIVE")
+        raise UsageError("export: give exactly one of --trial N and --best OBJECTIVE")
     study, spec_json, where = _open(args)
     folder = _folder_for(args.location, spec_json, None)
     paths = export_trial(

@@ -20,7 +20,6 @@ import csv
 import datetime as _dt
 import io
 import json
-import math
 import numbers
 import tomllib
 from pathlib import Path
@@ -28,6 +27,7 @@ from pathlib import Path
 from models.design import DESIGN_KEYS, design_from_dict
 from models.errors import DesignError
 from optim.files import atomic_write_text, redact_url, safe_child
+from optim.jsonout import to_jsonable
 from optim.morning.dxf import LAYERS, section_mm, write_profile_dxf
 from optim.tomlwrite import dumps_toml
 
@@ -176,32 +176,6 @@ def parameter_rows(design) -> list[dict]:
     for name, value, words in _derived_mm(design):
         rows.append({"name": name, "value": value, "unit": "mm", "description": words})
     return rows
-
-
-def to_jsonable(value):
-    """Strict-JSON copy: nan -> None, +-inf -> "inf"/"-inf", complex -> [re, im], numpy scalars and
-    arrays -> Python, times -> ISO 8601, paths -> str."""
-    if isinstance(value, dict):
-        return {str(k): to_jsonable(v) for k, v in value.items()}
-    if isinstance(value, (list, tuple, set)):
-        return [to_jsonable(v) for v in value]
-    if hasattr(value, "tolist") and not isinstance(value, (str, bytes)):  # numpy
-        return to_jsonable(value.tolist())
-    if isinstance(value, complex):
-        return [to_jsonable(value.real), to_jsonable(value.imag)]
-    if isinstance(value, bool) or value is None or isinstance(value, (int, str)):
-        return value
-    if isinstance(value, float):
-        if math.isnan(value):
-            return None
-        if math.isinf(value):
-            return "inf" if value > 0 else "-inf"
-        return value
-    if hasattr(value, "isoformat"):
-        return value.isoformat()
-    if isinstance(value, Path):
-        return str(value)
-    return str(value)
 
 
 def _materials(design) -> dict:
