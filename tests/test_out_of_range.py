@@ -1,6 +1,6 @@
 """Inputs outside what the fast model has been validated for give a warning in the result, never
 silence: extreme frequency, a gap much larger than the pole, saturation, tiny and huge targets,
-unusual steels. The validated range is models.evaluate.VALIDATED_RANGE (the cross-model set of
+unusual steels. The validated range is models.checks.VALIDATED_RANGE (the cross-model set of
 tests/cross_model.py: a 10 mm pole, 50 Hz to 5 kHz, gaps of 0.2 to 3 mm, mu_r 200 to 5000).
 """
 
@@ -13,7 +13,7 @@ from hypothesis import given, settings
 from hypothesis import strategies as st
 
 from models import design_from_dict, evaluate
-from models.evaluate import TYPICAL_SATURATION_T, VALIDATED_RANGE
+from models.checks import TYPICAL_SATURATION_T, VALIDATED_RANGE
 from optim.cli import main
 from tests.conftest import demo_dict
 from tests.test_properties_design import COMMON, valid_designs

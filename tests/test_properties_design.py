@@ -320,7 +320,7 @@ def _similarity(data, s):
 def test_deep_groove_evaluates():
     # Found by test_similarity_of_scaled_designs: a legal design (ring depth < pole length) whose
     # groove reaches past half the pole. It crashed twice: no grid point of the core-flux check
-    # was left (fixed in models.evaluate._core_peak_flux_density) and the thermal network's face
+    # was left (fixed in models.fast.flux.core_peak_flux_density) and the thermal network's face
     # slab got a negative heat capacity (fixed in models/thermal/network.py).
     data = {
         "pole": {"radius_mm": 4.0, "length_mm": 6.0, "material": "electrical-steel-m400"},

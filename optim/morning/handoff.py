@@ -293,7 +293,7 @@ def write_handoff(design, result, out_dir, meta: dict, verify: dict | None = Non
     ----------
     design : models.design.Design
         The chosen design; ``design.source`` (file units) becomes design.toml.
-    result : models.evaluate.Result or dict
+    result : models.result.Result or dict
         Its fast-model result (``to_dict()`` is used; thermal fields such as ``margins`` and
         ``binding_limit`` are carried when present).
     out_dir : str or Path

@@ -59,7 +59,7 @@ def _picked(front, objectives: dict, limit: int = 3) -> list[int]:
 
 
 def _notes(spec, df, front) -> list[str]:
-    from models.evaluate import VALIDATED_RANGE
+    from models.checks import VALIDATED_RANGE
 
     ranges = "; ".join(f"{k} {lo:g}-{hi:g}" for k, (lo, hi) in VALIDATED_RANGE.items())
     notes = [

@@ -1,7 +1,7 @@
 """What a study measures on one design: the flat table of results, the objectives and the
 constraint margins.
 
-Results are the fast model's fields (``models.evaluate.Result``) flattened to scalars: numbers keep
+Results are the fast model's fields (``models.result.Result``) flattened to scalars: numbers keep
 their names (``pull_N``, ``ring_loss_W``, ``ring_temperature_C`` ...), dictionaries of numbers become
 ``<field>.<key>`` (``pull_by_source_N.ring``, ``margins.coil_temperature_C``). The study adds:
 

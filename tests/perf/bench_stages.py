@@ -19,7 +19,7 @@ import numpy as np
 import models.fast.pole as pole
 from models import load_design
 from models.evaluate import DEFAULT_FINENESS
-from models.fast import circuit
+from models.fast import circuit, flux
 from models.fast.circuit import TARGET, build_cells, cell_mutual_matrix, iron_nodes, solve_circuit
 
 # models/__init__ exports the function evaluate, which hides the module of that name.
@@ -72,8 +72,8 @@ def _stages(design):
         "complex solve": lambda: np.linalg.solve(Z, rhs),
         "solve_circuit (warm pole)": cold(lambda: solve_circuit(design, fine, mp)),
         "pull_by_source": lambda: ev.pull_by_source(sol),
-        "_core_peak_flux_density": lambda: ev._core_peak_flux_density(design, sol),
-        "_pole_flux_density": lambda: ev._pole_flux_density(design, sol),
+        "core_peak_flux_density": lambda: flux.core_peak_flux_density(design, sol),
+        "pole_flux_density": lambda: flux.pole_flux_density(design, sol),
         "evaluate (cold)": cold(lambda: ev.evaluate(design)),
         "evaluate (warm pole)": lambda: ev.evaluate(design),
     }, (cells.n, panels.n, nr.size)

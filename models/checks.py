@@ -1,0 +1,205 @@
+"""What a result is checked against: margins to every limit and the binding one, time to the
+thermal limits, and the warnings (outside the validated range, near saturation, thermal runaway,
+temperature swings, supply limits)."""
+
+from __future__ import annotations
+
+import numpy as np
+
+from models.design import Design
+from models.fast.circuit import RING, TARGET, CircuitSolution
+from models.fast.discretize import Fineness, skin_depth
+from models.thermal.network import time_to_limits
+
+__all__ = [
+    "FLUX_WARNING_FRACTION",
+    "SWING_WARNING_K",
+    "TYPICAL_SATURATION_T",
+    "VALIDATED_RANGE",
+    "limits_and_margins",
+    "range_warnings",
+    "thermal_warnings",
+]
+
+#: The range the fast model has been held to the FEM reference on (tests/cross_model.py and
+#: tests/data/cross_model.csv). Outside it a result carries a warning.
+VALIDATED_RANGE = {
+    "frequency_Hz": (50.0, 5000.0),
+    "target radius / pole radius": (0.3, 1.5),
+    "gap_mm": (0.2, 3.0),
+    "gap / pole radius": (0.02, 0.3),
+    "target thickness_mm": (0.5, 5.0),
+    "pole relative_permeability": (200.0, 5000.0),
+}
+
+#: Flux density above which a steel of unknown grade is taken to leave its linear range [T]:
+#: silicon electrical steels reach their knee at about 1.3-1.6 T (from memory; the library's
+#: M400 grade uses 1.5 T, models/materials.py).
+TYPICAL_SATURATION_T = 1.5
+
+
+#: Core flux density above this fraction of saturation warns (common practice, no source: the
+#: B-H curve of electrical steel bends well before its nominal knee).
+FLUX_WARNING_FRACTION = 0.9
+#: A swing of a part's temperature over one on-off period above this warns [K] (common practice,
+#: no source: a few K is within the lumped model's own accuracy).
+SWING_WARNING_K = 2.0
+
+
+def range_warnings(design: Design, sol: CircuitSolution, fineness: Fineness, b_peak: float):
+    """Warnings where the linear model or its discretisation leaves its validated range: flux
+    density past saturation, a design outside VALIDATED_RANGE, sheets thicker than twice their
+    skin depth, cells coarser than a part's skin depth."""
+    out = []
+    bsat = design.pole.saturation_flux_density
+    if bsat is not None and b_peak > bsat:
+        out.append(
+            f"core peak flux density {b_peak:.3g} T exceeds the steel's linear limit {bsat:.3g} T: "
+            "saturation makes the linear model optimistic"
+        )
+    elif bsat is None and b_peak > TYPICAL_SATURATION_T:
+        out.append(
+            f"core peak flux density {b_peak:.3g} T is above {TYPICAL_SATURATION_T:g} T, where "
+            "electrical steels saturate, and pole.saturation_flux_density_T is not given: the "
+            "linear model may be optimistic"
+        )
+    f = design.drive.frequency
+    values = {
+        "frequency_Hz": f,
+        "target radius / pole radius": design.target.radius / design.pole.radius,
+        "gap_mm": design.target.gap * 1e3,
+        "gap / pole radius": design.target.gap / design.pole.radius,
+        "target thickness_mm": design.target.thickness * 1e3,
+        "pole relative_permeability": design.pole.relative_permeability,
+    }
+    for key, value in values.items():
+        lo, hi = VALIDATED_RANGE[key]
+        if not lo * (1 - 1e-9) <= value <= hi * (1 + 1e-9):
+            out.append(
+                f"{key} = {value:.4g} is outside the range checked against the FEM "
+                f"({lo:g} to {hi:g}): confirm with 'eddypull verify'"
+            )
+    p = design.pole
+    if p.lamination_thickness is not None and p.sheet_conductivity:
+        delta_sheet = skin_depth(f, p.sheet_conductivity, p.relative_permeability)
+        if delta_sheet < 0.5 * p.lamination_thickness:
+            out.append(
+                f"skin depth in the {p.lamination_thickness * 1e3:.3g} mm sheets is "
+                f"{delta_sheet * 1e3:.3g} mm at {f:g} Hz, under half the sheet thickness: the "
+                "pole has eddy losses and a lower effective permeability than modelled"
+            )
+    for name, part, label in (("target", design.target, TARGET), ("ring", design.ring, RING)):
+        if part is None:
+            continue
+        delta = skin_depth(f, part.conductivity)
+        cells = sol.cells
+        sel = cells.part == label
+        finest = min(cells.dr[sel].min(), cells.dz[sel].min())
+        if finest > 1.01 * fineness.surface_cell * delta and finest > 0:
+            out.append(
+                f"{name} skin depth {delta * 1e3:.3g} mm is finer than its cells "
+                f"({finest * 1e3:.3g} mm): raise the cell limit for a converged answer"
+            )
+    return out
+
+
+def limits_and_margins(design: Design, state, result: dict):
+    """(margins, binding limit, time to limits, thermal time constants) of a result (see
+    models.result.Thermal); ``result`` holds the flat values the margins are taken of."""
+    th = design.thermal
+    ta = th.ambient_C
+    net = state.network
+    margins, scale = {}, {}
+
+    def add(name, margin, size):
+        margins[name] = float(margin)
+        scale[name] = float(size)
+
+    add("coil_temperature_C", th.coil_class_C - result["coil_temperature_C"], th.coil_class_C - ta)
+    if th.ring_limit_C is not None and design.ring is not None:
+        add(
+            "ring_temperature_C",
+            th.ring_limit_C - result["ring_temperature_C"],
+            th.ring_limit_C - ta,
+        )
+    if th.target_limit_C is not None:
+        add(
+            "target_hold_temperature_C",
+            th.target_limit_C - result["target_hold_temperature_C"],
+            th.target_limit_C - ta,
+        )
+    bsat = design.pole.saturation_flux_density
+    if bsat:
+        add("core_flux_density_T", bsat - result["core_peak_flux_density_T"], bsat)
+    sup = design.supply
+    if sup is not None:
+        for name, limit, value in (
+            ("supply_voltage_V", sup.max_voltage, result["coil_voltage_V"]),
+            ("supply_current_A", sup.max_current, result["coil_current_A"]),
+            ("supply_VA", sup.max_apparent_power, result["supply_VA"]),
+        ):
+            if limit is not None:
+                add(name, limit - value, limit)
+    relative = {k: margins[k] / scale[k] for k in margins}
+    binding = min(relative, key=relative.get) if relative else ""
+
+    limits = {"coil": th.coil_class_C}
+    if design.ring is not None:
+        ring_limit = th.ring_limit_C
+        limits["ring"] = ring_limit if ring_limit is not None else net.ceiling_C[net.index("ring")]
+    limits["target"] = (
+        th.target_limit_C if th.target_limit_C is not None else net.ceiling_C[net.index("target")]
+    )
+    times, taus = time_to_limits(state, limits)
+    return margins, binding, times, taus
+
+
+def thermal_warnings(design: Design, state, result: dict, hold_tau: float) -> list:
+    """Warnings of the thermal state and the limits: a runaway (of the network or of the held
+    part), flux density near saturation, temperature swings over an on-off period, a supply limit
+    exceeded, and the network's own notes."""
+    th = design.thermal
+    out = []
+    if state.status.startswith("runaway"):
+        out.append(f"thermal {state.status}")
+    if hold_tau < 0:
+        out.append(
+            "the held part heats faster than it can lose heat (its losses grow with its "
+            "temperature): it runs away if held long enough"
+        )
+    frac = result["core_flux_fraction"]
+    if FLUX_WARNING_FRACTION < frac <= 1.0:
+        out.append(
+            f"core peak flux density is {frac:.0%} of the steel's saturation flux density: "
+            "close to the end of the linear model's validity"
+        )
+    elif frac > 1.0:
+        out.append(
+            "past saturation the fast model's answer is not valid (it is linear): reduce the "
+            "ampere-turns or enlarge the pole"
+        )
+    if th.period is not None and th.duty_cycle < 1.0 and np.all(np.isfinite(state.T)):
+        # First harmonic of the on-off losses, P_on (2 / pi) sin(pi D) (Fourier series of a
+        # rectangular pulse train), through the network at omega = 2 pi / period: the swing of
+        # each part about its duty average.
+        net = state.network
+        A, _ = net.matrix(state.T)
+        p1 = state.losses_on * (2.0 / np.pi) * np.sin(np.pi * th.duty_cycle)
+        swing = np.abs(np.linalg.solve(A + 2j * np.pi / th.period * np.diag(net.capacity), p1))
+        for name in ("coil", "ring", "target"):
+            if name in net.nodes and swing[net.index(name)] > SWING_WARNING_K:
+                out.append(
+                    f"thermal.period_s = {th.period:g} s: the {name}'s temperature swings about "
+                    f"+-{swing[net.index(name)]:.2g} K around its duty average each period"
+                )
+    sup = design.supply
+    if sup is not None:
+        for limit, key, value, unit in (
+            (sup.max_voltage, "max_voltage_V", result["coil_voltage_V"], "V rms"),
+            (sup.max_current, "max_current_A", result["coil_current_A"], "A rms"),
+            (sup.max_apparent_power, "max_VA", result["supply_VA"], "VA"),
+        ):
+            if limit is not None and value > limit:
+                out.append(f"the coil needs {value:.4g} {unit}, above supply.{key} = {limit:g}")
+    out.extend(f"thermal: {n}" for n in state.network.notes)
+    return out

@@ -1,0 +1,193 @@
+"""The fast model's result, grouped as the physics is: an electrical part and a thermal part.
+
+``Result.to_dict()`` flattens the groups to the public JSON fields (the same names, in the same
+order, that ``--json``, study results and hand-offs carry), and every field of either group reads
+as a flat attribute too (``result.pull_N`` is ``result.electrical.pull_N``).
+"""
+
+from __future__ import annotations
+
+from dataclasses import dataclass, field
+
+__all__ = ["Electrical", "MODEL_VERSION", "Result", "Thermal"]
+
+MODEL_VERSION = "multiloop-1"
+
+
+@dataclass(frozen=True)
+class Electrical:
+    """The circuit solution's outputs. Rms phasors; SI except where a name says otherwise.
+
+    pull_N : time-averaged axial force on the target, positive toward the face [N]
+    pull_by_source_N : its split into "coil", "pole" (magnetised iron) and "ring" [N]
+    target_loss_W, ring_loss_W, coil_loss_W : Joule losses [W]
+    input_power_W : Re(V conj(I)) at the coil terminals [W]
+    coil_current_A, coil_voltage_V : rms magnitudes [A], [V]; supply_VA : |V||I| [VA]
+    coil_impedance_ohm : (resistance, reactance) at the terminals [Ohm]
+    ring_current_A : rms magnitude of the ring's total current [A]; ring_phase_deg : its phase
+        relative to the coil current [deg]
+    core_peak_flux_density_T : largest peak |B| found inside the pole [T]
+    pole_flux_density_T : peak in time of the section-averaged axial flux density of the pole, the
+        largest along its length [T] (the FEM reports the same quantity)
+    target_weight_N, lift_ratio : weight of the target [N] and pull / weight [-]
+    power_factor : input_power_W / supply_VA; pole_mass_kg : the pole's steel, groove removed;
+    core_flux_fraction : core_peak_flux_density_T / the steel's saturation flux density (0 if
+        unknown)
+    """
+
+    pull_N: float
+    pull_by_source_N: dict
+    target_loss_W: float
+    ring_loss_W: float
+    coil_loss_W: float
+    input_power_W: float
+    coil_current_A: float
+    coil_voltage_V: float
+    supply_VA: float
+    coil_impedance_ohm: tuple
+    ring_current_A: float
+    ring_phase_deg: float
+    core_peak_flux_density_T: float
+    pole_flux_density_T: float
+    target_weight_N: float
+    lift_ratio: float
+    power_factor: float
+    pole_mass_kg: float
+    core_flux_fraction: float
+
+
+@dataclass(frozen=True)
+class Thermal:
+    """The thermal network's outputs (models.thermal; steady state at the duty-averaged losses).
+
+    temperatures_C : node temperatures [degC]: "coil" (its hot spot), "coil_mean" (its mean,
+        which sets its resistance), "core", "face", "ring" (with a ring), "target" (steady state),
+        "target_hold" (after the hold), "ambient". Each temperature is stored here once; the
+        ``*_temperature_C`` properties read it.
+    coil_temperature_limit_C : the insulation class temperature (IEC 60085)
+    thermal_status : "isothermal" (resistivities at 20 degC; the temperatures are the network's
+        response to those losses, without feedback), "converged" or "runaway: <why>" (then every
+        temperature is inf and every temperature margin -inf)
+    margins : limit name -> margin in the limit's unit, positive = satisfied:
+        "coil_temperature_C", "ring_temperature_C" and "target_hold_temperature_C" (when
+        [thermal] sets ring_limit_C, target_limit_C), "core_flux_density_T" (saturation minus
+        peak), "supply_voltage_V", "supply_current_A", "supply_VA" (with [supply])
+    binding_limit : the margin smallest relative to its limit (a temperature's relative to the
+        allowed rise above ambient), "" if none
+    time_to_limit_s : part -> seconds from cold to its limit run continuously (inf: never); the
+        coil's limit is its class, the ring's and target's the user's or their material's
+    thermal_time_constants_s : of the network, shortest first [s]
+    """
+
+    temperatures_C: dict
+    coil_temperature_limit_C: float
+    thermal_status: str
+    margins: dict
+    binding_limit: str
+    time_to_limit_s: dict
+    thermal_time_constants_s: list
+
+    @property
+    def coil_temperature_C(self) -> float:
+        """The winding's hot spot (what its insulation class limits) [degC]."""
+        return self.temperatures_C["coil"]
+
+    @property
+    def core_temperature_C(self) -> float:
+        return self.temperatures_C["core"]
+
+    @property
+    def ring_temperature_C(self) -> float:
+        """The ring's temperature, the face's without a ring [degC]."""
+        return self.temperatures_C.get("ring", self.temperatures_C["face"])
+
+    @property
+    def target_temperature_C(self) -> float:
+        """The target's steady state [degC]."""
+        return self.temperatures_C["target"]
+
+    @property
+    def target_hold_temperature_C(self) -> float:
+        """A part held for thermal.hold_time_s, arriving at ambient [degC]."""
+        return self.temperatures_C["target_hold"]
+
+
+#: The public flat fields in their JSON order, each with the group it lives in ("" = the Result).
+FLAT_FIELDS = (
+    *(
+        ("electrical", name)
+        for name in (
+            "pull_N",
+            "pull_by_source_N",
+            "target_loss_W",
+            "ring_loss_W",
+            "coil_loss_W",
+            "input_power_W",
+            "coil_current_A",
+            "coil_voltage_V",
+            "supply_VA",
+            "coil_impedance_ohm",
+            "ring_current_A",
+            "ring_phase_deg",
+            "core_peak_flux_density_T",
+            "pole_flux_density_T",
+            "target_weight_N",
+            "lift_ratio",
+        )
+    ),
+    ("thermal", "temperatures_C"),
+    ("", "warnings"),
+    ("", "n_cells"),
+    ("", "n_panels"),
+    ("", "run_time_s"),
+    ("", "model"),
+    ("thermal", "coil_temperature_C"),
+    ("thermal", "core_temperature_C"),
+    ("thermal", "ring_temperature_C"),
+    ("thermal", "target_temperature_C"),
+    ("thermal", "target_hold_temperature_C"),
+    ("thermal", "coil_temperature_limit_C"),
+    ("electrical", "power_factor"),
+    ("electrical", "pole_mass_kg"),
+    ("electrical", "core_flux_fraction"),
+    ("thermal", "thermal_status"),
+    ("thermal", "margins"),
+    ("thermal", "binding_limit"),
+    ("thermal", "time_to_limit_s"),
+    ("thermal", "thermal_time_constants_s"),
+)
+_GROUP_OF = {name: group for group, name in FLAT_FIELDS if group}
+
+
+@dataclass(frozen=True)
+class Result:
+    """Fast-model result of one design: ``electrical`` and ``thermal`` parts, the warnings
+    (where the linear model or its discretisation is outside its validated range, and a thermal
+    runaway), the discretisation's size (``n_cells``, ``n_panels``), the run time [s] and the
+    model's version. Every field of the two parts also reads as a flat attribute."""
+
+    electrical: Electrical
+    thermal: Thermal
+    warnings: list = field(default_factory=list)
+    n_cells: int = 0
+    n_panels: int = 0
+    run_time_s: float = 0.0
+    model: str = MODEL_VERSION
+
+    def __getattr__(self, name):
+        group = _GROUP_OF.get(name)
+        if group is None:
+            raise AttributeError(f"{type(self).__name__!r} object has no attribute {name!r}")
+        return getattr(object.__getattribute__(self, group), name)
+
+    def to_dict(self) -> dict:
+        """Plain JSON-ready dict of every public field, flat (the groups' fields side by side)."""
+        d = {}
+        for group, name in FLAT_FIELDS:
+            value = getattr(getattr(self, group) if group else self, name)
+            if isinstance(value, dict):
+                value = dict(value)
+            elif isinstance(value, (list, tuple)):
+                value = list(value)
+            d[name] = value
+        return d
