@@ -18,7 +18,9 @@ __all__ = [
     "VALIDATED_RANGE",
     "limits_and_margins",
     "range_warnings",
+    "thermal_assumptions",
     "thermal_warnings",
+    "used_limits",
 ]
 
 #: The range the fast model has been held to the FEM reference on (tests/cross_model.py and
@@ -143,13 +145,7 @@ def limits_and_margins(design: Design, state, result: dict):
     relative = {k: margins[k] / scale[k] for k in margins}
     binding = min(relative, key=relative.get) if relative else ""
 
-    limits = {"coil": th.coil_class_C}
-    if design.ring is not None:
-        ring_limit = th.ring_limit_C
-        limits["ring"] = ring_limit if ring_limit is not None else net.ceiling_C[net.index("ring")]
-    limits["target"] = (
-        th.target_limit_C if th.target_limit_C is not None else net.ceiling_C[net.index("target")]
-    )
+    limits = {part: limit for part, (limit, _) in used_limits(design, net).items()}
     times, taus = time_to_limits(state, limits)
     return margins, binding, times, taus
 
@@ -202,4 +198,59 @@ def thermal_warnings(design: Design, state, result: dict, hold_tau: float) -> li
             if limit is not None and value > limit:
                 out.append(f"the coil needs {value:.4g} {unit}, above supply.{key} = {limit:g}")
     out.extend(f"thermal: {n}" for n in state.network.notes)
+    return out
+
+
+def used_limits(design: Design, network) -> dict:
+    """Temperature limit of each part [degC] that margins and times to limit use, with its
+    source: {"coil": (limit, why), "ring": ..., "target": ...}. Without a user's limit a ring or
+    a part is held to its material's own (melting or Curie point, ``network.ceiling_C``)."""
+    th = design.thermal
+    out = {"coil": (th.coil_class_C, f"insulation class {th.coil_class} (IEC 60085)")}
+    for part, user in (("ring", th.ring_limit_C), ("target", th.target_limit_C)):
+        if part not in network.nodes:
+            continue
+        if user is not None:
+            out[part] = (user, f"thermal.{part}_limit_C")
+        else:
+            k = network.index(part)
+            out[part] = (
+                float(network.ceiling_C[k]),
+                f"{network.ceiling_why[k]}; no thermal.{part}_limit_C given",
+            )
+    return out
+
+
+def thermal_assumptions(design: Design, network) -> dict:
+    """Every thermal assumption a result depends on, by its [thermal] file key, the limits each
+    part is held to, and ``defaults``: the keys the design file left out (their default used)."""
+    th = design.thermal
+    given = set((design.source or {}).get("thermal", {}) or {})
+    arrival = th.ambient_C if th.target_arrival_C is None else th.target_arrival_C
+    hold_gap = design.target.gap if th.hold_gap is None else th.hold_gap
+    values = {
+        "ambient_C": th.ambient_C,
+        "duty_cycle": th.duty_cycle,
+        "period_s": th.period,
+        "hold_time_s": th.hold_time,
+        "hold_gap_mm": hold_gap * 1e3,
+        "target_arrival_C": arrival,
+        "target_stays": th.target_stays,
+        "convection_W_per_m2K": th.convection,
+        "emissivity": th.emissivity,
+        "coil_insulation_class": th.coil_class,
+        "orientation": th.orientation,
+    }
+    limits = used_limits(design, network)
+    out = dict(values)
+    out["convection"] = (
+        "natural (Churchill-Chu and horizontal-plate correlations)"
+        if th.convection is None
+        else "forced (a fixed coefficient)"
+    )
+    out["radiation"] = "none" if th.emissivity == 0 else f"emissivity {th.emissivity:g}"
+    for part, (limit, why) in limits.items():
+        out[f"{part}_limit_C"] = float(limit)
+        out[f"{part}_limit_source"] = why
+    out["defaults"] = sorted(k for k in values if k not in given)
     return out

@@ -11,12 +11,18 @@ import dataclasses
 import functools
 import math
 import time
+from dataclasses import dataclass
 
 import numpy as np
 from scipy.constants import g as standard_gravity
 
-from models.checks import limits_and_margins, range_warnings, thermal_warnings
-from models.design import Design
+from models.checks import (
+    limits_and_margins,
+    range_warnings,
+    thermal_assumptions,
+    thermal_warnings,
+)
+from models.design import Design, with_value
 from models.errors import DesignError
 from models.fast.circuit import RING, TARGET, CircuitSolution, assemble_circuit, solve_system
 from models.fast.discretize import Fineness
@@ -26,7 +32,15 @@ from models.materials import MATERIALS
 from models.result import MODEL_VERSION, Electrical, Result, Thermal
 from models.thermal.network import build_network, hold_temperature, solve_coupled
 
-__all__ = ["DEFAULT_FINENESS", "MODEL_VERSION", "Result", "evaluate"]
+__all__ = [
+    "DEFAULT_FINENESS",
+    "MODEL_VERSION",
+    "PickState",
+    "Result",
+    "evaluate",
+    "evaluate_pick_gaps",
+    "pick_state",
+]
 
 DEFAULT_FINENESS = Fineness()
 
@@ -120,7 +134,8 @@ def evaluate(
     isothermal : bool
         True: every part's resistivity at 20 degC (no electro-thermal coupling); the temperatures
         reported are then the network's response to the 20 degC losses. False (default): losses
-        and temperatures iterated to agree (models.thermal.network.solve_coupled), resistivities
+        and temperatures of the fixed parts (coil, ring, core, face) iterated to agree at their
+        duty-averaged steady state (models.thermal.network.solve_coupled), resistivities
         rho_20 (1 + alpha (T - 20 degC)). A design without [thermal] uses
         models.design.Thermal's defaults (25 degC ambient, natural convection, continuous duty).
     fineness : Fineness, optional
@@ -131,34 +146,72 @@ def evaluate(
     Returns
     -------
     Result
-        A thermal runaway is a result (``thermal_status`` "runaway: ...", inf temperatures,
-        a warning), never an exception.
+        The electrical part is the moment of pick: the fixed parts at their steady state, the
+        part as it arrives (``thermal.target_arrival_C``, default the ambient) at the design's
+        gap; ``pull_hold_N`` is the pull at the end of the hold, at the holding gap, with the
+        part warmed for ``thermal.hold_time_s``. With ``thermal.target_stays`` the part is at its
+        steady state in both. A thermal runaway is a result (``thermal_status`` "runaway: ...",
+        inf temperatures, a warning), never an exception.
 
     Raises
     ------
     DesignError
         For a conductive (solid) pole: the fast model covers laminated poles only.
     """
+    return evaluate_pick_gaps(design, (), isothermal, fineness, pole_model)[0]
+
+
+def evaluate_pick_gaps(
+    design: Design,
+    gaps_mm=(),
+    isothermal: bool = False,
+    fineness: Fineness | None = None,
+    pole_model=None,
+) -> tuple[Result, list]:
+    """``evaluate(design)`` and the pull at arrival [N] at each gap of ``gaps_mm`` [mm].
+
+    A part is picked at any gap of a range while the magnet's fixed parts sit at one steady
+    state (that of ``design``, with its part held at the holding gap): each extra gap costs one
+    circuit assembly and solve, no thermal solve. A gap equal to the design's reuses its pull.
+    """
     t_start = time.perf_counter()
     fineness = fineness or DEFAULT_FINENESS
     _check_laminated(design)
     if pole_model is None:
         pole_model = pole_model_for(design, fineness)
-    state = _solve(design, fineness, pole_model, isothermal)
-    sol = state.solution
-    electrical = _electrical(design, sol)
-    thermal, hold_tau = _thermal(design, state, electrical)
+    pick_system = assemble_circuit(design, fineness, pole_model)
+    held_design = at_hold_gap(design)
+    held_system = (
+        pick_system
+        if held_design is design
+        else assemble_circuit(held_design, fineness, pole_model_for(held_design, fineness))
+    )
+    state = _steady_state(held_design, held_system, isothermal)
+    part = pick_state(design, state, isothermal)
+    arrival = solve_system(pick_system, part.arrival)
+    hold = solve_system(held_system, part.hold) if part.hold is not None else None
+    electrical = _electrical(design, arrival, hold)
+    thermal = _thermal(design, state, part, electrical)
     flat = _flat_for_checks(electrical, thermal)
-    warnings = range_warnings(design, sol, fineness, electrical.core_peak_flux_density_T)
-    warnings += thermal_warnings(design, state, flat, hold_tau)
-    return Result(
+    warnings = range_warnings(design, arrival, fineness, electrical.core_peak_flux_density_T)
+    warnings += thermal_warnings(design, state, flat, part.hold_time_constant_s)
+    result = Result(
         electrical=electrical,
         thermal=thermal,
         warnings=warnings,
-        n_cells=int(sol.cells.n),
-        n_panels=0 if sol.panels is None else int(sol.panels.n),
+        n_cells=int(arrival.cells.n),
+        n_panels=0 if arrival.panels is None else int(arrival.panels.n),
         run_time_s=time.perf_counter() - t_start,
     )
+    pulls = []
+    for g in gaps_mm:
+        if abs(g * 1e-3 - design.target.gap) <= 1e-12:
+            pulls.append(result.pull_N)
+            continue
+        at_gap = with_value(design, "target.gap_mm", g)
+        system = assemble_circuit(at_gap, fineness, pole_model_for(at_gap, fineness))
+        pulls.append(float(sum(pull_by_source(solve_system(system, part.arrival)).values())))
+    return result, pulls
 
 
 def _check_laminated(design: Design) -> None:
@@ -170,10 +223,18 @@ def _check_laminated(design: Design) -> None:
         )
 
 
-def _solve(design: Design, fineness: Fineness, pole_model, isothermal: bool):
-    """Assemble the circuit and solve it with the thermal network: the coupled thermal state,
-    whose ``solution`` is the circuit solution at its temperatures."""
-    system = assemble_circuit(design, fineness, pole_model)
+def at_hold_gap(design: Design) -> Design:
+    """``design`` with its part at the holding gap (``thermal.hold_gap_mm``); the same object
+    when that is the design's own gap (the default)."""
+    gap = design.thermal.hold_gap
+    if gap is None or abs(gap - design.target.gap) <= 1e-12:
+        return design
+    return with_value(design, "target.gap_mm", gap * 1e3)
+
+
+def _steady_state(design: Design, system, isothermal: bool):
+    """The thermal network's duty-averaged steady state with the electrical model of ``system``
+    (the part under the pole at its holding gap, as for a part that stays)."""
     network = build_network(design)
 
     def losses_at(temps):
@@ -189,16 +250,80 @@ def _solve(design: Design, fineness: Fineness, pole_model, isothermal: bool):
     )
 
 
-def _electrical(design: Design, sol: CircuitSolution) -> Electrical:
-    """Pull, losses, terminal quantities and flux densities of one circuit solution."""
+@dataclass(frozen=True)
+class PickState:
+    """The part's temperatures in the two states a result reports, and the circuit temperatures
+    [degC] of each ("coil" its mean, "ring", "target"; 20 degC everywhere when isothermal).
+
+    target_arrival_C : the part as it arrives; target_hold_C : at the end of the hold
+    (inf after a runaway); hold_time_constant_s : of the held part (negative: it runs away);
+    arrival, hold : circuit temperatures of the two states (hold None when it has none).
+    """
+
+    target_arrival_C: float
+    target_hold_C: float
+    hold_time_constant_s: float
+    arrival: dict
+    hold: dict | None
+
+
+def pick_state(design: Design, state, isothermal: bool) -> PickState:
+    """The moment of pick and the end of the hold: the fixed parts (coil, ring) at the steady
+    state of ``state``, the part arriving at ``thermal.target_arrival_C`` (default the ambient)
+    and warmed for ``thermal.hold_time_s`` from there; with ``thermal.target_stays``, the part
+    at its steady state in both."""
+    th = design.thermal
+    net = state.network
+    T = state.T if np.all(np.isfinite(state.T)) else state.T_last  # a runaway: its last iterate
+    t_steady = float(T[net.index("target")])
+    if th.target_stays:
+        t_arrival = t_hold = state.temperature("target")
+        _, _, tau = hold_temperature(state, th.hold_time, initial_C=t_steady)
+    else:
+        t_arrival = th.ambient_C if th.target_arrival_C is None else th.target_arrival_C
+        t_hold, _, tau = hold_temperature(state, th.hold_time, initial_C=t_arrival)
+    if isothermal:
+        arrival = {"coil": 20.0, "ring": 20.0, "target": 20.0}
+        hold = dict(arrival) if math.isfinite(t_hold) else None
+    else:
+        fixed = {"coil": float(T[net.index("coil")])}
+        if "ring" in net.nodes:
+            fixed["ring"] = float(T[net.index("ring")])
+        circuit_arrival = t_steady if th.target_stays else t_arrival
+        arrival = {**fixed, "target": circuit_arrival}
+        hold = {**fixed, "target": t_hold} if math.isfinite(t_hold) else None
+    return PickState(
+        target_arrival_C=float(t_arrival),
+        target_hold_C=float(t_hold),
+        hold_time_constant_s=float(tau),
+        arrival=arrival,
+        hold=hold,
+    )
+
+
+#: ``ring_phase_deg`` lies in [RING_PHASE_FROM_DEG, RING_PHASE_FROM_DEG + 360): a ring's current
+#: lags the coil's by 90 to 180 degrees alone (Lenz's law: -j omega M / (R + j omega L)) and by a
+#: little more beside iron and a part, so the range starts at -270 to keep that lag unwrapped.
+RING_PHASE_FROM_DEG = -270.0
+
+
+def ring_phase(ring_current: complex, coil_current: complex) -> float:
+    """Phase of the ring's current relative to the coil's [deg], in the range of
+    RING_PHASE_FROM_DEG (continuous through -180)."""
+    angle = math.degrees(np.angle(ring_current / coil_current))
+    return (angle - RING_PHASE_FROM_DEG) % 360.0 + RING_PHASE_FROM_DEG
+
+
+def _electrical(design: Design, sol: CircuitSolution, hold: CircuitSolution | None) -> Electrical:
+    """Pull, losses, terminal quantities and flux densities of the solution at the moment of
+    pick (``sol``), and the pull of the solution at the end of the hold (``hold``, None: nan)."""
     split = pull_by_source(sol)
     pull = sum(split.values())
     losses = _part_losses(sol)
     z_coil = sol.coil_voltage / sol.coil_current
     ring_current = complex(sol.cell_current[sol.cells.part == RING].sum())
-    ring_phase = (
-        math.degrees(np.angle(ring_current / sol.coil_current)) if design.ring is not None else 0.0
-    )
+    phase = ring_phase(ring_current, sol.coil_current) if design.ring is not None else 0.0
+    pull_hold = math.nan if hold is None else float(sum(pull_by_source(hold).values()))
     b_peak = core_peak_flux_density(design, sol)
     weight = design.target.density * design.target.volume * standard_gravity
     input_power = float(np.real(sol.coil_voltage * np.conj(sol.coil_current)))
@@ -216,22 +341,32 @@ def _electrical(design: Design, sol: CircuitSolution) -> Electrical:
         supply_VA=va,
         coil_impedance_ohm=(float(z_coil.real), float(z_coil.imag)),
         ring_current_A=abs(ring_current),
-        ring_phase_deg=ring_phase,
+        ring_phase_deg=phase,
         core_peak_flux_density_T=b_peak,
         pole_flux_density_T=pole_flux_density(design, sol),
         target_weight_N=weight,
         lift_ratio=pull / weight,
+        pull_hold_N=pull_hold,
+        lift_ratio_hold=pull_hold / weight,
+        pull_cancellation=pull_cancellation(split),
         power_factor=input_power / va if va > 0 else 0.0,
         pole_mass_kg=pole_mass(design),
         core_flux_fraction=b_peak / bsat if bsat else 0.0,
     )
 
 
-def _thermal(design: Design, state, electrical: Electrical) -> tuple[Thermal, float]:
-    """The temperatures of the coupled state (and of a held part), the margins to every limit
-    and the time to them; with the held part's thermal time constant [s] (negative: it runs
-    away), which the warnings read."""
-    t_hold, _, hold_tau = hold_temperature(state, design.thermal.hold_time)
+def pull_cancellation(split: dict) -> float:
+    """Sum of the magnitudes of the pull's terms over the magnitude of the net pull [-] (1: every
+    term pulls one way; large: the net is a small difference of large terms, its size uncertain
+    and its sign what to trust); inf for a zero net pull."""
+    net = abs(sum(split.values()))
+    terms = sum(abs(v) for v in split.values())
+    return float(terms / net) if net > 0 else math.inf
+
+
+def _thermal(design: Design, state, part: PickState, electrical: Electrical) -> Thermal:
+    """The temperatures of the steady state and of the part (arriving, held), the thermal
+    assumptions behind them, the margins to every limit and the time to them."""
     temps = {
         "coil": state.coil_hot_spot_C,
         "coil_mean": state.temperature("coil"),
@@ -241,10 +376,12 @@ def _thermal(design: Design, state, electrical: Electrical) -> tuple[Thermal, fl
     if design.ring is not None:
         temps["ring"] = state.temperature("ring")
     temps["target"] = state.temperature("target")
-    temps["target_hold"] = t_hold
+    temps["target_arrival"] = part.target_arrival_C
+    temps["target_hold"] = part.target_hold_C
     temps["ambient"] = design.thermal.ambient_C
     no_limits_yet = Thermal(
         temperatures_C=temps,
+        thermal_assumptions=thermal_assumptions(design, state.network),
         coil_temperature_limit_C=design.thermal.coil_class_C,
         thermal_status=state.status,
         margins={},
@@ -262,7 +399,7 @@ def _thermal(design: Design, state, electrical: Electrical) -> tuple[Thermal, fl
         time_to_limit_s=times,
         thermal_time_constants_s=[float(x) for x in taus],
     )
-    return thermal, hold_tau
+    return thermal
 
 
 def _flat_for_checks(electrical: Electrical, thermal: Thermal) -> dict:

@@ -11,21 +11,33 @@ from dataclasses import dataclass, field
 
 __all__ = ["Electrical", "MODEL_VERSION", "Result", "Thermal"]
 
-MODEL_VERSION = "multiloop-1"
+#: The fast model's version: results of different versions mean different things and are never
+#: mixed in one study. 2: pull at the part's arrival and end-of-hold states (was: at its steady
+#: state), ring phase in [-270, 90).
+MODEL_VERSION = "multiloop-2"
 
 
 @dataclass(frozen=True)
 class Electrical:
     """The circuit solution's outputs. Rms phasors; SI except where a name says otherwise.
 
+    Everything but ``pull_hold_N`` and ``lift_ratio_hold`` is the moment of pick: the fixed parts
+    (coil, ring) at their steady state, the part as it arrives, at the design's gap.
+
     pull_N : time-averaged axial force on the target, positive toward the face [N]
     pull_by_source_N : its split into "coil", "pole" (magnetised iron) and "ring" [N]
+    pull_cancellation : sum of the terms' magnitudes over the net's [-] (large: the net is a
+        small difference of large terms; its size is uncertain there, its sign is what to trust)
+    pull_hold_N, lift_ratio_hold : pull [N] and pull / weight at the end of the hold, the part
+        warmed for thermal.hold_time_s at the holding gap (thermal.hold_gap_mm); nan after a
+        thermal runaway
     target_loss_W, ring_loss_W, coil_loss_W : Joule losses [W]
     input_power_W : Re(V conj(I)) at the coil terminals [W]
     coil_current_A, coil_voltage_V : rms magnitudes [A], [V]; supply_VA : |V||I| [VA]
     coil_impedance_ohm : (resistance, reactance) at the terminals [Ohm]
     ring_current_A : rms magnitude of the ring's total current [A]; ring_phase_deg : its phase
-        relative to the coil current [deg]
+        relative to the coil current [deg], in [-270, 90) so that a ring's lag (90 to a little
+        over 180 degrees) reads without a jump
     core_peak_flux_density_T : largest peak |B| found inside the pole [T]
     pole_flux_density_T : peak in time of the section-averaged axial flux density of the pole, the
         largest along its length [T] (the FEM reports the same quantity)
@@ -54,16 +66,25 @@ class Electrical:
     power_factor: float
     pole_mass_kg: float
     core_flux_fraction: float
+    pull_hold_N: float
+    lift_ratio_hold: float
+    pull_cancellation: float
 
 
 @dataclass(frozen=True)
 class Thermal:
     """The thermal network's outputs (models.thermal; steady state at the duty-averaged losses).
 
-    temperatures_C : node temperatures [degC]: "coil" (its hot spot), "coil_mean" (its mean,
-        which sets its resistance), "core", "face", "ring" (with a ring), "target" (steady state),
-        "target_hold" (after the hold), "ambient". Each temperature is stored here once; the
+    temperatures_C : [degC] "coil" (its hot spot), "coil_mean" (its mean, which sets its
+        resistance), "core", "face", "ring" (with a ring): the fixed parts at their duty-averaged
+        steady state; "target" (the part's steady state, were it to stay under the pole),
+        "target_arrival" (as it arrives: the state of pull_N), "target_hold" (after the hold: the
+        state of pull_hold_N), "ambient". Each temperature is stored here once; the
         ``*_temperature_C`` properties read it.
+    thermal_assumptions : every assumption the temperatures rest on, by [thermal] file key
+        (ambient_C, duty_cycle, hold_time_s, hold_gap_mm, target_arrival_C, target_stays, ...),
+        the limit each part is held to and its source (``<part>_limit_C``,
+        ``<part>_limit_source``), and ``defaults``: the keys the file left out
     coil_temperature_limit_C : the insulation class temperature (IEC 60085)
     thermal_status : "isothermal" (resistivities at 20 degC; the temperatures are the network's
         response to those losses, without feedback), "converged" or "runaway: <why>" (then every
@@ -80,6 +101,7 @@ class Thermal:
     """
 
     temperatures_C: dict
+    thermal_assumptions: dict
     coil_temperature_limit_C: float
     thermal_status: str
     margins: dict
@@ -108,8 +130,13 @@ class Thermal:
 
     @property
     def target_hold_temperature_C(self) -> float:
-        """A part held for thermal.hold_time_s, arriving at ambient [degC]."""
+        """The part at the end of its hold (thermal.hold_time_s) [degC]."""
         return self.temperatures_C["target_hold"]
+
+    @property
+    def target_arrival_temperature_C(self) -> float:
+        """The part as it arrives [degC] (thermal.target_arrival_C, default the ambient)."""
+        return self.temperatures_C["target_arrival"]
 
 
 #: The public flat fields in their JSON order, each with the group it lives in ("" = the Result).
@@ -155,6 +182,11 @@ FLAT_FIELDS = (
     ("thermal", "binding_limit"),
     ("thermal", "time_to_limit_s"),
     ("thermal", "thermal_time_constants_s"),
+    ("electrical", "pull_hold_N"),
+    ("electrical", "lift_ratio_hold"),
+    ("electrical", "pull_cancellation"),
+    ("thermal", "target_arrival_temperature_C"),
+    ("thermal", "thermal_assumptions"),
 )
 _GROUP_OF = {name: group for group, name in FLAT_FIELDS if group}
 

@@ -4,7 +4,13 @@ from __future__ import annotations
 
 from models.materials import MATERIALS
 
-__all__ = ["format_result", "format_materials", "CAUTION"]
+__all__ = [
+    "CAUTION",
+    "assumptions_text",
+    "format_materials",
+    "format_result",
+    "limits_used_text",
+]
 
 CAUTION = (
     "Caution: model results only. Rings, parts and coils get hot; coils run at mains voltage; the "
@@ -28,9 +34,56 @@ def _time(seconds):
     return f"{seconds / 3600:.3g} h"
 
 
+def _pick_state(r) -> str:
+    """Which state pull_N is in, in words."""
+    a = r.thermal_assumptions
+    if a["target_stays"]:
+        return (
+            f"pull above with the part at its steady state {r.target_temperature_C:.4g} degC "
+            "(thermal.target_stays)"
+        )
+    return (
+        f"pull above at the moment of pick: the part arriving at "
+        f"{r.target_arrival_temperature_C:.4g} degC, the magnet at its steady state"
+    )
+
+
+def limits_used_text(a: dict) -> list:
+    """Each part's temperature limit and where it comes from, in words."""
+    out = []
+    for part in ("coil", "ring", "target"):
+        if f"{part}_limit_C" in a:
+            out.append(f"{part} {a[f'{part}_limit_C']:g} degC ({a[f'{part}_limit_source']})")
+    return out
+
+
+def assumptions_text(a: dict) -> str:
+    """The thermal assumptions in one line, those taken by default marked."""
+    duty = (
+        "continuous duty"
+        if a["duty_cycle"] == 1.0
+        else f"duty {a['duty_cycle']:g}"
+        + (f" of {a['period_s']:g} s" if a.get("period_s") else "")
+    )
+    items = [
+        ("ambient_C", f"ambient {a['ambient_C']:g} degC"),
+        ("duty_cycle", duty),
+        ("convection_W_per_m2K", a["convection"]),
+        ("emissivity", f"radiation {a['radiation']}"),
+        ("coil_insulation_class", f"class {a['coil_insulation_class']}"),
+        ("hold_time_s", f"{a['hold_time_s']:g} s hold"),
+        ("target_arrival_C", f"part arrives at {a['target_arrival_C']:g} degC"),
+        ("orientation", a["orientation"]),
+    ]
+    defaults = set(a["defaults"])
+    text = ", ".join(words + (" (default)" if key in defaults else "") for key, words in items)
+    return text
+
+
 def format_result(design, result) -> str:
     """A few lines an engineer reads: pull and where it comes from, costs, validity."""
     r = result
+    a = r.thermal_assumptions
     split = r.pull_by_source_N
     verdict = "PULL (toward the face)" if r.pull_N > 0 else "PUSH (away from the face)"
     lines = [
@@ -42,6 +95,10 @@ def format_result(design, result) -> str:
         f"    from pole (iron) {split['pole'] * 1e3:+.4g} mN",
         f"    from ring        {split['ring'] * 1e3:+.4g} mN",
         f"  target weight      {r.target_weight_N * 1e3:.4g} mN   lift ratio {r.lift_ratio:+.3g}",
+        f"  part state         {_pick_state(r)}",
+        f"  after the hold     pull {r.pull_hold_N * 1e3:+.4g} mN, lift ratio "
+        f"{r.lift_ratio_hold:+.3g} (part at {r.target_hold_temperature_C:.4g} degC, "
+        f"gap {a['hold_gap_mm']:g} mm)",
         f"  losses             target {_w(r.target_loss_W)} W, ring {_w(r.ring_loss_W)} W, "
         f"coil {_w(r.coil_loss_W)} W (input {_w(r.input_power_W)} W)",
         f"  coil               {_w(r.coil_current_A)} A rms, {_w(r.coil_voltage_V)} V rms, "
@@ -57,6 +114,8 @@ def format_result(design, result) -> str:
         + ", ".join(f"{k} {v:.4g}" for k, v in r.temperatures_C.items())
         + " degC",
         f"  coil limit         {r.coil_temperature_limit_C:g} degC (insulation class, hot spot)",
+        "  limits used        " + "; ".join(limits_used_text(a)),
+        "  thermal assumed    " + assumptions_text(a),
         "  margins            "
         + (", ".join(f"{k} {v:+.4g}" for k, v in r.margins.items()) or "none")
         + (f"   binding: {r.binding_limit}" if r.binding_limit else ""),

@@ -58,7 +58,7 @@ def _picked(front, objectives: dict, limit: int = 3) -> list[int]:
     return picked[:limit]
 
 
-def _notes(spec, df, front) -> list[str]:
+def _notes(spec, df, front, design=None) -> list[str]:
     from models.checks import VALIDATED_RANGE
 
     ranges = "; ".join(f"{k} {lo:g}-{hi:g}" for k, (lo, hi) in VALIDATED_RANGE.items())
@@ -73,8 +73,8 @@ def _notes(spec, df, front) -> list[str]:
         else "This study evaluated every part at 20 degC (isothermal): its temperatures are not "
         "checked; re-evaluate the chosen design without --isothermal.",
     ]
-    if "warnings" in df:
-        pass
+    if design is not None:
+        notes.append(_state_note(design, bool(spec.run.get("isothermal"))))
     failed = df[df["state"] == "FAIL"] if not df.empty else df
     if len(failed):
         kinds: dict[str, int] = {}
@@ -86,6 +86,33 @@ def _notes(spec, df, front) -> list[str]:
             + ", ".join(f"{v} {k}" for k, v in sorted(kinds.items(), key=lambda kv: -kv[1]))
         )
     return notes
+
+
+def _state_note(design, isothermal: bool) -> str:
+    """Which state the pulls refer to and the thermal assumptions, as the first picked design
+    has them (the study's designs share the base design's [thermal] table unless it is searched)."""
+    from models.evaluate import evaluate
+    from optim.cli.summary import assumptions_text, limits_used_text
+
+    r = evaluate(design, isothermal=isothermal)
+    a = r.thermal_assumptions
+    if a["target_stays"]:
+        state = (
+            "pull_N and lift_ratio are the part at its steady state under the pole "
+            "(thermal.target_stays)"
+        )
+    else:
+        state = (
+            f"pull_N and lift_ratio are the moment of pick: the part arriving at "
+            f"{a['target_arrival_C']:g} degC at each pick gap, the magnet's coil and ring at "
+            f"their duty-averaged steady state; pull_hold_N and lift_ratio_hold are the end of "
+            f"a {a['hold_time_s']:g} s hold at the {a['hold_gap_mm']:g} mm holding gap; "
+            "worst_pull_N and worst_lift_ratio take the worst of both"
+        )
+    return (
+        f"{state}. Thermal assumptions: {assumptions_text(a)}. Limits: "
+        f"{'; '.join(limits_used_text(a))}."
+    )
 
 
 def write_front(study, spec_json: dict, where: str, folder: Path, echo=print) -> dict:
@@ -142,9 +169,8 @@ def write_front(study, spec_json: dict, where: str, folder: Path, echo=print) ->
             "picked trials": ", ".join(str(t) for t in picked) or "-",
         }
     )
-    report = write_report(
-        folder, summary, front, pngs, binding_counts(front), _notes(spec, df, front)
-    )
+    notes = _notes(spec, df, front, designs[0][1] if designs else None)
+    report = write_report(folder, summary, front, pngs, binding_counts(front), notes)
     paths["report.html"] = Path(report)
     lines = [
         f"study {spec.name}: {len(df)} trials, {int(df['feasible'].sum()) if len(df) else 0} "

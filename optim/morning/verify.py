@@ -72,7 +72,8 @@ def compare(fast: dict | None, fem_result, uncertainty: dict) -> list[dict]:
     -------
     list of dict
         Each row: key, label, unit, fast, fem, difference (fast - fem, in the unit; the phase wrapped
-        to (-180, 180] deg), difference_rel (difference / |fem|, nan if fem = 0), uncertainty_rel
+        to (-180, 180] deg), difference_rel (difference / |fem|, nan if fem = 0 and for the phase,
+        whose difference is in degrees only), uncertainty_rel
         and within_uncertainty (|difference_rel| <= uncertainty_rel: the difference is not resolved
         by the reference).
     """
@@ -86,7 +87,7 @@ def compare(fast: dict | None, fem_result, uncertainty: dict) -> list[dict]:
         diff = a - b
         if key == "ring_phase_deg" and not math.isnan(diff):
             diff = (diff + 180.0) % 360.0 - 180.0
-        if math.isnan(diff):
+        if math.isnan(diff) or key == "ring_phase_deg":  # a percentage of a phase means nothing
             rel = math.nan
         elif b != 0.0:
             rel = diff / abs(b)
@@ -109,6 +110,22 @@ def compare(fast: dict | None, fem_result, uncertainty: dict) -> list[dict]:
     return rows
 
 
+#: Above this pull_cancellation (the net pull under a tenth of the sum of its terms), a small
+#: relative error of a term is a large one of the net (common practice, no source).
+CANCELLATION_WARNING = 10.0
+
+
+def cancellation_line(cancellation: float) -> str:
+    """The pull's cancellation in words: sum of |terms| / |net| and what it means for trust."""
+    text = f"pull_cancellation {cancellation:.3g} (sum of the pull terms' magnitudes / |net pull|)"
+    if not cancellation <= CANCELLATION_WARNING:
+        text += (
+            ": the net pull is a small difference of large terms, so its size is uncertain "
+            "here; its sign is what to trust"
+        )
+    return text
+
+
 def _num(x: float) -> str:
     return "-" if math.isnan(x) else f"{x:.5g}"
 
@@ -120,14 +137,14 @@ def _pct(x: float) -> str:
 def format_table(rows: list[dict], fem_time_s: float, fast_time_s: float) -> str:
     """Plain-text table: quantity, unit, fast, FEM, difference [%], FEM uncertainty [%], and timings.
 
-    The phase row also shows its difference in degrees.
+    The phase row shows its difference in degrees (a percentage of a phase means nothing).
     """
     header = ("quantity", "unit", "fast", "FEM", "difference", "FEM uncertainty")
     body = []
     for row in rows:
         diff = _pct(row["difference_rel"])
-        if row["key"] == "ring_phase_deg" and not math.isnan(row["difference"]):
-            diff += f" ({row['difference']:+.2f} deg)"
+        if row["key"] == "ring_phase_deg":
+            diff = "-" if math.isnan(row["difference"]) else f"{row['difference']:+.2f} deg"
         unc = row["uncertainty_rel"]
         body.append(
             (
@@ -233,10 +250,16 @@ def run_verify(design, refine: float = 1.0, far_factor: float = 1.0) -> dict:
     from optim.cli.summary import CAUTION
 
     text = (
-        f"design {design.name}\n" + format_table(rows, ref.run_time_s, fast_time) + "\n" + CAUTION
+        f"design {design.name}: both models at 20 degC (every resistivity at 20 degC, no thermal "
+        "coupling)\n" + format_table(rows, ref.run_time_s, fast_time) + "\n"
     )
+    if fast is not None:
+        text += cancellation_line(fast["pull_cancellation"]) + "\n"
+    text += CAUTION
     if fast_error:
         text = f"fast model: {fast_error}\n" + text
     out = to_json(rows, ref.run_time_s, fast_time, reference_result=ref, design_name=design.name)
     out["fast_error"] = fast_error
+    out["temperature_C"] = 20.0
+    out["pull_cancellation"] = None if fast is None else fast["pull_cancellation"]
     return {"text": text, "json": out, "rows": rows, "reference": ref}

@@ -5,9 +5,10 @@ Results are the fast model's fields (``models.result.Result``) flattened to scal
 their names (``pull_N``, ``ring_loss_W``, ``ring_temperature_C`` ...), dictionaries of numbers become
 ``<field>.<key>`` (``pull_by_source_N.ring``, ``margins.coil_temperature_C``). The study adds:
 
-* ``worst_pull_N``: the smallest pull over a gap range (``gap_min_mm`` .. ``gap_max_mm`` at
-  ``points`` evenly spaced gaps; the design's own evaluation is reused where a gap coincides with
-  its own), the pull a part is sure of wherever it sits in that range;
+* ``worst_pull_N``: the smallest pull a part feels over the job: at arrival at each pick gap of a
+  range (``gap_min_mm`` .. ``gap_max_mm`` at ``points`` evenly spaced gaps; the design's own
+  evaluation is reused where a gap coincides with its own) and at the end of its hold
+  (``pull_hold_N``, at the holding gap), the magnet's fixed parts at the design's steady state;
 * ``worst_lift_ratio``: ``worst_pull_N`` / target weight.
 
 ``pole_mass_kg`` and ``core_flux_fraction`` come from the model's result itself.
@@ -20,8 +21,8 @@ from dataclasses import dataclass
 
 import numpy as np
 
-from models.design import Design, with_value
-from models.evaluate import evaluate
+from models.design import Design
+from models.evaluate import evaluate_pick_gaps
 
 __all__ = ["Objective", "Constraint", "results_of", "flatten", "objective_values", "margins"]
 
@@ -83,20 +84,17 @@ def flatten(d: dict) -> dict[str, float]:
 def results_of(design: Design, gaps_mm=(), isothermal: bool = False):
     """Evaluate ``design`` and return (flat results, warnings, binding limit name or "").
 
-    With ``gaps_mm`` [mm] the same design is evaluated at each gap for ``worst_pull_N`` (the pole
-    model is cached, so each extra gap costs a circuit solve, not a new pole).
+    With ``gaps_mm`` [mm] the part's pull at arrival is also taken at each gap for
+    ``worst_pull_N``, with the magnet's parts at the design's own steady state (each extra gap
+    costs a circuit assembly and solve, no thermal solve; the pole model is cached).
     """
-    result = evaluate(design, isothermal=isothermal)
+    result, pulls = evaluate_pick_gaps(design, gaps_mm, isothermal=isothermal)
     flat = flatten(result.to_dict())
     flat.pop("run_time_s", None)
     if len(gaps_mm):
-        pulls = []
-        for g in gaps_mm:
-            if abs(g * 1e-3 - design.target.gap) <= 1e-12:
-                pulls.append(result.pull_N)
-            else:
-                pulls.append(evaluate(with_value(design, "target.gap_mm", g), isothermal).pull_N)
-        flat["worst_pull_N"] = float(np.min(pulls))
+        states = [*pulls, result.pull_hold_N]
+        finite = [p for p in states if math.isfinite(p)]
+        flat["worst_pull_N"] = float(np.min(finite)) if finite else -math.inf
         flat["worst_lift_ratio"] = flat["worst_pull_N"] / result.target_weight_N
     return flat, list(result.warnings), str(getattr(result, "binding_limit", "") or "")
 
