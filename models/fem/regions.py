@@ -12,33 +12,12 @@ import math
 from dataclasses import dataclass
 
 import numpy as np
-from scipy.constants import mu_0
 
 from models.errors import DesignError
 from models.fem.mesh import MeshOptions
+from models.materials import skin_depth
 
-__all__ = ["Region", "skin_depth", "design_regions", "region_edges", "paint"]
-
-
-def skin_depth(frequency: float, conductivity: float, relative_permeability: float = 1.0) -> float:
-    """Skin depth delta = sqrt(2 / (omega mu sigma)) [m] (inf for an insulator or at DC).
-
-    Parameters
-    ----------
-    frequency : float
-        Frequency [Hz].
-    conductivity : float
-        Conductivity sigma [S/m].
-    relative_permeability : float
-        Relative permeability mu_r [-].
-
-    Notes
-    -----
-    Plane-wave penetration depth of a good conductor, e.g. Jackson, Classical Electrodynamics, 3rd ed.,
-    eq. (5.165).
-    """
-    w = 2.0 * math.pi * frequency * mu_0 * relative_permeability * conductivity
-    return math.inf if w <= 0.0 else math.sqrt(2.0 / w)
+__all__ = ["Region", "design_regions", "region_edges", "paint"]
 
 
 @dataclass(frozen=True)
