@@ -17,7 +17,9 @@ from models.fast.discretize import Fineness, skin_depth
 from models.fast.filaments import loop_field, mutual
 from models.fast.pull import pull_by_source
 from models.materials import MATERIALS
-from models.thermal.network import build_network, hold_temperature, solve_coupled, time_to_limits
+from models.thermal.coupling import solve_coupled
+from models.thermal.limits import hold_temperature, time_to_limits
+from models.thermal.network import build_network
 
 __all__ = ["Result", "evaluate", "DEFAULT_FINENESS", "MODEL_VERSION"]
 
