@@ -24,7 +24,9 @@ from models.fast.flux import core_peak_flux_density, pole_flux_density
 from models.fast.pull import pull_by_source
 from models.materials import MATERIALS
 from models.result import MODEL_VERSION, Electrical, Result, Thermal
-from models.thermal.network import build_network, hold_temperature, solve_coupled
+from models.thermal.coupling import solve_coupled
+from models.thermal.limits import hold_temperature
+from models.thermal.network import build_network
 
 __all__ = ["DEFAULT_FINENESS", "MODEL_VERSION", "Result", "evaluate"]
 
@@ -120,7 +122,7 @@ def evaluate(
     isothermal : bool
         True: every part's resistivity at 20 degC (no electro-thermal coupling); the temperatures
         reported are then the network's response to the 20 degC losses. False (default): losses
-        and temperatures iterated to agree (models.thermal.network.solve_coupled), resistivities
+        and temperatures iterated to agree (models.thermal.coupling.solve_coupled), resistivities
         rho_20 (1 + alpha (T - 20 degC)). A design without [thermal] uses
         models.design.Thermal's defaults (25 degC ambient, natural convection, continuous duty).
     fineness : Fineness, optional

@@ -56,7 +56,7 @@ class Material:
     max_temperature_C : float or None
         Temperature past which the material stops being what the models assume [degC]: the
         solidus (start of melting) of a metal, the Curie temperature of a steel. The
-        electro-thermal coupling (models.thermal.network) calls a steady state above it a runaway.
+        electro-thermal coupling (models.thermal.coupling) calls a steady state above it a runaway.
     sources : dict
         Source of each value, by field name.
     """
