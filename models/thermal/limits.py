@@ -29,8 +29,28 @@ def lumped_temperature(t, initial_C, final_C, time_constant):
         return final_C + (initial_C - final_C) * np.exp(-np.asarray(t, dtype=float) / time_constant)
 
 
-def hold_temperature(state: ThermalState, hold_time: float):
-    """Temperature of a part held for ``hold_time`` [s], arriving at ambient temperature.
+def hold_temperature(
+    state: ThermalState,
+    hold_time: float,
+    initial_C: float | None = None,
+    initial_loss_W: float | None = None,
+):
+    """Temperature of a part held for ``hold_time`` [s], arriving at ``initial_C`` [degC]
+    (default: the ambient).
+
+    Parameters
+    ----------
+    state : ThermalState
+        The steady state (the part's loss P* at its steady temperature T*).
+    hold_time : float
+        [s].
+    initial_C : float, optional
+        The part's temperature as it arrives [degC]; None: the ambient.
+    initial_loss_W : float, optional
+        The part's on-state loss at ``initial_C`` [W], from the electrical model. Given, the
+        loss is taken linear between the arrival and the steady state (a chord exact at both
+        ends, which is where a held part's temperature lies); None: the tangent at the steady
+        state (the sensitivity of the coupled solve).
 
     Returns
     -------
@@ -42,27 +62,30 @@ def hold_temperature(state: ThermalState, hold_time: float):
     -----
     Lumped capacitance (Incropera eq. 5.6 with a source): C dT/dt = P(T) + sum G_j (T_j - T),
     the magnet on (on-state losses) and its other parts at their duty-averaged steady state,
-    conductances at the steady state, the part's own loss linear in its temperature about the
-    steady state, P(T) = P* (1 + s (T - T*)). Then T(t) = T_f + (T_0 - T_f) exp(-t / tau) with
+    conductances at the steady state, the part's own loss linear in its temperature,
+    P(T) = P* (1 + s (T - T*)). Then T(t) = T_f + (T_0 - T_f) exp(-t / tau) with
     tau = C / (G - P* s) and T_f = (P* (1 - s T*) + sum G_j T_j) / (G - P* s).
     """
     net = state.network
     if not np.all(np.isfinite(state.T)):
         return math.inf, math.inf, math.nan
+    ta = net.thermal.ambient_C
+    t0 = ta if initial_C is None else float(initial_C)
     i = net.index("target")
     T = state.T
     A, b = net.matrix(T)
     G = A[i, i]
     drive = b[i] - sum(A[i, j] * T[j] for j in range(len(T)) if j != i)
     P, s = state.losses_on[i], state.sensitivity[i]
+    if initial_loss_W is not None and P > 0 and abs(T[i] - t0) > 1e-6:
+        s = (P - initial_loss_W) / (P * (T[i] - t0))
     beta = G - P * s
     a = P * (1.0 - s * T[i]) + drive
     C = net.capacity[i]
-    ta = net.thermal.ambient_C
     if abs(beta) < 1e-15 * G:
-        return float(ta + a * hold_time / C), math.inf, math.inf
+        return float(t0 + a * hold_time / C), math.inf, math.inf
     t_final, tau = a / beta, C / beta
-    return float(lumped_temperature(hold_time, ta, t_final, tau)), float(t_final), float(tau)
+    return float(lumped_temperature(hold_time, t0, t_final, tau)), float(t_final), float(tau)
 
 
 def time_to_limits(state: ThermalState, limits: dict):
