@@ -8,8 +8,9 @@ import numpy as np
 
 from models.design import Design
 from models.fast.circuit import RING, TARGET, CircuitSolution
-from models.fast.discretize import Fineness, skin_depth
-from models.thermal.network import time_to_limits
+from models.fast.discretize import Fineness
+from models.materials import skin_depth
+from models.thermal.limits import time_to_limits
 
 __all__ = [
     "FLUX_WARNING_FRACTION",

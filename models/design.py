@@ -175,7 +175,7 @@ ORIENTATIONS = ("face-down", "face-up", "horizontal")
 
 @dataclass(frozen=True)
 class Thermal:
-    """Thermal surroundings and duty of a design (models.thermal.network). Temperatures [degC], times [s].
+    """Thermal surroundings and duty of a design (models.thermal). Temperatures [degC], times [s].
 
     ambient_C : air temperature; convection : heat-transfer coefficient of every outer surface
     [W/(m^2 K)] (None: natural convection, Churchill-Chu and horizontal-plate correlations);

@@ -30,7 +30,9 @@ from models.fast.flux import core_peak_flux_density, pole_flux_density
 from models.fast.pull import pull_by_source
 from models.materials import MATERIALS
 from models.result import MODEL_VERSION, Electrical, Result, Thermal
-from models.thermal.network import build_network, hold_temperature, solve_coupled
+from models.thermal.coupling import solve_coupled
+from models.thermal.limits import hold_temperature
+from models.thermal.network import build_network
 
 __all__ = [
     "DEFAULT_FINENESS",
@@ -135,7 +137,7 @@ def evaluate(
         True: every part's resistivity at 20 degC (no electro-thermal coupling); the temperatures
         reported are then the network's response to the 20 degC losses. False (default): losses
         and temperatures of the fixed parts (coil, ring, core, face) iterated to agree at their
-        duty-averaged steady state (models.thermal.network.solve_coupled), resistivities
+        duty-averaged steady state (models.thermal.coupling.solve_coupled), resistivities
         rho_20 (1 + alpha (T - 20 degC)). A design without [thermal] uses
         models.design.Thermal's defaults (25 degC ambient, natural convection, continuous duty).
     fineness : Fineness, optional
@@ -187,7 +189,7 @@ def evaluate_pick_gaps(
         else assemble_circuit(held_design, fineness, pole_model_for(held_design, fineness))
     )
     state = _steady_state(held_design, held_system, isothermal)
-    part = pick_state(design, state, isothermal)
+    part = pick_state(design, state, isothermal, held_system)
     arrival = solve_system(pick_system, part.arrival)
     hold = solve_system(held_system, part.hold) if part.hold is not None else None
     electrical = _electrical(design, arrival, hold)
@@ -267,30 +269,39 @@ class PickState:
     hold: dict | None
 
 
-def pick_state(design: Design, state, isothermal: bool) -> PickState:
+def pick_state(design: Design, state, isothermal: bool, held_system=None) -> PickState:
     """The moment of pick and the end of the hold: the fixed parts (coil, ring) at the steady
     state of ``state``, the part arriving at ``thermal.target_arrival_C`` (default the ambient)
     and warmed for ``thermal.hold_time_s`` from there; with ``thermal.target_stays``, the part
-    at its steady state in both."""
+    at its steady state in both. ``held_system`` (the circuit at the holding gap) gives the
+    part's loss as it arrives, which the warming follows (models.thermal.limits)."""
     th = design.thermal
     net = state.network
     T = state.T if np.all(np.isfinite(state.T)) else state.T_last  # a runaway: its last iterate
-    t_steady = float(T[net.index("target")])
-    if th.target_stays:
-        t_arrival = t_hold = state.temperature("target")
-        _, _, tau = hold_temperature(state, th.hold_time, initial_C=t_steady)
-    else:
-        t_arrival = th.ambient_C if th.target_arrival_C is None else th.target_arrival_C
-        t_hold, _, tau = hold_temperature(state, th.hold_time, initial_C=t_arrival)
-    if isothermal:
-        arrival = {"coil": 20.0, "ring": 20.0, "target": 20.0}
-        hold = dict(arrival) if math.isfinite(t_hold) else None
-    else:
+    fixed = {"coil": 20.0, "ring": 20.0}
+    if not isothermal:
         fixed = {"coil": float(T[net.index("coil")])}
         if "ring" in net.nodes:
             fixed["ring"] = float(T[net.index("ring")])
-        circuit_arrival = t_steady if th.target_stays else t_arrival
-        arrival = {**fixed, "target": circuit_arrival}
+    if th.target_stays:
+        t_arrival = t_hold = state.temperature("target")
+        circuit_target = float(T[net.index("target")])
+        _, _, tau = hold_temperature(state, th.hold_time, initial_C=circuit_target)
+    else:
+        t_arrival = th.ambient_C if th.target_arrival_C is None else th.target_arrival_C
+        circuit_target = t_arrival
+        loss_at_arrival = None
+        if held_system is not None and not isothermal:
+            at_arrival = solve_system(held_system, {**fixed, "target": t_arrival})
+            loss_at_arrival = _part_losses(at_arrival)["target"]
+        t_hold, _, tau = hold_temperature(
+            state, th.hold_time, initial_C=t_arrival, initial_loss_W=loss_at_arrival
+        )
+    if isothermal:
+        arrival = {**fixed, "target": 20.0}
+        hold = dict(arrival) if math.isfinite(t_hold) else None
+    else:
+        arrival = {**fixed, "target": circuit_target}
         hold = {**fixed, "target": t_hold} if math.isfinite(t_hold) else None
     return PickState(
         target_arrival_C=float(t_arrival),

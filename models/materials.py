@@ -7,9 +7,13 @@ value is recalled from a handbook rather than read from it here, the source says
 
 from __future__ import annotations
 
+import math
 from dataclasses import dataclass, field
 
+from scipy.constants import mu_0
+
 __all__ = [
+    "skin_depth",
     "Material",
     "MATERIALS",
     "get_material",
@@ -52,7 +56,7 @@ class Material:
     max_temperature_C : float or None
         Temperature past which the material stops being what the models assume [degC]: the
         solidus (start of melting) of a metal, the Curie temperature of a steel. The
-        electro-thermal coupling (models.thermal.network) calls a steady state above it a runaway.
+        electro-thermal coupling (models.thermal.coupling) calls a steady state above it a runaway.
     sources : dict
         Source of each value, by field name.
     """
@@ -251,3 +255,24 @@ def get_material(name: str, field_name: str = "material") -> Material:
             f"{field_name} = {name!r}: not in the material library; allowed: "
             f"{', '.join(MATERIALS)}{nearest(str(name), MATERIALS)}"
         ) from None
+
+
+def skin_depth(frequency: float, conductivity: float, relative_permeability: float = 1.0) -> float:
+    """Skin depth delta = sqrt(2 / (omega mu sigma)) [m] (inf for an insulator or at DC).
+
+    Parameters
+    ----------
+    frequency : float
+        Frequency [Hz].
+    conductivity : float
+        Conductivity sigma [S/m].
+    relative_permeability : float
+        Relative permeability mu_r [-].
+
+    Notes
+    -----
+    Plane-wave penetration depth of a good conductor, e.g. Jackson, Classical Electrodynamics, 3rd ed.,
+    eq. (5.165).
+    """
+    w = 2.0 * math.pi * frequency * mu_0 * relative_permeability * conductivity
+    return math.inf if w <= 0.0 else math.sqrt(2.0 / w)

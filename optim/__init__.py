@@ -1,9 +1,7 @@
-"""eddypull studies, reports and the command line (imports models/, never the other way)."""
+"""eddypull studies, reports and the command line (imports models/, never the other way).
 
-import os
+Importing ``models`` limits BLAS to one thread for the fast model's small solves
+(models/threads.py); optim imports it first so that the limit is set before numpy loads.
+"""
 
-# The fast model works on dense matrices of a few hundred rows: BLAS threads cost more than they
-# save there (measured 218 ms vs 35 ms per evaluate on a busy 2-core machine). Workers run one
-# evaluation per core instead. An explicit setting in the environment wins.
-for _var in ("OPENBLAS_NUM_THREADS", "OMP_NUM_THREADS", "MKL_NUM_THREADS"):
-    os.environ.setdefault(_var, "1")
+import models  # noqa: F401

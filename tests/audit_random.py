@@ -1,7 +1,7 @@
 """On-demand audit: seeded random designs inside the validated range, fast model vs one FEM solve.
 
 ``python -m tests.audit_random SEED COUNT`` prints one line per design: the pull, target-loss and
-ring-loss differences against ``models.fem.reference.solve`` and the pull's gross/net ratio (the sum of the
+ring-loss differences against ``models.fem.solve.solve`` and the pull's gross/net ratio (the sum of the
 split's magnitudes over the net pull; above ~5 the pull is a small difference of large terms and
 its relative error is amplified). Not part of the test run (minutes of FEM time).
 """
@@ -14,7 +14,7 @@ import numpy as np
 
 from models import design_from_dict, evaluate
 from models.errors import DesignError
-from models.fem.reference import solve
+from models.fem.solve import solve
 from tests.conftest import TEST_COIL
 
 

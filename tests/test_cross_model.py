@@ -40,7 +40,7 @@ def test_sign_of_pull_agrees_on_either_side_of_a_sign_change():
 
     from models import evaluate, load_design
     from models.design import with_value
-    from models.fem.reference import solve
+    from models.fem.solve import solve
     from tests.conftest import DEMO
 
     design = load_design(DEMO)
@@ -63,7 +63,7 @@ def test_solid_pole_refusal_matches_what_the_fem_measures():
     # poles; this test keeps the evidence for the refusal and the refusal itself.
     from models import design_from_dict, evaluate
     from models.errors import DesignError
-    from models.fem.reference import solve
+    from models.fem.solve import solve
     from tests.conftest import demo_dict
 
     d = demo_dict()

@@ -7,7 +7,8 @@ import pytest
 
 from models.design import load_design
 from models.fast.circuit import RING, TARGET, build_cells
-from models.fast.discretize import Fineness, graded_edges, skin_depth
+from models.fast.discretize import Fineness, graded_edges
+from models.materials import skin_depth
 from tests.conftest import DEMO
 
 

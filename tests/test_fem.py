@@ -1,4 +1,4 @@
-"""Proof of the reference FEM (models/fem/reference.py) against closed-form and integral solutions.
+"""Proof of the reference FEM (models/fem/) against closed-form and integral solutions.
 
 Every expected value is computed here from its published formula (source named beside it); every
 tolerance says why it is what it is. The FEM's own discretisation error at refine = 1 is a few 1e-5 on
@@ -18,7 +18,9 @@ from scipy.constants import mu_0
 
 from models.design import design_from_dict, load_design
 from models.errors import DesignError
-from models.fem.reference import Region, reference, solve, solve_regions
+from models.fem.reference import reference
+from models.fem.regions import Region
+from models.fem.solve import solve, solve_regions
 from optim.morning.verify import compare, format_table, to_json
 from tests.conftest import TEST_COIL
 

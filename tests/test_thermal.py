@@ -16,16 +16,11 @@ from models import evaluate
 from models.design import INSULATION_CLASSES, design_from_dict, with_value
 from models.errors import DesignError
 from models.materials import MATERIALS
-from models.thermal.network import (
-    air_properties,
-    build_network,
-    churchill_chu_vertical,
-    hold_temperature,
-    lumped_temperature,
-    natural_convection_coefficient,
-    solve_coupled,
-    time_to_limits,
-)
+from models.thermal.air import air_properties
+from models.thermal.convection import churchill_chu_vertical, natural_convection_coefficient
+from models.thermal.coupling import solve_coupled
+from models.thermal.limits import hold_temperature, lumped_temperature, time_to_limits
+from models.thermal.network import build_network
 from tests.conftest import demo_dict
 
 #: A demo machine on a realistic duty: 10 % on, emissive enamel and paint.

@@ -11,17 +11,10 @@ import math
 from dataclasses import dataclass
 
 import numpy as np
-from scipy.constants import mu_0
 
-__all__ = ["Cells", "skin_depth", "graded_edges", "conductor_cells", "coil_filaments", "Fineness"]
+from models.materials import skin_depth
 
-
-def skin_depth(frequency, conductivity, relative_permeability=1.0):
-    """Skin depth delta = sqrt(2 / (omega mu sigma)) [m] (e.g. Jackson, Classical Electrodynamics,
-    eq. 8.8). frequency [Hz], conductivity [S/m]."""
-    return math.sqrt(
-        2.0 / (2.0 * math.pi * frequency * mu_0 * relative_permeability * conductivity)
-    )
+__all__ = ["Cells", "graded_edges", "conductor_cells", "coil_filaments", "Fineness"]
 
 
 @dataclass(frozen=True)

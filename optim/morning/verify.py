@@ -62,7 +62,7 @@ def compare(fast: dict | None, fem_result, uncertainty: dict) -> list[dict]:
     fast : dict or None
         Fast-model result (SI; keys as in `QUANTITIES`, impedance [re, im] or complex); None when
         the fast model does not cover the design (solid pole): FEM-only rows, fast = nan.
-    fem_result : models.fem.reference.FemResult or dict
+    fem_result : models.fem.results.FemResult or dict
         Reference result (``FemResult`` or its ``to_dict()``).
     uncertainty : dict
         Relative FEM uncertainty [-] per flattened key (``ReferenceResult.uncertainty``); missing

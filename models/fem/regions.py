@@ -1,0 +1,157 @@
+"""Regions of the FEM reference: rectangular parts of the meridian (r, z) plane and their materials.
+
+A `Region` is one rectangle with a role, a permeability, a conductivity and (for a stranded coil) its
+turns; `design_regions` builds the regions of a `models.design.Design`. `region_edges` turns the parts
+into the edges (and the element size each edge wants) through which `models.fem.mesh` lays its grid, and
+`paint` gives each element of that grid the region that owns it.
+"""
+
+from __future__ import annotations
+
+import math
+from dataclasses import dataclass
+
+import numpy as np
+
+from models.errors import DesignError
+from models.fem.mesh import MeshOptions
+from models.materials import skin_depth
+
+__all__ = ["Region", "design_regions", "region_edges", "paint"]
+
+
+@dataclass(frozen=True)
+class Region:
+    """One rectangular part of the meridian plane r0 <= r <= r1, z0 <= z <= z1.
+
+    Parameters
+    ----------
+    role : str
+        Name under which results are gathered ('coil', 'ring', 'target', 'pole', 'air', or any other);
+        several regions may share a role.
+    r0, r1, z0, z1 : float
+        Extent [m]; ``r1`` may be ``math.inf`` and ``z0``/``z1`` may be -/+ ``math.inf`` to reach the far
+        boundary (a plate or half-space).
+    relative_permeability : float
+        mu_r [-] (>= 1 for the cases the checks cover; any positive value is solved).
+    conductivity : float
+        sigma [S/m]; a solid shorted conductor carries J = -j omega sigma A (no applied voltage).
+    turns : int
+        Turns of a stranded coil (> 0 only for role 'coil'); the coil carries the uniform density
+        J_s = turns I / window area and no eddy currents (sigma must be 0).
+
+    Regions are painted in order onto the mesh: a later region overrides an earlier one where they
+    overlap (a groove is the pole region followed by the ring region). Uncovered space is air.
+    """
+
+    role: str
+    r0: float
+    r1: float
+    z0: float
+    z1: float
+    relative_permeability: float = 1.0
+    conductivity: float = 0.0
+    turns: int = 0
+
+    def __post_init__(self):
+        problems = []
+        if not (0.0 <= self.r0 < self.r1):
+            problems.append(
+                f"region {self.role!r}: r0 = {self.r0!r}, r1 = {self.r1!r}: must satisfy 0 <= r0 < r1"
+            )
+        if not (self.z0 < self.z1) or math.isnan(self.z0) or math.isnan(self.z1):
+            problems.append(f"region {self.role!r}: z0 = {self.z0!r}: must be < z1 = {self.z1!r}")
+        if not (self.relative_permeability > 0.0 and math.isfinite(self.relative_permeability)):
+            problems.append(
+                f"region {self.role!r}: relative_permeability = {self.relative_permeability!r}: "
+                "must be a finite number > 0"
+            )
+        if not (self.conductivity >= 0.0 and math.isfinite(self.conductivity)):
+            problems.append(
+                f"region {self.role!r}: conductivity = {self.conductivity!r}: must be >= 0"
+            )
+        if self.turns < 0:
+            problems.append(f"region {self.role!r}: turns = {self.turns!r}: must be >= 0")
+        if self.turns > 0:
+            if self.conductivity != 0.0:
+                problems.append(
+                    f"region {self.role!r}: conductivity = {self.conductivity!r}: a stranded coil "
+                    "must have conductivity 0 (its winding resistance is given separately)"
+                )
+            if not all(math.isfinite(v) for v in (self.r1, self.z0, self.z1)):
+                problems.append(f"region {self.role!r}: a coil must be finite")
+        if problems:
+            raise DesignError(problems)
+
+    @property
+    def area(self) -> float:
+        """Cross-section in the meridian plane [m^2]."""
+        return (self.r1 - self.r0) * (self.z1 - self.z0)
+
+
+def design_regions(design) -> list[Region]:
+    """The regions of a design: pole, ring in its groove (painted over the pole), coil, target.
+
+    Parameters
+    ----------
+    design : models.design.Design
+        SI dataclasses (see models/design.py for the geometry).
+
+    Returns
+    -------
+    list of Region
+        Roles 'pole', 'ring' (if any), 'coil', 'target'. A laminated pole (conductivity 0) has
+        sigma = 0; a solid pole carries eddy currents.
+    """
+    p, c, g = design.pole, design.coil, design.target
+    regions = [
+        Region("pole", 0.0, p.radius, -p.length, 0.0, p.relative_permeability, p.conductivity),
+    ]
+    if design.ring is not None:
+        ring = design.ring
+        regions.append(
+            Region(
+                "ring",
+                ring.inner_radius,
+                ring.outer_radius,
+                -ring.depth,
+                0.0,
+                1.0,
+                ring.conductivity,
+            )
+        )
+    regions.append(
+        Region("coil", c.inner_radius, c.outer_radius, c.z_back, c.z_front, turns=c.turns)
+    )
+    regions.append(
+        Region("target", g.inner_radius, g.radius, g.gap, g.gap + g.thickness, 1.0, g.conductivity)
+    )
+    return regions
+
+
+def region_edges(regions, frequency: float, options: MeshOptions):
+    """Part edges on each axis with the element size each one wants: lists of (position [m], size [m])
+    for r (the axis and infinite edges left out) and for z (infinite edges left out)."""
+    edges_r, edges_z = [], []
+    for reg in regions:
+        delta = skin_depth(frequency, reg.conductivity, reg.relative_permeability)
+        dr, dz = reg.r1 - reg.r0, reg.z1 - reg.z0
+        hs = delta / options.per_skin_depth
+        for x in (reg.r0, reg.r1):
+            if math.isfinite(x) and x > 0.0:
+                edges_r.append((x, min(dr / options.n_min, hs)))
+        for x in (reg.z0, reg.z1):
+            if math.isfinite(x):
+                edges_z.append((x, min(dz / options.n_min, hs)))
+    if not edges_r or not edges_z:
+        raise DesignError("regions: at least one region needs finite edges in r and in z")
+    return edges_r, edges_z
+
+
+def paint(regions, mid_r, mid_z):
+    """Index of the region (or -1 for air) of each element, later regions winning."""
+    owner = np.full(mid_r.shape, -1, dtype=int)
+    for k, reg in enumerate(regions):
+        inside = (mid_r > reg.r0) & (mid_r < reg.r1) & (mid_z > reg.z0) & (mid_z < reg.z1)
+        owner[inside] = k
+    return owner
