@@ -159,91 +159,21 @@ def run_worker(cfg: dict, queue=None, stop=None, counter=None) -> int:
     event, ``queue`` receives one message per recorded trial.
     """
     import optuna
-    from optuna.trial import TrialState
-
-    from optim.study.spec import spec_from_json
-    from optim.study.storage import open_storage
 
     optuna.logging.set_verbosity(optuna.logging.WARNING)
-    spec = spec_from_json(cfg["spec"])
-    storage, _ = open_storage(cfg["location"], repair=False)
-    shared = optuna.load_study(study_name=spec.name, storage=storage)
-    result_names = shared.user_attrs[RESULT_NAMES_ATTR]
-    dists = {p.name: p.distribution() for p in spec.params}
-    worker_id = f"{socket.gethostname()}:{os.getpid()}:{uuid.uuid4().hex[:8]}"
-    seed = cfg.get("seed")
-    window = SamplerWindow(
-        spec.directions,
-        dists,
-        lambda k: make_sampler(spec, None if seed is None else seed + 7919 * k),
-        int(cfg.get("window_limit") or window_limit(int(spec.run.get("population", 40)))),
-    )
-    study_id = shared._study_id
-    # optuna's own wrapper of a database storage keeps finished trials and reads only new ones.
-    reader = shared._storage
-    seen = -1
-
-    def sync(first=False):
-        nonlocal seen
-        trials = reader.get_all_trials(study_id, deepcopy=False, states=(TrialState.COMPLETE,))
-        fresh = [t for t in trials if t.number > seen and record_of(t).get("worker") != worker_id]
-        if first:  # a resumed study: the most recent window of it
-            fresh = fresh[-window.limit :]
-        window.add(fresh)
-        if trials:
-            seen = max(seen, max(t.number for t in trials))
-
-    evaluator = evaluate_trial
-    if cfg.get("evaluator"):  # benchmarks swap the model for a stand-in ("module:function")
-        import importlib
-
-        module, _, func = cfg["evaluator"].partition(":")
-        evaluator = getattr(importlib.import_module(module), func)
-    sync(first=True)
+    worker = _Worker(cfg)
+    worker.sync(first=True)
     last_sync = time.monotonic()
     recorded = 0
     try:
-        while True:
-            if stop is not None and stop.is_set():
-                break
-            if cfg.get("deadline") is not None and time.time() >= cfg["deadline"]:
-                break
-            if counter is not None:
-                with counter.get_lock():
-                    if cfg.get("trials") is not None and counter.value >= cfg["trials"]:
-                        break
-                    counter.value += 1
-            if os.getppid() != cfg.get("parent_pid", os.getppid()):
-                break  # the run that started this worker is gone: stop with it
-            sync_s = cfg.get("sync_s") or sync_period(seen + 1)
+        while worker.may_start(stop, counter):
+            sync_s = cfg.get("sync_s") or sync_period(worker.seen + 1)
             if time.monotonic() - last_sync > sync_s:
-                sync()
+                worker.sync()
                 last_sync = time.monotonic()
-            private = window.study
-            trial = private.ask(dists)
-            params = dict(trial.params)
-            t0 = time.time()
-            outcome = evaluator(spec, params)
-            t1 = time.time()
-            frozen, (start, end) = _record(
-                spec, params, dists, outcome, worker_id, t0, t1, result_names
-            )
-            frozen.datetime_start, frozen.datetime_complete = start, end
-            try:
-                shared.add_trial(frozen)
-            except OSError as err:  # disk full, quota, lost mount: stop, say so, keep the rest
-                raise DesignError(
-                    f"storage write failed ({err.strerror or err}): every trial recorded before "
-                    "is kept; free space and run the same command again to resume"
-                ) from None
+            trial, outcome, eval_s = worker.evaluate_and_store()
             recorded += 1
-            for k, v in outcome["violations"].items():
-                trial.set_constraint(k, v)
-            if outcome["state"] == "COMPLETE":
-                private.tell(trial, outcome["values"])
-            else:
-                private.tell(trial, state=TrialState.FAIL)
-            window.maybe_roll()
+            worker.learn(trial, outcome)
             if queue is not None:
                 queue.put(
                     (
@@ -251,11 +181,121 @@ def run_worker(cfg: dict, queue=None, stop=None, counter=None) -> int:
                         outcome["state"],
                         outcome["state"] == "COMPLETE" and not outcome["reason"],
                         outcome["values"],
-                        t1 - t0,
+                        eval_s,
                     )
                 )
     except KeyboardInterrupt:
         pass
     if queue is None:
+        window = worker.window
         cfg["_window"] = {"rollovers": window.rollovers, "size": len(window.study.trials)}
     return recorded
+
+
+class _Worker:
+    """One worker's view of the study: the shared study it writes to, its private sampler window
+    and the number of the newest shared trial it has seen."""
+
+    def __init__(self, cfg: dict):
+        import optuna
+
+        from optim.study.spec import spec_from_json
+        from optim.study.storage import open_storage
+
+        self.cfg = cfg
+        spec = self.spec = spec_from_json(cfg["spec"])
+        storage, _ = open_storage(cfg["location"], repair=False)
+        self.shared = optuna.load_study(study_name=spec.name, storage=storage)
+        self.result_names = self.shared.user_attrs[RESULT_NAMES_ATTR]
+        self.dists = {p.name: p.distribution() for p in spec.params}
+        self.worker_id = f"{socket.gethostname()}:{os.getpid()}:{uuid.uuid4().hex[:8]}"
+        seed = cfg.get("seed")
+        self.window = SamplerWindow(
+            spec.directions,
+            self.dists,
+            lambda k: make_sampler(spec, None if seed is None else seed + 7919 * k),
+            int(cfg.get("window_limit") or window_limit(int(spec.run.get("population", 40)))),
+        )
+        self.study_id = self.shared._study_id
+        # optuna's own wrapper of a database storage keeps finished trials and reads only new ones.
+        self.reader = self.shared._storage
+        self.seen = -1
+        self.evaluator = _evaluator(cfg)
+
+    def sync(self, first: bool = False) -> None:
+        """Copy the trials other workers have finished since the last sync into the window."""
+        from optuna.trial import TrialState
+
+        trials = self.reader.get_all_trials(
+            self.study_id, deepcopy=False, states=(TrialState.COMPLETE,)
+        )
+        fresh = [
+            t
+            for t in trials
+            if t.number > self.seen and record_of(t).get("worker") != self.worker_id
+        ]
+        if first:  # a resumed study: the most recent window of it
+            fresh = fresh[-self.window.limit :]
+        self.window.add(fresh)
+        if trials:
+            self.seen = max(self.seen, max(t.number for t in trials))
+
+    def may_start(self, stop, counter) -> bool:
+        """Whether to start one more trial: not stopped, before the deadline, within this slot's
+        trial budget (counting the trial as started) and the run that started us still there."""
+        cfg = self.cfg
+        if stop is not None and stop.is_set():
+            return False
+        if cfg.get("deadline") is not None and time.time() >= cfg["deadline"]:
+            return False
+        if counter is not None:
+            with counter.get_lock():
+                if cfg.get("trials") is not None and counter.value >= cfg["trials"]:
+                    return False
+                counter.value += 1
+        # the run that started this worker is gone: stop with it
+        return os.getppid() == cfg.get("parent_pid", os.getppid())
+
+    def evaluate_and_store(self):
+        """Ask the window for a trial, evaluate it and write it to the shared study as one
+        complete record. Returns (private trial, outcome, evaluation time [s])."""
+        trial = self.window.study.ask(self.dists)
+        params = dict(trial.params)
+        t0 = time.time()
+        outcome = self.evaluator(self.spec, params)
+        t1 = time.time()
+        frozen, (start, end) = _record(
+            self.spec, params, self.dists, outcome, self.worker_id, t0, t1, self.result_names
+        )
+        frozen.datetime_start, frozen.datetime_complete = start, end
+        try:
+            self.shared.add_trial(frozen)
+        except OSError as err:  # disk full, quota, lost mount: stop, say so, keep the rest
+            raise DesignError(
+                f"storage write failed ({err.strerror or err}): every trial recorded before "
+                "is kept; free space and run the same command again to resume"
+            ) from None
+        return trial, outcome, t1 - t0
+
+    def learn(self, trial, outcome) -> None:
+        """Tell the private study the trial's outcome; roll the window over when it is full."""
+        from optuna.trial import TrialState
+
+        for k, v in outcome["violations"].items():
+            trial.set_constraint(k, v)
+        if outcome["state"] == "COMPLETE":
+            self.window.study.tell(trial, outcome["values"])
+        else:
+            self.window.study.tell(trial, state=TrialState.FAIL)
+        self.window.maybe_roll()
+
+
+def _evaluator(cfg: dict):
+    """The function that evaluates a trial: the model, or the stand-in benchmarks name in
+    ``cfg["evaluator"]`` ("module:function")."""
+    if not cfg.get("evaluator"):
+        return evaluate_trial
+    import importlib
+
+    module, _, func = cfg["evaluator"].partition(":")
+    return getattr(importlib.import_module(module), func)

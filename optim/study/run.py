@@ -99,7 +99,7 @@ class Progress:
 
 
 def prepare(spec, location):
-    """Open (repairing a torn journal) or create the study. Returns (study, description, note)."""
+    """Open (repairing a torn journal) or create the study. Returns (study, where it is stored)."""
     storage, where = open_storage(location)
     study = create_or_load(storage, spec)
     if RESULT_NAMES_ATTR not in study.user_attrs:
@@ -147,9 +147,6 @@ def run_study(
     base_seed = seed if seed is not None else spec.run.get("seed")
     if salt is None:  # parallel runs (same file, same seed) must not propose the same trials
         salt = zlib.crc32(f"{socket.gethostname()}:{os.getpid()}:{time.time_ns()}".encode())
-    ctx = mp.get_context("spawn")
-    stop = ctx.Event()
-    quotas = _split(trials, workers)
     cfg = {
         "spec": spec.to_json(),
         "location": str(location),
@@ -158,112 +155,9 @@ def run_study(
         "evaluator": evaluator,
         "parent_pid": os.getpid(),
     }
-    procs: dict[int, mp.Process] = {}
-    counters: dict[int, object] = {}
-    readers: dict[object, int] = {}
-    done = [0] * workers
-    errors: list[str] = []
-    reported_error = [False] * workers
-    restarts = 0
-
-    def start(index, generation):
-        c = dict(cfg, index=index, trials=quotas[index])
-        if base_seed is not None:
-            c["seed"] = (int(base_seed) + index + 1000 * generation + start_count + salt) % 2**31
-        counter = ctx.Value("q", done[index])  # this slot's trials so far: one lock per worker
-        counters[index] = counter  # kept alive until the child has attached to it
-        reader, writer = ctx.Pipe(duplex=False)  # one pipe per worker: a kill blocks no other
-        p = ctx.Process(target=_worker_entry, args=(c, writer, stop, counter))
-        old = signal.signal(signal.SIGINT, signal.SIG_IGN)  # inherited: Ctrl-C is the parent's
-        try:
-            p.start()
-        finally:
-            signal.signal(signal.SIGINT, old)
-        writer.close()
-        procs[index] = p
-        readers[reader] = index
-
-    def receive(reader, index):
-        try:
-            while reader.poll():
-                msg = reader.recv()
-                if msg[0] == "trial":
-                    done[index] += 1
-                    progress.add(msg[1], msg[2], msg[3])
-                elif msg[0] == "error":
-                    reported_error[index] = True
-                    if msg[1] not in errors:
-                        errors.append(msg[1])
-                        log.error(msg[1])
-                    stop.set()
-        except (EOFError, OSError):
-            readers.pop(reader, None)
-            reader.close()
-
-    interrupted = False
-    last_print = 0.0
-    previous = {sig: signal.getsignal(sig) for sig in (signal.SIGTERM, signal.SIGHUP)}
-    for sig in previous:  # a terminal closed or a `kill`: stop like Ctrl-C, workers included
-        signal.signal(sig, _interrupt)
-    try:
-        for i in range(workers):
-            start(i, 0)
-        while procs:
-            for reader in mp_connection.wait(list(readers), timeout=0.5):
-                receive(reader, readers[reader])
-            for index, p in list(procs.items()):
-                if p.is_alive():
-                    continue
-                p.join()
-                del procs[index]
-                for reader, slot in list(readers.items()):
-                    if slot == index:
-                        receive(reader, index)
-                        readers.pop(reader, None)
-                        reader.close()
-                code = p.exitcode
-                if code is not None and code > 0 and not reported_error[index]:
-                    errors.append(f"worker {index} ended with exit code {code}")
-                    log.error(errors[-1])
-                    stop.set()
-                if code is not None and code < 0 and not stop.is_set():
-                    budget_left = (deadline is None or time.time() < deadline) and (
-                        quotas[index] is None or done[index] < quotas[index]
-                    )
-                    why = (
-                        f"worker {index} was killed (signal {-code}); only the trial it was "
-                        "evaluating is lost"
-                    )
-                    log.warning(why)
-                    echo(why)
-                    if budget_left and restarts < MAX_RESTARTS:
-                        restarts += 1
-                        start(index, restarts)
-            now = time.time()
-            if tty and now - last_print > 1.0:
-                sys.stdout.write("\r" + progress.line()[:200].ljust(200))
-                sys.stdout.flush()
-                last_print = now
-            elif not tty and now - last_print > 30.0:
-                echo(progress.line())
-                log.info(progress.line())
-                last_print = now
-    except KeyboardInterrupt:
-        interrupted = True
-        stop.set()
-        signal.signal(signal.SIGINT, signal.SIG_IGN)  # a second Ctrl-C must not break the stop
-        for p in procs.values():
-            p.join(timeout=60)
-            if p.is_alive():
-                p.terminate()
-                p.join(timeout=5)
-        for reader, index in list(readers.items()):
-            receive(reader, index)
-    finally:
-        for sig, handler in previous.items():
-            signal.signal(sig, handler)
-        if interrupted:
-            signal.signal(signal.SIGINT, signal.default_int_handler)
+    pool = _WorkerPool(cfg, _split(trials, workers), progress, log, echo)
+    pool.base_seed, pool.seed_shift = base_seed, start_count + salt
+    interrupted = pool.run(tty)
     if tty:
         sys.stdout.write("\n")
     end = progress.line()
@@ -278,9 +172,162 @@ def run_study(
         "feasible_this_run": progress.feasible,
         "elapsed_s": time.time() - progress.t0,
         "interrupted": interrupted,
-        "restarts": restarts,
-        "errors": errors,
+        "restarts": pool.restarts,
+        "errors": pool.errors,
     }
+
+
+class _WorkerPool:
+    """The worker processes of one run on this machine.
+
+    Worker ``index`` owns budget slot ``index``: its share of the trial budget (``quotas``), its
+    count of trials started (a shared counter, one lock per worker) and its own pipe, on which it
+    sends one message per recorded trial and, if it fails, one error line. A worker killed by a
+    signal is restarted in the same slot (a new seed per generation) while the budget lasts; an
+    error or a non-zero exit stops every worker.
+    """
+
+    def __init__(self, cfg: dict, quotas: list, progress: Progress, log, echo):
+        self.cfg = cfg
+        self.quotas = quotas
+        self.progress = progress
+        self.log = log
+        self.echo = echo
+        #: a worker's seed: base seed + index + 1000 * generation + shift (trials so far + salt)
+        self.base_seed: int | None = None
+        self.seed_shift = 0
+        self.ctx = mp.get_context("spawn")
+        self.stop = self.ctx.Event()
+        self.procs: dict[int, mp.Process] = {}
+        self.counters: dict[int, object] = {}
+        self.readers: dict[object, int] = {}
+        self.done = [0] * len(quotas)
+        self.errors: list[str] = []
+        self.reported_error = [False] * len(quotas)
+        self.restarts = 0
+        self.last_print = 0.0
+
+    def start(self, index: int, generation: int) -> None:
+        """Start the worker of slot ``index`` (``generation``: how many restarts so far)."""
+        c = dict(self.cfg, index=index, trials=self.quotas[index])
+        if self.base_seed is not None:
+            c["seed"] = (int(self.base_seed) + index + 1000 * generation + self.seed_shift) % 2**31
+        counter = self.ctx.Value("q", self.done[index])  # this slot's trials so far
+        self.counters[index] = counter  # kept alive until the child has attached to it
+        reader, writer = self.ctx.Pipe(duplex=False)  # one pipe per worker: a kill blocks no other
+        p = self.ctx.Process(target=_worker_entry, args=(c, writer, self.stop, counter))
+        old = signal.signal(signal.SIGINT, signal.SIG_IGN)  # inherited: Ctrl-C is the parent's
+        try:
+            p.start()
+        finally:
+            signal.signal(signal.SIGINT, old)
+        writer.close()
+        self.procs[index] = p
+        self.readers[reader] = index
+
+    def receive(self, reader, index: int) -> None:
+        """Read every waiting message of worker ``index``; forget its pipe once it is closed."""
+        try:
+            while reader.poll():
+                msg = reader.recv()
+                if msg[0] == "trial":
+                    self.done[index] += 1
+                    self.progress.add(msg[1], msg[2], msg[3])
+                elif msg[0] == "error":
+                    self.reported_error[index] = True
+                    if msg[1] not in self.errors:
+                        self.errors.append(msg[1])
+                        self.log.error(msg[1])
+                    self.stop.set()
+        except (EOFError, OSError):
+            self.readers.pop(reader, None)
+            reader.close()
+
+    def run(self, tty: bool) -> bool:
+        """Start every worker and serve them until all have ended. Returns True if stopped by
+        Ctrl-C, SIGTERM or SIGHUP."""
+        interrupted = False
+        previous = {sig: signal.getsignal(sig) for sig in (signal.SIGTERM, signal.SIGHUP)}
+        for sig in previous:  # a terminal closed or a `kill`: stop like Ctrl-C, workers included
+            signal.signal(sig, _interrupt)
+        try:
+            for i in range(len(self.quotas)):
+                self.start(i, 0)
+            while self.procs:
+                for reader in mp_connection.wait(list(self.readers), timeout=0.5):
+                    self.receive(reader, self.readers[reader])
+                for index, p in list(self.procs.items()):
+                    if not p.is_alive():
+                        self._reap(index, p)
+                self._show_progress(tty)
+        except KeyboardInterrupt:
+            interrupted = True
+            self.shutdown()
+        finally:
+            for sig, handler in previous.items():
+                signal.signal(sig, handler)
+            if interrupted:
+                signal.signal(signal.SIGINT, signal.default_int_handler)
+        return interrupted
+
+    def _reap(self, index: int, p) -> None:
+        """A worker has ended: read its last messages, report how it ended, restart it if it was
+        killed and its slot has budget left."""
+        p.join()
+        del self.procs[index]
+        for reader, slot in list(self.readers.items()):
+            if slot == index:
+                self.receive(reader, index)
+                self.readers.pop(reader, None)
+                reader.close()
+        code = p.exitcode
+        if code is not None and code > 0 and not self.reported_error[index]:
+            self.errors.append(f"worker {index} ended with exit code {code}")
+            self.log.error(self.errors[-1])
+            self.stop.set()
+        if code is not None and code < 0 and not self.stop.is_set():
+            why = (
+                f"worker {index} was killed (signal {-code}); only the trial it was "
+                "evaluating is lost"
+            )
+            self.log.warning(why)
+            self.echo(why)
+            if self._budget_left(index) and self.restarts < MAX_RESTARTS:
+                self.restarts += 1
+                self.start(index, self.restarts)
+
+    def _budget_left(self, index: int) -> bool:
+        """True while the run's time and slot ``index``'s share of the trials are not spent."""
+        deadline = self.cfg["deadline"]
+        quota = self.quotas[index]
+        return (deadline is None or time.time() < deadline) and (
+            quota is None or self.done[index] < quota
+        )
+
+    def _show_progress(self, tty: bool) -> None:
+        """The progress line: rewritten in place each second on a terminal, else every 30 s."""
+        now = time.time()
+        if tty and now - self.last_print > 1.0:
+            sys.stdout.write("\r" + self.progress.line()[:200].ljust(200))
+            sys.stdout.flush()
+            self.last_print = now
+        elif not tty and now - self.last_print > 30.0:
+            self.echo(self.progress.line())
+            self.log.info(self.progress.line())
+            self.last_print = now
+
+    def shutdown(self) -> None:
+        """Stop on Ctrl-C: every worker finishes its trial (a minute at most, then it is
+        terminated) and its last messages are read."""
+        self.stop.set()
+        signal.signal(signal.SIGINT, signal.SIG_IGN)  # a second Ctrl-C must not break the stop
+        for p in self.procs.values():
+            p.join(timeout=60)
+            if p.is_alive():
+                p.terminate()
+                p.join(timeout=5)
+        for reader, index in list(self.readers.items()):
+            self.receive(reader, index)
 
 
 def _interrupt(signum, frame):

@@ -114,97 +114,112 @@ def parse_search(table, problems: list[str]) -> list[Parameter]:
     params, seen = [], {}
     for name, spec in table.items():
         where = f"search.{name}"
-        if name in FRACTIONS:
-            key, kind = None, "fraction"
-        else:
-            key = ALIASES.get(name, name)
-            if key not in keys:
-                problems.append(
-                    f"{where}: unknown parameter; allowed: {', '.join([*ALIASES, *FRACTIONS])} "
-                    f"or a numeric design key 'table.key'{nearest(name, valid_names)}"
-                )
-                continue
-            kind = keys[key]
+        key_kind = _key_and_kind(name, keys, valid_names, problems)
+        if key_kind is None:
+            continue
+        key, kind = key_kind
         target = key or name
         if target in seen:
             problems.append(f"{where}: sets {target} again (already set by search.{seen[target]})")
             continue
         seen[target] = name
-        if not isinstance(spec, dict):
-            problems.append(f"{where} = {spec!r}: must be a table {{ low = ..., high = ... }}")
-            continue
-        for extra in set(spec) - {"low", "high", "scale", "step"}:
-            problems.append(
-                f"{where}.{extra}: unknown key; allowed: low, high, scale, step"
-                f"{nearest(extra, ['low', 'high', 'scale', 'step'])}"
-            )
-        low = _number(f"{where}.low", spec.get("low"), problems)
-        high = _number(f"{where}.high", spec.get("high"), problems)
-        scale = spec.get("scale", "linear")
-        if scale not in ("linear", "log"):
-            problems.append(f"{where}.scale = {scale!r}: must be 'linear' or 'log'")
-        step = spec.get("step")
-        if step is not None:
-            step = _number(f"{where}.step", step, problems)
-            if step is not None and step <= 0:
-                problems.append(f"{where}.step = {step!r}: must be > 0")
-        if low is None or high is None:
-            continue
-        if low >= high:
-            problems.append(f"{where}: low = {low:g} must be < high = {high:g}")
-            continue
-        if kind == "fraction" and not (0.0 < low and high < 1.0):
-            problems.append(f"{where}: bounds {low:g}..{high:g} must lie strictly between 0 and 1")
-            continue
-        if kind in ("pos", "int") and low <= 0:
-            problems.append(f"{where}.low = {low:g}: must be > 0")
-            continue
-        if kind == "nonneg" and low < 0:
-            problems.append(f"{where}.low = {low:g}: must be >= 0")
-            continue
-        if kind == "frac" and not (0.0 < low and high <= 1.0):
-            problems.append(f"{where}: bounds {low:g}..{high:g} must lie in (0, 1]")
-            continue
-        if kind == "unit" and not (0.0 <= low and high <= 1.0):
-            problems.append(f"{where}: bounds {low:g}..{high:g} must lie in [0, 1]")
-            continue
-        limits = _limits(key)
-        if limits and not (limits[0] <= high <= limits[1] and (low == 0 or limits[0] <= low)):
-            problems.append(
-                f"{where}: bounds {low:g}..{high:g} must lie between {limits[0]:g} and "
-                f"{limits[1]:g} (the plausible range of {key})"
-            )
-            continue
-        if scale == "log" and low <= 0:
-            problems.append(f"{where}.low = {low:g}: must be > 0 with scale 'log'")
-            continue
-        if scale == "log" and step is not None:
-            problems.append(f"{where}: scale 'log' and step cannot be combined")
-            continue
-        integer = kind == "int"
-        if integer and (low != int(low) or high != int(high)):
-            problems.append(f"{where}: bounds {low:g}..{high:g} must be whole numbers")
-            continue
-        if step is not None and step > 0:
-            count = (high - low) / step
-            if step > high - low or abs(count - round(count)) > 1e-9 * max(count, 1.0):
-                problems.append(
-                    f"{where}.step = {step:g}: must divide high - low = {high - low:g} "
-                    "a whole number of times"
-                )
-                continue
-            if integer and step != int(step):
-                problems.append(f"{where}.step = {step:g}: must be a whole number (integer key)")
-                continue
-        elif step is not None:
-            continue  # step <= 0: reported above
-        params.append(Parameter(name, key, low, high, scale == "log", integer, step))
+        param = _parameter(name, spec, key, kind, problems)
+        if param is not None:
+            params.append(param)
     names = {p.name for p in params}
     if ("ring_outer_fraction" in names or "ring_inner_fraction" in names) and (
         {"ring.outer_radius_mm", "ring.inner_radius_mm"} & set(seen)
     ):
         problems.append("search: give the ring's radii either as fractions or in mm, not both")
     return params
+
+
+def _key_and_kind(name: str, keys: dict, valid_names: list, problems: list[str]):
+    """The design key a ``[search]`` name sets (None for a ring fraction) and its kind; None
+    (with the problem) for an unknown name."""
+    if name in FRACTIONS:
+        return None, "fraction"
+    key = ALIASES.get(name, name)
+    if key not in keys:
+        problems.append(
+            f"search.{name}: unknown parameter; allowed: {', '.join([*ALIASES, *FRACTIONS])} "
+            f"or a numeric design key 'table.key'{nearest(name, valid_names)}"
+        )
+        return None
+    return key, keys[key]
+
+
+def _parameter(name: str, spec, key: str | None, kind: str, problems: list[str]):
+    """One ``[search]`` entry ``{ low, high, scale, step }`` -> a Parameter, or None (with its
+    problems) if it is not a valid range of ``key``."""
+    where = f"search.{name}"
+    if not isinstance(spec, dict):
+        problems.append(f"{where} = {spec!r}: must be a table {{ low = ..., high = ... }}")
+        return None
+    for extra in set(spec) - {"low", "high", "scale", "step"}:
+        problems.append(
+            f"{where}.{extra}: unknown key; allowed: low, high, scale, step"
+            f"{nearest(extra, ['low', 'high', 'scale', 'step'])}"
+        )
+    low = _number(f"{where}.low", spec.get("low"), problems)
+    high = _number(f"{where}.high", spec.get("high"), problems)
+    scale = spec.get("scale", "linear")
+    if scale not in ("linear", "log"):
+        problems.append(f"{where}.scale = {scale!r}: must be 'linear' or 'log'")
+    step = spec.get("step")
+    if step is not None:
+        step = _number(f"{where}.step", step, problems)
+        if step is not None and step <= 0:
+            problems.append(f"{where}.step = {step!r}: must be > 0")
+    if low is None or high is None:
+        return None
+    problem = _range_problem(where, key, kind, low, high, scale, step)
+    if problem is not None:
+        problems.append(problem)
+        return None
+    if step is not None and step <= 0:
+        return None  # reported above
+    return Parameter(name, key, low, high, scale == "log", kind == "int", step)
+
+
+def _range_problem(where, key, kind, low, high, scale, step) -> str | None:
+    """What is wrong with the range low..high (scale, step) of a ``kind`` key, first problem
+    only; None if it is a valid range."""
+    if low >= high:
+        return f"{where}: low = {low:g} must be < high = {high:g}"
+    if kind == "fraction" and not (0.0 < low and high < 1.0):
+        return f"{where}: bounds {low:g}..{high:g} must lie strictly between 0 and 1"
+    if kind in ("pos", "int") and low <= 0:
+        return f"{where}.low = {low:g}: must be > 0"
+    if kind == "nonneg" and low < 0:
+        return f"{where}.low = {low:g}: must be >= 0"
+    if kind == "frac" and not (0.0 < low and high <= 1.0):
+        return f"{where}: bounds {low:g}..{high:g} must lie in (0, 1]"
+    if kind == "unit" and not (0.0 <= low and high <= 1.0):
+        return f"{where}: bounds {low:g}..{high:g} must lie in [0, 1]"
+    limits = _limits(key)
+    if limits and not (limits[0] <= high <= limits[1] and (low == 0 or limits[0] <= low)):
+        return (
+            f"{where}: bounds {low:g}..{high:g} must lie between {limits[0]:g} and "
+            f"{limits[1]:g} (the plausible range of {key})"
+        )
+    if scale == "log" and low <= 0:
+        return f"{where}.low = {low:g}: must be > 0 with scale 'log'"
+    if scale == "log" and step is not None:
+        return f"{where}: scale 'log' and step cannot be combined"
+    integer = kind == "int"
+    if integer and (low != int(low) or high != int(high)):
+        return f"{where}: bounds {low:g}..{high:g} must be whole numbers"
+    if step is not None and step > 0:
+        count = (high - low) / step
+        if step > high - low or abs(count - round(count)) > 1e-9 * max(count, 1.0):
+            return (
+                f"{where}.step = {step:g}: must divide high - low = {high - low:g} "
+                "a whole number of times"
+            )
+        if integer and step != int(step):
+            return f"{where}.step = {step:g}: must be a whole number (integer key)"
+    return None
 
 
 def design_source(base: dict, params: list[Parameter], values: dict) -> dict:

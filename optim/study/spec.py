@@ -294,6 +294,40 @@ def spec_from_dict(data: dict, folder: Path | None = None, name: str = "study") 
     folder = Path(folder or ".")
     if not isinstance(data, dict):
         raise DesignError(f"study = {data!r}: must be a table of tables")
+    study_name = _top_level(data, name, problems)
+    base = _base_design(data, folder, problems)
+    params = parse_search(data.get("search"), problems)
+    objectives, robust = _objectives(data.get("objectives"), problems)
+    if isinstance(data.get("robust"), dict):
+        robust = {**data["robust"], **robust}
+    elif "robust" in data:
+        problems.append(f"robust = {data['robust']!r}: must be a table")
+    constraints = _constraints(data.get("constraints"), problems)
+    run = _run_table(data, problems)
+    if problems:
+        raise DesignError(problems)
+
+    names = {o.name for o in objectives} | {c.name for c in constraints}
+    gaps = _robust_gaps(robust, problems) if (names & set(_WORST) or robust) else ()
+    if problems:
+        raise DesignError(problems)
+    known = _model_results(base, params, objectives, constraints, gaps, run, str(study_name))
+    return StudySpec(
+        name=str(study_name),
+        base=base,
+        params=params,
+        objectives=objectives,
+        constraints=constraints,
+        gaps_mm=gaps,
+        run=dict(run),
+        description=str(data.get("description", "")),
+        folder=folder,
+        result_names=tuple(known),
+    )
+
+
+def _top_level(data: dict, name: str, problems: list[str]):
+    """Check the study file's top-level keys, description and name; return the study's name."""
     for key in data:
         if key not in _TOP and key not in DESIGN_KEYS:
             allowed = [*sorted(_TOP), *DESIGN_KEYS]
@@ -308,14 +342,11 @@ def spec_from_dict(data: dict, folder: Path | None = None, name: str = "study") 
         safe_name(study_name, "name")
     except DesignError as err:
         problems.extend(err.problems)
-    base = _base_design(data, folder, problems)
-    params = parse_search(data.get("search"), problems)
-    objectives, robust = _objectives(data.get("objectives"), problems)
-    if isinstance(data.get("robust"), dict):
-        robust = {**data["robust"], **robust}
-    elif "robust" in data:
-        problems.append(f"robust = {data['robust']!r}: must be a table")
-    constraints = _constraints(data.get("constraints"), problems)
+    return study_name
+
+
+def _run_table(data: dict, problems: list[str]) -> dict:
+    """The ``[run]`` table, each key checked against ``_RUN_KEYS`` and ``RUN_MAX``."""
     run = data.get("run", {})
     if not isinstance(run, dict):
         problems.append(f"run = {run!r}: must be a table")
@@ -332,23 +363,24 @@ def spec_from_dict(data: dict, folder: Path | None = None, name: str = "study") 
         problems.append("run.population = 1: must be >= 2 (NSGA-II breeds pairs)")
     if isinstance(run.get("sampler"), str) and run["sampler"] not in SAMPLERS:
         problems.append(f"run.sampler = {run['sampler']!r}: must be one of {', '.join(SAMPLERS)}")
-    if problems:
-        raise DesignError(problems)
+    return run
 
-    names = {o.name for o in objectives} | {c.name for c in constraints}
-    gaps = _robust_gaps(robust, problems) if (names & set(_WORST) or robust) else ()
-    if problems:
-        raise DesignError(problems)
+
+def _model_results(base, params, objectives, constraints, gaps, run, study_name) -> list[str]:
+    """Check the study against the model: the base design and the middle of the search space
+    must be buildable, every objective and constraint must be a result of the model. Returns the
+    sorted names of the model's flat results; raises DesignError otherwise."""
     # The base design must itself be a valid design, and every trial is built from it.
     from optim.study.space import design_source
 
+    problems: list[str] = []
     mid = {p.name: _mid(p) for p in params}
     try:
-        base_design = design_from_dict(base, name=str(study_name))
+        base_design = design_from_dict(base, name=study_name)
     except DesignError as err:
         raise DesignError([f"base design: {line}" for line in err.problems]) from None
     try:  # a search whose middle cannot be built would spend its night on failed trials
-        design_from_dict(design_source(base, params, mid), name=str(study_name))
+        design_from_dict(design_source(base, params, mid), name=study_name)
     except DesignError as err:
         raise DesignError(
             "search: the design at the middle of the search space cannot be built ("
@@ -368,18 +400,7 @@ def spec_from_dict(data: dict, folder: Path | None = None, name: str = "study") 
         problems.append("objectives: each result may appear once")
     if problems:
         raise DesignError(problems)
-    return StudySpec(
-        name=str(study_name),
-        base=base,
-        params=params,
-        objectives=objectives,
-        constraints=constraints,
-        gaps_mm=gaps,
-        run=dict(run),
-        description=str(data.get("description", "")),
-        folder=folder,
-        result_names=tuple(known),
-    )
+    return known
 
 
 def _mid(p: Parameter):
