@@ -126,10 +126,14 @@ class StudySpec:
 
     def fingerprint(self) -> str:
         """Hash of what defines the study's trials (base design, search, objectives, robust
-        range, constraints, isothermal): a resumed study must match it."""
+        range, constraints, isothermal, the fast model's version): a resumed study must match
+        it."""
+        from models.result import MODEL_VERSION
+
         d = self.to_json()
         key = {k: d[k] for k in ("base", "search", "objectives", "robust", "constraints")}
         key["isothermal"] = bool(self.run.get("isothermal", False))
+        key["model"] = MODEL_VERSION
         key["objectives"] = [[o.name, o.direction] for o in self.objectives]  # order matters
         text = json.dumps(key, sort_keys=True, separators=(",", ":"))
         return hashlib.sha256(text.encode()).hexdigest()[:16]

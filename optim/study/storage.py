@@ -22,12 +22,14 @@ import uuid
 from pathlib import Path
 
 from models.errors import DesignError
+from models.result import MODEL_VERSION
 from optim.files import redact_text, redact_url, safe_child
 
 __all__ = [
     "JOURNAL",
     "SPEC_ATTR",
     "FINGERPRINT_ATTR",
+    "MODEL_ATTR",
     "is_url",
     "open_storage",
     "repair_journal",
@@ -39,6 +41,10 @@ __all__ = [
 JOURNAL = "journal.log"
 SPEC_ATTR = "eddypull_spec"
 FINGERPRINT_ATTR = "eddypull_fingerprint"
+#: The fast model's version a study was recorded with (models.result.MODEL_VERSION); a study
+#: from before it was recorded is of the first version.
+MODEL_ATTR = "eddypull_model"
+FIRST_MODEL_VERSION = "multiloop-1"
 
 # optuna logs every trial at INFO; the study engine reports progress itself.
 logging.getLogger("optuna").setLevel(logging.WARNING)
@@ -195,6 +201,13 @@ def create_or_load(storage, spec):
     )
     attrs = study.user_attrs
     fp = spec.fingerprint()
+    recorded = attrs.get(MODEL_ATTR, FIRST_MODEL_VERSION)
+    if FINGERPRINT_ATTR in attrs and recorded != MODEL_VERSION:
+        raise DesignError(
+            f"name = {spec.name!r}: this study was recorded with model {recorded} and this "
+            f"eddypull evaluates with {MODEL_VERSION}, whose results mean different things; "
+            "they are not mixed: give the study a new name (or a new folder)"
+        )
     if FINGERPRINT_ATTR in attrs and attrs[FINGERPRINT_ATTR] != fp:
         raise DesignError(
             f"name = {spec.name!r}: a study of that name already exists in this storage with a "
@@ -207,6 +220,7 @@ def create_or_load(storage, spec):
     if FINGERPRINT_ATTR not in attrs:
         study.set_user_attr(SPEC_ATTR, spec.to_json())
         study.set_user_attr(FINGERPRINT_ATTR, fp)
+        study.set_user_attr(MODEL_ATTR, MODEL_VERSION)
     return study
 
 
