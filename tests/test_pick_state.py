@@ -252,3 +252,58 @@ def test_a_lift_study_front_lifts_a_part_arriving_at_ambient(tmp_path):
             assert r.target_arrival_temperature_C == pytest.approx(30.0)
             assert r.lift_ratio >= 1.0 - 1e-9, (row["trial"], gap, r.lift_ratio)
         assert evaluate(pinned).lift_ratio_hold >= 1.0 - 1e-9
+
+
+def test_a_study_recorded_with_another_model_version_is_refused_on_resume(tmp_path, capsys):
+    from optim.study.storage import MODEL_ATTR, load_existing, release
+    from tests.conftest import DEMO
+
+    path = tmp_path / "old.toml"
+    body = LIFT_STUDY.replace('sampler = "nsga2"', 'sampler = "random"')
+    path.write_text(f'name = "old"\ndesign = "{DEMO.as_posix()}"\n{body}', encoding="utf-8")
+    out = str(tmp_path / "old")
+    assert main(["study", "run", str(path), "--trials", "1", "--out", out]) == 0
+    capsys.readouterr()
+    study, _, _ = load_existing(out)
+    study.set_user_attr(MODEL_ATTR, "multiloop-1")  # as a study from before the change reads
+    release(study)
+    assert main(["study", "run", str(path), "--trials", "1", "--out", out]) == 2
+    err = capsys.readouterr().err.strip().splitlines()
+    assert len(err) == 1 and "recorded with model multiloop-1" in err[0], err
+    assert "Traceback" not in "\n".join(err)
+
+
+def test_held_part_warming_against_integration_of_its_own_loss_law():
+    # A part whose loss follows its resistivity, P(T) = P_a rho(T_a) / rho(T) (a thin part in a
+    # given field, resistance-limited), integrated numerically (scipy's solve_ivp) with its
+    # neighbours at their steady state: the chord between arrival and steady state follows it
+    # closely; the tangent at the steady state does not.
+    from scipy.integrate import solve_ivp
+
+    from models.evaluate import _steady_state
+    from models.thermal.limits import hold_temperature
+
+    design = _design(WASHER)
+    system = assemble_circuit(design, DEFAULT_FINENESS)
+    state = _steady_state(design, system, isothermal=False)
+    net = state.network
+    i = net.index("target")
+    alpha = MATERIALS["copper"].temperature_coefficient
+    t_star, p_star = state.T[i], state.losses_on[i]
+
+    def loss(t):
+        return p_star * (1 + alpha * (t_star - 20)) / (1 + alpha * (t - 20))
+
+    A, b = net.matrix(state.T)
+    others = b[i] - sum(A[i, j] * state.T[j] for j in range(len(state.T)) if j != i)
+    t0, hold = 25.0, 10.0
+
+    def rhs(t, y):
+        return (loss(y) + others - A[i, i] * y) / net.capacity[i]
+
+    exact = solve_ivp(rhs, (0, hold), [t0], rtol=1e-10, atol=1e-10).y[0, -1]
+    chord, _, _ = hold_temperature(state, hold, initial_C=t0, initial_loss_W=float(loss(t0)))
+    tangent, _, _ = hold_temperature(state, hold, initial_C=t0)
+    rise = exact - t0
+    assert abs(chord - exact) < 0.05 * rise
+    assert abs(chord - exact) < abs(tangent - exact)

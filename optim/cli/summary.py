@@ -62,8 +62,7 @@ def assumptions_text(a: dict) -> str:
     duty = (
         "continuous duty"
         if a["duty_cycle"] == 1.0
-        else f"duty {a['duty_cycle']:g}"
-        + (f" of {a['period_s']:g} s" if a.get("period_s") else "")
+        else f"duty {a['duty_cycle']:g}" + (f" of {a['period_s']:g} s" if a.get("period_s") else "")
     )
     items = [
         ("ambient_C", f"ambient {a['ambient_C']:g} degC"),

@@ -4,8 +4,10 @@ The folder is what a mechanical engineer receives in the morning:
 
 * ``design.toml`` - the design file itself (mm, Hz, A rms), written so that ``eddypull evaluate``
   reproduces the predicted numbers exactly (floats are written with ``repr``, which round-trips);
-* ``handoff.json`` - every dimension in mm, materials, drive, predicted results, limits and
-  margins, tool and model version, study, trial and time;
+* ``handoff.json`` - every dimension in mm, materials, drive, predicted results (the pull at the
+  moment of pick and at the end of the hold), the thermal assumptions behind them, limits (and
+  where each temperature limit comes from) and margins, tool and model version, study, trial and
+  time;
 * ``parameters.csv`` - ``name,value,unit,description`` rows a parametric CAD model can read;
 * ``profile.dxf`` - the half cross-section in mm, one layer per part (`optim.morning.dxf`);
 * ``verify.txt`` - the fast model beside the FEM reference, when a verification was run.
@@ -253,6 +255,12 @@ def handoff_dict(design, result, meta: dict, verify: dict | None = None) -> dict
             if key in predicted:
                 limits[key] = predicted[key]
         limits.update({k: v for k, v in predicted.items() if k.endswith("_limit_C")})
+        assumed = predicted.get("thermal_assumptions") or {}
+        limits["temperature_limits_used"] = {
+            part: {"limit_C": assumed[f"{part}_limit_C"], "source": assumed[f"{part}_limit_source"]}
+            for part in ("coil", "ring", "target")
+            if f"{part}_limit_C" in assumed
+        }
     for key in ("constraint_margins", "constraints", "margins"):
         if key in study:
             limits[f"study_{key}"] = study[key]
@@ -279,6 +287,7 @@ def handoff_dict(design, result, meta: dict, verify: dict | None = None) -> dict
         },
         "predicted": predicted,
         "predicted_by": _command(study),
+        "thermal_assumptions": None if predicted is None else predicted.get("thermal_assumptions"),
         "limits": limits,
     }
     if verify is not None:
