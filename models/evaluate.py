@@ -29,7 +29,7 @@ from models.fast.discretize import Fineness
 from models.fast.flux import core_peak_flux_density, pole_flux_density
 from models.fast.pull import pull_by_source
 from models.materials import MATERIALS
-from models.result import MODEL_VERSION, Electrical, Result, Thermal
+from models.result import MODEL_VERSION, Electrical, Result, Thermal, ring_phase
 from models.thermal.coupling import solve_coupled
 from models.thermal.limits import hold_temperature
 from models.thermal.network import build_network
@@ -310,19 +310,6 @@ def pick_state(design: Design, state, isothermal: bool, held_system=None) -> Pic
         arrival=arrival,
         hold=hold,
     )
-
-
-#: ``ring_phase_deg`` lies in [RING_PHASE_FROM_DEG, RING_PHASE_FROM_DEG + 360): a ring's current
-#: lags the coil's by 90 to 180 degrees alone (Lenz's law: -j omega M / (R + j omega L)) and by a
-#: little more beside iron and a part, so the range starts at -270 to keep that lag unwrapped.
-RING_PHASE_FROM_DEG = -270.0
-
-
-def ring_phase(ring_current: complex, coil_current: complex) -> float:
-    """Phase of the ring's current relative to the coil's [deg], in the range of
-    RING_PHASE_FROM_DEG (continuous through -180)."""
-    angle = math.degrees(np.angle(ring_current / coil_current))
-    return (angle - RING_PHASE_FROM_DEG) % 360.0 + RING_PHASE_FROM_DEG
 
 
 def _electrical(design: Design, sol: CircuitSolution, hold: CircuitSolution | None) -> Electrical:

@@ -7,14 +7,37 @@ as a flat attribute too (``result.pull_N`` is ``result.electrical.pull_N``).
 
 from __future__ import annotations
 
+import math
 from dataclasses import dataclass, field
 
-__all__ = ["Electrical", "MODEL_VERSION", "Result", "Thermal"]
+import numpy as np
+
+__all__ = [
+    "Electrical",
+    "MODEL_VERSION",
+    "RING_PHASE_FROM_DEG",
+    "Result",
+    "Thermal",
+    "ring_phase",
+]
 
 #: The fast model's version: results of different versions mean different things and are never
 #: mixed in one study. 2: pull at the part's arrival and end-of-hold states (was: at its steady
 #: state), ring phase in [-270, 90).
 MODEL_VERSION = "multiloop-2"
+
+
+#: ``ring_phase_deg`` lies in [RING_PHASE_FROM_DEG, RING_PHASE_FROM_DEG + 360): a ring's current
+#: lags the coil's by 90 to 180 degrees alone (Lenz's law: -j omega M / (R + j omega L)) and by a
+#: little more beside iron and a part, so the range starts at -270 to keep that lag unwrapped.
+RING_PHASE_FROM_DEG = -270.0
+
+
+def ring_phase(ring_current: complex, coil_current: complex) -> float:
+    """Phase of the ring's current relative to the coil's [deg], in the range of
+    RING_PHASE_FROM_DEG (continuous through -180)."""
+    angle = math.degrees(np.angle(ring_current / coil_current))
+    return (angle - RING_PHASE_FROM_DEG) % 360.0 + RING_PHASE_FROM_DEG
 
 
 @dataclass(frozen=True)

@@ -131,7 +131,7 @@ class FemResult:
     ring_current_A : complex
         Total ring current int J dA [A rms] (0 without a ring).
     ring_phase_deg : float
-        arg(I_ring / I_coil) [deg] in (-180, 180] (nan without a ring).
+        arg(I_ring / I_coil) [deg] in [-270, 90) (models.result.ring_phase; nan without a ring).
     pole_flux_density_T : float
         Peak in time of the section-averaged axial flux density of the pole, max over the pole's
         length, 2 |A(R_p, z)| sqrt(2) / R_p [T] (saturation check; the local peak at the groove's

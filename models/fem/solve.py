@@ -28,6 +28,7 @@ from models.errors import DesignError
 from models.fem.mesh import MeshOptions, grid_nodes
 from models.fem.regions import design_regions, paint, region_edges
 from models.fem.results import FemResult, FieldSolution
+from models.result import ring_phase
 
 __all__ = ["solve_regions", "solve"]
 
@@ -329,7 +330,7 @@ def solve(design, refine: float = 1.0, far_factor: float = 1.0, options: MeshOpt
     )
     i_coil = sol.current
     i_ring = sol.region_current_A.get("ring", 0.0j)
-    phase = math.degrees(np.angle(i_ring / i_coil)) if design.ring is not None else math.nan
+    phase = ring_phase(i_ring, i_coil) if design.ring is not None else math.nan
     pole = design.pole
     p, a_vertex = sol.vertex_potential()
     on_side = (

@@ -54,7 +54,9 @@ def _scalars(d) -> dict:
     return out
 
 
-def compare(fast: dict | None, fem_result, uncertainty: dict) -> list[dict]:
+def compare(
+    fast: dict | None, fem_result, uncertainty: dict, uncertainty_abs: dict | None = None
+) -> list[dict]:
     """Rows of the fast model against the FEM, one per quantity present in both.
 
     Parameters
@@ -67,6 +69,9 @@ def compare(fast: dict | None, fem_result, uncertainty: dict) -> list[dict]:
     uncertainty : dict
         Relative FEM uncertainty [-] per flattened key (``ReferenceResult.uncertainty``); missing
         keys give nan.
+    uncertainty_abs : dict, optional
+        The same in each quantity's unit (``ReferenceResult.uncertainty_abs``): the phase's
+        uncertainty is read from it, in degrees.
 
     Returns
     -------
@@ -94,6 +99,11 @@ def compare(fast: dict | None, fem_result, uncertainty: dict) -> list[dict]:
         else:
             rel = 0.0 if diff == 0.0 else math.nan
         unc = float(uncertainty.get(key, math.nan))
+        within = bool(abs(rel) <= unc) if not math.isnan(rel + unc) else False
+        if key == "ring_phase_deg":  # in degrees: a relative uncertainty of a phase means nothing
+            unc = math.nan
+            unc_deg = float((uncertainty_abs or {}).get(key, math.nan))
+            within = bool(abs(diff) <= unc_deg) if not math.isnan(diff + unc_deg) else False
         rows.append(
             {
                 "key": key,
@@ -104,9 +114,11 @@ def compare(fast: dict | None, fem_result, uncertainty: dict) -> list[dict]:
                 "difference": diff,
                 "difference_rel": rel,
                 "uncertainty_rel": unc,
-                "within_uncertainty": bool(abs(rel) <= unc) if not math.isnan(rel + unc) else False,
+                "within_uncertainty": within,
             }
         )
+        if key == "ring_phase_deg":
+            rows[-1]["uncertainty_deg"] = unc_deg
     return rows
 
 
@@ -146,6 +158,10 @@ def format_table(rows: list[dict], fem_time_s: float, fast_time_s: float) -> str
         if row["key"] == "ring_phase_deg":
             diff = "-" if math.isnan(row["difference"]) else f"{row['difference']:+.2f} deg"
         unc = row["uncertainty_rel"]
+        unc_text = "-" if math.isnan(unc) else f"{100.0 * unc:.2g} %"
+        if row["key"] == "ring_phase_deg":
+            unc_deg = row.get("uncertainty_deg", math.nan)
+            unc_text = "-" if math.isnan(unc_deg) else f"{unc_deg:.2g} deg"
         body.append(
             (
                 row["label"],
@@ -153,7 +169,7 @@ def format_table(rows: list[dict], fem_time_s: float, fast_time_s: float) -> str
                 _num(row["fast"]),
                 _num(row["fem"]),
                 diff,
-                "-" if math.isnan(unc) else f"{100.0 * unc:.2g} %",
+                unc_text,
             )
         )
     widths = [max(len(str(line[i])) for line in [header, *body]) for i in range(len(header))]
@@ -246,7 +262,7 @@ def run_verify(design, refine: float = 1.0, far_factor: float = 1.0) -> dict:
     except DesignError as err:
         fast_error = str(err)
     ref = reference(design, refine=refine, far_factor=far_factor)
-    rows = compare(fast, ref.result, ref.uncertainty)
+    rows = compare(fast, ref.result, ref.uncertainty, ref.uncertainty_abs)
     from optim.cli.summary import CAUTION
 
     text = (
