@@ -366,7 +366,7 @@ def _check_value(where: str, value, kind: str, problems: list[str]):
             return value
     elif kind == "class":
         if isinstance(value, (str, int, float)) and not isinstance(value, bool):
-            return value  # checked against IEC 60085 in _thermal (nan and inf fail there)
+            return value  # checked against IEC 60085 in _insulation_class (nan and inf fail there)
     elif kind == "int":
         if isinstance(value, int) and not isinstance(value, bool) and value >= 1:
             return _plausible(where, value, kind, problems)
@@ -383,8 +383,176 @@ def _check_value(where: str, value, kind: str, problems: list[str]):
     return None
 
 
-def _conductor(table: str, t: dict, problems: list[str], default: str | None):
-    """Conductivity [S/m], temperature coefficient, density and name of a conductor's material."""
+# ----------------------------------------------------------------------------------------------
+# Reading a design in four steps, each adding its problems to one list: (1) the schema check of
+# every table and key, (2) one parser per table (its own rules and materials), (3) the geometry
+# checks across tables, (4) the build of the dataclasses, only when no step found a problem.
+# A check whose inputs are missing or were refused in an earlier step is skipped, so that every
+# problem of a file is reported in one pass and none is a follow-on of another.
+
+
+class _Values(dict):
+    """The valid values of one table (file units) after the schema check, and the keys the file
+    gave with a refused value (a check that needs one of them is skipped, not guessed)."""
+
+    def __init__(self, values: dict, refused=()):
+        super().__init__(values)
+        self.refused = frozenset(refused)
+
+    def has(self, *keys: str) -> bool:
+        """Every one of ``keys`` has a valid value."""
+        return all(k in self for k in keys)
+
+    def usable(self, *keys: str) -> bool:
+        """None of ``keys`` was given with a refused value (a missing key keeps its default)."""
+        return self.refused.isdisjoint(keys)
+
+
+#: A table the file leaves out or gives as something other than a table: no value, no check.
+_NO_VALUES = _Values({})
+
+
+def _check_schema(data: dict, problems: list[str]) -> dict[str, _Values]:
+    """Step 1: the top-level names, then every key of every table against DESIGN_KEYS. Returns
+    the checked values of each table that is a table (missing or malformed ones are left out)."""
+    _check_top_level(data, problems)
+    return {
+        table: _check_table(table, data[table], problems)
+        for table in DESIGN_KEYS
+        if isinstance(data.get(table), dict)
+    }
+
+
+def _check_top_level(data: dict, problems: list[str]) -> None:
+    """Unknown tables or keys (with the nearest valid name), tables that are not tables, the
+    top-level keys' values and the missing required tables."""
+    for key, value in data.items():
+        if key in DESIGN_KEYS:
+            if not isinstance(value, dict):
+                problems.append(f"{key} = {value!r}: must be a table [{key}]")
+        elif key in _TOP_KEYS:
+            _check_value(key, value, _TOP_KEYS[key], problems)
+        else:
+            problems.append(
+                f"{key}: unknown table or key; allowed: {', '.join([*DESIGN_KEYS, *_TOP_KEYS])}"
+                f"{nearest(key, [*DESIGN_KEYS, *_TOP_KEYS])}"
+            )
+    for table in _REQUIRED_TABLES:
+        if table not in data:
+            problems.append(f"[{table}]: missing table")
+
+
+def _check_table(table: str, t: dict, problems: list[str]) -> _Values:
+    """One table's keys: unknown ones (with the nearest valid name), each value against its
+    kind, the missing required keys."""
+    keys = DESIGN_KEYS[table]
+    out, refused = {}, set()
+    for key, value in t.items():
+        if key not in keys:
+            problems.append(
+                f"{table}.{key}: unknown key; allowed: {', '.join(keys)}{nearest(key, keys)}"
+            )
+            continue
+        checked = _check_value(f"{table}.{key}", value, keys[key][0], problems)
+        if checked is None:
+            refused.add(key)
+        else:
+            out[key] = checked
+    for key, (kind, required) in keys.items():
+        if required and key not in t:
+            problems.append(f"{table}.{key}: missing; must be {_ALLOWED[kind]}")
+    return _Values(out, refused)
+
+
+# --- step 2: one parser per table. Each returns the keywords of its dataclass other than the
+# sizes in mm (None where the table's own problems leave them unknown).
+
+
+def _material(name, where: str, problems: list[str]):
+    """The library material ``name``, or None (with its problem added)."""
+    try:
+        return get_material(name, where)
+    except DesignError as err:
+        problems.extend(err.problems)
+        return None
+
+
+def _parse_pole(p: _Values, problems: list[str]) -> dict | None:
+    """[pole]: its steel, named (material) or given (relative_permeability and
+    conductivity_S_per_m, 0 = laminated)."""
+    mu_r, sigma = p.get("relative_permeability"), p.get("conductivity_S_per_m")
+    pole_mat, bsat = p.get("material"), p.get("saturation_flux_density_T")
+    lamination = (None, None)
+    if not p.usable("material", "relative_permeability", "conductivity_S_per_m"):
+        pass  # which of the two ways was meant is unknown
+    elif pole_mat is not None:
+        if mu_r is not None or sigma is not None:
+            problems.append(
+                "pole.material = "
+                f"{pole_mat!r}: give either material or relative_permeability and "
+                "conductivity_S_per_m, not both"
+            )
+        elif (m := _material(pole_mat, "pole.material", problems)) is not None:
+            if not m.is_magnetic:
+                problems.append(
+                    f"pole.material = {pole_mat!r}: not a magnetic steel; allowed: "
+                    + ", ".join(k for k, v in MATERIALS.items() if v.is_magnetic)
+                )
+            mu_r, sigma = m.relative_permeability, m.conductivity
+            bsat = bsat if bsat is not None else m.saturation_flux_density
+            lamination = (m.lamination_thickness, m.sheet_conductivity)
+    elif mu_r is None or sigma is None:
+        problems.append(
+            "pole: give material, or both relative_permeability and conductivity_S_per_m "
+            "(0 = laminated)"
+        )
+    if mu_r is not None and mu_r < 1.0:
+        problems.append(f"pole.relative_permeability = {mu_r!r}: must be >= 1 (a magnetic steel)")
+    if mu_r is None or sigma is None:
+        return None
+    return {
+        "relative_permeability": float(mu_r),
+        "conductivity": float(sigma),
+        "material": pole_mat,
+        "saturation_flux_density": bsat,
+        "lamination_thickness": lamination[0],
+        "sheet_conductivity": lamination[1],
+    }
+
+
+def _parse_drive(d: _Values, problems: list[str]) -> dict:
+    """[drive]: the frequency and exactly one of current and voltage."""
+    if d.usable("current_A", "voltage_V") and ("current_A" in d) == ("voltage_V" in d):
+        problems.append(
+            "drive: give exactly one of current_A (rms) and voltage_V (rms); "
+            f"got {'both' if 'current_A' in d else 'neither'}"
+        )
+    return {
+        "frequency": d.get("frequency_Hz"),
+        "current": d.get("current_A"),
+        "voltage": d.get("voltage_V"),
+    }
+
+
+def _parse_coil(c: _Values, problems: list[str]) -> dict | None:
+    """[coil]: the wire's material (copper unless named), which must conduct."""
+    name = c.get("material", "copper")
+    if not c.usable("material") or (m := _material(name, "coil.material", problems)) is None:
+        return None
+    if m.conductivity <= 0:
+        problems.append(f"coil.material = {name!r}: the winding needs a conductor")
+    return {
+        "conductivity": m.conductivity,
+        "temperature_coefficient": m.temperature_coefficient,
+        "material": name,
+    }
+
+
+def _conductor(table: str, t: _Values, problems: list[str], default: str | None) -> dict | None:
+    """Conductivity [S/m], temperature coefficient, density (None: unknown) and name of a
+    conductor's material: a library material or an explicit conductivity, not both."""
+    if not t.usable("material", "conductivity_S_per_m"):
+        return None
     name = t.get("material")
     sigma = t.get("conductivity_S_per_m")
     if name is not None and sigma is not None:
@@ -396,15 +564,18 @@ def _conductor(table: str, t: dict, problems: list[str], default: str | None):
     if sigma is not None:
         # An explicit conductivity (value at 20 degC) takes the copper temperature coefficient only
         # if it is copper-like; with no material named the coefficient is unknown: take 0.
-        return sigma, 0.0, None, None
+        return {
+            "conductivity": sigma,
+            "temperature_coefficient": 0.0,
+            "density": None,
+            "material": None,
+        }
     name = name if name is not None else default
     if name is None:
         problems.append(f"{table}.material: missing; give material or conductivity_S_per_m")
         return None
-    try:
-        m = get_material(name, f"{table}.material")
-    except DesignError as err:
-        problems.extend(err.problems)
+    m = _material(name, f"{table}.material", problems)
+    if m is None:
         return None
     if m.conductivity <= 0:
         problems.append(
@@ -412,49 +583,51 @@ def _conductor(table: str, t: dict, problems: list[str], default: str | None):
             f"a {table} needs a conductor, e.g. 'copper'"
         )
         return None
-    return m.conductivity, m.temperature_coefficient, m.density, name
+    return {
+        "conductivity": m.conductivity,
+        "temperature_coefficient": m.temperature_coefficient,
+        "density": m.density,
+        "material": name,
+    }
 
 
-def _thermal(t: dict | None, problems: list[str]) -> Thermal:
-    """[thermal] from its checked file values (defaults where a key is missing)."""
-    if t is None:
-        return Thermal()
+def _parse_ring(r: _Values, problems: list[str]) -> dict | None:
+    """[ring]: its conductor (copper unless named); copper's density where it is not known."""
+    kw = _conductor("ring", r, problems, "copper")
+    if kw is not None and kw["density"] is None:
+        kw["density"] = 8890.0
+    return kw
+
+
+def _parse_target(g: _Values, problems: list[str]) -> dict | None:
+    """[target]: its conductor (no default) and its density, from the file or the material."""
+    kw = _conductor("target", g, problems, None)
+    if kw is None or not g.usable("density_kg_per_m3"):
+        return None
+    if "density_kg_per_m3" in g:
+        kw["density"] = g["density_kg_per_m3"]
+    elif kw["density"] is None:
+        problems.append(
+            "target.density_kg_per_m3: missing; needed with an explicit conductivity_S_per_m"
+        )
+        return None
+    kw["density"] = float(kw["density"])
+    return kw
+
+
+def _parse_thermal(t: _Values, problems: list[str]) -> dict:
+    """[thermal]: the Thermal keywords (defaults where a key is missing)."""
     kw = {}
     ambient = t.get("ambient_C", Thermal.ambient_C)
     # -50 to 150 degC: from arctic outdoor to inside an oven line (common practice, no source)
     if not -50.0 <= ambient <= 150.0:
         problems.append(f"thermal.ambient_C = {ambient!r}: must be between -50 and 150 degC")
     kw["ambient_C"] = ambient
-    cls = t.get("coil_insulation_class")
-    if cls is not None:
-        if isinstance(cls, str):
-            key = cls.strip().upper()
-            if key in INSULATION_CLASSES:
-                kw["coil_class"], kw["coil_class_C"] = key, INSULATION_CLASSES[key]
-            else:
-                try:
-                    cls = float(key)
-                except ValueError:
-                    problems.append(
-                        f"thermal.coil_insulation_class = {cls!r}: must be "
-                        + _ALLOWED["class"]
-                        + " (IEC 60085)"
-                    )
-                    cls = None
-        if cls is not None and not isinstance(cls, str):
-            # IEC 60085 classes run from 90 (Y) to 250 degC; a custom rating stays in that span.
-            if not 90.0 <= cls <= 250.0:
-                problems.append(
-                    f"thermal.coil_insulation_class = {cls!r}: a temperature must be between "
-                    "90 and 250 degC (the IEC 60085 classes)"
-                )
-            else:
-                named = [k for k, v in INSULATION_CLASSES.items() if v == cls]
-                kw["coil_class"] = named[0] if named else f"{cls:g} degC"
-                kw["coil_class_C"] = float(cls)
+    if "coil_insulation_class" in t:
+        kw.update(_insulation_class(t["coil_insulation_class"], problems))
     for key in ("ring_limit_C", "target_limit_C"):
         if key in t:
-            if t[key] <= ambient:
+            if t.usable("ambient_C") and t[key] <= ambient:
                 problems.append(
                     f"thermal.{key} = {t[key]!r}: must be above thermal.ambient_C (= {ambient!r})"
                 )
@@ -477,17 +650,205 @@ def _thermal(t: dict | None, problems: list[str]) -> Thermal:
     ):
         if key in t:
             kw[name] = t[key]
-    return Thermal(**kw)
+    return kw
 
 
-def _supply(t: dict | None) -> Supply | None:
-    """[supply] from its checked file values."""
-    if t is None:
-        return None
-    return Supply(
-        max_voltage=t.get("max_voltage_V"),
-        max_current=t.get("max_current_A"),
-        max_apparent_power=t.get("max_VA"),
+def _insulation_class(cls, problems: list[str]) -> dict:
+    """thermal.coil_insulation_class (an IEC 60085 letter or a temperature in degC): the
+    keywords coil_class and coil_class_C, or {} (with a problem)."""
+    if isinstance(cls, str):
+        key = cls.strip().upper()
+        if key in INSULATION_CLASSES:
+            return {"coil_class": key, "coil_class_C": INSULATION_CLASSES[key]}
+        try:
+            cls = float(key)
+        except ValueError:
+            problems.append(
+                f"thermal.coil_insulation_class = {cls!r}: must be "
+                + _ALLOWED["class"]
+                + " (IEC 60085)"
+            )
+            return {}
+    # IEC 60085 classes run from 90 (Y) to 250 degC; a custom rating stays in that span.
+    if not 90.0 <= cls <= 250.0:
+        problems.append(
+            f"thermal.coil_insulation_class = {cls!r}: a temperature must be between "
+            "90 and 250 degC (the IEC 60085 classes)"
+        )
+        return {}
+    named = [k for k, v in INSULATION_CLASSES.items() if v == cls]
+    return {"coil_class": named[0] if named else f"{cls:g} degC", "coil_class_C": float(cls)}
+
+
+def _parse_supply(t: _Values, problems: list[str]) -> dict:
+    """[supply]: the limits of the supply (no rule beyond each value's own)."""
+    return {
+        "max_voltage": t.get("max_voltage_V"),
+        "max_current": t.get("max_current_A"),
+        "max_apparent_power": t.get("max_VA"),
+    }
+
+
+#: Step 2, table by table, in this order.
+_PARSERS = {
+    "pole": _parse_pole,
+    "drive": _parse_drive,
+    "coil": _parse_coil,
+    "ring": _parse_ring,
+    "target": _parse_target,
+    "thermal": _parse_thermal,
+    "supply": _parse_supply,
+}
+
+
+# --- step 3: the geometry across tables
+
+
+def _check_geometry(vals: dict[str, _Values], problems: list[str]) -> None:
+    """Step 3: the rules between sizes (the coil outside and along the pole, the ring inside its
+    face, face features the fast model resolves, the target washer). A rule whose sizes are
+    missing or were refused is skipped."""
+    p = vals.get("pole", _NO_VALUES)
+    r = vals.get("ring")
+    _check_coil_fits(p, vals.get("coil", _NO_VALUES), problems)
+    if r is not None:
+        _check_ring_fits(p, r, problems)
+    if p.has("radius_mm", "length_mm") and p["length_mm"] > MAX_POLE_ASPECT * p["radius_mm"]:
+        problems.append(
+            f"pole.length_mm = {p['length_mm']!r}: must be <= {MAX_POLE_ASPECT:g} x pole.radius_mm "
+            f"(= {MAX_POLE_ASPECT * p['radius_mm']:.4g}); the fast model's panels cannot follow a "
+            "longer pole"
+        )
+    g = vals.get("target", _NO_VALUES)
+    if p.has("radius_mm"):
+        _check_face_features(p["radius_mm"], r, g, problems)
+    if g.has("radius_mm") and g.usable("inner_radius_mm"):
+        tri = g.get("inner_radius_mm", 0.0)
+        if tri >= g["radius_mm"]:
+            problems.append(
+                f"target.inner_radius_mm = {tri!r}: must be < target.radius_mm "
+                f"(= {g['radius_mm']!r})"
+            )
+
+
+def _check_coil_fits(p: _Values, c: _Values, problems: list[str]) -> None:
+    """The coil outside the pole and along it, its radii in order, its wire in its window."""
+    if c.has("inner_radius_mm") and p.has("radius_mm") and c["inner_radius_mm"] < p["radius_mm"]:
+        problems.append(
+            f"coil.inner_radius_mm = {c['inner_radius_mm']!r}: must be >= pole.radius_mm "
+            f"(= {p['radius_mm']!r}); the coil sits outside the pole"
+        )
+    radii = c.has("inner_radius_mm", "outer_radius_mm")
+    if radii and c["outer_radius_mm"] <= c["inner_radius_mm"]:
+        problems.append(
+            f"coil.outer_radius_mm = {c['outer_radius_mm']!r}: must be > coil.inner_radius_mm "
+            f"(= {c['inner_radius_mm']!r})"
+        )
+    if c.has("setback_mm", "length_mm") and p.has("length_mm"):
+        if c["setback_mm"] + c["length_mm"] > p["length_mm"]:
+            problems.append(
+                f"coil.length_mm = {c['length_mm']!r}: setback_mm + length_mm must be <= "
+                f"pole.length_mm (= {p['length_mm']!r}); the coil sits along the pole"
+            )
+    if radii and c.has("wire_diameter_mm", "turns", "length_mm"):
+        wire_area = math.pi * c["wire_diameter_mm"] ** 2 / 4
+        window = (c["outer_radius_mm"] - c["inner_radius_mm"]) * c["length_mm"]
+        if window > 0 and c["turns"] * wire_area > window * math.pi / 4 * 1.0001:
+            problems.append(
+                f"coil.wire_diameter_mm = {c['wire_diameter_mm']!r}: {c['turns']} turns do not "
+                f"fit the {window:.4g} mm^2 window; must be <= "
+                f"{math.sqrt(window / c['turns']):.4g} mm"
+            )
+
+
+def _check_ring_fits(p: _Values, r: _Values, problems: list[str]) -> None:
+    """The ring's radii in order, inside the pole face with steel left on both sides, its
+    groove shallower than the pole is long."""
+    ri, ro, depth = (r.get(k) for k in ("inner_radius_mm", "outer_radius_mm", "depth_mm"))
+    if r.has("inner_radius_mm", "outer_radius_mm") and ro <= ri:
+        problems.append(f"ring.outer_radius_mm = {ro!r}: must be > ring.inner_radius_mm (= {ri!r})")
+    if ro is not None and p.has("radius_mm") and ro > p["radius_mm"] - MIN_WALL_MM:
+        problems.append(
+            f"ring.outer_radius_mm = {ro!r}: must be <= pole.radius_mm - {MIN_WALL_MM} "
+            f"(= {p['radius_mm'] - MIN_WALL_MM:.4g}); the ring sits inside the pole with a wall "
+            "of steel left"
+        )
+    if ri is not None and ri < MIN_WALL_MM:
+        problems.append(
+            f"ring.inner_radius_mm = {ri!r}: must be >= {MIN_WALL_MM} mm; a post of steel "
+            "stays inside the ring"
+        )
+    if depth is not None and p.has("length_mm") and depth >= p["length_mm"]:
+        problems.append(
+            f"ring.depth_mm = {depth!r}: must be < pole.length_mm (= {p['length_mm']!r})"
+        )
+
+
+def _check_face_features(Rp: float, r: _Values | None, g: _Values, problems: list[str]) -> None:
+    """Every feature of the face (2 x gap, target radius, ring inner radius, depth and width) at
+    least pole.radius_mm / MAX_FEATURE_RATIO."""
+    face = [("target.gap_mm", g.get("gap_mm"), 2.0), ("target.radius_mm", g.get("radius_mm"), 1.0)]
+    if r is not None:
+        width = None
+        if r.has("inner_radius_mm", "outer_radius_mm"):
+            width = r["outer_radius_mm"] - r["inner_radius_mm"]
+        face += [
+            ("ring.inner_radius_mm", r.get("inner_radius_mm"), 1.0),
+            ("ring.depth_mm", r.get("depth_mm"), 1.0),
+            ("ring.outer_radius_mm - ring.inner_radius_mm", width, 1.0),
+        ]
+    for where, value, factor in face:
+        least = Rp / (MAX_FEATURE_RATIO * factor)
+        # 1e-9: rounding of mm values such as 0.22 - 0.2
+        if value is not None and 0 < value < least * (1 - 1e-9):
+            problems.append(
+                f"{where} = {value:.4g}: must be >= pole.radius_mm / {MAX_FEATURE_RATIO * factor:g}"
+                f" (= {least:.4g}); the fast model resolves face features down to that size"
+            )
+
+
+# --- step 4: the build
+
+
+def _build(data: dict, name: str, vals: dict[str, _Values], parsed: dict[str, dict]) -> Design:
+    """Step 4, for a design without problems: the dataclasses in SI from the checked sizes (mm)
+    and the parsed tables."""
+    p, c, g, r = vals["pole"], vals["coil"], vals["target"], vals.get("ring")
+    pole = Pole(radius=p["radius_mm"] * MM, length=p["length_mm"] * MM, **parsed["pole"])
+    coil = Coil(
+        inner_radius=c["inner_radius_mm"] * MM,
+        outer_radius=c["outer_radius_mm"] * MM,
+        setback=c["setback_mm"] * MM,
+        length=c["length_mm"] * MM,
+        turns=c["turns"],
+        wire_diameter=c["wire_diameter_mm"] * MM if "wire_diameter_mm" in c else None,
+        **parsed["coil"],
+    )
+    ring = None
+    if r is not None:
+        ring = Ring(
+            inner_radius=r["inner_radius_mm"] * MM,
+            outer_radius=r["outer_radius_mm"] * MM,
+            depth=r["depth_mm"] * MM,
+            **parsed["ring"],
+        )
+    target = Target(
+        radius=g["radius_mm"] * MM,
+        thickness=g["thickness_mm"] * MM,
+        gap=g["gap_mm"] * MM,
+        inner_radius=g.get("inner_radius_mm", 0.0) * MM,
+        **parsed["target"],
+    )
+    return Design(
+        pole=pole,
+        coil=coil,
+        drive=Drive(**parsed["drive"]),
+        target=target,
+        ring=ring,
+        name=str(data.get("name", name)),
+        source=_deep_copy(data),
+        thermal=Thermal(**parsed["thermal"]) if "thermal" in parsed else Thermal(),
+        supply=Supply(**parsed["supply"]) if "supply" in parsed else None,
     )
 
 
@@ -497,245 +858,18 @@ def design_from_dict(data: dict, name: str = "design") -> Design:
     Raises
     ------
     DesignError
-        With one line per violation: the field, the value and what is allowed.
+        With one line per violation, every violation of the file at once: the field, the value
+        and what is allowed.
     """
-    problems: list[str] = []
     if not isinstance(data, dict):
         raise DesignError(f"design = {data!r}: must be a table of tables")
-    for key, value in data.items():
-        if key in DESIGN_KEYS:
-            if not isinstance(value, dict):
-                problems.append(f"{key} = {value!r}: must be a table [{key}]")
-        elif key in _TOP_KEYS:
-            _check_value(key, value, _TOP_KEYS[key], problems)
-        else:
-            problems.append(
-                f"{key}: unknown table or key; allowed: {', '.join([*DESIGN_KEYS, *_TOP_KEYS])}"
-                f"{nearest(key, [*DESIGN_KEYS, *_TOP_KEYS])}"
-            )
-    for table in _REQUIRED_TABLES:
-        if table not in data:
-            problems.append(f"[{table}]: missing table")
+    problems: list[str] = []
+    vals = _check_schema(data, problems)
+    parsed = {t: parse(vals[t], problems) for t, parse in _PARSERS.items() if t in vals}
+    _check_geometry(vals, problems)
     if problems:
         raise DesignError(problems)
-
-    vals: dict[str, dict] = {}
-    for table, keys in DESIGN_KEYS.items():
-        t = data.get(table)
-        if t is None:
-            continue
-        out = {}
-        for key, value in t.items():
-            if key not in keys:
-                problems.append(
-                    f"{table}.{key}: unknown key; allowed: {', '.join(keys)}{nearest(key, keys)}"
-                )
-                continue
-            checked = _check_value(f"{table}.{key}", value, keys[key][0], problems)
-            if checked is not None:
-                out[key] = checked
-        for key, (_, required) in keys.items():
-            if required and key not in t:
-                problems.append(f"{table}.{key}: missing; must be {_ALLOWED[keys[key][0]]}")
-        vals[table] = out
-    if problems:
-        raise DesignError(problems)
-
-    p, c, d, g = vals["pole"], vals["coil"], vals["drive"], vals["target"]
-    r = vals.get("ring")
-
-    # --- pole material
-    mu_r = p.get("relative_permeability")
-    sigma_p = p.get("conductivity_S_per_m")
-    bsat = p.get("saturation_flux_density_T")
-    pole_mat = p.get("material")
-    lamination = (None, None)
-    if pole_mat is not None:
-        if mu_r is not None or sigma_p is not None:
-            problems.append(
-                "pole.material = "
-                f"{pole_mat!r}: give either material or relative_permeability and "
-                "conductivity_S_per_m, not both"
-            )
-        else:
-            try:
-                m = get_material(pole_mat, "pole.material")
-                if not m.is_magnetic:
-                    problems.append(
-                        f"pole.material = {pole_mat!r}: not a magnetic steel; allowed: "
-                        + ", ".join(k for k, v in MATERIALS.items() if v.is_magnetic)
-                    )
-                mu_r, sigma_p = m.relative_permeability, m.conductivity
-                bsat = bsat if bsat is not None else m.saturation_flux_density
-                lamination = (m.lamination_thickness, m.sheet_conductivity)
-            except DesignError as err:
-                problems.extend(err.problems)
-    elif mu_r is None or sigma_p is None:
-        problems.append(
-            "pole: give material, or both relative_permeability and conductivity_S_per_m "
-            "(0 = laminated)"
-        )
-    if mu_r is not None and mu_r < 1.0:
-        problems.append(f"pole.relative_permeability = {mu_r!r}: must be >= 1 (a magnetic steel)")
-
-    # --- drive
-    if ("current_A" in d) == ("voltage_V" in d):
-        problems.append(
-            "drive: give exactly one of current_A (rms) and voltage_V (rms); "
-            f"got {'both' if 'current_A' in d else 'neither'}"
-        )
-
-    # --- coil wire
-    coil_sigma, coil_alpha = None, None
-    coil_mat = c.get("material", "copper")
-    try:
-        cm = get_material(coil_mat, "coil.material")
-        if cm.conductivity <= 0:
-            problems.append(f"coil.material = {coil_mat!r}: the winding needs a conductor")
-        coil_sigma, coil_alpha = cm.conductivity, cm.temperature_coefficient
-    except DesignError as err:
-        problems.extend(err.problems)
-
-    ring_cond = _conductor("ring", r, problems, "copper") if r is not None else None
-    target_cond = _conductor("target", g, problems, None)
-
-    # --- geometry
-    Rp, L = p["radius_mm"], p["length_mm"]
-    if c["inner_radius_mm"] < Rp:
-        problems.append(
-            f"coil.inner_radius_mm = {c['inner_radius_mm']!r}: must be >= pole.radius_mm "
-            f"(= {Rp!r}); the coil sits outside the pole"
-        )
-    if c["outer_radius_mm"] <= c["inner_radius_mm"]:
-        problems.append(
-            f"coil.outer_radius_mm = {c['outer_radius_mm']!r}: must be > coil.inner_radius_mm "
-            f"(= {c['inner_radius_mm']!r})"
-        )
-    if c["setback_mm"] + c["length_mm"] > L:
-        problems.append(
-            f"coil.length_mm = {c['length_mm']!r}: setback_mm + length_mm must be <= "
-            f"pole.length_mm (= {L!r}); the coil sits along the pole"
-        )
-    if "wire_diameter_mm" in c:
-        wire_area = math.pi * c["wire_diameter_mm"] ** 2 / 4
-        window = (c["outer_radius_mm"] - c["inner_radius_mm"]) * c["length_mm"]
-        if window > 0 and c["turns"] * wire_area > window * math.pi / 4 * 1.0001:
-            problems.append(
-                f"coil.wire_diameter_mm = {c['wire_diameter_mm']!r}: {c['turns']} turns do not "
-                f"fit the {window:.4g} mm^2 window; must be <= "
-                f"{math.sqrt(window / c['turns']):.4g} mm"
-            )
-    if r is not None:
-        ri, ro, depth = r["inner_radius_mm"], r["outer_radius_mm"], r["depth_mm"]
-        if ro <= ri:
-            problems.append(
-                f"ring.outer_radius_mm = {ro!r}: must be > ring.inner_radius_mm (= {ri!r})"
-            )
-        if ro > Rp - MIN_WALL_MM:
-            problems.append(
-                f"ring.outer_radius_mm = {ro!r}: must be <= pole.radius_mm - {MIN_WALL_MM} "
-                f"(= {Rp - MIN_WALL_MM:.4g}); the ring sits inside the pole with a wall of steel left"
-            )
-        if ri < MIN_WALL_MM:
-            problems.append(
-                f"ring.inner_radius_mm = {ri!r}: must be >= {MIN_WALL_MM} mm; a post of steel "
-                "stays inside the ring"
-            )
-        if depth >= L:
-            problems.append(f"ring.depth_mm = {depth!r}: must be < pole.length_mm (= {L!r})")
-    if L > MAX_POLE_ASPECT * Rp:
-        problems.append(
-            f"pole.length_mm = {L!r}: must be <= {MAX_POLE_ASPECT:g} x pole.radius_mm "
-            f"(= {MAX_POLE_ASPECT * Rp:.4g}); the fast model's panels cannot follow a longer pole"
-        )
-    face = [("target.gap_mm", g["gap_mm"], 2.0), ("target.radius_mm", g["radius_mm"], 1.0)]
-    if r is not None:
-        face += [
-            ("ring.inner_radius_mm", r["inner_radius_mm"], 1.0),
-            ("ring.depth_mm", r["depth_mm"], 1.0),
-            ("ring.outer_radius_mm - ring.inner_radius_mm", ro - ri, 1.0),
-        ]
-    for where, value, factor in face:
-        least = Rp / (MAX_FEATURE_RATIO * factor)
-        if 0 < value < least * (1 - 1e-9):  # 1e-9: rounding of mm values such as 0.22 - 0.2
-            problems.append(
-                f"{where} = {value:.4g}: must be >= pole.radius_mm / {MAX_FEATURE_RATIO * factor:g}"
-                f" (= {least:.4g}); the fast model resolves face features down to that size"
-            )
-    tri = g.get("inner_radius_mm", 0.0)
-    if tri >= g["radius_mm"]:
-        problems.append(
-            f"target.inner_radius_mm = {tri!r}: must be < target.radius_mm (= {g['radius_mm']!r})"
-        )
-    density = g.get("density_kg_per_m3")
-    if density is None and target_cond is not None:
-        density = target_cond[2]
-        if density is None:
-            problems.append(
-                "target.density_kg_per_m3: missing; needed with an explicit conductivity_S_per_m"
-            )
-    thermal = _thermal(vals.get("thermal"), problems)
-    if problems:
-        raise DesignError(problems)
-
-    pole = Pole(
-        radius=Rp * MM,
-        length=L * MM,
-        relative_permeability=float(mu_r),
-        conductivity=float(sigma_p),
-        material=pole_mat,
-        saturation_flux_density=bsat,
-        lamination_thickness=lamination[0],
-        sheet_conductivity=lamination[1],
-    )
-    coil = Coil(
-        inner_radius=c["inner_radius_mm"] * MM,
-        outer_radius=c["outer_radius_mm"] * MM,
-        setback=c["setback_mm"] * MM,
-        length=c["length_mm"] * MM,
-        turns=c["turns"],
-        wire_diameter=c["wire_diameter_mm"] * MM if "wire_diameter_mm" in c else None,
-        conductivity=coil_sigma,
-        temperature_coefficient=coil_alpha,
-        material=coil_mat,
-    )
-    drive = Drive(
-        frequency=d["frequency_Hz"], current=d.get("current_A"), voltage=d.get("voltage_V")
-    )
-    ring = None
-    if r is not None:
-        sigma, alpha, rho_m, mname = ring_cond
-        ring = Ring(
-            inner_radius=r["inner_radius_mm"] * MM,
-            outer_radius=r["outer_radius_mm"] * MM,
-            depth=r["depth_mm"] * MM,
-            conductivity=sigma,
-            temperature_coefficient=alpha,
-            material=mname,
-            density=rho_m if rho_m is not None else 8890.0,
-        )
-    sigma, alpha, _, mname = target_cond
-    target = Target(
-        radius=g["radius_mm"] * MM,
-        thickness=g["thickness_mm"] * MM,
-        gap=g["gap_mm"] * MM,
-        conductivity=sigma,
-        temperature_coefficient=alpha,
-        density=float(density),
-        inner_radius=tri * MM,
-        material=mname,
-    )
-    return Design(
-        pole=pole,
-        coil=coil,
-        drive=drive,
-        target=target,
-        ring=ring,
-        name=str(data.get("name", name)),
-        source=_deep_copy(data),
-        thermal=thermal,
-        supply=_supply(vals.get("supply")),
-    )
+    return _build(data, name, vals, parsed)
 
 
 def _deep_copy(data: dict) -> dict:
