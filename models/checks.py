@@ -207,7 +207,7 @@ def used_limits(design: Design, network) -> dict:
     source: {"coil": (limit, why), "ring": ..., "target": ...}. Without a user's limit a ring or
     a part is held to its material's own (melting or Curie point, ``network.ceiling_C``)."""
     th = design.thermal
-    out = {"coil": (th.coil_class_C, f"insulation class {th.coil_class} (IEC 60085)")}
+    out = {"coil": (th.coil_class_C, f"insulation class {th.coil_class}, IEC 60085")}
     for part, user in (("ring", th.ring_limit_C), ("target", th.target_limit_C)):
         if part not in network.nodes:
             continue
@@ -245,9 +245,9 @@ def thermal_assumptions(design: Design, network) -> dict:
     limits = used_limits(design, network)
     out = dict(values)
     out["convection"] = (
-        "natural (Churchill-Chu and horizontal-plate correlations)"
+        "natural convection (Churchill-Chu and horizontal-plate correlations)"
         if th.convection is None
-        else "forced (a fixed coefficient)"
+        else f"convection {th.convection:g} W/(m^2 K) (given)"
     )
     out["radiation"] = "none" if th.emissivity == 0 else f"emissivity {th.emissivity:g}"
     for part, (limit, why) in limits.items():

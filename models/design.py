@@ -184,7 +184,10 @@ class Thermal:
     insulation class temperature (IEC 60085) and coil_class its name; ring_limit_C,
     target_limit_C : optional limits set by the user; orientation : one of ORIENTATIONS;
     ring_contact_conductance : ring to groove walls [W/(m^2 K)]; winding_conductivity : effective
-    conductivity of the winding [W/(m K)] (None: from the copper fill factor).
+    conductivity of the winding [W/(m K)] (None: from the copper fill factor); target_arrival_C :
+    the part's temperature as it arrives (None: the ambient); hold_gap : the gap a held part sits
+    at [m] (None: the target's gap); target_stays : the part stays under the pole (a holding
+    application): taken at its steady state.
 
     The defaults are the design without [thermal]: 25 degC ambient (IEC 60034-1 and IEC 60204-1
     work from 40 degC at most; 25 degC is a factory floor, common practice, no source), natural
@@ -205,6 +208,9 @@ class Thermal:
     orientation: str = "face-down"
     ring_contact_conductance: float = 5000.0
     winding_conductivity: float | None = None
+    target_arrival_C: float | None = None
+    hold_gap: float | None = None
+    target_stays: bool = False
 
 
 @dataclass(frozen=True)
@@ -230,6 +236,8 @@ class Design:
     source: dict = field(default_factory=dict, compare=False, repr=False)
     thermal: Thermal = Thermal()
     supply: Supply | None = None
+    #: What the reader took on the user's behalf (each becomes a warning of every result).
+    notes: tuple = field(default=(), compare=False)
 
 
 # ----------------------------------------------------------------------------------------------
@@ -264,6 +272,8 @@ DESIGN_KEYS: dict[str, dict[str, tuple[str, bool]]] = {
         "depth_mm": ("pos", True),
         "material": ("str", False),
         "conductivity_S_per_m": ("pos", False),
+        "temperature_coefficient_per_K": ("nonneg", False),
+        "density_kg_per_m3": ("pos", False),
     },
     "target": {
         "radius_mm": ("pos", True),
@@ -272,6 +282,7 @@ DESIGN_KEYS: dict[str, dict[str, tuple[str, bool]]] = {
         "inner_radius_mm": ("nonneg", False),
         "material": ("str", False),
         "conductivity_S_per_m": ("pos", False),
+        "temperature_coefficient_per_K": ("nonneg", False),
         "density_kg_per_m3": ("pos", False),
     },
     "thermal": {
@@ -287,6 +298,9 @@ DESIGN_KEYS: dict[str, dict[str, tuple[str, bool]]] = {
         "orientation": ("str", False),
         "ring_contact_W_per_m2K": ("pos", False),
         "winding_conductivity_W_per_mK": ("pos", False),
+        "target_arrival_C": ("num", False),
+        "hold_gap_mm": ("pos", False),
+        "target_stays": ("bool", False),
     },
     "supply": {
         "max_voltage_V": ("pos", False),
@@ -306,6 +320,7 @@ _ALLOWED = {
     "num": "a number",
     "frac": "a number > 0 and <= 1",
     "unit": "a number from 0 to 1",
+    "bool": "true or false",
     "class": "an IEC 60085 class letter (" + ", ".join(INSULATION_CLASSES) + ") or a temperature "
     "in degC",
 }
@@ -326,7 +341,9 @@ PLAUSIBLE_LIMITS = {
     "_S_per_m": (1.0, 1e9),  # silver, the best conductor, is 6.3e7 S/m (CRC Handbook, from memory)
     "relative_permeability": (1.0, 1e7),  # supermalloy reaches about 1e6 (from memory)
     "_T": (1e-3, 100.0),  # the best iron-cobalt steels saturate near 2.4 T (from memory)
-    "_kg_per_m3": (1.0, 1e5),  # osmium, the densest element, is 22 590 kg/m^3 (from memory)
+    "_kg_per_m3": (1.0, 1e5),
+    # metals' resistivity rises 0.3-0.7 %/K near room temperature (from memory); 10 %/K is a slip
+    "_per_K": (1e-6, 0.1),  # osmium, the densest element, is 22 590 kg/m^3 (from memory)
     "_C": (-273.15, 5000.0),  # absolute zero to above every metal's boiling point
     "_s": (1e-6, 1e10),  # a microsecond to three centuries
     "_W_per_m2K": (1e-3, 1e7),  # boiling water reaches ~1e5 W/(m^2 K) (from memory)
@@ -363,6 +380,9 @@ def _check_value(where: str, value, kind: str, problems: list[str]):
     """Return the checked value or None (with a line appended to ``problems``)."""
     if kind == "str":
         if isinstance(value, str):
+            return value
+    elif kind == "bool":
+        if isinstance(value, bool):
             return value
     elif kind == "class":
         if isinstance(value, (str, int, float)) and not isinstance(value, bool):
@@ -561,13 +581,30 @@ def _conductor(table: str, t: _Values, problems: list[str], default: str | None)
             "conductivity_S_per_m, not both"
         )
         return None
+    explicit = [k for k in ("temperature_coefficient_per_K", "density_kg_per_m3") if k in t]
+    if name is not None and explicit and table == "ring":
+        problems.append(
+            f"ring.{explicit[0]} = {t[explicit[0]]!r}: set by ring.material = {name!r}; give it "
+            "only with conductivity_S_per_m"
+        )
+        return None
+    if name is not None and "temperature_coefficient_per_K" in t:
+        problems.append(
+            f"{table}.temperature_coefficient_per_K = {t['temperature_coefficient_per_K']!r}: set "
+            f"by {table}.material = {name!r}; give it only with conductivity_S_per_m"
+        )
+        return None
     if sigma is not None:
-        # An explicit conductivity (value at 20 degC) takes the copper temperature coefficient only
-        # if it is copper-like; with no material named the coefficient is unknown: take 0.
+        # An explicit conductivity (its value at 20 degC): the temperature coefficient and the
+        # density from the file, else from the library metal nearest in conductivity (the
+        # result then carries a note saying so, models.design.Design.notes).
+        near = nearest_metal(sigma)
         return {
             "conductivity": sigma,
-            "temperature_coefficient": 0.0,
-            "density": None,
+            "temperature_coefficient": t.get(
+                "temperature_coefficient_per_K", near.temperature_coefficient
+            ),
+            "density": t.get("density_kg_per_m3", near.density),
             "material": None,
         }
     name = name if name is not None else default
@@ -591,11 +628,41 @@ def _conductor(table: str, t: _Values, problems: list[str], default: str | None)
     }
 
 
+def nearest_metal(conductivity: float):
+    """The library's non-magnetic metal nearest to ``conductivity`` [S/m] (on a log scale)."""
+    metals = [m for m in MATERIALS.values() if m.conductivity > 0 and not m.is_magnetic]
+    return min(metals, key=lambda m: abs(math.log(m.conductivity / conductivity)))
+
+
+def design_notes(vals: dict) -> tuple[str, ...]:
+    """What the reader took on the user's behalf: a conductor given by its conductivity alone
+    gets the temperature coefficient (and a ring its density) of the nearest library metal."""
+    notes = []
+    for table in ("ring", "target"):
+        t = vals.get(table)
+        if t is None or "conductivity_S_per_m" not in t:
+            continue
+        near = nearest_metal(t["conductivity_S_per_m"])
+        taken = []
+        if "temperature_coefficient_per_K" not in t:
+            taken.append(f"temperature_coefficient_per_K = {near.temperature_coefficient:g} 1/K")
+        if table == "ring" and "density_kg_per_m3" not in t:
+            taken.append(f"density_kg_per_m3 = {near.density:g}")
+        if taken:
+            notes.append(
+                f"{table}.conductivity_S_per_m given without "
+                + " and ".join(k.split(" = ")[0] for k in taken)
+                + f": {near.name}'s values taken (the library metal nearest in conductivity): "
+                + ", ".join(taken)
+            )
+    return tuple(notes)
+
+
 def _parse_ring(r: _Values, problems: list[str]) -> dict | None:
-    """[ring]: its conductor (copper unless named); copper's density where it is not known."""
+    """[ring]: its conductor (copper unless named)."""
     kw = _conductor("ring", r, problems, "copper")
-    if kw is not None and kw["density"] is None:
-        kw["density"] = 8890.0
+    if kw is not None:
+        kw["density"] = float(kw["density"])
     return kw
 
 
@@ -606,7 +673,7 @@ def _parse_target(g: _Values, problems: list[str]) -> dict | None:
         return None
     if "density_kg_per_m3" in g:
         kw["density"] = g["density_kg_per_m3"]
-    elif kw["density"] is None:
+    elif kw["material"] is None:  # it sets the part's weight: never a guess
         problems.append(
             "target.density_kg_per_m3: missing; needed with an explicit conductivity_S_per_m"
         )
@@ -647,9 +714,13 @@ def _parse_thermal(t: _Values, problems: list[str]) -> dict:
         ("hold_time_s", "hold_time"),
         ("ring_contact_W_per_m2K", "ring_contact_conductance"),
         ("winding_conductivity_W_per_mK", "winding_conductivity"),
+        ("target_arrival_C", "target_arrival_C"),
+        ("target_stays", "target_stays"),
     ):
         if key in t:
             kw[name] = t[key]
+    if "hold_gap_mm" in t:
+        kw["hold_gap"] = t["hold_gap_mm"] * MM
     return kw
 
 
@@ -849,6 +920,7 @@ def _build(data: dict, name: str, vals: dict[str, _Values], parsed: dict[str, di
         source=_deep_copy(data),
         thermal=Thermal(**parsed["thermal"]) if "thermal" in parsed else Thermal(),
         supply=Supply(**parsed["supply"]) if "supply" in parsed else None,
+        notes=design_notes(vals),
     )
 
 

@@ -195,7 +195,8 @@ def evaluate_pick_gaps(
     electrical = _electrical(design, arrival, hold)
     thermal = _thermal(design, state, part, electrical)
     flat = _flat_for_checks(electrical, thermal)
-    warnings = range_warnings(design, arrival, fineness, electrical.core_peak_flux_density_T)
+    warnings = [f"design: {note}" for note in design.notes]
+    warnings += range_warnings(design, arrival, fineness, electrical.core_peak_flux_density_T)
     warnings += thermal_warnings(design, state, flat, part.hold_time_constant_s)
     result = Result(
         electrical=electrical,
