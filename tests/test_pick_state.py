@@ -17,7 +17,7 @@ import math
 import pytest
 
 from models.design import design_from_dict, with_value
-from models.evaluate import DEFAULT_FINENESS, evaluate, evaluate_pick_gaps
+from models.evaluate import DEFAULT_FINENESS, evaluate, evaluate_pick_gaps, pole_model_for
 from models.fast.circuit import assemble_circuit, solve_system
 from models.fast.pull import pull_by_source
 from models.materials import MATERIALS
@@ -59,6 +59,11 @@ def _demo(**thermal):
     return _design(d)
 
 
+def _system(design):
+    """The assembled circuit of ``design`` with its magnetised pole, as evaluate builds it."""
+    return assemble_circuit(design, DEFAULT_FINENESS, pole_model_for(design, DEFAULT_FINENESS))
+
+
 def _pull(sol) -> float:
     return float(sum(pull_by_source(sol).values()))
 
@@ -83,7 +88,7 @@ def test_arrival_pull_takes_the_part_cold_and_the_magnet_warm():
     assert r.target_arrival_temperature_C == pytest.approx(r.temperatures_C["ambient"])
     assert r.target_temperature_C > r.target_hold_temperature_C > r.target_arrival_temperature_C
     # By hand: the circuit with the coil and ring at the steady state, the part at ambient.
-    system = assemble_circuit(design, DEFAULT_FINENESS)
+    system = _system(design)
     t = r.temperatures_C
     by_hand = _pull(
         solve_system(
@@ -117,7 +122,7 @@ def test_pull_at_the_end_of_the_hold_matches_the_part_set_to_its_held_temperatur
         density_kg_per_m3=copper.density,
     )
     by_hand = _design(d)
-    system = assemble_circuit(by_hand, DEFAULT_FINENESS)
+    system = _system(by_hand)
     t = r.temperatures_C
     manual = _pull(solve_system(system, {"coil": t["coil_mean"], "ring": t["ring"]}))
     assert r.pull_hold_N == pytest.approx(manual, rel=1e-9)
@@ -284,7 +289,7 @@ def test_held_part_warming_against_integration_of_its_own_loss_law():
     from models.thermal.limits import hold_temperature
 
     design = _design(WASHER)
-    system = assemble_circuit(design, DEFAULT_FINENESS)
+    system = _system(design)
     state = _steady_state(design, system, isothermal=False)
     net = state.network
     i = net.index("target")
