@@ -9,25 +9,74 @@ from pathlib import Path
 __all__ = ["to_jsonable", "strict_json"]
 
 
-def to_jsonable(value):
-    """Strict-JSON copy: nan -> None, +-inf -> "inf"/"-inf", complex -> [re, im], numpy scalars and
-    arrays -> Python, times -> ISO 8601, paths -> str."""
+#: Why a value is not finite, by the field (or the table it sits in) and its sign.
+_WHY = {
+    ("time_to_limit_s", "inf"): "never: stays below its limit running continuously",
+    ("margins", "-inf"): "thermal runaway: no steady state below the materials' limits",
+    ("temperatures_C", "inf"): "thermal runaway: no steady state below the materials' limits",
+    ("_temperature_C", "inf"): "thermal runaway: no steady state below the materials' limits",
+    ("pull_cancellation", "inf"): "the net pull is zero",
+}
+
+
+def _why(key: str, parent: str, value: float) -> str:
+    sign = "nan" if math.isnan(value) else ("inf" if value > 0 else "-inf")
+    for name in (key, parent):
+        for (field, s), text in _WHY.items():
+            if s == sign and (name == field or (field.startswith("_") and name.endswith(field))):
+                return text
+    if sign == "nan":
+        return "not defined for this design"
+    return "+infinity" if sign == "inf" else "-infinity"
+
+
+def _non_finite(v) -> bool:
+    return isinstance(v, float) and not math.isfinite(v)
+
+
+def _scalar(v):
+    """A numpy scalar as its Python value; anything else unchanged."""
+    if hasattr(v, "item") and getattr(v, "ndim", None) == 0:
+        return v.item()
+    return v
+
+
+def to_jsonable(value, _parent: str = ""):
+    """Strict-JSON copy: a non-finite number -> null, with its reason beside it in ``<key>_why``
+    (a table's in ``<table>_why``: ``"time_to_limit_s": {"ring": null}, "time_to_limit_s_why":
+    {"ring": "never: ..."}``); a non-finite number in a list -> null;
+    complex -> [re, im], numpy scalars and arrays -> Python, times -> ISO 8601, paths -> str.
+    CSV files keep inf / -inf, which pandas reads as numbers."""
     if isinstance(value, dict):
-        return {str(k): to_jsonable(v) for k, v in value.items()}
+        out = {}
+        for k, v in value.items():
+            key = str(k)
+            v = _scalar(v)
+            if _non_finite(v):
+                out[key] = None
+                out[f"{key}_why"] = _why(key, _parent, v)
+            elif isinstance(v, dict):
+                inner = {str(kk): _scalar(vv) for kk, vv in v.items()}
+                out[key] = {
+                    kk: None if _non_finite(vv) else to_jsonable(vv, key)
+                    for kk, vv in inner.items()
+                }
+                why = {kk: _why(kk, key, vv) for kk, vv in inner.items() if _non_finite(vv)}
+                if why:
+                    out[f"{key}_why"] = why
+            else:
+                out[key] = to_jsonable(v, key)
+        return out
     if isinstance(value, (list, tuple, set)):
-        return [to_jsonable(v) for v in value]
+        return [to_jsonable(v, _parent) for v in value]
     if hasattr(value, "tolist") and not isinstance(value, (str, bytes)):  # numpy
-        return to_jsonable(value.tolist())
+        return to_jsonable(value.tolist(), _parent)
     if isinstance(value, complex):
         return [to_jsonable(value.real), to_jsonable(value.imag)]
     if isinstance(value, bool) or value is None or isinstance(value, (int, str)):
         return value
     if isinstance(value, float):
-        if math.isnan(value):
-            return None
-        if math.isinf(value):
-            return "inf" if value > 0 else "-inf"
-        return value
+        return value if math.isfinite(value) else None
     if hasattr(value, "isoformat"):
         return value.isoformat()
     if isinstance(value, Path):
@@ -36,5 +85,6 @@ def to_jsonable(value):
 
 
 def strict_json(obj) -> str:
-    """Strict JSON text (infinite values as "inf"/"-inf", NaN as null): what every parser reads."""
+    """Strict JSON text (a non-finite number as null with its ``<key>_why``): what every parser
+    reads."""
     return json.dumps(to_jsonable(obj), allow_nan=False)

@@ -129,7 +129,8 @@ def test_target_size_sweep_shows_the_sign_change(capsys):
 
 def test_json_output_is_strict_even_for_a_runaway(tmp_path, capsys):
     """A runaway puts infinite temperatures in the result; --json still parses with a strict
-    parser (RFC 8259 has no Infinity): they are written as the strings "inf" / "-inf"."""
+    parser (RFC 8259 has no Infinity): they are written as null, the reason beside them in
+    ``<key>_why``."""
     from optim.tomlwrite import dumps_toml
     from tests.conftest import demo_dict
 
@@ -140,4 +141,7 @@ def test_json_output_is_strict_even_for_a_runaway(tmp_path, capsys):
     assert main(["evaluate", str(path), "--json"]) == 0
     out = json.loads(capsys.readouterr().out, parse_constant=lambda c: pytest.fail(c))
     assert out["thermal_status"].startswith("runaway")
-    assert out["coil_temperature_C"] == "inf"
+    assert out["coil_temperature_C"] is None
+    assert out["coil_temperature_C_why"].startswith("thermal runaway")
+    assert out["margins"]["coil_temperature_C"] is None
+    assert out["margins_why"]["coil_temperature_C"].startswith("thermal runaway")

@@ -285,10 +285,15 @@ def test_non_finite_thermal_results_stay_strict_json(tmp_path):
     text = paths["handoff.json"].read_text(encoding="utf-8")
     assert "Infinity" not in text and "NaN" not in text
     data = json.loads(text)
-    assert data["predicted"]["ring_temperature_C"] == "inf"
+    assert data["predicted"]["ring_temperature_C"] is None
+    assert data["predicted"]["ring_temperature_C_why"].startswith("thermal runaway")
     assert data["predicted"]["power_factor"] is None
+    assert data["predicted"]["power_factor_why"] == "not defined for this design"
     assert data["limits"]["binding_limit"] == "ring_temperature_C"
-    assert data["limits"]["margins"] == {"ring_temperature_C": "-inf", "supply_voltage_V": 3.5}
+    assert data["limits"]["margins"] == {"ring_temperature_C": None, "supply_voltage_V": 3.5}
+    assert data["limits"]["margins_why"] == {
+        "ring_temperature_C": "thermal runaway: no steady state below the materials' limits"
+    }
 
 
 def test_verification_is_written_beside_the_hand_off(tmp_path):

@@ -13,7 +13,8 @@ The folder is what a mechanical engineer receives in the morning:
 * ``verify.txt`` - the fast model beside the FEM reference, when a verification was run.
 
 Non-finite numbers (a thermal runaway gives inf temperatures and -inf margins) are written to JSON
-as the strings ``"inf"`` / ``"-inf"`` and NaN as ``null``, so the file stays strict JSON.
+as ``null`` with their reason beside them in ``<key>_why`` (``optim.jsonout``), so the file stays
+strict JSON and every number field holds a number or null.
 """
 
 from __future__ import annotations
