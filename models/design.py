@@ -533,7 +533,7 @@ def _parse_pole(p: _Values, problems: list[str]) -> dict | None:
     return {
         "relative_permeability": float(mu_r),
         "conductivity": float(sigma),
-        "material": pole_mat,
+        "material": pole_mat if pole_mat is None else get_material(pole_mat).name,
         "saturation_flux_density": bsat,
         "lamination_thickness": lamination[0],
         "sheet_conductivity": lamination[1],
@@ -564,7 +564,7 @@ def _parse_coil(c: _Values, problems: list[str]) -> dict | None:
     return {
         "conductivity": m.conductivity,
         "temperature_coefficient": m.temperature_coefficient,
-        "material": name,
+        "material": m.name,
     }
 
 
@@ -624,7 +624,7 @@ def _conductor(table: str, t: _Values, problems: list[str], default: str | None)
         "conductivity": m.conductivity,
         "temperature_coefficient": m.temperature_coefficient,
         "density": m.density,
-        "material": name,
+        "material": m.name,
     }
 
 

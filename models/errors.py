@@ -28,6 +28,13 @@ def _one_line(text) -> str:
 
 
 def nearest(name: str, valid) -> str:
-    """A ' (did you mean X?)' suffix for the closest valid name, or ''."""
-    match = difflib.get_close_matches(name, list(valid), n=1, cutoff=0.5)
+    """A ' (did you mean X?)' suffix for the closest valid name, or '': by spelling (difflib),
+    else the one valid name that holds the given one as a part ('m400' in
+    'electrical-steel-m400'), letter case ignored."""
+    valid = list(valid)
+    match = difflib.get_close_matches(name, valid, n=1, cutoff=0.5)
+    if not match:
+        low = str(name).strip().lower()
+        parts = [v for v in valid if low and low in str(v).lower()]
+        match = parts if len(parts) == 1 else []
     return f" (did you mean {match[0]!r}?)" if match else ""

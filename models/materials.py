@@ -188,6 +188,8 @@ MATERIALS: dict[str, Material] = {
             sources={
                 "max_temperature_C": "Curie temperature of 2-3 % Si non-oriented steel about 740 degC, from memory",
                 "conductivity": "laminated: bulk eddy currents suppressed (common practice, no source)",
+                "temperature_coefficient": "0: the stack carries no bulk current (conductivity 0), "
+                "so no resistance of it varies with temperature",
                 "lamination_thickness": "grade M400-50A: the '50' is the nominal thickness 0.50 mm "
                 "(IEC 60404-8-4 grade designation)",
                 "sheet_conductivity": "resistivity about 0.42 uOhm m for this loss grade, from memory",
@@ -245,16 +247,17 @@ UNNAMED_CONDUCTOR = {"volumetric_heat_capacity": 2703.0 * 900.0, "max_temperatur
 
 
 def get_material(name: str, field_name: str = "material") -> Material:
-    """Look up a library material; unknown names raise a one-line DesignError naming the field."""
+    """Look up a library material by its name, in any letter case and with surrounding spaces
+    ignored; unknown names raise a one-line DesignError naming the field and the nearest name."""
     from models.errors import DesignError, nearest
 
-    try:
-        return MATERIALS[name]
-    except (KeyError, TypeError):
-        raise DesignError(
-            f"{field_name} = {name!r}: not in the material library; allowed: "
-            f"{', '.join(MATERIALS)}{nearest(str(name), MATERIALS)}"
-        ) from None
+    key = name.strip().lower() if isinstance(name, str) else None
+    if key in MATERIALS:
+        return MATERIALS[key]
+    raise DesignError(
+        f"{field_name} = {name!r}: not in the material library; allowed: "
+        f"{', '.join(MATERIALS)}{nearest(str(key if key is not None else name), MATERIALS)}"
+    )
 
 
 def skin_depth(frequency: float, conductivity: float, relative_permeability: float = 1.0) -> float:

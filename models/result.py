@@ -142,9 +142,15 @@ class Thermal:
         return self.temperatures_C["core"]
 
     @property
-    def ring_temperature_C(self) -> float:
-        """The ring's temperature, the face's without a ring [degC]."""
-        return self.temperatures_C.get("ring", self.temperatures_C["face"])
+    def ring_temperature_C(self) -> float | None:
+        """The ring's temperature [degC]; None without a ring (the face has its own,
+        ``face_temperature_C``)."""
+        return self.temperatures_C.get("ring")
+
+    @property
+    def face_temperature_C(self) -> float:
+        """The pole face's temperature [degC]."""
+        return self.temperatures_C["face"]
 
     @property
     def target_temperature_C(self) -> float:
@@ -210,6 +216,7 @@ FLAT_FIELDS = (
     ("electrical", "pull_cancellation"),
     ("thermal", "target_arrival_temperature_C"),
     ("thermal", "thermal_assumptions"),
+    ("thermal", "face_temperature_C"),
 )
 _GROUP_OF = {name: group for group, name in FLAT_FIELDS if group}
 

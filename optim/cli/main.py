@@ -160,6 +160,18 @@ def _parser() -> argparse.ArgumentParser:
     return p
 
 
+def _quiet_stdout() -> None:
+    """Point stdout at the null device, so that the interpreter's last flush of a closed pipe
+    does not print an error at exit."""
+    import os
+
+    try:
+        devnull = os.open(os.devnull, os.O_WRONLY)
+        os.dup2(devnull, sys.stdout.fileno())
+    except (OSError, ValueError):
+        pass
+
+
 def main(argv=None) -> int:
     args = _parser().parse_args(argv)
     try:
@@ -168,6 +180,9 @@ def main(argv=None) -> int:
         for line in err.problems:
             print(f"eddypull: error: {line}", file=sys.stderr)
         return 2
+    except BrokenPipeError:  # `eddypull ... | head`: the reader has what it wanted
+        _quiet_stdout()
+        return 0
     except OSError as err:  # a folder that cannot be made, a full disk, no permission
         where = f"{err.filename}: " if err.filename else ""
         print(f"eddypull: error: {where}{err.strerror or err}", file=sys.stderr)

@@ -141,7 +141,7 @@ def format_materials() -> str:
         ("thermal_conductivity", "thermal conductivity", "W/(m K)"),
         ("relative_permeability", "relative permeability", "-"),
         ("saturation_flux_density", "saturation flux density", "T"),
-        ("lamination_thickness", "lamination thickness", "m"),
+        ("lamination_thickness", "lamination thickness", "mm"),
         ("sheet_conductivity", "sheet conductivity", "S/m"),
     ]
     for m in MATERIALS.values():
@@ -150,7 +150,9 @@ def format_materials() -> str:
             value = getattr(m, key)
             if value is None or (key == "relative_permeability" and value == 1.0):
                 continue
-            src = m.sources.get(key, "non-magnetic metal (common practice, no source)")
+            src = m.sources.get(key, "no source recorded")
+            if key == "lamination_thickness":
+                value = value * 1e3  # files give it in mm
             rows.append(f"  {label:26s} {value:<10.4g} {unit:9s} {src}")
         rows.append("")
     return "\n".join(rows).rstrip()

@@ -393,9 +393,18 @@ def _model_results(base, params, objectives, constraints, gaps, run, study_name)
         ) from None
     flat, _, _ = results_of(base_design, gaps, isothermal=bool(run.get("isothermal", False)))
     known = sorted(flat)
+    from models.result import FLAT_FIELDS
+
+    fields = {name for _, name in FLAT_FIELDS}
     for what, items in (("objectives", objectives), ("constraints", constraints)):
         for item in items:
-            if item.name not in flat:
+            if item.name in fields and item.name not in flat:
+                why = "it has no ring" if base_design.ring is None else "the model gives none"
+                problems.append(
+                    f"{what}.{item.name}: the base design cannot have this result ({why}); "
+                    "remove it or add the part"
+                )
+            elif item.name not in flat:
                 problems.append(
                     f"{what}.{item.name}: not a result of the model{nearest(item.name, known)}; "
                     "'eddypull study results' lists them"

@@ -1,0 +1,107 @@
+"""What a newcomer reads: messages, names and units that agree everywhere.
+
+References outside the project: POSIX pipe semantics (a reader that closes early makes the
+writer's next write fail with EPIPE; a shell pipeline treats that as a normal end) and RFC 8259
+(JSON has no Infinity or NaN).
+"""
+
+from __future__ import annotations
+
+import json
+import subprocess
+import sys
+
+import pytest
+
+from models.design import design_from_dict
+from models.errors import DesignError
+from models.evaluate import evaluate
+from optim.cli import main
+from tests.conftest import DEMO, demo_dict
+
+
+def test_a_closed_pipe_is_a_normal_end():
+    # `eddypull materials | true`: the reader exits before the writer writes.
+    proc = subprocess.run(
+        f"{sys.executable} -m optim.cli materials | true; echo rc=${{PIPESTATUS[0]}}",
+        shell=True,
+        executable="/bin/bash",
+        capture_output=True,
+        text=True,
+        timeout=120,
+    )
+    assert "rc=0" in proc.stdout
+    assert "Broken pipe" not in proc.stderr and "Traceback" not in proc.stderr
+
+
+@pytest.mark.parametrize("given", ["Copper", " COPPER ", "copper"])
+def test_material_names_in_any_letter_case(given):
+    d = demo_dict()
+    d["ring"]["material"] = given
+    assert design_from_dict(d).ring.material == "copper"
+
+
+def test_a_part_of_a_material_name_suggests_the_whole():
+    d = demo_dict()
+    d["pole"]["material"] = "m400"
+    with pytest.raises(DesignError, match="did you mean 'electrical-steel-m400'"):
+        design_from_dict(d)
+
+
+def test_no_ring_no_ring_temperature(tmp_path, capsys):
+    d = demo_dict()
+    del d["ring"]
+    r = evaluate(design_from_dict(d))
+    assert r.ring_temperature_C is None and r.to_dict()["ring_temperature_C"] is None
+    assert r.face_temperature_C == r.temperatures_C["face"]
+    # A study that constrains a result its base design cannot have is refused at start.
+    from optim.tomlwrite import dumps_toml
+
+    (tmp_path / "plain.toml").write_text(dumps_toml(d), encoding="utf-8")
+    study = tmp_path / "s.toml"
+    study.write_text(
+        'name = "s"\ndesign = "plain.toml"\n[search]\nfrequency_Hz = { low = 100.0, high = 900.0 }\n'
+        '[objectives]\npull_N = "maximize"\n[constraints]\nring_temperature_C = { max = 150.0 }\n'
+        "[run]\ntrials = 2\nisothermal = true\n",
+        encoding="utf-8",
+    )
+    assert main(["study", "run", str(study), "--out", str(tmp_path / "out")]) == 2
+    err = capsys.readouterr().err.strip().splitlines()
+    assert len(err) == 1 and "constraints.ring_temperature_C" in err[0] and "no ring" in err[0]
+
+
+def test_materials_print_lamination_in_mm_and_true_sources(capsys):
+    assert main(["materials"]) == 0
+    text = capsys.readouterr().out
+    line = next(x for x in text.splitlines() if "lamination thickness" in x)
+    assert " 0.5 " in line and " mm " in line
+    assert "non-magnetic metal" not in text
+
+
+def test_json_has_numbers_or_null_with_the_reason_beside_them(tmp_path, capsys):
+    from optim.tomlwrite import dumps_toml
+
+    d = demo_dict()
+    d.pop("thermal", None)  # continuous duty at 6 A: the demo coil runs away
+    path = tmp_path / "runaway.toml"
+    path.write_text(dumps_toml(d))
+    assert main(["evaluate", str(path), "--json"]) == 0
+    out = json.loads(capsys.readouterr().out, parse_constant=lambda c: pytest.fail(c))
+
+    def numbers_or_null(v):
+        if isinstance(v, dict):
+            return all(numbers_or_null(x) for x in v.values())
+        if isinstance(v, list):
+            return all(numbers_or_null(x) for x in v)
+        return not isinstance(v, str) or v != "inf" and v != "-inf"
+
+    assert numbers_or_null(out)
+    assert out["coil_temperature_C"] is None
+    assert out["coil_temperature_C_why"].startswith("thermal runaway")
+    for table in ("margins", "time_to_limit_s", "temperatures_C"):
+        for key, why in out.get(f"{table}_why", {}).items():
+            assert out[table][key] is None and why
+
+
+def test_demo_design_file_is_where_the_tests_expect():
+    assert DEMO.exists()
