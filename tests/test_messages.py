@@ -105,3 +105,32 @@ def test_json_has_numbers_or_null_with_the_reason_beside_them(tmp_path, capsys):
 
 def test_demo_design_file_is_where_the_tests_expect():
     assert DEMO.exists()
+
+
+def test_sweep_reads_start_dot_dot_stop_with_points(capsys):
+    assert (
+        main(["evaluate", str(DEMO), "--isothermal", "--sweep", "gap_mm=1..3", "--points", "3"])
+        == 0
+    )
+    lines = capsys.readouterr().out.strip().splitlines()
+    assert lines[0].split() == [
+        "gap_mm",
+        "pull_mN",
+        "target_loss_W",
+        "ring_loss_W",
+        "coil_voltage_V",
+        "lift_ratio",
+        "core_peak_flux_density_T",  # the JSON name; the pull column says it is in mN
+    ]
+    assert [float(x.split()[0]) for x in lines[1:4]] == [1.0, 2.0, 3.0]
+
+
+def test_sweep_points_default_and_the_old_form_warns(capsys):
+    from optim.morning.sweep import DEFAULT_POINTS, parse_sweep
+
+    key, values, note = parse_sweep("gap_mm=0.5..2")
+    assert key == "gap_mm" and len(values) == DEFAULT_POINTS == 25 and note is None
+    assert values[0] == 0.5 and values[-1] == 2.0
+    assert main(["evaluate", str(DEMO), "--isothermal", "--sweep", "gap_mm=1:3:2"]) == 0
+    err = capsys.readouterr().err
+    assert "deprecated" in err and "--sweep gap_mm=1..3 --points 2" in err

@@ -28,8 +28,10 @@ def _cmd_evaluate(args) -> int:
     if args.sweep:
         from optim.morning.sweep import format_sweep, parse_sweep, plot_sweep, run_sweep
 
-        key, values = parse_sweep(args.sweep)
+        key, values, note = parse_sweep(args.sweep, args.points)
         rows = run_sweep(design, key, values, isothermal=args.isothermal)
+        if note:  # once the sweep ran: a failing one shows only its error
+            print(f"eddypull: note: {note}", file=sys.stderr)
         if args.json:
             print(strict_json({"key": key, "rows": [{key: v, **r.to_dict()} for v, r in rows]}))
         else:
@@ -40,7 +42,9 @@ def _cmd_evaluate(args) -> int:
                 print(f"plot written to {args.plot}")
         return 0
     if args.plot:
-        raise UsageError("--plot: needs --sweep KEY=START:STOP:COUNT")
+        raise UsageError("--plot: needs --sweep KEY=START..STOP")
+    if args.points is not None:
+        raise UsageError(f"--points {args.points}: needs --sweep KEY=START..STOP")
     result = evaluate(design, isothermal=args.isothermal)
     if args.json:
         print(strict_json(result.to_dict()))
@@ -131,7 +135,17 @@ def _parser() -> argparse.ArgumentParser:
     e.add_argument("design", help="design TOML file")
     e.add_argument("--json", action="store_true", help="print one JSON object")
     e.add_argument("--isothermal", action="store_true", help="resistivities at 20 degC, uncoupled")
-    e.add_argument("--sweep", metavar="KEY=START:STOP:COUNT", help="sweep one numeric key")
+    e.add_argument(
+        "--sweep",
+        metavar="KEY=START..STOP",
+        help="sweep one numeric key from START to STOP (both included)",
+    )
+    e.add_argument(
+        "--points",
+        type=int,
+        metavar="N",
+        help="values of the sweep, evenly spaced (default 25)",
+    )
     e.add_argument("--plot", metavar="PNG", help="with --sweep: plot pull against the key")
     e.set_defaults(func=_cmd_evaluate)
 

@@ -16,28 +16,52 @@ COLUMNS = [
     ("ring_loss_W", "ring_loss_W", 1.0),
     ("coil_voltage_V", "coil_voltage_V", 1.0),
     ("lift_ratio", "lift_ratio", 1.0),
-    ("core_peak_flux_density_T", "B_peak_T", 1.0),
+    ("core_peak_flux_density_T", "core_peak_flux_density_T", 1.0),
 ]
+#: Points of a sweep when --points is not given (as for pick maps).
+DEFAULT_POINTS = 25
 
 
-def parse_sweep(text: str):
-    """'gap_mm=0.2:4:30' -> ("gap_mm", array of 30 values from 0.2 to 4)."""
+def parse_sweep(text: str, points: int | None = None):
+    """'gap_mm=0.2..4' (with ``points`` values, default DEFAULT_POINTS) -> ("gap_mm", values).
+
+    The older 'gap_mm=0.2:4:30' (START:STOP:COUNT) still reads, for one release: it returns a
+    third item, the deprecation line to show (None for the new form).
+    """
     key, sep, rng = text.partition("=")
-    parts = rng.split(":")
-    if not sep or not key or len(parts) != 3:
-        raise DesignError(f"--sweep {text!r}: must be KEY=START:STOP:COUNT, e.g. gap_mm=0.2:4:30")
+    usage = (
+        f"--sweep {text!r}: must be KEY=START..STOP (e.g. gap_mm=0.2..4 --points 30); the "
+        "older form must be KEY=START:STOP:COUNT"
+    )
+    note = None
+    if sep and key and ".." in rng:
+        parts = rng.split("..")
+        if len(parts) != 2:
+            raise DesignError(usage)
+        count = DEFAULT_POINTS if points is None else points
+    elif sep and key and len(rng.split(":")) == 3:
+        parts = rng.split(":")[:2]
+        try:
+            count = int(rng.split(":")[2])
+        except ValueError:
+            raise DesignError(
+                f"--sweep {text!r}: START and STOP must be numbers and COUNT a whole number"
+            ) from None
+        note = (
+            f"--sweep {text}: START:STOP:COUNT is deprecated and goes in the next release; "
+            f"write --sweep {key}={parts[0]}..{parts[1]} --points {count}"
+        )
+    else:
+        raise DesignError(usage)
     try:
         start, stop = float(parts[0]), float(parts[1])
-        count = int(parts[2])
     except ValueError:
-        raise DesignError(
-            f"--sweep {text!r}: START and STOP must be numbers and COUNT a whole number"
-        ) from None
+        raise DesignError(f"--sweep {text!r}: START and STOP must be numbers") from None
     if not (np.isfinite(start) and np.isfinite(stop)):
         raise DesignError(f"--sweep {text!r}: START and STOP must be finite numbers")
     if count < 2 or count > 10_000:
-        raise DesignError(f"--sweep {text!r}: COUNT = {count} must be between 2 and 10000")
-    return key.strip(), np.linspace(start, stop, count)
+        raise DesignError(f"--points = {count}: must be between 2 and 10000")
+    return key.strip(), np.linspace(start, stop, count), note
 
 
 def run_sweep(design, key: str, values, isothermal=True):
@@ -55,11 +79,15 @@ def run_sweep(design, key: str, values, isothermal=True):
 
 def format_sweep(key: str, rows) -> str:
     """The sweep as a table; each warning once below it, with the values it applies to."""
-    head = f"{key:>14s} " + " ".join(f"{c[1]:>14s}" for c in COLUMNS)
+    widths = [max(14, len(c[1])) for c in COLUMNS]
+    head = f"{key:>14s} " + " ".join(f"{c[1]:>{w}s}" for c, w in zip(COLUMNS, widths, strict=True))
     lines = [head]
     warned: dict[str, list[float]] = {}
     for v, r in rows:
-        lines.append(f"{v:14.5g} " + " ".join(f"{getattr(r, a) * s:14.5g}" for a, _, s in COLUMNS))
+        cells = (
+            f"{getattr(r, a) * s:{w}.5g}" for (a, _, s), w in zip(COLUMNS, widths, strict=True)
+        )
+        lines.append(f"{v:14.5g} " + " ".join(cells))
         for w in r.warnings:
             warned.setdefault(w.split(":")[0], []).append(v)
     for what, values in warned.items():
