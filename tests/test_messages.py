@@ -134,3 +134,30 @@ def test_sweep_points_default_and_the_old_form_warns(capsys):
     assert main(["evaluate", str(DEMO), "--isothermal", "--sweep", "gap_mm=1:3:2"]) == 0
     err = capsys.readouterr().err
     assert "deprecated" in err and "--sweep gap_mm=1..3 --points 2" in err
+
+
+def test_a_study_without_a_feasible_design_says_which_constraint_and_by_how_much(tmp_path, capsys):
+    from tests.conftest import DEMO as demo
+
+    study = tmp_path / "tight.toml"
+    study.write_text(
+        f'name = "tight"\ndesign = "{demo.as_posix()}"\n'
+        "[search]\nfrequency_Hz = { low = 100.0, high = 900.0 }\n"
+        '[objectives]\npull_N = "maximize"\n[constraints]\ncoil_voltage_V = { max = 1.0 }\n'
+        '[run]\ntrials = 3\nisothermal = true\nsampler = "random"\n',
+        encoding="utf-8",
+    )
+    out = str(tmp_path / "out")
+    assert main(["study", "run", str(study), "--out", out]) == 0
+    capsys.readouterr()
+    assert main(["study", "status", out]) == 0
+    text = capsys.readouterr().out
+    assert "constraint coil_voltage_V: rejected 3 done trials; best margin -" in text
+    assert main(["study", "export", out, "--best", "pull_N"]) == 2
+    err = capsys.readouterr().err
+    assert "no feasible design yet (constraint coil_voltage_V: rejected 3" in err
+    # The tables people read say "done", the storage keeps its own names.
+    assert main(["study", "front", out]) == 0
+    trials = (tmp_path / "out" / "trials.csv").read_text(encoding="utf-8")
+    assert ",done," in trials and "COMPLETE" not in trials
+    assert "warning_count" in trials.splitlines()[0]

@@ -38,7 +38,9 @@ def test_front_files_hold_exactly_the_feasible_non_dominated_trials(finished, ca
     expected = {t.number for t in study.best_trials}
     front = pd.read_csv(finished / "front.csv")
     assert set(front["trial"]) == expected
-    assert front["feasible"].all() and (front["state"] == "COMPLETE").all()
+    assert (
+        front["feasible"].all() and (front["state"] == "done").all()
+    )  # our words, not the storage's
     parquet = pd.read_parquet(finished / "front.parquet")
     assert list(parquet["trial"]) == list(front["trial"])
     for column in (
@@ -48,7 +50,7 @@ def test_front_files_hold_exactly_the_feasible_non_dominated_trials(finished, ca
         "frequency_Hz",
         "pole_radius_mm",
         "ring_temperature_C",
-        "margin:core_flux_fraction",
+        "constraint_margin.core_flux_fraction",
     ):
         assert column in front.columns
     html = (finished / "report.html").read_text(encoding="utf-8")

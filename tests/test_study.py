@@ -108,14 +108,14 @@ def test_multi_objective_front_is_feasible_and_non_dominated(tmp_path):
     front = df[df["on_front"]]
     assert len(front) >= 1
     assert front["feasible"].all() and (front["state"] == "COMPLETE").all()
-    assert (front["margin:coil_voltage_V"] >= 0).all()
+    assert (front["constraint_margin.coil_voltage_V"] >= 0).all()
     values = front[["pull_N", "input_power_W"]].to_numpy(float)
     assert pareto_mask(values, ["maximize", "minimize"]).all()
     # Reference: optuna's own constrained Pareto front of the same stored trials.
     assert set(front["trial"]) == {t.number for t in study.best_trials}
     # Infeasible trials are kept with their margins, never on the front.
     infeasible = df[(df["state"] == "COMPLETE") & ~df["feasible"]]
-    assert (infeasible["margin:coil_voltage_V"] < 0).all()
+    assert (infeasible["constraint_margin.coil_voltage_V"] < 0).all()
     assert not infeasible["on_front"].any()
 
 

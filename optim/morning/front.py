@@ -5,7 +5,9 @@ Columns of the trials table (units in the names): ``trial``, ``state``, ``feasib
 (``frequency_Hz``, ``ring_outer_fraction``...); the trial design's main dimensions
 (``pole_radius_mm``, ``ring_inner_radius_mm``, ``ring_outer_radius_mm``, ``ring_depth_mm``,
 ``gap_mm``, ``target_radius_mm``, ``frequency_Hz``, ``turns``, ``current_A`` or ``voltage_V``);
-every flat result (``pull_N``, ``ring_temperature_C``, ...); and ``margin:<constraint>``.
+every flat result (``pull_N``, ``ring_temperature_C``, ...; ``margins.<limit>`` is the margin to
+a physical limit); ``constraint_margin.<constraint>`` (the margin to the study's own constraint,
+positive = met); ``warning_count`` and ``warnings`` (the model's warnings, " | " between them).
 
 The front is the set of feasible COMPLETE trials that no other feasible COMPLETE trial
 dominates (at least as good in every objective and better in one). Failed and infeasible trials
@@ -21,7 +23,34 @@ import pandas as pd
 
 from optim.study.engine import RESULT_NAMES_ATTR, record_of
 
-__all__ = ["trials_table", "pareto_mask", "status_summary", "format_status", "DIMENSIONS"]
+__all__ = [
+    "DIMENSIONS",
+    "STATE_WORDS",
+    "format_status",
+    "for_people",
+    "pareto_mask",
+    "status_summary",
+    "trials_table",
+]
+
+#: The storage's trial states in the words the tables and the report use.
+STATE_WORDS = {
+    "COMPLETE": "done",
+    "FAIL": "failed",
+    "PRUNED": "pruned",
+    "RUNNING": "running",
+    "WAITING": "waiting",
+}
+
+
+def for_people(df: pd.DataFrame) -> pd.DataFrame:
+    """The trials table as written for people (CSV, report): states in our words."""
+    if "state" not in df or df.empty:
+        return df
+    out = df.copy()
+    out["state"] = out["state"].map(lambda s: STATE_WORDS.get(s, str(s).lower()))
+    return out
+
 
 #: Design dimensions shown for every trial: column -> (table, key).
 DIMENSIONS = {
@@ -104,7 +133,10 @@ def trials_table(study, spec_json: dict) -> pd.DataFrame:
         for name, value in zip(names, results, strict=False):
             row[name] = value
         for c in constraints:
-            row[f"margin:{c}"] = ua.get("margins", {}).get(c, math.nan)
+            row[f"constraint_margin.{c}"] = ua.get("margins", {}).get(c, math.nan)
+        warnings = [str(w) for w in ua.get("warnings") or []]
+        row["warning_count"] = len(warnings)
+        row["warnings"] = " | ".join(warnings)
         rows.append(row)
     df = pd.DataFrame(rows)
     if df.empty:
@@ -140,6 +172,16 @@ def status_summary(study, spec_json: dict, table: pd.DataFrame | None = None) ->
             best[name] = float(col.max() if direction == "maximize" else col.min())
         else:
             best[name] = None
+    rejected = {}
+    for c in spec_json.get("constraints", {}):
+        col = f"constraint_margin.{c}"
+        if n and col in df:
+            margins = df.loc[df["state"] == "COMPLETE", col].astype(float)
+            finite = margins[np.isfinite(margins)]
+            rejected[c] = {
+                "rejected": int((margins < 0).sum() + (~np.isfinite(margins)).sum()),
+                "best_margin": float(finite.max()) if len(finite) else None,
+            }
     reasons = {}
     if n:
         for r in df.loc[df["state"] == "FAIL", "reason"]:
@@ -159,6 +201,7 @@ def status_summary(study, spec_json: dict, table: pd.DataFrame | None = None) ->
         "front_size": int(df["on_front"].sum()) if n else 0,
         "best": best,
         "failure_reasons": reasons,
+        "constraints": rejected,
         "objectives": dict(objectives),
     }
 
@@ -166,7 +209,7 @@ def status_summary(study, spec_json: dict, table: pd.DataFrame | None = None) ->
 def format_status(s: dict, where: str) -> str:
     lines = [
         f"study {s['name']} ({where})",
-        f"  trials      {s['trials']} ({s['complete']} complete, {s['failed']} failed, "
+        f"  trials      {s['trials']} ({s['complete']} done, {s['failed']} failed, "
         f"{s['running']} running)",
         f"  feasible    {s['feasible']} ({100 * s['feasible_share']:.1f} % of finished)",
         f"  rate        {s['rate_per_s']:.2f} trials/s between {s['first']} and {s['last']}",
@@ -177,4 +220,18 @@ def format_status(s: dict, where: str) -> str:
         lines.append(f"  best {name:24s} {'-' if b is None else format(b, '.5g')} ({direction})")
     for reason, count in sorted(s["failure_reasons"].items(), key=lambda kv: -kv[1]):
         lines.append(f"  failed: {reason:20s} {count}")
+    lines += constraint_lines(s)
     return "\n".join(lines)
+
+
+def constraint_lines(s: dict) -> list[str]:
+    """Which constraint rejected how many done trials, and the best margin any reached: the
+    reason a study has no feasible design yet."""
+    out = []
+    for name, c in (s.get("constraints") or {}).items():
+        if c["rejected"]:
+            best = "-" if c["best_margin"] is None else format(c["best_margin"], "+.4g")
+            out.append(
+                f"  constraint {name}: rejected {c['rejected']} done trials; best margin {best}"
+            )
+    return out

@@ -15,7 +15,7 @@ from pathlib import Path
 
 from models.errors import DesignError
 from optim.files import atomic_path, atomic_write_text
-from optim.morning.front import status_summary, trials_table
+from optim.morning.front import for_people, status_summary, trials_table
 
 __all__ = ["write_front", "export_trial", "pick_trial", "design_of"]
 
@@ -132,10 +132,10 @@ def write_front(study, spec_json: dict, where: str, folder: Path, echo=print) ->
         front = front.sort_values(first, ascending=direction == "minimize")
     paths: dict[str, Path] = {}
     csv = io.StringIO()
-    front.to_csv(csv, index=False)
+    for_people(front).to_csv(csv, index=False)
     paths["front.csv"] = atomic_write_text(folder / "front.csv", csv.getvalue())
     all_csv = io.StringIO()
-    df.to_csv(all_csv, index=False)
+    for_people(df).to_csv(all_csv, index=False)
     paths["trials.csv"] = atomic_write_text(folder / "trials.csv", all_csv.getvalue())
     with atomic_path(folder / "front.parquet") as tmp:
         front.reset_index(drop=True).to_parquet(tmp, index=False)
@@ -170,7 +170,7 @@ def write_front(study, spec_json: dict, where: str, folder: Path, echo=print) ->
         }
     )
     notes = _notes(spec, df, front, designs[0][1] if designs else None)
-    report = write_report(folder, summary, front, pngs, binding_counts(front), notes)
+    report = write_report(folder, summary, for_people(front), pngs, binding_counts(front), notes)
     paths["report.html"] = Path(report)
     lines = [
         f"study {spec.name}: {len(df)} trials, {int(df['feasible'].sum()) if len(df) else 0} "
@@ -217,7 +217,13 @@ def pick_trial(study, spec_json: dict, trial: int | None, best: str | None):
     df = trials_table(study, spec_json)
     front = df[df["on_front"]] if not df.empty else df
     if front.empty:
-        raise DesignError(f"--best {best}: the study has no feasible design yet")
+        from optim.morning.front import constraint_lines, status_summary
+
+        why = [x.strip() for x in constraint_lines(status_summary(study, spec_json, df))]
+        raise DesignError(
+            f"--best {best}: the study has no feasible design yet"
+            + (f" ({'; '.join(why)})" if why else "")
+        )
     col = front[best].astype(float)
     idx = col.idxmax() if objectives[best] == "maximize" else col.idxmin()
     return trials[int(front.loc[idx, "trial"])]
