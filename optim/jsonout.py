@@ -30,6 +30,14 @@ def _why(key: str, parent: str, value: float) -> str:
     return "+infinity" if sign == "inf" else "-infinity"
 
 
+def _numeric_table(d: dict) -> bool:
+    """A table of numbers only (margins, times to limit): its values stay numbers or null."""
+    return all(
+        isinstance(_scalar(v), (int, float)) and not isinstance(_scalar(v), bool)
+        for v in d.values()
+    )
+
+
 def _non_finite(v) -> bool:
     return isinstance(v, float) and not math.isfinite(v)
 
@@ -42,9 +50,10 @@ def _scalar(v):
 
 
 def to_jsonable(value, _parent: str = ""):
-    """Strict-JSON copy: a non-finite number -> null, with its reason beside it in ``<key>_why``
-    (a table's in ``<table>_why``: ``"time_to_limit_s": {"ring": null}, "time_to_limit_s_why":
-    {"ring": "never: ..."}``); a non-finite number in a list -> null;
+    """Strict-JSON copy: a non-finite number -> null, with its reason beside it in ``<key>_why``;
+    in a table of numbers only (margins, times to limit) beside the table, in ``<table>_why``
+    (``"time_to_limit_s": {"ring": null}, "time_to_limit_s_why": {"ring": "never: ..."}``), so
+    that the table holds numbers or null; a non-finite number in a list -> null;
     complex -> [re, im], numpy scalars and arrays -> Python, times -> ISO 8601, paths -> str.
     CSV files keep inf / -inf, which pandas reads as numbers."""
     if isinstance(value, dict):
@@ -55,7 +64,7 @@ def to_jsonable(value, _parent: str = ""):
             if _non_finite(v):
                 out[key] = None
                 out[f"{key}_why"] = _why(key, _parent, v)
-            elif isinstance(v, dict):
+            elif isinstance(v, dict) and _numeric_table(v):
                 inner = {str(kk): _scalar(vv) for kk, vv in v.items()}
                 out[key] = {
                     kk: None if _non_finite(vv) else to_jsonable(vv, key)
