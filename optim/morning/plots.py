@@ -137,37 +137,7 @@ def plot_front_pairs(trials: pd.DataFrame, objectives, out_dir) -> list[Path]:
     values = {n: column(trials, n) for n, _ in objectives}
     paths: list[Path] = []
     if len(objectives) == 1:
-        name, direction = objectives[0]
-        y = values[name]
-        x = trials["trial"].to_numpy() if "trial" in trials else np.arange(len(trials))
-        fig = Figure(figsize=(7, 4.5))
-        ax = fig.subplots()
-        groups = [(complete & ~feasible, "infeasible", "x", 0.35), (feasible, "feasible", "o", 0.6)]
-        for mask, what, marker, alpha in groups:
-            ax.plot(
-                x[mask],
-                y[mask],
-                marker,
-                ls="",
-                color=_FAINT["infeasible" if what == "infeasible" else "dominated"],
-                alpha=alpha,
-                label=f"{what} ({mask.sum()})",
-            )
-        if feasible.any():
-            order = np.argsort(x[feasible], kind="stable")
-            yf = y[feasible][order]
-            best = np.fmax.accumulate(yf) if direction == "maximize" else np.fmin.accumulate(yf)
-            ax.step(
-                x[feasible][order], best, where="post", color=_FAINT["front"], label="best so far"
-            )
-        if _is_lift_ratio(name):
-            ax.axhline(1.0, **_LIFT_LINE)
-        ax.set_xlabel("trial number")
-        ax.set_ylabel(_label(name, direction))
-        _finish(
-            ax, fig, f"{_stem_words(name)} over the study; {n_fail} failed or unfinished not shown"
-        )
-        return _save(fig, out_dir, f"front_{name}")
+        return _one_objective(trials, objectives[0], values, n_fail, out_dir)
     names = [n for n, _ in objectives]
     for i in range(len(objectives)):
         for j in range(i + 1, len(objectives)):
@@ -211,6 +181,39 @@ def plot_front_pairs(trials: pd.DataFrame, objectives, out_dir) -> list[Path]:
             _finish(ax, fig, f"{title}: {n_fail} failed or unfinished not shown{note}")
             paths += _save(fig, out_dir, f"front_{a}__{b}")
     return paths
+
+
+def _one_objective(trials, objective, values, n_fail: int, out_dir) -> list[Path]:
+    """The front plot of a one-objective study: the objective against the trial number, with
+    its best-so-far line."""
+    name, direction = objective
+    complete, feasible, _ = trial_flags(trials)
+    y = values[name]
+    x = trials["trial"].to_numpy() if "trial" in trials else np.arange(len(trials))
+    fig = Figure(figsize=(7, 4.5))
+    ax = fig.subplots()
+    groups = [(complete & ~feasible, "infeasible", "x", 0.35), (feasible, "feasible", "o", 0.6)]
+    for mask, what, marker, alpha in groups:
+        ax.plot(
+            x[mask],
+            y[mask],
+            marker,
+            ls="",
+            color=_FAINT["infeasible" if what == "infeasible" else "dominated"],
+            alpha=alpha,
+            label=f"{what} ({mask.sum()})",
+        )
+    if feasible.any():
+        order = np.argsort(x[feasible], kind="stable")
+        yf = y[feasible][order]
+        best = np.fmax.accumulate(yf) if direction == "maximize" else np.fmin.accumulate(yf)
+        ax.step(x[feasible][order], best, where="post", color=_FAINT["front"], label="best so far")
+    if _is_lift_ratio(name):
+        ax.axhline(1.0, **_LIFT_LINE)
+    ax.set_xlabel("trial number")
+    ax.set_ylabel(_label(name, direction))
+    _finish(ax, fig, f"{_stem_words(name)} over the study; {n_fail} failed or unfinished not shown")
+    return _save(fig, out_dir, f"front_{name}")
 
 
 def _finish(ax, fig: Figure, title: str) -> None:
@@ -308,36 +311,44 @@ def plot_parameter_coupling(
     _finish(ax, fig, f"parameters along the front ({len(front)} designs)")
     paths = _save(fig, out_dir, "coupling_parallel")
     if 2 <= len(params) <= 6 and len(front) >= 2:
-        n = len(params)
-        fig = Figure(figsize=(2.2 * n, 2.2 * n))
-        axes = np.asarray(fig.subplots(n, n, squeeze=False))
-        for i in range(n):
-            for j in range(n):
-                a = axes[i, j]
-                if j > i:
-                    a.axis("off")
-                elif j == i:
-                    bins = 10
-                    if is_log[i]:
-                        bins = 10.0 ** np.histogram_bin_edges(axis[finite[:, i], i], 10)
-                    a.hist(data[finite[:, i], i], bins=bins, color="0.6")
-                else:
-                    a.scatter(
-                        data[:, j], data[:, i], s=10, c=colours if colours else "tab:red", alpha=0.8
-                    )
-                    if is_log[i]:
-                        a.set_yscale("log")
-                if is_log[j]:
-                    a.set_xscale("log")
-                if i == n - 1:
-                    a.set_xlabel(words(params[j]), fontsize=8)
-                if j == 0 and i > 0:
-                    a.set_ylabel(words(params[i]), fontsize=8)
-                a.tick_params(labelsize=7)
+        fig = _scatter_matrix(params, data, axis, is_log, colours)
         fig.suptitle(f"parameter coupling across the front ({len(front)} designs)", fontsize=9)
         fig.tight_layout()
         paths += _save(fig, out_dir, "coupling_matrix")
     return paths
+
+
+def _scatter_matrix(params, data, axis, is_log, colours) -> Figure:
+    """The scatter matrix of the coupling plot: each parameter against each other one below the
+    diagonal, its spread on the diagonal, log axes for the log-scaled ones."""
+    n = len(params)
+    finite = np.isfinite(axis)
+    fig = Figure(figsize=(2.2 * n, 2.2 * n))
+    axes = np.asarray(fig.subplots(n, n, squeeze=False))
+    for i in range(n):
+        for j in range(n):
+            a = axes[i, j]
+            if j > i:
+                a.axis("off")
+            elif j == i:
+                bins = 10
+                if is_log[i]:
+                    bins = 10.0 ** np.histogram_bin_edges(axis[finite[:, i], i], 10)
+                a.hist(data[finite[:, i], i], bins=bins, color="0.6")
+            else:
+                a.scatter(
+                    data[:, j], data[:, i], s=10, c=colours if colours else "tab:red", alpha=0.8
+                )
+                if is_log[i]:
+                    a.set_yscale("log")
+            if is_log[j]:
+                a.set_xscale("log")
+            if i == n - 1:
+                a.set_xlabel(words(params[j]), fontsize=8)
+            if j == 0 and i > 0:
+                a.set_ylabel(words(params[i]), fontsize=8)
+            a.tick_params(labelsize=7)
+    return fig
 
 
 def _g(x) -> str:
