@@ -209,6 +209,7 @@ class _Checker(HTMLParser):
         super().__init__()
         self.stack, self.errors, self.rows, self.imgs, self.scripts = [], [], [], [], 0
         self._in_front, self._row = False, None
+        self.heads, self.units, self._tr, self._th = [], [], 0, None  # the front's heading rows
 
     def handle_starttag(self, tag, attrs):
         a = dict(attrs)
@@ -220,14 +221,22 @@ class _Checker(HTMLParser):
             self._in_front = True
         if self._in_front and tag == "tr":
             self._row = []
+        self._tr += self._in_front and tag == "tr"
+        self._th = "" if self._in_front and tag == "th" else None
         if self._in_front and tag == "td" and self._row is not None:
             self._row.append(a.get("data-v"))
         if tag not in self.VOID:
             self.stack.append(tag)
 
+    def handle_data(self, data):
+        if self._th is not None:
+            self._th += data
+
     def handle_endtag(self, tag):
         if tag in self.VOID:
             return
+        if tag == "th" and self._th is not None and self._tr in (1, 2):
+            (self.heads, self.units)[self._tr - 1].append(self._th)
         if not self.stack or self.stack[-1] != tag:
             self.errors.append(f"</{tag}> closes {self.stack[-1:]}")
             return
@@ -263,8 +272,24 @@ def test_report_holds_every_front_row_and_is_valid_html(tmp_path):
         "feasible": 20,
         "rate_per_h": 93.3,
     }
-    path = write_report(tmp_path, summary, front, pngs, {"ring_temperature_C": 4}, [hostile])
+    path = write_report(
+        tmp_path,
+        summary,
+        front,
+        pngs,
+        {"ring_temperature_C": 4},
+        [hostile],
+        objectives=OBJECTIVES,
+        params=PARAMS,
+        picks=[("best pull_N", int(front["trial"].iloc[0])), ("knee of the front", 10**6)],
+    )
     html_doc = _parse(path)
+    # The answer first: trial, objectives, searched parameters; the units under them; the
+    # bookkeeping last.
+    assert html_doc.heads[:6] == ["trial", "pull_N", "input_power_W", *PARAMS]
+    assert html_doc.units[:6] == ["", "N", "W", "Hz", "mm", "-"]
+    assert html_doc.heads[-5:] == ["state", "feasible", "on_front", "completed_at", "reason"]
+    assert html_doc.units[html_doc.heads.index("completed_at")] == "UTC"
     assert html_doc.scripts == 1  # only the sorting script: user text is escaped
     assert len(html_doc.imgs) == len(pngs) and all(
         s.startswith("data:image/png;base64,") for s in html_doc.imgs
@@ -273,9 +298,14 @@ def test_report_holds_every_front_row_and_is_valid_html(tmp_path):
     assert len(html_doc.rows) == len(front)
     for row, (_, expected) in zip(html_doc.rows, front.iterrows(), strict=True):
         assert float(row[0]) == expected["trial"]
-        assert float(row[list(front.columns).index("pull_N")]) == expected["pull_N"]
+        assert float(row[html_doc.heads.index("pull_N")]) == expected["pull_N"]
     text = path.read_text(encoding="utf-8")
     assert "feasible share" in text and "28.6 %" in text  # 20 of 70 complete trials
+    # One card (trial 10**6 is not on the front): the picked trial with its frequency and pull.
+    assert text.count('class="card"') == 1 and text.index("Picks") < text.index("Summary")
+    best = front.iloc[0]
+    assert f"Trial {best['trial']}: best pull_N" in text
+    assert f"{best['ring_depth_mm']:.2f} mm" in text and f"{1e3 * best['pull_N']:.4g} mN" in text
     for word in ("hot", "mains", "implant", "licensed professional", "local codes"):
         assert word in text
     assert "http://" not in text and "https://" not in text  # self-contained

@@ -33,18 +33,17 @@ def design_of(spec, params: dict):
     return build_design(spec.base, spec.params, params, spec.name)
 
 
-def _picked(front, objectives: dict, limit: int = 3) -> list[int]:
-    """Front trials worth a closer look: the best in each objective, then the knee (closest to
-    the ideal point in normalised objectives), at most ``limit``."""
-    picked: list[int] = []
+def _picks(front, objectives: dict) -> list[tuple[str, int]]:
+    """Front trials worth a closer look, each with why: the best in each objective, then the
+    knee (closest to the ideal point in normalised objectives); a trial picked twice is listed
+    once with both reasons."""
+    picks: dict[int, list[str]] = {}
     if front.empty:
-        return picked
+        return []
     for name, direction in objectives.items():
         col = front[name].astype(float)
         idx = col.idxmax() if direction == "maximize" else col.idxmin()
-        t = int(front.loc[idx, "trial"])
-        if t not in picked:
-            picked.append(t)
+        picks.setdefault(int(front.loc[idx, "trial"]), []).append(f"best {name}")
     if len(objectives) > 1 and len(front) > 2:
         dist = 0.0
         for name, direction in objectives.items():
@@ -52,10 +51,8 @@ def _picked(front, objectives: dict, limit: int = 3) -> list[int]:
             span = (col.max() - col.min()) or 1.0
             best = col.max() if direction == "maximize" else col.min()
             dist = dist + ((col - best) / span) ** 2
-        t = int(front.loc[dist.idxmin(), "trial"])
-        if t not in picked:
-            picked.append(t)
-    return picked[:limit]
+        picks.setdefault(int(front.loc[dist.idxmin(), "trial"]), []).append("knee of the front")
+    return [(", ".join(why), t) for t, why in picks.items()]
 
 
 def _notes(spec, df, front, design=None) -> list[str]:
@@ -148,8 +145,12 @@ def write_front(study, spec_json: dict, where: str, folder: Path, echo=print) ->
         images += plots.plot_front_pairs(df, pairs, plot_dir)
         images += plots.plot_front_progress(df, pairs, plot_dir)
     if len(front):
-        images += plots.plot_parameter_coupling(front, [p.name for p in spec.params], plot_dir)
-    picked = _picked(front, objectives)
+        log = [p.name for p in spec.params if p.log]
+        images += plots.plot_parameter_coupling(
+            front, [p.name for p in spec.params], plot_dir, log=log
+        )
+    picks = _picks(front, objectives)
+    picked = [t for _, t in picks][:3]  # the first three get a pull-against-gap curve
     designs = []
     for t in picked:
         row = front[front["trial"] == t].iloc[0]
@@ -158,7 +159,7 @@ def write_front(study, spec_json: dict, where: str, folder: Path, echo=print) ->
     if designs:
         images += plots.plot_pull_vs_gap(designs, plot_dir, isothermal=isothermal)
         images += plots.plot_section(designs[0][1], plot_dir, designs[0][0])
-    pngs = [p for p in images if Path(p).suffix == ".png"]
+    pngs = [(p, plots.caption_for(p, pairs)) for p in images if Path(p).suffix == ".png"]
     summary = status_summary(study, spec_json, df)
     summary.update(
         {
@@ -170,7 +171,17 @@ def write_front(study, spec_json: dict, where: str, folder: Path, echo=print) ->
         }
     )
     notes = _notes(spec, df, front, designs[0][1] if designs else None)
-    report = write_report(folder, summary, for_people(front), pngs, binding_counts(front), notes)
+    report = write_report(
+        folder,
+        summary,
+        for_people(front),
+        pngs,
+        binding_counts(front),
+        notes,
+        objectives=pairs,
+        params=[p.name for p in spec.params],
+        picks=picks,
+    )
     paths["report.html"] = Path(report)
     lines = [
         f"study {spec.name}: {len(df)} trials, {int(df['feasible'].sum()) if len(df) else 0} "

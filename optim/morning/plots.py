@@ -24,6 +24,7 @@ from matplotlib.figure import Figure
 from models.errors import DesignError
 from optim.files import atomic_path, safe_child
 from optim.morning.dxf import section_mm
+from optim.morning.handoff import unit_of
 from optim.study.progress import check_objectives, column, front_history, trial_flags
 
 __all__ = [
@@ -33,6 +34,9 @@ __all__ = [
     "plot_pull_vs_gap",
     "plot_section",
     "front_history",
+    "words",
+    "caption_for",
+    "duration_words",
 ]
 
 _FAINT = {"infeasible": "0.55", "dominated": "tab:blue", "front": "tab:red"}
@@ -56,8 +60,57 @@ def _save(fig: Figure, out_dir, stem: str) -> list[Path]:
     return paths
 
 
+def _split_unit(name: str) -> tuple[str, str]:
+    """``ring_loss_W`` -> (``ring_loss``, ``W``): the name without its unit suffix and the unit
+    (`optim.morning.handoff.unit_of`; ``-`` for a plain number)."""
+    unit = unit_of(name)
+    parts = name.split("_")
+    if unit not in ("-", ""):
+        for k in range(1, len(parts)):
+            if unit_of("x_" + "_".join(parts[-k:])) == unit:
+                return "_".join(parts[:-k]), unit
+    return name, unit
+
+
+def words(name: str) -> str:
+    """A column name in words with its unit: ``worst_lift_ratio`` -> ``worst lift ratio [-]``,
+    ``input_power_W`` -> ``input power [W]``, ``margins.ring_temperature_C`` -> ``margin to
+    ring temperature [degC]``."""
+    name = str(name)
+    prefix = ""
+    for head, say in (("constraint_margin.", "margin to constraint "), ("margins.", "margin to ")):
+        if name.startswith(head):
+            prefix, name = say, name[len(head) :]
+    stem, unit = _split_unit(name)
+    return f"{prefix}{stem.replace('_', ' ').replace('.', ' ')} [{unit or '-'}]"
+
+
 def _label(name: str, direction: str) -> str:
-    return f"{name} ({'higher' if direction == 'maximize' else 'lower'} is better)"
+    return f"{words(name)}, {'higher' if direction == 'maximize' else 'lower'} is better"
+
+
+def _stem_words(name: str) -> str:
+    """A column name in words without its unit: ``input_power_W`` -> ``input power``."""
+    return words(name).rsplit(" [", 1)[0]
+
+
+def _is_lift_ratio(name: str) -> bool:
+    return "lift_ratio" in str(name)
+
+
+#: The lift ratio at which the pull just carries the part's weight.
+_LIFT_LINE = dict(color="k", lw=1.0, ls="--", label="lift ratio 1: below it the part is not lifted")
+_LIFT_LINE_X = {**_LIFT_LINE, "label": "lift ratio 1: left of it the part is not lifted"}
+
+
+def duration_words(seconds: float) -> str:
+    """A duration as people say it: ``40 seconds``, ``3 minutes``, ``2.5 hours``, ``3.1 days``."""
+    s = float(seconds)
+    steps = ((90, 1, "second"), (5400, 60, "minute"), (172800, 3600, "hour"))
+    size, unit = next(((z, u) for limit, z, u in steps if s < limit), (86400, "day"))
+    n = s / size
+    text = f"{n:.0f}" if n >= 10 or unit in ("second", "minute") else f"{n:.2g}"
+    return f"{text} {unit}{'' if text == '1' else 's'}"
 
 
 def plot_front_pairs(trials: pd.DataFrame, objectives, out_dir) -> list[Path]:
@@ -84,33 +137,7 @@ def plot_front_pairs(trials: pd.DataFrame, objectives, out_dir) -> list[Path]:
     values = {n: column(trials, n) for n, _ in objectives}
     paths: list[Path] = []
     if len(objectives) == 1:
-        name, direction = objectives[0]
-        y = values[name]
-        x = trials["trial"].to_numpy() if "trial" in trials else np.arange(len(trials))
-        fig = Figure(figsize=(7, 4.5))
-        ax = fig.subplots()
-        groups = [(complete & ~feasible, "infeasible", "x", 0.35), (feasible, "feasible", "o", 0.6)]
-        for mask, what, marker, alpha in groups:
-            ax.plot(
-                x[mask],
-                y[mask],
-                marker,
-                ls="",
-                color=_FAINT["infeasible" if what == "infeasible" else "dominated"],
-                alpha=alpha,
-                label=f"{what} ({mask.sum()})",
-            )
-        if feasible.any():
-            order = np.argsort(x[feasible], kind="stable")
-            yf = y[feasible][order]
-            best = np.fmax.accumulate(yf) if direction == "maximize" else np.fmin.accumulate(yf)
-            ax.step(
-                x[feasible][order], best, where="post", color=_FAINT["front"], label="best so far"
-            )
-        ax.set_xlabel("trial")
-        ax.set_ylabel(_label(name, direction))
-        _finish(ax, fig, f"{name} over the study; {n_fail} failed or unfinished not shown")
-        return _save(fig, out_dir, f"front_{name}")
+        return _one_objective(trials, objectives[0], values, n_fail, out_dir)
     names = [n for n, _ in objectives]
     for i in range(len(objectives)):
         for j in range(i + 1, len(objectives)):
@@ -140,15 +167,53 @@ def plot_front_pairs(trials: pd.DataFrame, objectives, out_dir) -> list[Path]:
             if len(objectives) == 2 and m.sum() > 1:
                 order = np.argsort(xa[m])
                 ax.plot(xa[m][order], yb[m][order], "-", color=_FAINT["front"], lw=1, alpha=0.6)
+            if _is_lift_ratio(a):
+                ax.axvline(1.0, **_LIFT_LINE_X)
+            elif _is_lift_ratio(b):
+                ax.axhline(1.0, **_LIFT_LINE)
             ax.set_xlabel(_label(a, da))
             ax.set_ylabel(_label(b, db))
-            others = [n for n in names if n not in (a, b)]
+            others = [_stem_words(n) for n in names if n not in (a, b)]
             note = (
                 f"; front in {len(names)} objectives (also {', '.join(others)})" if others else ""
             )
-            _finish(ax, fig, f"{a} vs {b}: {n_fail} failed or unfinished not shown{note}")
+            title = f"{_stem_words(a)} against {_stem_words(b)}"
+            _finish(ax, fig, f"{title}: {n_fail} failed or unfinished not shown{note}")
             paths += _save(fig, out_dir, f"front_{a}__{b}")
     return paths
+
+
+def _one_objective(trials, objective, values, n_fail: int, out_dir) -> list[Path]:
+    """The front plot of a one-objective study: the objective against the trial number, with
+    its best-so-far line."""
+    name, direction = objective
+    complete, feasible, _ = trial_flags(trials)
+    y = values[name]
+    x = trials["trial"].to_numpy() if "trial" in trials else np.arange(len(trials))
+    fig = Figure(figsize=(7, 4.5))
+    ax = fig.subplots()
+    groups = [(complete & ~feasible, "infeasible", "x", 0.35), (feasible, "feasible", "o", 0.6)]
+    for mask, what, marker, alpha in groups:
+        ax.plot(
+            x[mask],
+            y[mask],
+            marker,
+            ls="",
+            color=_FAINT["infeasible" if what == "infeasible" else "dominated"],
+            alpha=alpha,
+            label=f"{what} ({mask.sum()})",
+        )
+    if feasible.any():
+        order = np.argsort(x[feasible], kind="stable")
+        yf = y[feasible][order]
+        best = np.fmax.accumulate(yf) if direction == "maximize" else np.fmin.accumulate(yf)
+        ax.step(x[feasible][order], best, where="post", color=_FAINT["front"], label="best so far")
+    if _is_lift_ratio(name):
+        ax.axhline(1.0, **_LIFT_LINE)
+    ax.set_xlabel("trial number")
+    ax.set_ylabel(_label(name, direction))
+    _finish(ax, fig, f"{_stem_words(name)} over the study; {n_fail} failed or unfinished not shown")
+    return _save(fig, out_dir, f"front_{name}")
 
 
 def _finish(ax, fig: Figure, title: str) -> None:
@@ -168,7 +233,7 @@ def _empty(out_dir, stem: str, text: str) -> list[Path]:
 
 
 def plot_parameter_coupling(
-    front: pd.DataFrame, params, out_dir, color_by: str | None = None
+    front: pd.DataFrame, params, out_dir, color_by: str | None = None, log=()
 ) -> list[Path]:
     """How the searched parameters move together along the front.
 
@@ -184,6 +249,9 @@ def plot_parameter_coupling(
     out_dir : str or Path
     color_by : str, optional
         A column (e.g. the first objective) that colours the lines.
+    log : collection of str
+        Parameters searched on a log scale: their axis is logarithmic (positions by the
+        logarithm of the value, log axes in the scatter matrix).
 
     Returns
     -------
@@ -197,16 +265,21 @@ def plot_parameter_coupling(
     if len(front) == 0 or not params:
         return _empty(out_dir, "coupling_parallel", "empty front: no feasible design to show")
     data = front[params].apply(pd.to_numeric, errors="coerce").to_numpy(float)
-    finite = np.isfinite(data)
+    is_log = np.array([p in set(log) for p in params], bool)
+    with np.errstate(invalid="ignore", divide="ignore"):
+        data = np.where(is_log & ~(data > 0), np.nan, data)  # a log axis holds positive values
+        axis = np.where(is_log, np.log10(data), data)  # the value as placed on its axis
+    finite = np.isfinite(axis)
     lo = np.array(
-        [data[finite[:, i], i].min() if finite[:, i].any() else np.nan for i in range(len(params))]
+        [axis[finite[:, i], i].min() if finite[:, i].any() else np.nan for i in range(len(params))]
     )
     hi = np.array(
-        [data[finite[:, i], i].max() if finite[:, i].any() else np.nan for i in range(len(params))]
+        [axis[finite[:, i], i].max() if finite[:, i].any() else np.nan for i in range(len(params))]
     )
     with np.errstate(invalid="ignore"):
         span = np.where(hi > lo, hi - lo, np.nan)
-        scaled = np.where(np.isfinite(span), (data - lo) / span, np.where(finite, 0.5, np.nan))
+        scaled = np.where(np.isfinite(span), (axis - lo) / span, np.where(finite, 0.5, np.nan))
+    lo[is_log], hi[is_log] = 10.0 ** lo[is_log], 10.0 ** hi[is_log]  # back to values
     colours = None
     if color_by is not None and color_by in front.columns:
         c = pd.to_numeric(front[color_by], errors="coerce").to_numpy(float)
@@ -224,39 +297,58 @@ def plot_parameter_coupling(
     if colours:
         import matplotlib as mpl
 
-        fig.colorbar(mpl.cm.ScalarMappable(norm=norm, cmap=cmap), ax=ax, label=color_by)
+        fig.colorbar(mpl.cm.ScalarMappable(norm=norm, cmap=cmap), ax=ax, label=words(color_by))
     ax.set_xticks(x)
     ax.set_xticklabels(
-        [f"{p}\n{_g(a)} .. {_g(b)}" for p, a, b in zip(params, lo, hi, strict=True)], fontsize=8
+        [
+            f"{words(p)}\n{_g(a)} .. {_g(b)}" + ("\n(log axis)" if g else "")
+            for p, a, b, g in zip(params, lo, hi, is_log, strict=True)
+        ],
+        fontsize=8,
     )
     ax.set_ylabel("position in the front's range [-]")
     ax.set_ylim(-0.05, 1.05)
     _finish(ax, fig, f"parameters along the front ({len(front)} designs)")
     paths = _save(fig, out_dir, "coupling_parallel")
     if 2 <= len(params) <= 6 and len(front) >= 2:
-        n = len(params)
-        fig = Figure(figsize=(2.2 * n, 2.2 * n))
-        axes = np.asarray(fig.subplots(n, n, squeeze=False))
-        for i in range(n):
-            for j in range(n):
-                a = axes[i, j]
-                if j > i:
-                    a.axis("off")
-                elif j == i:
-                    a.hist(data[finite[:, i], i], bins=10, color="0.6")
-                else:
-                    a.scatter(
-                        data[:, j], data[:, i], s=10, c=colours if colours else "tab:red", alpha=0.8
-                    )
-                if i == n - 1:
-                    a.set_xlabel(params[j], fontsize=8)
-                if j == 0 and i > 0:
-                    a.set_ylabel(params[i], fontsize=8)
-                a.tick_params(labelsize=7)
+        fig = _scatter_matrix(params, data, axis, is_log, colours)
         fig.suptitle(f"parameter coupling across the front ({len(front)} designs)", fontsize=9)
         fig.tight_layout()
         paths += _save(fig, out_dir, "coupling_matrix")
     return paths
+
+
+def _scatter_matrix(params, data, axis, is_log, colours) -> Figure:
+    """The scatter matrix of the coupling plot: each parameter against each other one below the
+    diagonal, its spread on the diagonal, log axes for the log-scaled ones."""
+    n = len(params)
+    finite = np.isfinite(axis)
+    fig = Figure(figsize=(2.2 * n, 2.2 * n))
+    axes = np.asarray(fig.subplots(n, n, squeeze=False))
+    for i in range(n):
+        for j in range(n):
+            a = axes[i, j]
+            if j > i:
+                a.axis("off")
+            elif j == i:
+                bins = 10
+                if is_log[i]:
+                    bins = 10.0 ** np.histogram_bin_edges(axis[finite[:, i], i], 10)
+                a.hist(data[finite[:, i], i], bins=bins, color="0.6")
+            else:
+                a.scatter(
+                    data[:, j], data[:, i], s=10, c=colours if colours else "tab:red", alpha=0.8
+                )
+                if is_log[i]:
+                    a.set_yscale("log")
+            if is_log[j]:
+                a.set_xscale("log")
+            if i == n - 1:
+                a.set_xlabel(words(params[j]), fontsize=8)
+            if j == 0 and i > 0:
+                a.set_ylabel(words(params[i]), fontsize=8)
+            a.tick_params(labelsize=7)
+    return fig
 
 
 def _g(x) -> str:
@@ -282,7 +374,7 @@ def plot_front_progress(trials: pd.DataFrame, objectives, out_dir) -> list[Path]
         fig = Figure(figsize=(7, 4))
         ax1 = ax2 = fig.subplots()
         ax1.step(hist["finished"], hist["best"], where="post", color="tab:red")
-        ax1.set_ylabel(f"best {_label(*objectives[0])}")
+        ax1.set_ylabel(f"best {_label(*list(dict(objectives).items())[0])}")
     else:
         fig = Figure(figsize=(7, 5.5))
         ax1, ax2 = fig.subplots(2, 1, sharex=True)
@@ -294,7 +386,7 @@ def plot_front_progress(trials: pd.DataFrame, objectives, out_dir) -> list[Path]
     when = pd.to_datetime(hist["completed_at"], errors="coerce").dropna()
     elapsed = ""
     if len(when) > 1:
-        elapsed = f" over {(when.max() - when.min()).total_seconds() / 3600.0:.3g} h"
+        elapsed = f" over {duration_words((when.max() - when.min()).total_seconds())}"
     ax2.grid(alpha=0.3)
     _finish(ax1, fig, f"front progress: {len(hist)} finished trials{elapsed}")
     return _save(fig, out_dir, "progress")
@@ -331,6 +423,7 @@ def plot_pull_vs_gap(designs, out_dir, gaps_mm=None, isothermal: bool = False) -
     fig = Figure(figsize=(7, 4.8))
     ax = fig.subplots()
     refused = 0
+    weights: list[float] = []
     for k, (label, design) in enumerate(designs):
         colour = f"C{k % 10}"
         pulls = []
@@ -345,13 +438,16 @@ def plot_pull_vs_gap(designs, out_dir, gaps_mm=None, isothermal: bool = False) -
                 refused += 1
         ax.plot(gaps_mm, pulls, "-o", ms=3, color=colour, label=str(label))
         ax.axvline(own[k], color=colour, lw=0.8, ls=":")
-        if np.isfinite(weight):
-            ax.axhline(weight, color=colour, lw=0.8, ls="--")
+        if np.isfinite(weight) and not any(math.isclose(weight, w, rel_tol=1e-6) for w in weights):
+            weights.append(weight)
+    for k, weight in enumerate(weights):  # the part's weight is no trial's: black, not a colour
+        text = "part weight" if len(weights) == 1 else f"part weight {weight:.3g} mN"
+        ax.axhline(weight, color="k", lw=1.0, ls=("--", "-.", ":")[k % 3], label=text)
     ax.axhline(0.0, color="0.5", lw=0.8)
-    ax.set_xlabel("gap [mm]")
+    ax.set_xlabel("gap between pole face and part [mm]")
     ax.set_ylabel("pull toward the face [mN]")
     note = f"; {refused} gaps refused by the model" if refused else ""
-    _finish(ax, fig, f"pull against gap (dotted: design gap, dashed: target weight){note}")
+    _finish(ax, fig, f"pull against gap (dotted: each design's own gap){note}")
     return _save(fig, out_dir, "pull_vs_gap")
 
 
@@ -404,3 +500,39 @@ def plot_section(design, out_dir, label: str) -> list[Path]:
         )
     _finish(ax, fig, f"{label}: {words} (to scale)")
     return _save(fig, out_dir, f"section_{label}")
+
+
+def caption_for(path, objectives=()) -> str:
+    """The sentence under a plot in the report, from the plot's file name (as written above).
+
+    ``objectives`` (``(column, direction)`` pairs or a dict) give the words of the front plots'
+    axes; other plots need none.
+    """
+    stem = Path(path).stem
+    names = {_slug(n): n for n in dict(objectives)}
+    if stem.startswith("front_") and "__" in stem:
+        a, b = (names.get(n, n) for n in stem[len("front_") :].split("__", 1))
+        return (
+            f"The front in {_stem_words(a)} and {_stem_words(b)}: red points are the designs no "
+            "other feasible design beats in both, blue points feasible designs that one beats, "
+            "grey crosses designs that break a limit."
+        )
+    if stem.startswith("front_"):
+        a = names.get(stem[len("front_") :], stem[len("front_") :])
+        return f"{_stem_words(a).capitalize()} of every trial, with the best found so far (red)."
+    if stem.startswith("section_"):
+        return (
+            f"Cross-section of {stem[len('section_') :].replace('-', ' ')} to scale: the pole, "
+            "coil window, shading ring and part, mirrored about the axis."
+        )
+    fixed = {
+        "progress": "How the front grew over the run: the share of the objective box it "
+        "dominates, and how many designs were on it, after each finished trial.",
+        "coupling_parallel": "How the searched parameters move together along the front: each "
+        "line is one front design, each axis spans that parameter's range on the front.",
+        "coupling_matrix": "The searched parameters of the front designs against each other, "
+        "with each parameter's spread on the diagonal.",
+        "pull_vs_gap": "Pull against gap for the picked designs: where a curve is under the "
+        "part-weight line, the magnet does not lift the part at that gap.",
+    }
+    return fixed.get(stem, stem.replace("_", " ").replace("-", " ").capitalize() + ".")

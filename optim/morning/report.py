@@ -1,9 +1,13 @@
 """The study report: one self-contained HTML page a person reads in the morning.
 
-``report.html`` holds, in order: the study summary (budget, trials, feasible share, rate), the
-front table (sortable by any column with a few lines of inline JavaScript), the plots (embedded as
-base64 data URIs, so the page needs no other file), the limits that bind the front's designs, the
-model's validity notes and the cautions. Every piece of text is escaped with ``html.escape``.
+``report.html`` holds, in order: the picks (the best design in each objective and the knee of the
+front, each a short card of its dimensions, drive, pull, lift ratio, power, temperatures and
+binding limit), the study summary (budget, trials, feasible share, rate), the front table
+(objectives and searched parameters first, a units row, bookkeeping columns last and collapsed;
+sortable by any column with a few lines of inline JavaScript, numbers and dates as such), the
+plots (embedded as base64 data URIs, so the page needs no other file, each with a caption), the
+limits that bind the front's designs, the model's validity notes and the cautions. Every piece of
+text is escaped with ``html.escape``.
 """
 
 from __future__ import annotations
@@ -19,8 +23,12 @@ import pandas as pd
 
 from models.errors import DesignError
 from optim.files import atomic_write_text, safe_child
+from optim.morning.handoff import unit_of
 
-__all__ = ["write_report", "render_report", "binding_counts", "CAUTIONS"]
+__all__ = ["write_report", "render_report", "binding_counts", "CAUTIONS", "BOOKKEEPING"]
+
+#: Front-table columns about the run rather than the design: last, and hidden until asked for.
+BOOKKEEPING = ("state", "feasible", "on_front", "completed_at", "eval_s", "reason", "worker")
 
 #: The cautions of the README (section "Cautions"), shown at the end of every report.
 CAUTIONS = (
@@ -69,18 +77,26 @@ table.sortable th { cursor: pointer; }
 th[aria-sort=ascending]::after { content: " \\25B2"; }
 th[aria-sort=descending]::after { content: " \\25BC"; }
 .scroll { overflow: auto; max-height: 40em; }
-figure { display: inline-block; margin: 0.5em; vertical-align: top; }
+figure { display: inline-block; margin: 0.5em; vertical-align: top; max-width: 36em; }
 figure img { max-width: 36em; border: 1px solid #eee; }
 figcaption { font-size: 0.8em; color: #555; }
 .caution { background: #fff4e5; border-left: 4px solid #e69500; padding: 0.5em 1em; }
+tr.units th { background: #fafafa; font-weight: normal; color: #666; top: 1.6em; }
+#show-bookkeeping:not(:checked) ~ .scroll .bk { display: none; }
+.picks { display: flex; flex-wrap: wrap; gap: 1em; }
+.card { border: 1px solid #ccc; border-radius: 4px; padding: 0.5em 1em; min-width: 16em; }
+.card h3 { font-size: 1em; margin: 0.2em 0 0.5em; }
+.card table { font-size: 0.9em; } .card th { position: static; text-align: left; }
 """
 
-# Sort the table by the clicked column: numbers numerically (data-v), text alphabetically; cells
-# without a number ("-") after the numbers in both directions. Checked by hand with node and a
-# stub DOM (ascending, descending, second column).
+# Sort the table by the clicked heading of the first header row: numbers numerically (data-v; a
+# date's data-v is its POSIX time in seconds), text alphabetically; cells without a number ("-")
+# after the numbers in both directions. Checked with node and a stub DOM (ascending, descending,
+# second column) and in headless Chromium (tests/test_report_browser.py).
 _JS = """
+function eddypullNumber(x) { return x === null || x.trim() === "" ? NaN : Number(x); }
 document.querySelectorAll("table.sortable").forEach(function (t) {
-  t.querySelectorAll("thead th").forEach(function (th, i) {
+  t.querySelectorAll("thead tr:first-child th").forEach(function (th, i) {
     th.addEventListener("click", function () {
       var body = t.tBodies[0], rows = Array.from(body.rows);
       var asc = th.getAttribute("aria-sort") !== "ascending";
@@ -88,7 +104,7 @@ document.querySelectorAll("table.sortable").forEach(function (t) {
       th.setAttribute("aria-sort", asc ? "ascending" : "descending");
       rows.sort(function (a, b) {
         var x = a.cells[i].getAttribute("data-v"), y = b.cells[i].getAttribute("data-v");
-        var nx = parseFloat(x), ny = parseFloat(y);
+        var nx = eddypullNumber(x), ny = eddypullNumber(y);
         if (isNaN(nx) !== isNaN(ny)) { return isNaN(nx) ? 1 : -1; }
         var c = isNaN(nx) ? x.localeCompare(y) : nx - ny;
         return asc ? c : -c;
@@ -123,10 +139,18 @@ def _fmt(v) -> str:
     return str(v)
 
 
-def _cell(v, tag: str = "td") -> str:
-    if _is_number(v) and not (isinstance(v, float) and math.isnan(v)):
-        return f'<{tag} data-v="{_e(repr(float(v)))}">{_e(_fmt(v))}</{tag}>'
-    return f'<{tag} class="text" data-v="{_e(_fmt(v))}">{_e(_fmt(v))}</{tag}>'
+def _cell(v, tag: str = "td", cls: str = "") -> str:
+    """A table cell; its data-v is what the sort compares: repr(float) for a number, the POSIX
+    time in seconds for a date or time, the text otherwise."""
+    if isinstance(v, _dt.datetime) and v is not pd.NaT:
+        key = repr(v.timestamp())
+    elif _is_number(v) and not (isinstance(v, float) and math.isnan(v)):
+        key = repr(float(v))
+    else:
+        klass = f"text {cls}".strip()
+        return f'<{tag} class="{klass}" data-v="{_e(_fmt(v))}">{_e(_fmt(v))}</{tag}>'
+    klass = f' class="{cls}"' if cls else ""
+    return f'<{tag}{klass} data-v="{_e(key)}">{_e(_fmt(v))}</{tag}>'
 
 
 def _kv_table(items) -> str:
@@ -159,26 +183,133 @@ def _fmt_summary(key: str, v):
     return v
 
 
-def _front_table(front: pd.DataFrame) -> str:
+def _front_columns(front: pd.DataFrame, objectives, params) -> list[str]:
+    """The front table's column order: trial, the objectives, the searched parameters, the
+    binding limit, every other column as the table has them, then `BOOKKEEPING`."""
     cols = [str(c) for c in front.columns]
-    head = "".join(
-        f'<th class="text" scope="col">{_e(c)}</th>'
-        if not pd.api.types.is_numeric_dtype(front[c]) or pd.api.types.is_bool_dtype(front[c])
-        else f'<th scope="col">{_e(c)}</th>'
-        for c in front.columns
+    lead = ["trial", *dict(objectives), *params, "binding_limit"]
+    first = [c for c in dict.fromkeys(lead) if c in cols]
+    rest = [c for c in cols if c not in first and c not in BOOKKEEPING]
+    return first + rest + [c for c in BOOKKEEPING if c in cols]
+
+
+def _is_text(column: pd.Series) -> bool:
+    return not pd.api.types.is_numeric_dtype(column) or pd.api.types.is_bool_dtype(column)
+
+
+def _unit(name: str, column: pd.Series) -> str:
+    """The units-row entry of a column: the unit of its name's suffix, UTC for times, nothing
+    for text and the trial number."""
+    if pd.api.types.is_datetime64_any_dtype(column):
+        return "UTC"
+    if name == "trial" or _is_text(column):
+        return ""
+    return unit_of(name)
+
+
+def _front_table(front: pd.DataFrame, objectives=(), params=()) -> str:
+    """The front as a sortable table: `_front_columns` order, a units row under the headings,
+    the bookkeeping columns hidden until the box above the table is ticked."""
+    cols = _front_columns(front, objectives, params)
+    front = front[cols]
+    cls = {c: "bk" if c in BOOKKEEPING else "" for c in cols}
+
+    def heading(c: str) -> str:
+        klass = " ".join(x for x in ("text" if _is_text(front[c]) else "", cls[c]) if x)
+        attr = f' class="{klass}"' if klass else ""
+        return f'<th{attr} scope="col">{_e(c)}</th>'
+
+    head = "".join(heading(c) for c in cols)
+    units = "".join(
+        f'<th class="{("text " + cls[c]).strip()}">{_e(_unit(c, front[c]))}</th>' for c in cols
     )
     body = "".join(
-        "<tr>" + "".join(_cell(v.item() if hasattr(v, "item") else v) for v in row) + "</tr>"
+        "<tr>"
+        + "".join(
+            _cell(v.item() if hasattr(v, "item") else v, cls=cls[c])
+            for c, v in zip(cols, row, strict=True)
+        )
+        + "</tr>"
         for row in front.itertuples(index=False, name=None)
     )
+    hidden = [c for c in cols if cls[c]]
+    toggle = (
+        '<input type="checkbox" id="show-bookkeeping"> <label for="show-bookkeeping">show the '
+        f"bookkeeping columns ({_e(', '.join(hidden))})</label>"
+        if hidden
+        else ""
+    )
     return (
-        f'<div class="scroll"><table id="front" class="sortable" data-columns="{len(cols)}">'
-        f"<thead><tr>{head}</tr></thead><tbody>{body}</tbody></table></div>"
+        f'{toggle}<div class="scroll"><table id="front" class="sortable" '
+        f'data-columns="{len(cols)}"><thead><tr>{head}</tr><tr class="units">{units}</tr>'
+        f"</thead><tbody>{body}</tbody></table></div>"
     )
 
 
-def _figure(path: Path) -> str:
+#: What a pick card shows, after the dimensions: (column, words), the first present of each group.
+_CARD_ROWS = (
+    (("frequency_Hz",), "frequency"),
+    (("current_A", "voltage_V"), "drive"),
+    (("worst_pull_N", "pull_N"), "pull"),
+    (("worst_lift_ratio", "lift_ratio"), "lift ratio"),
+    (("input_power_W",), "input power"),
+)
+
+
+def _card_value(name: str, v) -> str:
+    """A value on a card with its unit: millimetres to 0.01 mm, others to 4 significant digits."""
+    if not _is_number(v) or (isinstance(v, float) and not math.isfinite(v)):
+        return _fmt(v)
+    unit = unit_of(name)
+    if unit == "mm":
+        return f"{float(v):.2f} mm"
+    if unit == "N" and abs(float(v)) < 1.0:  # a lifter's pull reads in millinewtons
+        return f"{1e3 * float(v):.4g} mN"
+    return f"{float(v):.4g}" + ("" if unit == "-" else f" {unit}")
+
+
+def _pick_card(why: str, row: pd.Series) -> str:
+    """One pick: its trial and why it was picked, then dimensions, drive, pull, lift ratio,
+    power, temperatures and the limit that binds it."""
+    items: list[tuple[str, str]] = []
+    for c in row.index:
+        if str(c).endswith("_mm") and "." not in str(c):
+            items.append((str(c)[: -len("_mm")].replace("_", " "), _card_value(c, row[c])))
+    for names, what in _CARD_ROWS:
+        name = next((n for n in names if n in row.index), None)
+        if name is not None:
+            label = what if what != "drive" else name.split("_")[0]
+            items.append((label, _card_value(name, row[name])))
+    for c in row.index:
+        if str(c).endswith("temperature_C") and "." not in str(c):
+            items.append((str(c)[: -len("_C")].replace("_", " "), _card_value(c, row[c])))
+    limit = row.get("binding_limit", "")
+    items.append(("binding limit", limit if isinstance(limit, str) and limit else "none"))
+    rows = "".join(f'<tr><th class="text">{_e(k)}</th><td>{_e(v)}</td></tr>' for k, v in items)
+    return (
+        f'<div class="card"><h3>Trial {_e(int(row["trial"]))}: {_e(why)}</h3>'
+        f"<table><tbody>{rows}</tbody></table></div>"
+    )
+
+
+def _pick_cards(front: pd.DataFrame, picks) -> str:
+    """The cards of the picked trials ``(why, trial)`` found in the front, in order."""
+    cards = []
+    for why, trial in picks:
+        if "trial" in front.columns:
+            match = front[front["trial"] == trial]
+            if len(match):
+                cards.append(_pick_card(why, match.iloc[0]))
+    return f'<div class="picks">{"".join(cards)}</div>' if cards else ""
+
+
+def _figure(image) -> str:
+    """An embedded image with its caption: ``image`` is a path or ``(path, caption)``; a bare
+    path is captioned with its file name in words."""
+    path, caption = image if isinstance(image, tuple) else (image, None)
     path = Path(path)
+    if caption is None:
+        caption = path.stem.replace("_", " ").replace("-", " ").capitalize() + "."
     mime = _MIME.get(path.suffix.lower())
     if mime is None:
         raise DesignError(
@@ -190,7 +321,7 @@ def _figure(path: Path) -> str:
         raise DesignError(f"image {str(path)!r}: cannot be read ({err.strerror})") from None
     return (
         f'<figure><img alt="{_e(path.stem)}" src="data:{mime};base64,{data}">'
-        f"<figcaption>{_e(path.stem.replace('_', ' '))}</figcaption></figure>"
+        f"<figcaption>{_e(caption)}</figcaption></figure>"
     )
 
 
@@ -206,7 +337,23 @@ def binding_counts(front: pd.DataFrame, column: str = "binding_limit") -> dict[s
     return counts
 
 
-def render_report(summary: dict, front, images, binding: dict, notes) -> str:
+def _picks_section(front: pd.DataFrame, picks) -> list[str]:
+    """The page's opening: the picked designs as cards (nothing when none is picked)."""
+    cards = _pick_cards(front, picks)
+    if not cards:
+        return []
+    return [
+        "<h2>Picks</h2>",
+        "<p>The best front design in each objective and the knee of the front (the design "
+        "closest to the best of every objective at once). Export one with 'eddypull study "
+        "export FOLDER --trial N'.</p>",
+        cards,
+    ]
+
+
+def render_report(
+    summary: dict, front, images, binding: dict, notes, *, objectives=(), params=(), picks=()
+) -> str:
     """The report page as a string (see `write_report`)."""
     from importlib.metadata import PackageNotFoundError, version
 
@@ -225,11 +372,14 @@ def render_report(summary: dict, front, images, binding: dict, notes) -> str:
         f"<title>eddypull study {_e(name)}</title><style>{_CSS}</style></head><body>",
         f"<h1>eddypull study {_e(name)}</h1>",
         f'<p class="caution">{_e(CAUTIONS[0][1])}</p>',
+        *_picks_section(front, picks),
         "<h2>Summary</h2>",
         _kv_table(_summary(summary)),
         f"<h2>Front ({len(front)} designs)</h2>",
         "<p>Non-dominated feasible designs. Click a column heading to sort by it.</p>",
-        _front_table(front) if len(front) else "<p>The front is empty: no feasible design.</p>",
+        _front_table(front, objectives, params)
+        if len(front)
+        else "<p>The front is empty: no feasible design.</p>",
         "<h2>Plots</h2>",
         "<div>" + "".join(_figure(p) for p in images) + "</div>" if images else "<p>None.</p>",
         "<h2>Binding limits</h2>",
@@ -251,7 +401,18 @@ def render_report(summary: dict, front, images, binding: dict, notes) -> str:
     return "\n".join(parts) + "\n"
 
 
-def write_report(out_dir, summary: dict, front, images, binding: dict, notes) -> Path:
+def write_report(
+    out_dir,
+    summary: dict,
+    front,
+    images,
+    binding: dict,
+    notes,
+    *,
+    objectives=(),
+    params=(),
+    picks=(),
+) -> Path:
     """Write ``report.html`` into ``out_dir``: one self-contained page.
 
     Parameters
@@ -265,12 +426,18 @@ def write_report(out_dir, summary: dict, front, images, binding: dict, notes) ->
         (already without its password).
     front : pandas.DataFrame
         The front table (every row shown, every column sortable).
-    images : list of Path
-        PNG (or SVG) files to embed, in order.
+    images : list of Path or (Path, str)
+        PNG (or SVG) files to embed, in order, each optionally with its caption (a sentence).
     binding : dict of str to int
         Limit name -> number of front designs it binds.
     notes : list of str
         The model's validity notes (e.g. its warnings on the front's designs).
+    objectives : list of (str, str) or dict, optional
+        The study's objectives ``(column, direction)``: the front table's first columns.
+    params : list of str, optional
+        The searched parameters: the front table's next columns.
+    picks : list of (str, int), optional
+        ``(why, trial)`` of the designs shown as cards at the top (e.g. ``("best pull_N", 12)``).
 
     Returns
     -------
@@ -279,5 +446,14 @@ def write_report(out_dir, summary: dict, front, images, binding: dict, notes) ->
     """
     out_dir = Path(out_dir)
     out_dir.mkdir(parents=True, exist_ok=True)
-    text = render_report(summary, front, list(images), dict(binding or {}), list(notes or []))
+    text = render_report(
+        summary,
+        front,
+        list(images),
+        dict(binding or {}),
+        list(notes or []),
+        objectives=objectives,
+        params=list(params),
+        picks=list(picks),
+    )
     return atomic_write_text(safe_child(out_dir, "report.html"), text)

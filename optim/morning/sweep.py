@@ -96,24 +96,56 @@ def format_sweep(key: str, rows) -> str:
     return "\n".join(lines)
 
 
+def outside_checked_range(result) -> bool:
+    """Whether the model flagged this result's design as outside the range it was checked on
+    against the FEM (``models.checks.VALIDATED_RANGE``; the result's range warnings)."""
+    from models.checks import VALIDATED_RANGE
+
+    return any(
+        w.startswith(f"{key} = ") and "outside the range checked" in w
+        for w in result.warnings
+        for key in VALIDATED_RANGE
+    )
+
+
+def _shade_outside(ax, x, rows) -> bool:
+    """Shade the stretches of the swept axis where the model is outside its checked range (half
+    way to the neighbouring points); returns whether anything was shaded."""
+    flags = [outside_checked_range(r) for _, r in rows]
+    edges = [x[0]] + [0.5 * (a + b) for a, b in zip(x[:-1], x[1:], strict=True)] + [x[-1]]
+    shaded = False
+    for i, flag in enumerate(flags):
+        if flag:
+            label = None if shaded else "outside the model's checked range"
+            ax.axvspan(edges[i], edges[i + 1], color="0.85", lw=0, zorder=0, label=label)
+            shaded = True
+    return shaded
+
+
 def plot_sweep(key: str, rows, path, title: str = "") -> None:
-    """Pull against the swept value, with its split by source, to a PNG file."""
+    """Pull against the swept value, with its split by source and the part's weight, to a PNG
+    file; where the model is outside its checked range is shaded."""
     import matplotlib
 
     matplotlib.use("Agg")
     import matplotlib.pyplot as plt
 
+    from optim.morning.plots import words
+
     x = [v for v, _ in rows]
     fig, ax = plt.subplots(figsize=(7, 4.5))
     try:
+        _shade_outside(ax, x, rows)
         ax.plot(x, [r.pull_N * 1e3 for _, r in rows], "k-", lw=2, label="pull")
         for src, style in (("coil", "--"), ("pole", ":"), ("ring", "-.")):
             ax.plot(x, [r.pull_by_source_N[src] * 1e3 for _, r in rows], style, label=f"from {src}")
+        weight = [r.target_weight_N * 1e3 for _, r in rows]
+        ax.plot(x, weight, color="tab:red", lw=1.2, label="part weight")
         ax.axhline(0.0, color="0.6", lw=0.8)
-        ax.set_xlabel(key)
+        ax.set_xlabel(words(key))
         ax.set_ylabel("pull toward the face [mN]")
         ax.set_title(title)
-        ax.legend()
+        ax.legend(fontsize=8)
         ax.grid(alpha=0.3)
         fig.tight_layout()
         fig.savefig(path, dpi=120)
