@@ -346,3 +346,186 @@ def test_design_without_ring_and_bad_folder(tmp_path):
     a_file.write_text("x", encoding="utf-8")
     with pytest.raises(DesignError, match="out_dir = .*not-a-folder.*must be a folder"):
         write_handoff(design, evaluate(design), a_file, {})
+
+
+# ------------------------------------------------------------------ a hand-off a workshop can use
+def test_rounding_to_the_manufacturing_resolution():
+    from optim.morning.rounding import round_design
+
+    d = odd_design_dict()
+    d["ring"]["depth_mm"] = 0.9132379628928807  # the example
+    design = design_from_dict(d)
+    rounded, changed = round_design(design)  # 0.01 mm by default
+    src = rounded.source
+    assert src["ring"]["depth_mm"] == 0.91 and src["ring"]["inner_radius_mm"] == 3.3
+    assert src["ring"]["outer_radius_mm"] in (6.15, 6.16)  # a tie in binary: either neighbour
+    assert changed["ring.depth_mm"] == [0.9132379628928807, 0.91]
+    assert src["coil"]["wire_diameter_mm"] == d["coil"]["wire_diameter_mm"]  # bought, not cut
+    assert src["thermal"] == d["thermal"] and src["drive"] == d["drive"]
+    for table in ("pole", "coil", "ring", "target"):
+        for key, value in src[table].items():
+            if key.endswith("_mm") and key != "wire_diameter_mm":
+                assert len(repr(value).split(".")[-1]) <= 2, (table, key, value)
+    coarse, _ = round_design(design, 0.5)
+    assert coarse.source["ring"]["inner_radius_mm"] == 3.5
+    assert coarse.source["target"]["gap_mm"] == 2.0  # 1.85 -> nearest 0.5
+    with pytest.raises(DesignError, match="resolution-mm"):
+        round_design(design, 0.0)
+    with pytest.raises(DesignError, match="finer --resolution-mm"):
+        round_design(design, 50.0)  # every radius rounds to 0 or 50: no valid design
+
+
+def test_rounded_design_is_rechecked_against_the_constraints():
+    from types import SimpleNamespace
+
+    from optim.morning.rounding import rounded_for_handoff
+    from optim.study.objectives import Constraint
+
+    design = design_from_dict(odd_design_dict())
+    rounded, result, _ = rounded_for_handoff(
+        SimpleNamespace(gaps_mm=(), constraints=[]), design, 0.01, False
+    )
+    pull = evaluate(rounded).pull_N
+    assert result.pull_N == pull  # the rounded design's own result
+    spec = SimpleNamespace(
+        gaps_mm=(),
+        constraints=[Constraint("pull_N", low=pull - 1.0), Constraint("input_power_W", high=1e9)],
+    )
+    _, _, ok = rounded_for_handoff(spec, design, 0.01, False)
+    assert ok["constraints_met"] and ok["broken_constraints"] == []
+    assert ok["constraint_margins"]["pull_N"] == pytest.approx(1.0)
+    assert "still meets every constraint" in ok["words"]
+    spec.constraints[0] = Constraint("pull_N", low=pull + 1.0)
+    _, _, bad = rounded_for_handoff(spec, design, 0.01, False)
+    assert not bad["constraints_met"] and bad["broken_constraints"] == ["pull_N"]
+    assert "broke the constraint(s) pull_N" in bad["words"]
+
+
+def test_winding_and_duty_cycle_in_the_hand_off(tmp_path):
+    from optim.morning.winding import enamel_overall_mm
+
+    design = design_from_dict(demo_dict())  # 300 turns of 0.8 mm wire, 10 % of a 5 s period
+    result = evaluate(design)
+    paths = write_handoff(design, result, tmp_path, {"study": "s", "trial": 7})
+    data = json.loads(paths["handoff.json"].read_text(encoding="utf-8"))
+    w = data["design"]["winding"]
+    assert w["turns"] == 300 and w["wire_bare_diameter_mm"] == 0.8
+    # IEC 60317-0-1 maximum overall diameters of 0.800 mm wire (the module's table).
+    assert (w["wire_overall_grade1_max_mm"], w["wire_overall_grade2_max_mm"]) == (0.855, 0.884)
+    # Copper fill: N pi d^2 / 4 over the window (22 - 10.5) x 30 mm^2.
+    assert w["fill_factor"] == pytest.approx(300 * math.pi * 0.8**2 / 4 / (11.5 * 30), rel=1e-12)
+    # R = N 2 pi r_mean / (sigma A), and rho(T) = rho20 (1 + alpha (T - 20)).
+    c = design.coil
+    r20 = 300 * 2 * math.pi * 16.25e-3 / (c.conductivity * math.pi * 0.4e-3**2)
+    assert w["resistance_20C_ohm"] == pytest.approx(r20, rel=1e-12)
+    hot = result.temperatures_C["coil_mean"]
+    assert w["hot_state_C"] == hot
+    assert w["resistance_hot_ohm"] == pytest.approx(
+        r20 * (1 + c.temperature_coefficient * (hot - 20)), rel=1e-12
+    )
+    assert w["supply_voltage_V"] == result.coil_voltage_V
+    assert w["supply_current_A"] == result.coil_current_A == 6.0
+    between = enamel_overall_mm(0.75)  # not a listed size: interpolated and said so
+    assert 0.762 < between["grade1_max_mm"] < 0.855 and "interpolated" in between["enamel_source"]
+    assert enamel_overall_mm(5.0)["grade1_max_mm"] is None
+
+    limits = data["limits"]
+    assert "continuously" in limits["time_to_limit_s_means"]
+    duty = limits["duty_cycle"]
+    assert (duty["duty_cycle"], duty["period_s"]) == (0.1, 5.0)
+    assert duty["on_time_s"] == pytest.approx(0.5) and duty["off_time_s"] == pytest.approx(4.5)
+    coil = duty["parts"]["coil"]
+    assert coil == {
+        "steady_state_C": result.temperatures_C["coil"],
+        "limit_C": 155.0,
+        "reaches_limit": False,
+    }
+    assert "10% duty" in duty["means"]
+
+
+def _dxf_of_rounded(tmp_path):
+    from optim.morning.rounding import round_design
+
+    design, _ = round_design(design_from_dict(odd_design_dict()))
+    result = evaluate(design)
+    paths = write_handoff(design, result, tmp_path, {"study": "overnight-a", "trial": 41})
+    return design, result, ezdxf.readfile(paths["profile.dxf"])
+
+
+def test_dxf_dimensions_measure_the_design(tmp_path):
+    design, result, doc = _dxf_of_rounded(tmp_path)
+    src = design.source
+    assert doc.audit().errors == []
+    assert {"FULL_SECTION", "DIMENSIONS", "NOTES"} <= {layer.dxf.name for layer in doc.layers}
+    dims = [e for e in doc.modelspace() if e.dxftype() == "DIMENSION"]
+    assert {e.dxf.layer for e in dims} == {"DIMENSIONS"}
+    measured = sorted(round(e.get_measurement(), 9) for e in dims)
+    c = src["coil"]
+    expected = sorted(
+        [
+            src["ring"]["inner_radius_mm"],
+            src["ring"]["outer_radius_mm"],
+            src["ring"]["depth_mm"],
+            src["pole"]["radius_mm"],
+            src["target"]["gap_mm"],
+            c["inner_radius_mm"],
+            round(c["outer_radius_mm"] - c["inner_radius_mm"], 9),  # window width
+            c["length_mm"],
+            c["setback_mm"],
+        ]
+    )
+    assert measured == pytest.approx(expected, abs=1e-9)
+    for e in dims:  # each rendered to its block, showing the value to 0.01 mm
+        block = doc.blocks.get(e.dxf.geometry)
+        texts = [t.text for t in block if t.dxftype() == "MTEXT"]
+        assert texts == [f"{e.get_measurement():.2f}"]
+
+    (notes,) = [e for e in doc.modelspace() if e.dxf.layer == "NOTES"]
+    text = notes.plain_text()
+    for words in (
+        "design odd-numbers, study overnight-a, trial 41",
+        "pole: electrical-steel-m400",
+        "ring: copper",
+        "target: aluminium-1350",
+        f"{design.coil.turns} turns",
+        "wire 0.800 mm bare copper",
+        "0.855 grade 1, 0.884 grade 2",
+        f"{src['drive']['frequency_Hz']:g} Hz",
+        f"{result.coil_current_A:.3g} A rms",
+    ):
+        assert words in text, words
+
+
+def test_dxf_full_section_is_mirrored_about_the_axis(tmp_path):
+    design, _, doc = _dxf_of_rounded(tmp_path)
+    half = {
+        e.dxf.color: [tuple(p) for p in e.get_points("xy")]
+        for e in doc.modelspace()
+        if e.dxf.layer == "POLE"
+    }
+    full = [e for e in doc.modelspace() if e.dxf.layer == "FULL_SECTION"]
+    assert all(e.dxftype() == "LWPOLYLINE" and e.closed for e in full)
+    # Pole: one outline across the axis (two notches); ring, coil and washer target: two each.
+    assert len(full) == 1 + 2 + 2 + 2
+    points = [[tuple(p) for p in e.get_points("xy")] for e in full]
+    pole = max(points, key=len)
+    assert len(pole) == 2 * (len(half[256]) - 1) - 2  # both halves, the axis vertices dropped
+    everything = {p for poly in points for p in poly}
+    assert all((-x, y) in everything for x, y in everything)  # symmetric about x = 0
+    rp, length = design.source["pole"]["radius_mm"], design.source["pole"]["length_mm"]
+    area = sum(abs(_shoelace(p)) for p in points if p is pole)
+    ring = design.source["ring"]
+    notch = (ring["outer_radius_mm"] - ring["inner_radius_mm"]) * ring["depth_mm"]
+    assert area == pytest.approx(2 * (rp * length - notch), abs=UM**2)
+    assert all(_shoelace(p) > 0 for p in points)  # counter-clockwise like the half section
+
+
+def test_dxf_renders_to_png(tmp_path):
+    matplotlib = pytest.importorskip("matplotlib")
+    matplotlib.use("Agg")
+    from ezdxf.addons.drawing import matplotlib as drawing
+
+    _, _, doc = _dxf_of_rounded(tmp_path)
+    png = tmp_path / "profile.png"
+    drawing.qsave(doc.modelspace(), str(png), bg="#FFFFFF", dpi=100)
+    assert png.read_bytes()[:8] == b"\x89PNG\r\n\x1a\n" and png.stat().st_size > 10_000

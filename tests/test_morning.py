@@ -15,9 +15,10 @@ import pytest
 from models.design import load_design
 from models.evaluate import evaluate
 from optim.cli import main
+from optim.morning.outputs import design_of
 from optim.study.engine import record_of
 from optim.study.run import run_study
-from optim.study.spec import load_study_spec
+from optim.study.spec import load_study_spec, spec_from_json
 from optim.study.storage import load_existing
 from tests.conftest import ROOT
 
@@ -86,18 +87,32 @@ def test_export_reproduces_the_stored_numbers(finished, tmp_path, capsys):
     info = json.loads((out / "handoff.json").read_text())
     study, spec_json, _ = load_existing(finished)
     trial = study.trials[info["study"]["trial"]]
+    # The trial's own design still reproduces the stored numbers (the model did not change) ...
     stored = dict(
         zip(study.user_attrs["eddypull_result_names"], record_of(trial)["results"], strict=True)
     )
-    again = evaluate(load_design(out / "design.toml"))  # the study ran with thermal coupling
+    unrounded = evaluate(design_of(spec_from_json(spec_json), trial.params))
     for name in ("pull_N", "input_power_W", "ring_loss_W", "coil_temperature_C"):
-        assert math.isclose(getattr(again, name), stored[name], rel_tol=1e-12), name
+        assert math.isclose(getattr(unrounded, name), stored[name], rel_tol=1e-12), name
     assert info["study"]["stored_results_match"] is True
+    # ... and the hand-off is that design rounded to 0.01 mm, with its own results: design.toml
+    # re-evaluates exactly to handoff.json's predicted numbers (the study ran with coupling).
+    again = evaluate(load_design(out / "design.toml"))
+    for name in ("pull_N", "input_power_W", "ring_loss_W", "coil_temperature_C"):
+        assert getattr(again, name) == info["predicted"][name], name
+    rounding = info["rounding"]
+    assert rounding["resolution_mm"] == 0.01
+    assert rounding["constraints_met"] == all(
+        m >= 0 for m in rounding["constraint_margins"].values()
+    )
+    assert set(rounding["constraint_margins"]) == set(spec_json["constraints"])
     with (out / "parameters.csv").open(encoding="utf-8") as fh:
         rows = list(csv.DictReader(fh))
     by_name = {r["name"]: r for r in rows}
     assert by_name["ring_depth_mm"]["unit"] == "mm"
-    assert math.isclose(float(by_name["ring_depth_mm"]["value"]), trial.params["ring_depth_mm"])
+    depth = float(by_name["ring_depth_mm"]["value"])
+    assert abs(depth - trial.params["ring_depth_mm"]) <= 0.005 + 1e-12  # nearest 0.01 mm
+    assert len(repr(depth).split(".")[1]) <= 2
     doc = ezdxf.readfile(out / "profile.dxf")
     assert {"POLE", "RING", "COIL", "TARGET", "AXIS"} <= {layer.dxf.name for layer in doc.layers}
     assert doc.header["$INSUNITS"] == 4  # millimetres

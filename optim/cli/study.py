@@ -123,6 +123,7 @@ def _cmd_export(args) -> int:
         out=args.out,
         verify=args.verify,
         echo=print,
+        resolution_mm=args.resolution_mm,
     )
     for name, path in paths.items():
         print(f"{name:16s} {path}")
@@ -189,6 +190,11 @@ def add_study_parser(sub) -> None:
             p.add_argument("--best", metavar="OBJECTIVE", help="best front design for it")
             p.add_argument("--out", metavar="FOLDER", help="hand-off folder name or path")
             p.add_argument("--verify", action="store_true", help="add the FEM side-by-side")
+            p.add_argument(
+                "--resolution-mm",
+                type=float,
+                help="round every dimension to this step [mm] (default 0.01)",
+            )
 
     q = ss.add_parser("results", help="list the result names a study file can use")
     q.add_argument("study", help="study TOML file")

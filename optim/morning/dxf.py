@@ -14,6 +14,18 @@ TARGET    target disc or washer at its gap
 AXIS      axis of symmetry (a line on x = 0, dash-dot), not a part
 ========  ==============================================================================
 
+Beside the half section, for a CAD user (`ANNOTATION_LAYERS`, `optim.morning.dxfnotes`):
+
+============  ==========================================================================
+layer         content
+============  ==========================================================================
+FULL_SECTION  the full section, both halves (mirrored about the axis), one closed polyline
+              per part region: a part that touches the axis is one outline across it
+DIMENSIONS    linear dimensions (DIMENSION entities) of the ring radii and depth, the pole
+              radius, the gap and the coil window, measured from the geometry
+NOTES         a text block: design, study and trial, materials, turns, wire, frequency, current
+============  ==========================================================================
+
 Revolving each closed polyline about the y axis gives the solid of that part. `section_mm` is the
 one source of this geometry: the DXF and the plotted section (`optim.morning.plots.plot_section`) both use
 it.
@@ -25,7 +37,7 @@ from pathlib import Path
 
 from optim.files import atomic_path
 
-__all__ = ["LAYERS", "section_mm", "write_profile_dxf"]
+__all__ = ["LAYERS", "ANNOTATION_LAYERS", "section_mm", "full_section_mm", "write_profile_dxf"]
 
 #: Layer name -> (AutoCAD colour index, description). Declared in every file we write.
 LAYERS: dict[str, tuple[int, str]] = {
@@ -34,6 +46,13 @@ LAYERS: dict[str, tuple[int, str]] = {
     "COIL": (3, "coil window (winding cross-section)"),
     "TARGET": (5, "target part at its gap above the face"),
     "AXIS": (7, "axis of symmetry r = 0"),
+}
+
+#: Layers of the CAD annotations (same form as `LAYERS`), declared in every file we write.
+ANNOTATION_LAYERS: dict[str, tuple[int, str]] = {
+    "FULL_SECTION": (4, "full section, both halves mirrored about the axis"),
+    "DIMENSIONS": (6, "linear dimensions of the ring, pole, gap and coil window"),
+    "NOTES": (7, "design, materials, winding and drive"),
 }
 
 
@@ -88,7 +107,42 @@ def section_mm(design) -> dict[str, list[tuple[float, float]]]:
     return out
 
 
-def write_profile_dxf(design, path) -> Path:
+def _mirror_part(points: list[tuple[float, float]]) -> list[list[tuple[float, float]]]:
+    """Both halves of one part's half-section polygon (counter-clockwise, r >= 0).
+
+    A polygon with an edge on the axis (two consecutive vertices at r = 0) becomes one outline
+    across the axis, without the axis vertices that fall mid-edge; any other polygon and its
+    mirror image are two outlines."""
+    n = len(points)
+    on_axis = [i for i in range(n) if points[i][0] == 0.0 and points[(i + 1) % n][0] == 0.0]
+    mirrored = [(-x if x else 0.0, y) for x, y in reversed(points)]
+    if not on_axis:
+        return [list(points), mirrored]
+    start = (on_axis[0] + 1) % n  # the axis vertex the outline leaves the axis from
+    walk = points[start:] + points[:start]  # a0, p1 ... pk, a1 (a1 -> a0 is the axis edge)
+    inner = walk[1:-1]
+    loop = [walk[0], *inner, walk[-1], *[(-x, y) for x, y in reversed(inner)]]
+    out = []
+    for i, (x, y) in enumerate(loop):
+        before, after = loop[i - 1], loop[(i + 1) % len(loop)]
+        if x == 0.0 and before[1] == y == after[1]:
+            continue  # an axis point in the middle of a straight edge
+        out.append((x, y))
+    return [out]
+
+
+def full_section_mm(design) -> list[tuple[str, list[tuple[float, float]]]]:
+    """The full section (both halves, mirrored about the axis), in mm: (part layer, closed
+    polygon) pairs, counter-clockwise, first vertex not repeated."""
+    return [
+        (name, poly)
+        for name, points in section_mm(design).items()
+        if name != "AXIS"
+        for poly in _mirror_part(points)
+    ]
+
+
+def write_profile_dxf(design, path, notes: list[str] | None = None) -> Path:
     """Write the half cross-section as a DXF profile in millimetres.
 
     Parameters
@@ -96,6 +150,8 @@ def write_profile_dxf(design, path) -> Path:
     design : models.design.Design
     path : str or Path
         Output file (written atomically).
+    notes : list of str, optional
+        Lines of the NOTES text block (default: `optim.morning.dxfnotes.default_notes`).
 
     Returns
     -------
@@ -107,7 +163,8 @@ def write_profile_dxf(design, path) -> Path:
     ``ezdxf.new()`` draws in metres by default: the drawing units ($INSUNITS = 4) and the metric
     measurement flag ($MEASUREMENT = 1) are set to millimetres here, and every layer in `LAYERS` is
     declared. Parts are closed LWPOLYLINEs; the axis is a LINE on the AXIS layer with the CENTER
-    line type. Layers of the DXF reference (R2013 format).
+    line type. Layers of the DXF reference (R2013 format). The full section, the dimensions and
+    the text block go on their own layers (`ANNOTATION_LAYERS`).
     """
     import ezdxf
     from ezdxf import units
@@ -117,7 +174,9 @@ def write_profile_dxf(design, path) -> Path:
     doc.header["$INSUNITS"] = units.MM
     doc.header["$MEASUREMENT"] = 1
     doc.header["$LUNITS"] = 2  # decimal
-    for name, (colour, description) in LAYERS.items():
+    from optim.morning.dxfnotes import add_dimensions, add_notes, default_notes
+
+    for name, (colour, description) in {**LAYERS, **ANNOTATION_LAYERS}.items():
         layer = doc.layers.add(name, color=colour)
         layer.description = description
     doc.layers.get("AXIS").dxf.linetype = "CENTER"
@@ -127,6 +186,13 @@ def write_profile_dxf(design, path) -> Path:
             msp.add_line(points[0], points[1], dxfattribs={"layer": "AXIS"})
         else:
             msp.add_lwpolyline(points, format="xy", close=True, dxfattribs={"layer": name})
+    for part, points in full_section_mm(design):
+        colour = LAYERS[part][0]  # each part in its own colour on the FULL_SECTION layer
+        msp.add_lwpolyline(
+            points, format="xy", close=True, dxfattribs={"layer": "FULL_SECTION", "color": colour}
+        )
+    add_dimensions(msp, design)
+    add_notes(msp, design, default_notes(design) if notes is None else notes)
     path = Path(path)
     with atomic_path(path) as tmp:
         doc.saveas(tmp)

@@ -4,12 +4,16 @@ The folder is what a mechanical engineer receives in the morning:
 
 * ``design.toml`` - the design file itself (mm, Hz, A rms), written so that ``eddypull evaluate``
   reproduces the predicted numbers exactly (floats are written with ``repr``, which round-trips);
-* ``handoff.json`` - every dimension in mm, materials, drive, predicted results (the pull at the
-  moment of pick and at the end of the hold), the thermal assumptions behind them, limits (and
-  where each temperature limit comes from) and margins, tool and model version, study, trial and
-  time;
+* ``handoff.json`` - every dimension in mm, materials, drive, the winding (turns, wire bare and
+  enamelled, fill, resistance cold and hot, supply voltage and current: `optim.morning.winding`),
+  predicted results (the pull at the moment of pick and at the end of the hold), the thermal
+  assumptions behind them, limits (and where each temperature limit comes from) and margins,
+  ``time_to_limit_s`` labelled as continuous running beside the duty cycle's own figures, what
+  rounding to the manufacturing resolution did (``rounding``, from ``study export``), tool and
+  model version, study, trial and time;
 * ``parameters.csv`` - ``name,value,unit,description`` rows a parametric CAD model can read;
-* ``profile.dxf`` - the half cross-section in mm, one layer per part (`optim.morning.dxf`);
+* ``profile.dxf`` - the half cross-section in mm, one layer per part, the full section, linear
+  dimensions and a text block (`optim.morning.dxf`, `optim.morning.dxfnotes`);
 * ``verify.txt`` - the fast model beside the FEM reference, when a verification was run.
 
 Non-finite numbers (a thermal runaway gives inf temperatures and -inf margins) are written to JSON
@@ -32,6 +36,7 @@ from models.errors import DesignError
 from optim.files import atomic_write_text, redact_url, safe_child
 from optim.jsonout import to_jsonable
 from optim.morning.dxf import LAYERS, section_mm, write_profile_dxf
+from optim.morning.winding import winding_dict
 from optim.tomlwrite import dumps_toml
 
 __all__ = ["write_handoff", "dumps_toml", "parameter_rows", "unit_of", "to_jsonable"]
@@ -231,6 +236,44 @@ def _command(meta: dict) -> str:
     return f"eddypull evaluate{flag} design.toml"
 
 
+def _duty_figures(predicted: dict) -> dict:
+    """What ``time_to_limit_s`` assumes (continuous running), and the duty cycle's own figures:
+    on and off time per period and, per part, its duty-averaged steady state beside its limit."""
+    assumed = predicted.get("thermal_assumptions") or {}
+    if "time_to_limit_s" not in predicted:
+        return {}
+    out = {
+        "time_to_limit_s_means": "seconds from cold (every part at ambient) to the part's limit "
+        "with the supply on continuously (100 % duty), whatever the design's duty cycle",
+    }
+    duty, period = assumed.get("duty_cycle"), assumed.get("period_s")
+    if duty is None or period is None:
+        return out
+    temps = predicted.get("temperatures_C") or {}
+    parts = {}
+    for part in predicted["time_to_limit_s"]:
+        limit, steady = assumed.get(f"{part}_limit_C"), temps.get(part)
+        if limit is None or steady is None:
+            continue
+        parts[part] = {
+            "steady_state_C": steady,
+            "limit_C": limit,
+            "reaches_limit": not steady < limit,
+        }
+    out["duty_cycle"] = {
+        "duty_cycle": duty,
+        "period_s": period,
+        "on_time_s": duty * period,
+        "off_time_s": (1.0 - duty) * period,
+        "parts": parts,
+        "means": f"running at {duty:.0%} duty ({duty * period:g} s on in every {period:g} s): "
+        "each part settles at its duty-averaged steady state (steady_state_C; the coil's hot "
+        "spot); a part whose steady state stays below its limit never reaches it, and one that "
+        "does reaches it later than time_to_limit_s (continuous running heats faster)",
+    }
+    return out
+
+
 def handoff_dict(design, result, meta: dict, verify: dict | None = None) -> dict:
     """The content of handoff.json (see the module docstring), strict-JSON ready."""
     from models.evaluate import MODEL_VERSION
@@ -250,11 +293,13 @@ def handoff_dict(design, result, meta: dict, verify: dict | None = None) -> dict
         dims.update({"ring_inner_radius_mm": None, "ring_outer_radius_mm": None})
     dims.setdefault("target_inner_radius_mm", 0.0)
     dims.update({name: value for name, value, _ in _derived_mm(design)})
+    rounding = study.pop("rounding", None)
     limits = {}
     if predicted is not None:
         for key in ("binding_limit", "margins", "thermal_status", "time_to_limit_s"):
             if key in predicted:
                 limits[key] = predicted[key]
+        limits.update(_duty_figures(predicted))
         limits.update({k: v for k, v in predicted.items() if k.endswith("_limit_C")})
         assumed = predicted.get("thermal_assumptions") or {}
         limits["temperature_limits_used"] = {
@@ -280,6 +325,7 @@ def handoff_dict(design, result, meta: dict, verify: dict | None = None) -> dict
                 "voltage_V": design.drive.voltage,
                 "turns": design.coil.turns,
             },
+            "winding": winding_dict(design, predicted),
             "file": design.source,
             "section_mm": {
                 "layers": {k: v[1] for k, v in LAYERS.items()},
@@ -291,9 +337,37 @@ def handoff_dict(design, result, meta: dict, verify: dict | None = None) -> dict
         "thermal_assumptions": None if predicted is None else predicted.get("thermal_assumptions"),
         "limits": limits,
     }
+    if rounding is not None:
+        out["rounding"] = rounding
     if verify is not None:
         out["verify"] = verify.get("json", {k: v for k, v in verify.items() if k != "reference"})
     return to_jsonable(out)
+
+
+def _dxf_notes(design, content: dict, meta: dict) -> list[str]:
+    """The DXF's text block: design, study and trial, materials, winding and drive."""
+    w = content["design"]["winding"]
+    ident = f"design {design.name}" + (f", study {meta['study']}" if "study" in meta else "")
+    ident += f", trial {meta['trial']}" if "trial" in meta else ""
+    lines = [ident, "units: mm; half section r >= 0 (parts' layers), FULL_SECTION mirrored"]
+    for part, m in content["design"]["materials"].items():
+        lines.append(f"{part}: {m['material']}")
+    wire = f"wire {w['wire_bare_diameter_mm']:.3f} mm bare copper"
+    if w["wire_overall_grade1_max_mm"] is not None:
+        wire += (
+            f" (enamelled max {w['wire_overall_grade1_max_mm']:.3f} grade 1, "
+            f"{w['wire_overall_grade2_max_mm']:.3f} grade 2, IEC 60317-0-1)"
+        )
+    lines.append(f"coil: {w['turns']} turns, {wire}, copper fill {w['fill_factor']:.2f}")
+    drive = content["design"]["drive"]
+    current, voltage = w["supply_current_A"], w["supply_voltage_V"]
+    supply = "" if current is None else f", {current:.3g} A rms"
+    supply += "" if voltage is None else f" at {voltage:.4g} V rms"
+    lines.append(f"drive: {drive['frequency_Hz']:g} Hz{supply}")
+    rounding = content.get("rounding")
+    if rounding is not None:
+        lines.append(f"dimensions rounded to {rounding['resolution_mm']:g} mm")
+    return lines
 
 
 def write_handoff(design, result, out_dir, meta: dict, verify: dict | None = None) -> dict:
@@ -368,7 +442,9 @@ def write_handoff(design, result, out_dir, meta: dict, verify: dict | None = Non
         safe_child(out_dir, "parameters.csv"), buf.getvalue()
     )
 
-    written["profile.dxf"] = write_profile_dxf(design, safe_child(out_dir, "profile.dxf"))
+    written["profile.dxf"] = write_profile_dxf(
+        design, safe_child(out_dir, "profile.dxf"), notes=_dxf_notes(design, content, meta)
+    )
     if verify is not None:
         written["verify.txt"] = atomic_write_text(
             safe_child(out_dir, "verify.txt"), str(verify.get("text", "")).rstrip() + "\n"

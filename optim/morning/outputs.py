@@ -250,11 +250,19 @@ def export_trial(
     out=None,
     verify: bool = False,
     echo=None,
+    resolution_mm: float | None = None,
 ) -> dict:
-    """Write the hand-off of one trial; returns file name -> path. ``echo`` receives a note when
-    the re-evaluated numbers differ from the stored ones (the model changed since the study)."""
+    """Write the hand-off of one trial; returns file name -> path.
+
+    The trial's dimensions are rounded to ``resolution_mm`` (default
+    `optim.morning.rounding.DEFAULT_RESOLUTION_MM`) and the rounded design is handed off with its
+    own results, checked against the study's constraints (``rounding`` in handoff.json).
+    ``echo`` receives what rounding did (and whether it broke a constraint) and a note when the
+    re-evaluated numbers differ from the stored ones (the model changed since the study).
+    """
     from models.evaluate import evaluate
     from optim.morning.handoff import write_handoff
+    from optim.morning.rounding import DEFAULT_RESOLUTION_MM, rounded_for_handoff
     from optim.study.engine import record_of
 
     spec = _spec(spec_json)
@@ -276,16 +284,21 @@ def export_trial(
         and math.isfinite(stored[name])
         and abs(now[name] - stored[name]) > 1e-9 * max(abs(stored[name]), 1e-12)
     ]
+    resolution = DEFAULT_RESOLUTION_MM if resolution_mm is None else resolution_mm
+    design, result, rounding = rounded_for_handoff(spec, design, resolution, isothermal)
     meta = {
         "study": spec.name,
         "trial": t.number,
         "storage": where,
         "objectives": objective_values,
-        "constraint_margins": record.get("margins", {}),
-        "feasible": all(v <= 0 for v in t.constraints.values()),
+        "constraint_margins": rounding["constraint_margins"],
+        "constraint_margins_unrounded": record.get("margins", {}),
+        "feasible": rounding["constraints_met"],
+        "feasible_unrounded": all(v <= 0 for v in t.constraints.values()),
         "created_at": datetime.now(UTC).isoformat(timespec="seconds"),
         "isothermal": isothermal,
         "stored_results_match": not drift,
+        "rounding": rounding,
     }
     checked = None
     if verify:
@@ -293,6 +306,8 @@ def export_trial(
 
         checked = run_verify(design)
     paths = write_handoff(design, result, target, meta, verify=checked)
+    if echo is not None:
+        echo(("warning: " if rounding["broken_constraints"] else "") + rounding["words"])
     if drift and echo is not None:
         echo(
             f"note: re-evaluated {', '.join(drift)} differ from the study's stored values (the "
