@@ -9,6 +9,8 @@ from pathlib import Path
 
 import pytest
 
+from optim.demo import DEMO_DESIGN
+
 # One BLAS thread, as the CLI runs it (optim/__init__.py): small dense matrices.
 for _var in ("OPENBLAS_NUM_THREADS", "OMP_NUM_THREADS", "MKL_NUM_THREADS"):
     os.environ.setdefault(_var, "1")
@@ -24,7 +26,7 @@ TEST_COIL = {
 }
 
 ROOT = Path(__file__).resolve().parents[1]
-DEMO = ROOT / "studies" / "demo_design.toml"
+DEMO = DEMO_DESIGN
 
 
 def demo_dict() -> dict:

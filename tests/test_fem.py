@@ -9,7 +9,6 @@ boundary adds an error falling like (size / distance)^3, a few 1e-5 at the defau
 from __future__ import annotations
 
 import math
-from pathlib import Path
 
 import numpy as np
 import pytest
@@ -21,10 +20,11 @@ from models.errors import DesignError
 from models.fem.reference import reference
 from models.fem.regions import Region
 from models.fem.solve import solve, solve_regions
+from optim.demo import DEMO_DESIGN
 from optim.morning.verify import compare, format_table, to_json
 from tests.conftest import TEST_COIL
 
-DEMO = Path(__file__).resolve().parents[1] / "studies" / "demo_design.toml"
+DEMO = DEMO_DESIGN
 
 
 # ---------------------------------------------------------------------------------------------

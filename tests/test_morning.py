@@ -15,18 +15,18 @@ import pytest
 from models.design import load_design
 from models.evaluate import evaluate
 from optim.cli import main
+from optim.demo import DEMO_STUDY
 from optim.study.engine import record_of
 from optim.study.run import run_study
 from optim.study.spec import load_study_spec
 from optim.study.storage import load_existing
-from tests.conftest import ROOT
 
 
 @pytest.fixture(scope="module")
 def finished(tmp_path_factory):
     """The demo study (thermal coupling, worst pull over three gaps), 40 trials, 2 workers."""
     folder = tmp_path_factory.mktemp("morning") / "study"
-    spec = load_study_spec(ROOT / "studies" / "demo_study.toml")
+    spec = load_study_spec(DEMO_STUDY)
     run_study(spec, folder, workers=2, trials=40, echo=lambda *_: None, tty=False, salt=0)
     return folder
 
@@ -115,5 +115,7 @@ def test_demo_command_runs_the_main_job(tmp_path, capsys):
     assert "report" in out and (tmp_path / "report.html").exists()
     assert (tmp_path / "front.csv").exists() and (tmp_path / "journal.log").exists()
     if "no feasible design yet" not in out:
-        assert (tmp_path / "handoff" / "profile.dxf").exists()
+        # the hand-off folder has the name `study export` gives it: handoff-trial-N
+        (dxf,) = tmp_path.glob("handoff-trial-*/profile.dxf")
+        assert f"{dxf.parent}" in out
     assert "licensed professional" in out

@@ -30,8 +30,9 @@ from hypothesis import strategies as st
 
 from models.design import DESIGN_KEYS
 from optim.cli import main
+from optim.demo import DEMO_STUDY
 from optim.study.spec import RUN_MAX, load_study_spec
-from tests.conftest import ROOT, write_counts
+from tests.conftest import write_counts
 from tests.test_properties_files import BREAKERS, UNITS, Raw, _time_box, to_toml
 
 # Hypothesis's failure report trips over a deprecation in a dependency under warnings-as-errors;
@@ -50,7 +51,7 @@ QUICK = settings(
 PREFIX = "eddypull: error: "
 
 # ------------------------------------------------------------------ the valid starting point
-_STUDY = ROOT / "studies" / "demo_study.toml"
+_STUDY = DEMO_STUDY
 BASE = tomllib.loads(_STUDY.read_text(encoding="utf-8"))
 BASE["design"] = str((_STUDY.parent / BASE["design"]).resolve())
 BASE["search"]["ring_depth_mm"]["step"] = 0.5  # 0.5..6.0: 11 steps, so every key has a value
