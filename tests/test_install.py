@@ -8,12 +8,16 @@ checked by ``.ci/run``.
 
 from __future__ import annotations
 
+import os
 import tomllib
 from importlib.resources import files
 from pathlib import Path
 
+import pytest
+
 from optim.cli import main
 from optim.demo import DEMO_DESIGN, DEMO_STUDY
+from optim.files import atomic_path, atomic_write_text
 from optim.morning.outputs import handoff_folder
 from optim.study.run import study_folder
 from optim.study.spec import load_study_spec
@@ -84,3 +88,20 @@ def test_one_hand_off_folder_rule(tmp_path):
     assert handoff_folder(tmp_path, 7) == tmp_path / "handoff-trial-7"
     assert handoff_folder(tmp_path, 7, "mine") == tmp_path / "mine"
     assert handoff_folder(tmp_path, 7, tmp_path / "abs") == tmp_path / "abs"
+
+
+@pytest.mark.parametrize("umask", [0o022, 0o027, 0o077])
+def test_every_output_honours_the_umask(tmp_path, umask):
+    old = os.umask(umask)
+    try:
+        text = atomic_write_text(tmp_path / "front.csv", "a,b\n")
+        with atomic_path(tmp_path / "plots" / "front.png") as tmp:
+            tmp.write_bytes(b"png")  # a writer that reopens the temporary file by name
+        journal = tmp_path / "journal.log"
+        journal.write_text("{}\n")  # what the journal and the log get: open() with the umask
+    finally:
+        os.umask(old)
+    expected = journal.stat().st_mode & 0o777
+    assert expected == 0o666 & ~umask
+    for path in (text, tmp_path / "plots" / "front.png"):
+        assert path.stat().st_mode & 0o777 == expected, path

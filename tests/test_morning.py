@@ -73,6 +73,16 @@ def test_front_files_hold_exactly_the_feasible_non_dominated_trials(finished, ca
     pngs = sorted(p.name for p in (finished / "plots").glob("*.png"))
     assert any(p.startswith("front_") for p in pngs) and "pull_vs_gap.png" in pngs
     assert len(list((finished / "plots").glob("*.svg"))) == len(pngs)
+    # What the morning reads has the journal's mode (the umask's), not owner-only.
+    mode = (finished / "journal.log").stat().st_mode & 0o777
+    for path in (
+        "front.csv",
+        "front.parquet",
+        "trials.csv",
+        "report.html",
+        *(finished / "plots").iterdir(),
+    ):
+        assert (finished / path).stat().st_mode & 0o777 == mode, path
 
 
 def test_export_reproduces_the_stored_numbers(finished, tmp_path, capsys):
