@@ -31,6 +31,7 @@ def finished(tmp_path_factory):
     return folder
 
 
+@pytest.mark.slow
 def test_front_files_hold_exactly_the_feasible_non_dominated_trials(finished, capsys):
     assert main(["study", "front", str(finished)]) == 0
     study, spec_json, _ = load_existing(finished)
@@ -85,6 +86,7 @@ def test_front_files_hold_exactly_the_feasible_non_dominated_trials(finished, ca
         assert (finished / path).stat().st_mode & 0o777 == mode, path
 
 
+@pytest.mark.slow
 def test_export_reproduces_the_stored_numbers(finished, tmp_path, capsys):
     out = tmp_path / "handoff"
     assert (
@@ -111,6 +113,7 @@ def test_export_reproduces_the_stored_numbers(finished, tmp_path, capsys):
     assert doc.header["$INSUNITS"] == 4  # millimetres
 
 
+@pytest.mark.slow
 def test_export_refuses_a_failed_or_missing_trial(finished, capsys):
     assert main(["study", "export", str(finished), "--trial", "100000"]) == 2
     assert "--trial 100000: must be a trial number" in capsys.readouterr().err
