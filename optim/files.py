@@ -3,9 +3,9 @@
 Every file eddypull writes goes through here: written to a temporary file in the same folder,
 flushed to disk, then renamed onto its name (``os.replace`` is atomic on POSIX), so a crash leaves
 either the old file or the new one, never half of one. The file gets the mode any new file gets
-(0666 less the umask), as the journal and the log do, not ``mkstemp``'s owner-only 0600. Paths that come from a user (an export
-folder, a study name) are checked not to escape the folder they belong in, and database URLs lose
-their password before they are printed, logged or written.
+(0666 less the umask), as the journal and the log do, not ``mkstemp``'s owner-only 0600. Paths
+that come from a user (an export folder, a study name) are checked not to escape the folder they
+belong in, and database URLs lose their password before they are printed, logged or written.
 """
 
 from __future__ import annotations

@@ -170,8 +170,8 @@ def add_study_parser(sub) -> None:
     r.add_argument(
         "--out",
         metavar="DIR",
-        help="study folder (default: beside the study file, in studies/<name>, whatever the "
-        "current folder)",
+        help="study folder (default: beside the study file whatever the current folder: "
+        "studies/<name> next to it, or <name> when the file sits in a studies folder)",
     )
     r.add_argument("--json", action="store_true", help="print only a JSON summary at the end")
     r.set_defaults(func=_cmd_run)
