@@ -2,9 +2,10 @@
 
 Every file eddypull writes goes through here: written to a temporary file in the same folder,
 flushed to disk, then renamed onto its name (``os.replace`` is atomic on POSIX), so a crash leaves
-either the old file or the new one, never half of one. Paths that come from a user (an export
-folder, a study name) are checked not to escape the folder they belong in, and database URLs lose
-their password before they are printed, logged or written.
+either the old file or the new one, never half of one. The file gets the mode any new file gets
+(0666 less the umask), as the journal and the log do, not ``mkstemp``'s owner-only 0600. Paths
+that come from a user (an export folder, a study name) are checked not to escape the folder they
+belong in, and database URLs lose their password before they are printed, logged or written.
 """
 
 from __future__ import annotations
@@ -28,6 +29,21 @@ __all__ = [
 ]
 
 
+def _umask() -> int:
+    """The process umask, read without changing it where the system tells (Linux's
+    /proc/self/status), else by setting and restoring it."""
+    try:
+        with open("/proc/self/status", encoding="ascii") as fh:
+            for line in fh:
+                if line.startswith("Umask:"):
+                    return int(line.split()[1], 8)
+    except (OSError, ValueError, IndexError):
+        pass
+    mask = os.umask(0o022)
+    os.umask(mask)
+    return mask
+
+
 @contextlib.contextmanager
 def atomic_path(path):
     """Yield a temporary path beside ``path``; on success it replaces ``path`` atomically.
@@ -40,8 +56,11 @@ def atomic_path(path):
     fd, tmp = tempfile.mkstemp(
         prefix=f".{path.name}.", suffix=".tmp" + path.suffix, dir=path.parent
     )
-    os.close(fd)
     try:
+        try:
+            os.fchmod(fd, 0o666 & ~_umask())  # mkstemp makes it owner-only; a colleague reads it
+        finally:
+            os.close(fd)
         yield Path(tmp)
         with open(tmp, "rb+") as fh:
             os.fsync(fh.fileno())

@@ -9,9 +9,34 @@ from pathlib import Path
 
 import pytest
 
+from optim.demo import DEMO_DESIGN
+
 # One BLAS thread, as the CLI runs it (optim/__init__.py): small dense matrices.
 for _var in ("OPENBLAS_NUM_THREADS", "OMP_NUM_THREADS", "MKL_NUM_THREADS"):
     os.environ.setdefault(_var, "1")
+
+#: Set to 1 for the full run, as ``pytest --full`` (what CI runs).
+FULL_ENV = "EDDYPULL_FULL_TESTS"
+
+
+def pytest_addoption(parser):
+    parser.addoption(
+        "--full",
+        action="store_true",
+        help=f"the full run: the tests marked slow too (what CI runs; or {FULL_ENV}=1)",
+    )
+
+
+def pytest_collection_modifyitems(config, items):
+    """Leave the tests marked ``slow`` out of the default run (about three minutes on two cores)
+    unless ``--full``, ``EDDYPULL_FULL_TESTS=1`` or an explicit ``-m`` expression is given."""
+    if config.getoption("--full") or os.environ.get(FULL_ENV) == "1" or config.option.markexpr:
+        return
+    slow = [item for item in items if item.get_closest_marker("slow") is not None]
+    if slow:
+        config.hook.pytest_deselected(items=slow)
+        items[:] = [item for item in items if item.get_closest_marker("slow") is None]
+
 
 #: The coil of the test and demo machines (fixed here so tests do not follow edits of the demo).
 TEST_COIL = {
@@ -24,7 +49,7 @@ TEST_COIL = {
 }
 
 ROOT = Path(__file__).resolve().parents[1]
-DEMO = ROOT / "studies" / "demo_design.toml"
+DEMO = DEMO_DESIGN
 
 
 def demo_dict() -> dict:

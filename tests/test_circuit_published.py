@@ -21,7 +21,6 @@ import copy
 import importlib.util
 import math
 import tomllib
-from pathlib import Path
 
 import numpy as np
 import pytest
@@ -33,9 +32,10 @@ from models.evaluate import DEFAULT_FINENESS, evaluate
 from models.fast.circuit import COIL, TARGET, build_cells, cell_mutual_matrix
 from models.fast.discretize import Cells, Fineness, conductor_cells, graded_edges
 from models.fast.filaments import mutual, mutual_dz, self_inductance_rect
+from optim.demo import DEMO_DESIGN
 from tests.conftest import TEST_COIL
 
-DEMO = Path(__file__).resolve().parents[1] / "studies" / "demo_design.toml"
+DEMO = DEMO_DESIGN
 SIGMA_CU = 58.0e6  # annealed copper, 100 % IACS [S/m] (IEC 60028)
 DENSITY_CU = 8890.0  # [kg/m^3] (common handbook value, from memory; only the weight uses it)
 HAVE_POLE = importlib.util.find_spec("models.fast.pole") is not None

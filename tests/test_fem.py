@@ -9,7 +9,6 @@ boundary adds an error falling like (size / distance)^3, a few 1e-5 at the defau
 from __future__ import annotations
 
 import math
-from pathlib import Path
 
 import numpy as np
 import pytest
@@ -21,10 +20,11 @@ from models.errors import DesignError
 from models.fem.reference import reference
 from models.fem.regions import Region
 from models.fem.solve import solve, solve_regions
+from optim.demo import DEMO_DESIGN
 from optim.morning.verify import compare, format_table, to_json
 from tests.conftest import TEST_COIL
 
-DEMO = Path(__file__).resolve().parents[1] / "studies" / "demo_design.toml"
+DEMO = DEMO_DESIGN
 
 
 # ---------------------------------------------------------------------------------------------
@@ -323,6 +323,7 @@ def _power_balance(res):
     return supplied, res.coil_loss_W + res.ring_loss_W + res.target_loss_W + res.pole_loss_W
 
 
+@pytest.mark.slow
 def test_disc_above_air_cored_coil_is_repelled():
     # Sign convention check: a conducting disc above a coil with no iron is repelled (Elihu Thomson's
     # jumping ring; induced currents oppose the source), so pull (positive toward the face) < 0.
@@ -344,6 +345,7 @@ def test_disc_above_air_cored_coil_is_repelled():
     assert res.ring_current_A == 0.0 and math.isnan(res.ring_phase_deg)
 
 
+@pytest.mark.slow
 def test_shaded_pole_power_balance_and_outputs():
     res = solve(design_from_dict(_demo_dict()))
     supplied, losses = _power_balance(res)
@@ -367,6 +369,7 @@ def test_solid_pole_has_eddy_losses_and_balances_power():
     assert supplied == pytest.approx(losses, rel=1e-9)  # Galerkin identity, round-off only
 
 
+@pytest.mark.slow
 def test_voltage_drive_matches_current_drive():
     # The problem is linear: driving with the voltage the current drive needs gives back |I| = 3 A and
     # the same losses and pull (round-off only, the same mesh).
@@ -421,6 +424,7 @@ def test_region_input_errors():
         )
 
 
+@pytest.mark.slow
 def test_verify_rows_line_up_with_the_fast_model_names():
     res = solve(design_from_dict(_demo_dict()))
     fast = dict(res.to_dict())

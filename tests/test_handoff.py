@@ -85,6 +85,7 @@ def _same(a, b) -> bool:
     return a == b and type(a) is type(b)
 
 
+@pytest.mark.slow
 @settings(max_examples=150, deadline=None, derandomize=True, database=None)
 @given(
     st.dictionaries(

@@ -16,22 +16,23 @@ from models.design import load_design
 from models.evaluate import evaluate
 from optim.cli import main
 from optim.morning.outputs import design_of
+from optim.demo import DEMO_STUDY
 from optim.study.engine import record_of
 from optim.study.run import run_study
 from optim.study.spec import load_study_spec, spec_from_json
 from optim.study.storage import load_existing
-from tests.conftest import ROOT
 
 
 @pytest.fixture(scope="module")
 def finished(tmp_path_factory):
     """The demo study (thermal coupling, worst pull over three gaps), 40 trials, 2 workers."""
     folder = tmp_path_factory.mktemp("morning") / "study"
-    spec = load_study_spec(ROOT / "studies" / "demo_study.toml")
+    spec = load_study_spec(DEMO_STUDY)
     run_study(spec, folder, workers=2, trials=40, echo=lambda *_: None, tty=False, salt=0)
     return folder
 
 
+@pytest.mark.slow
 def test_front_files_hold_exactly_the_feasible_non_dominated_trials(finished, capsys):
     assert main(["study", "front", str(finished)]) == 0
     study, spec_json, _ = load_existing(finished)
@@ -76,8 +77,19 @@ def test_front_files_hold_exactly_the_feasible_non_dominated_trials(finished, ca
     pngs = sorted(p.name for p in (finished / "plots").glob("*.png"))
     assert any(p.startswith("front_") for p in pngs) and "pull_vs_gap.png" in pngs
     assert len(list((finished / "plots").glob("*.svg"))) == len(pngs)
+    # What the morning reads has the journal's mode (the umask's), not owner-only.
+    mode = (finished / "journal.log").stat().st_mode & 0o777
+    for path in (
+        "front.csv",
+        "front.parquet",
+        "trials.csv",
+        "report.html",
+        *(finished / "plots").iterdir(),
+    ):
+        assert (finished / path).stat().st_mode & 0o777 == mode, path
 
 
+@pytest.mark.slow
 def test_export_reproduces_the_stored_numbers(finished, tmp_path, capsys):
     out = tmp_path / "handoff"
     assert (
@@ -118,6 +130,7 @@ def test_export_reproduces_the_stored_numbers(finished, tmp_path, capsys):
     assert doc.header["$INSUNITS"] == 4  # millimetres
 
 
+@pytest.mark.slow
 def test_export_refuses_a_failed_or_missing_trial(finished, capsys):
     assert main(["study", "export", str(finished), "--trial", "100000"]) == 2
     assert "--trial 100000: must be a trial number" in capsys.readouterr().err
@@ -132,5 +145,7 @@ def test_demo_command_runs_the_main_job(tmp_path, capsys):
     assert "report" in out and (tmp_path / "report.html").exists()
     assert (tmp_path / "front.csv").exists() and (tmp_path / "journal.log").exists()
     if "no feasible design yet" not in out:
-        assert (tmp_path / "handoff" / "profile.dxf").exists()
+        # the hand-off folder has the name `study export` gives it: handoff-trial-N
+        (dxf,) = tmp_path.glob("handoff-trial-*/profile.dxf")
+        assert f"{dxf.parent}" in out
     assert "licensed professional" in out

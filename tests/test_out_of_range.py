@@ -155,6 +155,7 @@ def _outside(design) -> list[str]:
     return [k for k, v in values.items() if not VALIDATED_RANGE[k][0] <= v <= VALIDATED_RANGE[k][1]]
 
 
+@pytest.mark.slow
 @settings(max_examples=60, **COMMON)
 @given(valid_designs())
 def test_every_quantity_outside_its_range_is_named(data):

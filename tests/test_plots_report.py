@@ -148,6 +148,7 @@ def _check_written(paths, stems):
     assert plt.get_fignums() == []
 
 
+@pytest.mark.slow
 def test_study_plots_are_written(tmp_path):
     trials = make_trials()
     front = trials[trials["on_front"]]
@@ -163,6 +164,7 @@ def test_study_plots_are_written(tmp_path):
     _check_written(plot_front_progress(trials, OBJECTIVES, tmp_path), ["progress"])
 
 
+@pytest.mark.slow
 def test_plots_survive_one_objective_empty_fronts_and_nans(tmp_path):
     trials = make_trials(objectives=OBJECTIVES[:1])
     _check_written(plot_front_pairs(trials, OBJECTIVES[:1], tmp_path / "one"), ["front_pull_N"])

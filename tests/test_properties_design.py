@@ -18,7 +18,8 @@ the pole, library materials or explicit constants, current or voltage drive, wit
 * the coupled (electro-thermal) evaluation, the command line's default, never raises.
 
 Cost: one evaluation takes about 0.14 s of CPU here (a new pole geometry each time, so no cached
-pole model, and the thermal network); the quick tests evaluate ~420 designs, the slow one 500.
+pole model, and the thermal network); the property tests evaluate ~920 designs, so they are all
+marked slow (in `pytest --full`, not in the default run).
 """
 
 from __future__ import annotations
@@ -242,6 +243,7 @@ def _evaluate_checked(data):
     return design, r
 
 
+@pytest.mark.slow
 @QUICK
 @given(valid_designs())
 def test_valid_designs_satisfy_the_invariants(data):
@@ -255,6 +257,7 @@ def test_many_valid_designs_satisfy_the_invariants(data):
     _evaluate_checked(data)
 
 
+@pytest.mark.slow
 @settings(max_examples=80, **COMMON)
 @given(valid_designs())
 def test_coupled_evaluation_never_raises(data):
@@ -280,6 +283,7 @@ def _drive_consistency(data):
     assert abs(b.pull_N - a.pull_N) <= 1e-9 * _force_scale(design, a)
 
 
+@pytest.mark.slow
 @settings(max_examples=40, **COMMON)
 @given(valid_designs(current_drive=True))
 def test_voltage_drive_reproduces_current_drive(data):
@@ -343,12 +347,14 @@ def similar_pairs(draw):
     return data, s
 
 
+@pytest.mark.slow
 @settings(max_examples=40, **COMMON)
 @given(similar_pairs())
 def test_similarity_of_scaled_designs(pair):
     _similarity(*pair)
 
 
+@pytest.mark.slow
 @settings(max_examples=2000, **COMMON)
 @given(
     st.floats(1e-4, 1.0),

@@ -211,6 +211,7 @@ wrong_type_values = st.one_of(
 )
 
 
+@pytest.mark.slow
 @FILES
 @given(st.sampled_from(DEMO_FIELDS), wrong_type_values)
 def test_wrong_types(workdir, capsys, field, value):
@@ -224,6 +225,7 @@ def test_wrong_types(workdir, capsys, field, value):
     run_design(d, workdir, capsys, "wrong type", must_name=f"{table}.{key}")
 
 
+@pytest.mark.slow
 @FILES
 @given(
     st.sampled_from(["pole", "coil", "drive", "target", "ring", "thermal", "supply"]),
@@ -258,6 +260,7 @@ def test_missing_required_keys(workdir, capsys, field):
     run_design(d, workdir, capsys, "missing key", must_name=f"{table}.{key}")
 
 
+@pytest.mark.slow
 @FILES
 @given(
     st.sampled_from(SIZES),
@@ -290,6 +293,7 @@ def absurd_values(draw):
     return table, key, draw(st.floats(5e-324, lo * 0.999))
 
 
+@pytest.mark.slow
 @FILES
 @given(absurd_values())
 def test_absurd_sizes(workdir, capsys, case):
@@ -299,6 +303,7 @@ def test_absurd_sizes(workdir, capsys, case):
     run_design(d, workdir, capsys, "absurd size", must_name=f"{table}.{key}")
 
 
+@pytest.mark.slow
 @FILES
 @given(
     st.sampled_from(DEMO_NUMERIC),
@@ -330,6 +335,7 @@ def _not_a_key(table):
     ).filter(lambda k: k not in allowed)
 
 
+@pytest.mark.slow
 @FILES
 @given(st.data())
 def test_unknown_keys(workdir, capsys, data):
@@ -358,6 +364,7 @@ UNITS = [
 ]
 
 
+@pytest.mark.slow
 @FILES
 @given(st.sampled_from(DEMO_NUMERIC), st.sampled_from(UNITS))
 def test_wrong_units_in_names(workdir, capsys, field, unit):
@@ -394,6 +401,7 @@ BREAKERS = [
 ]
 
 
+@pytest.mark.slow
 @FILES
 @given(st.data())
 def test_broken_toml(workdir, capsys, data):
@@ -422,6 +430,7 @@ def test_broken_toml(workdir, capsys, data):
     assert len(out) == 1 and "not valid TOML" in out[0] and str(path) in out[0]
 
 
+@pytest.mark.slow
 @FILES
 @given(st.binary(max_size=400))
 def test_binary_garbage(workdir, capsys, blob):
@@ -432,6 +441,7 @@ def test_binary_garbage(workdir, capsys, blob):
     assert any(str(path) in line or "missing table" in line for line in lines)
 
 
+@pytest.mark.slow
 @FILES
 @given(st.binary(min_size=1, max_size=40))
 def test_invalid_utf8(workdir, capsys, blob):

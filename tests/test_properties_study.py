@@ -8,8 +8,9 @@ for certain: no generated file is valid, so every test can fail. ``test_the_base
 checks the starting point itself. Categories: wrong types at every key, tables that are not
 tables, missing tables, inverted or equal bounds, negative, zero and absurd sizes, NaN, inf and
 huge numbers, unknown keys and tables, wrong units in names, unknown results, broken TOML, binary
-garbage, invalid UTF-8 and bad ``design`` paths. The quick tests try about 2,800 inputs (under a
-minute on a loaded 2-core machine); the slow one draws 2,000 more from six categories at once.
+garbage, invalid UTF-8 and bad ``design`` paths. The tests try about 2,800 inputs (unknown keys,
+unknown results and wrong units in result names are marked slow, the rest run by default); the
+slow ``test_many_malformed_studies`` draws 2,000 more from six categories at once.
 
 ``study status``, ``front`` and ``export`` get bad locations (missing, a file, no journal, a
 damaged journal, URLs with a bad scheme or an unreachable port) and bad ``--trial``/``--best``
@@ -30,8 +31,9 @@ from hypothesis import strategies as st
 
 from models.design import DESIGN_KEYS
 from optim.cli import main
+from optim.demo import DEMO_STUDY
 from optim.study.spec import RUN_MAX, load_study_spec
-from tests.conftest import ROOT, write_counts
+from tests.conftest import write_counts
 from tests.test_properties_files import BREAKERS, UNITS, Raw, _time_box, to_toml
 
 # Hypothesis's failure report trips over a deprecation in a dependency under warnings-as-errors;
@@ -50,7 +52,7 @@ QUICK = settings(
 PREFIX = "eddypull: error: "
 
 # ------------------------------------------------------------------ the valid starting point
-_STUDY = ROOT / "studies" / "demo_study.toml"
+_STUDY = DEMO_STUDY
 BASE = tomllib.loads(_STUDY.read_text(encoding="utf-8"))
 BASE["design"] = str((_STUDY.parent / BASE["design"]).resolve())
 BASE["search"]["ring_depth_mm"]["step"] = 0.5  # 0.5..6.0: 11 steps, so every key has a value
@@ -364,6 +366,7 @@ _TOP = {"name", "description", "design", "search", "objectives", "robust", "cons
 _keys = st.text(st.characters(codec="utf-8", exclude_categories=("Cs",)), min_size=1, max_size=16)
 
 
+@pytest.mark.slow
 @QUICK
 @given(st.data())
 def test_unknown_keys_and_tables(workdir, capsys, data):
@@ -409,6 +412,7 @@ def test_wrong_units_in_names(workdir, capsys, where, data):
     _wrong_unit(workdir, capsys, where, data)
 
 
+@pytest.mark.slow
 @settings(QUICK, max_examples=12)  # each reaches the model (0.4 s): few, but every run
 @given(st.sampled_from(["objective", "constraint"]), st.data())
 def test_wrong_units_in_result_names(workdir, capsys, where, data):
@@ -444,6 +448,7 @@ def _wrong_unit(workdir, capsys, where, data):
     run_study(d, workdir, capsys, "wrong unit in name", must_name=must)
 
 
+@pytest.mark.slow
 @settings(QUICK, max_examples=12)  # each reaches the model (0.4 s): few, but every run
 @given(st.sampled_from(["objectives", "constraints"]), _keys)
 def test_unknown_results(workdir, capsys, table, name):

@@ -7,14 +7,14 @@ import dataclasses
 import inspect
 import json
 import pickle
-from pathlib import Path
 
 import pytest
 
 from models import evaluate, load_design
 from models.result import FLAT_FIELDS, Electrical, Result, Thermal
+from optim.demo import DEMO_DESIGN
 
-DEMO = Path(__file__).resolve().parents[1] / "studies" / "demo_design.toml"
+DEMO = DEMO_DESIGN
 
 
 @pytest.fixture(scope="module")

@@ -119,6 +119,7 @@ def test_multi_objective_front_is_feasible_and_non_dominated(tmp_path):
     assert not infeasible["on_front"].any()
 
 
+@pytest.mark.slow
 def test_geometry_that_cannot_be_built_is_a_failed_trial_with_its_reason(tmp_path):
     """ring_outer_fraction above 0.98 leaves less than the 0.2 mm wall of a 10 mm pole: those
     trials are refused before the model (the middle of the range, 0.9495, is buildable)."""

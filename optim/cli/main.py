@@ -17,9 +17,6 @@ from optim.jsonout import strict_json
 
 __all__ = ["main"]
 
-DEMO_DESIGN = Path(__file__).resolve().parents[2] / "studies" / "demo_design.toml"
-DEMO_STUDY = DEMO_DESIGN.with_name("demo_study.toml")
-
 
 def _cmd_evaluate(args) -> int:
     from optim.cli.summary import format_result
@@ -78,10 +75,14 @@ def _cmd_materials(args) -> int:
 
 def _cmd_demo(args) -> int:
     """The main job on the demo scenario: run the demo study (resuming it if it exists), then
-    write its front, plots and report and the hand-off of its best design."""
+    write its front, plots and report and the hand-off of its best design.
+
+    The demo files are read from the installed package; every output goes to ``--out`` or to
+    ``./harrowgate-night`` in the current folder, never beside the package's files."""
     from optim.cli.study import check_budget
+    from optim.demo import DEMO_STUDY
     from optim.morning.outputs import export_trial, write_front
-    from optim.study.run import run_study, study_folder
+    from optim.study.run import run_study
     from optim.study.spec import load_study_spec
     from optim.study.storage import load_existing
 
@@ -91,7 +92,7 @@ def _cmd_demo(args) -> int:
         minutes = args.minutes
     workers = args.workers if args.workers is not None else spec.run.get("workers", 1)
     check_budget(workers, args.trials, minutes)
-    folder = study_folder(spec, DEMO_STUDY, Path(args.out) if args.out else None)
+    folder = Path(args.out) if args.out else Path.cwd() / spec.name
     print(f"demo study {DEMO_STUDY.name}: {spec.description}")
     summary = run_study(
         spec,
@@ -115,7 +116,7 @@ def _cmd_demo(args) -> int:
         print("no feasible design yet: run the demo longer (eddypull demo --minutes 10)")
         print(CAUTION)
         return 0
-    paths = export_trial(study, spec_json, where, folder, best=first, out=folder / "handoff")
+    paths = export_trial(study, spec_json, where, folder, best=first)
     print(f"hand-off of the best {first} design (CAD): {paths['design.toml'].parent}")
     for name, path in paths.items():
         print(f"  {name:16s} {path}")
@@ -165,7 +166,11 @@ def _parser() -> argparse.ArgumentParser:
     d.add_argument("--minutes", type=float, help="time budget (default: the study file's)")
     d.add_argument("--trials", type=int, help="trial budget instead of the time budget")
     d.add_argument("--workers", type=int, help="worker processes (default: the study file's)")
-    d.add_argument("--out", metavar="DIR", help="study folder (default studies/harrowgate-night)")
+    d.add_argument(
+        "--out",
+        metavar="DIR",
+        help="study folder (default ./harrowgate-night in the current folder)",
+    )
     d.set_defaults(func=_cmd_demo)
 
     from optim.cli.study import add_study_parser

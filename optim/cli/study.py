@@ -168,7 +168,12 @@ def add_study_parser(sub) -> None:
     r.add_argument("--workers", type=int, help="worker processes on this machine")
     r.add_argument("--storage", metavar="URL", help="database URL shared by several machines")
     r.add_argument("--seed", type=int, help="sampler seed (overrides [run] seed)")
-    r.add_argument("--out", metavar="DIR", help="study folder (default studies/<name>)")
+    r.add_argument(
+        "--out",
+        metavar="DIR",
+        help="study folder (default: beside the study file whatever the current folder: "
+        "studies/<name> next to it, or <name> when the file sits in a studies folder)",
+    )
     r.add_argument("--json", action="store_true", help="print only a JSON summary at the end")
     r.set_defaults(func=_cmd_run)
 
@@ -188,7 +193,12 @@ def add_study_parser(sub) -> None:
         if cmd == "export":
             p.add_argument("--trial", type=int, help="trial number")
             p.add_argument("--best", metavar="OBJECTIVE", help="best front design for it")
-            p.add_argument("--out", metavar="FOLDER", help="hand-off folder name or path")
+            p.add_argument(
+                "--out",
+                metavar="FOLDER",
+                help="hand-off folder, taken inside the study folder when relative (default "
+                "handoff-trial-N there; an absolute path is used as it is)",
+            )
             p.add_argument("--verify", action="store_true", help="add the FEM side-by-side")
             p.add_argument(
                 "--resolution-mm",

@@ -3,7 +3,8 @@
 ``write_front`` writes, in the study folder: ``front.csv`` and ``front.parquet`` (the front's
 rows of ``optim.morning.front.trials_table``), ``trials.csv`` (every trial), the plots (``plots/``, PNG and
 SVG) and ``report.html``. ``export_trial`` writes the hand-off of one trial (``optim.morning.handoff``),
-after re-evaluating its design and checking that the numbers are the ones the study stored.
+after re-evaluating its design and checking that the numbers are the ones the study stored, into
+``handoff_folder``: ``handoff-trial-N`` in the study folder, or ``--out`` taken inside it.
 """
 
 from __future__ import annotations
@@ -17,7 +18,7 @@ from models.errors import DesignError
 from optim.files import atomic_path, atomic_write_text
 from optim.morning.front import for_people, status_summary, trials_table
 
-__all__ = ["write_front", "export_trial", "pick_trial", "design_of"]
+__all__ = ["write_front", "export_trial", "handoff_folder", "pick_trial", "design_of"]
 
 
 def _spec(spec_json):
@@ -240,6 +241,15 @@ def pick_trial(study, spec_json: dict, trial: int | None, best: str | None):
     return trials[int(front.loc[idx, "trial"])]
 
 
+def handoff_folder(folder, trial_number: int, out=None) -> Path:
+    """Where the hand-off of one trial goes: ``handoff-trial-N`` in the study folder, or ``out``.
+
+    One rule for both: a relative ``out`` is taken inside the study folder (``--out mine`` writes
+    ``<study folder>/mine``), an absolute one is used as it is.
+    """
+    return Path(folder) / (f"handoff-trial-{trial_number}" if out is None else Path(out))
+
+
 def export_trial(
     study,
     spec_json: dict,
@@ -273,8 +283,7 @@ def export_trial(
     record = record_of(t)
     names = study.user_attrs.get("eddypull_result_names", [])
     stored = dict(zip(names, record.get("results", []), strict=False))
-    # Default: a folder in the study's; --out is a path like any other on the command line.
-    target = Path(folder) / f"handoff-trial-{t.number}" if out is None else Path(out)
+    target = handoff_folder(folder, t.number, out)
     objective_values = dict(zip(spec_json["objectives"], t.values, strict=True))
     now = result.to_dict()
     drift = [

@@ -34,14 +34,16 @@ MAX_RESTARTS = 20
 
 
 def study_folder(spec, study_file: Path | None = None, out: Path | None = None) -> Path:
-    """Where a study's outputs live: ``out`` if given; else ``<studies>/<name>`` where
-    ``<studies>`` is the folder of the study file when that folder is named ``studies``, and
-    ``./studies`` otherwise."""
+    """Where a study's outputs live: ``out`` if given; else anchored to the study file's own
+    folder, whatever the current folder: ``<its folder>/<name>`` when that folder is named
+    ``studies``, ``<its folder>/studies/<name>`` otherwise (and ``./studies/<name>`` with no
+    study file). One study file run from two folders is one study."""
     if out is not None:
         return Path(out)
-    if study_file is not None and Path(study_file).resolve().parent.name == "studies":
-        return Path(study_file).resolve().parent / spec.name
-    return Path.cwd() / "studies" / spec.name
+    if study_file is None:
+        return Path.cwd() / "studies" / spec.name
+    here = Path(study_file).resolve().parent
+    return here / spec.name if here.name == "studies" else here / "studies" / spec.name
 
 
 class Progress:
@@ -142,6 +144,9 @@ def run_study(
         f"budget {trials if trials is not None else 'open'} trials, "
         f"{f'{minutes:g} min' if minutes is not None else 'no time limit'}"
     )
+    echo(
+        f"study folder: {folder.resolve()}"
+    )  # first: one study file run from anywhere is one folder
     echo(msg)
     log.info(msg)
     base_seed = seed if seed is not None else spec.run.get("seed")

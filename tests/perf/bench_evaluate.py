@@ -7,12 +7,12 @@ from __future__ import annotations
 
 import statistics
 import time
-from pathlib import Path
 
 from models import evaluate, load_design
 from models.evaluate import DEFAULT_FINENESS
+from optim.demo import DEMO_DESIGN
 
-DEMO = Path(__file__).resolve().parents[2] / "studies" / "demo_design.toml"
+DEMO = DEMO_DESIGN
 
 
 def median_time(fn, repeats=15):

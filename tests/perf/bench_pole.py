@@ -14,7 +14,6 @@ import os
 import statistics
 import sys
 import time
-from pathlib import Path
 
 import models.fast.pole
 from models import load_design
@@ -25,8 +24,9 @@ try:
 except ImportError:  # older circuit: the cell centres are the points
     iron_nodes = None
 from models.evaluate import DEFAULT_FINENESS, _panel_size, evaluate
+from optim.demo import DEMO_DESIGN
 
-DEMO = Path(__file__).resolve().parents[2] / "studies" / "demo_design.toml"
+DEMO = DEMO_DESIGN
 
 
 def _load(path):

@@ -12,7 +12,6 @@ import importlib
 import os
 import statistics
 import time
-from pathlib import Path
 
 import numpy as np
 
@@ -21,11 +20,12 @@ from models import load_design
 from models.evaluate import DEFAULT_FINENESS
 from models.fast import circuit, flux
 from models.fast.circuit import TARGET, build_cells, cell_mutual_matrix, iron_nodes, solve_circuit
+from optim.demo import DEMO_DESIGN
 
 # models/__init__ exports the function evaluate, which hides the module of that name.
 ev = importlib.import_module("models.evaluate")
 
-DEMO = Path(__file__).resolve().parents[2] / "studies" / "demo_design.toml"
+DEMO = DEMO_DESIGN
 
 
 def _clear_caches():

@@ -23,6 +23,7 @@ from pathlib import Path
 ROOT = Path(__file__).resolve().parents[2]
 sys.path.insert(0, str(ROOT))
 
+from optim.demo import DEMO_STUDY  # noqa: E402
 from optim.study.run import run_study  # noqa: E402
 from optim.study.spec import load_study_spec  # noqa: E402
 
@@ -71,7 +72,7 @@ def main():
     ap.add_argument("--trials", type=int, default=2000)
     ap.add_argument("--grow", type=int, default=0, help="grow one study to this many trials")
     args = ap.parse_args()
-    spec = load_study_spec(ROOT / "studies" / "demo_study.toml")
+    spec = load_study_spec(DEMO_STUDY)
     spec.run.pop("minutes", None)
     pg = os.environ.get("EDDYPULL_TEST_POSTGRES_URL")
     with tempfile.TemporaryDirectory() as tmp:

@@ -8,12 +8,12 @@ from __future__ import annotations
 import statistics
 import time
 import tomllib
-from pathlib import Path
 
 from models.design import design_from_dict
 from models.evaluate import evaluate
+from optim.demo import DEMO_DESIGN
 
-DEMO = Path(__file__).resolve().parents[2] / "studies" / "demo_design.toml"
+DEMO = DEMO_DESIGN
 
 
 def median_time(fn, repeats=15):
