@@ -11,8 +11,10 @@ How a worker keeps the storage out of the way of a millisecond model:
   trials other workers and machines have finished into its private study, so that its sampler
   learns from the whole study; the private study is a bounded window (optim.study.window), so that
   asking costs the same at 10^2 and at 10^6 trials.
-* Each worker's sampler is seeded ``seed + worker index`` so that parallel workers do not propose
-  identical trials.
+* Each worker's sampler is seeded from (study seed, worker index, run number, restart) by the run
+  (optim.study.run), and each rollover of its window from (that seed, rollover number)
+  (optim.study.sampler.derive_seed), so that parallel workers do not propose identical trials and
+  a study with a seed and one worker proposes the same trials each time.
 
 A trial's record: its parameters; objective values (a failed trial has none); one constraint
 value per ``[constraints]`` entry (<= 0 feasible, optuna's convention); and one user attribute
@@ -31,6 +33,7 @@ import uuid
 from datetime import UTC
 
 from models.errors import DesignError
+from optim.study.sampler import choose, derive_seed, make_sampler
 from optim.study.window import SamplerWindow, window_limit
 
 __all__ = [
@@ -57,18 +60,6 @@ def record_of(trial) -> dict:
     """eddypull's record of a stored trial (empty for a trial written by something else)."""
     rec = trial.user_attrs.get(RECORD_ATTR)
     return rec if isinstance(rec, dict) else {}
-
-
-def make_sampler(spec, seed: int | None):
-    import optuna
-
-    kind = spec.run.get("sampler", "nsga2")
-    if kind == "random":
-        return optuna.samplers.RandomSampler(seed=seed)
-    if kind == "tpe":
-        return optuna.samplers.TPESampler(seed=seed, multivariate=True)
-    population = int(spec.run.get("population", 40))
-    return optuna.samplers.NSGAIISampler(population_size=population, seed=seed)
 
 
 def evaluate_trial(spec, values: dict):
@@ -213,8 +204,8 @@ class _Worker:
         self.window = SamplerWindow(
             spec.directions,
             self.dists,
-            lambda k: make_sampler(spec, None if seed is None else seed + 7919 * k),
-            int(cfg.get("window_limit") or window_limit(int(spec.run.get("population", 40)))),
+            lambda k: make_sampler(spec, _rollover_seed(seed, k), k),
+            int(cfg.get("window_limit") or window_limit(choose(spec)[1])),
         )
         self.study_id = self.shared._study_id
         # optuna's own wrapper of a database storage keeps finished trials and reads only new ones.
@@ -288,6 +279,13 @@ class _Worker:
         else:
             self.window.study.tell(trial, state=TrialState.FAIL)
         self.window.maybe_roll()
+
+
+def _rollover_seed(seed: int | None, k: int) -> int | None:
+    """The seed of a worker's k-th window (k = 0: the worker's own seed)."""
+    if seed is None or k == 0:
+        return seed
+    return derive_seed(seed, k)
 
 
 def _evaluator(cfg: dict):

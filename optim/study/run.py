@@ -25,12 +25,15 @@ import numpy as np
 from models.errors import DesignError
 from optim.files import redact_text, redact_url
 from optim.study.engine import RESULT_NAMES_ATTR, run_worker
+from optim.study.sampler import derive_seed
 from optim.study.storage import create_or_load, is_url, open_storage, release
 
 __all__ = ["study_folder", "run_study", "Progress", "prepare"]
 
 #: A worker that dies is restarted at most this many times per run.
 MAX_RESTARTS = 20
+#: Study attribute: how many runs have started on the study (the run number of the next one).
+RUNS_ATTR = "eddypull_runs"
 
 
 def study_folder(spec, study_file: Path | None = None, out: Path | None = None) -> Path:
@@ -127,6 +130,10 @@ def run_study(
 
     ``trials`` counts this run's trials on this machine; ``minutes`` its wall time. At least one
     must be given. A resumed study adds to what it has.
+
+    Seeds: with a seed (``seed``, else ``[run] seed``) worker ``i``'s sampler is seeded from
+    (seed, i, run number, restarts) only, so one worker repeats the same trials each time; with
+    none, a per-process salt takes the seed's place. ``salt``, when given, is mixed in as well.
     """
     if trials is None and minutes is None:
         raise DesignError("budget: give --trials, --minutes or --hours (or [run] in the file)")
@@ -135,6 +142,8 @@ def run_study(
     log = _file_logger(folder)
     study, where = prepare(spec, location)
     start_count = len(study.get_trials(deepcopy=False))
+    run_number = int(study.user_attrs.get(RUNS_ATTR, 0))
+    study.set_user_attr(RUNS_ATTR, run_number + 1)
     release(study)
     deadline = time.time() + 60.0 * minutes if minutes is not None else None
     progress = Progress(spec, start_count, trials, deadline)
@@ -150,8 +159,6 @@ def run_study(
     echo(msg)
     log.info(msg)
     base_seed = seed if seed is not None else spec.run.get("seed")
-    if salt is None:  # parallel runs (same file, same seed) must not propose the same trials
-        salt = zlib.crc32(f"{socket.gethostname()}:{os.getpid()}:{time.time_ns()}".encode())
     cfg = {
         "spec": spec.to_json(),
         "location": str(location),
@@ -161,7 +168,7 @@ def run_study(
         "parent_pid": os.getpid(),
     }
     pool = _WorkerPool(cfg, _split(trials, workers), progress, log, echo)
-    pool.base_seed, pool.seed_shift = base_seed, start_count + salt
+    pool.seed_parts = _seed_parts(base_seed, salt, run_number)
     interrupted = pool.run(tty)
     if tty:
         sys.stdout.write("\n")
@@ -198,9 +205,8 @@ class _WorkerPool:
         self.progress = progress
         self.log = log
         self.echo = echo
-        #: a worker's seed: base seed + index + 1000 * generation + shift (trials so far + salt)
-        self.base_seed: int | None = None
-        self.seed_shift = 0
+        #: what a worker's seed derives from, before (index, generation): see _seed_parts
+        self.seed_parts: tuple = ()
         self.ctx = mp.get_context("spawn")
         self.stop = self.ctx.Event()
         self.procs: dict[int, mp.Process] = {}
@@ -215,8 +221,7 @@ class _WorkerPool:
     def start(self, index: int, generation: int) -> None:
         """Start the worker of slot ``index`` (``generation``: how many restarts so far)."""
         c = dict(self.cfg, index=index, trials=self.quotas[index])
-        if self.base_seed is not None:
-            c["seed"] = (int(self.base_seed) + index + 1000 * generation + self.seed_shift) % 2**31
+        c["seed"] = derive_seed(*self.seed_parts, index, generation)
         counter = self.ctx.Value("q", self.done[index])  # this slot's trials so far
         self.counters[index] = counter  # kept alive until the child has attached to it
         reader, writer = self.ctx.Pipe(duplex=False)  # one pipe per worker: a kill blocks no other
@@ -337,6 +342,16 @@ class _WorkerPool:
 
 def _interrupt(signum, frame):
     raise KeyboardInterrupt
+
+
+def _seed_parts(seed: int | None, salt: int | None, run_number: int) -> tuple:
+    """What every worker seed of this run derives from: (seed, run number), the salt appended
+    when one is given; without a seed, a salt of this process (host, pid, clock) in its place, so
+    that unseeded runs started at once never propose the same trials."""
+    if seed is None:
+        own = zlib.crc32(f"{socket.gethostname()}:{os.getpid()}:{time.time_ns()}".encode())
+        return (own if salt is None else salt, run_number, 1)
+    return (int(seed), run_number, 0) + (() if salt is None else (int(salt),))
 
 
 def _split(trials: int | None, workers: int) -> list:

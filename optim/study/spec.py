@@ -22,8 +22,8 @@ A study file::
     trials = 2000                     # trials in one run (a resumed run adds as many again)
     minutes = 30                      # or hours; at least one of trials, minutes, hours
     workers = 2
-    sampler = "nsga2"                 # "nsga2" (default), "tpe" or "random"
-    population = 40
+    sampler = "nsga2"                 # "auto" (default: TPE, then NSGA-II), "nsga2", "tpe", "random"
+    population = 40                   # NSGA-II's (default 40)
     seed = 1
     storage = "postgresql+psycopg://user@host/db"   # default: a journal file in the study folder
     isothermal = false                # true: every part at 20 degC (no thermal coupling)
@@ -54,7 +54,7 @@ __all__ = [
     "RUN_MAX",
 ]
 
-SAMPLERS = ("nsga2", "tpe", "random")
+SAMPLERS = ("auto", "nsga2", "tpe", "random")
 _TOP = {"name", "description", "design", "search", "objectives", "robust", "constraints", "run"}
 _RUN_KEYS = {
     "trials": "int",
@@ -69,7 +69,7 @@ _RUN_KEYS = {
 }
 #: Largest sensible value of each [run] number: a year of wall time, the worker limit of one
 #: machine, a NSGA-II population far beyond any useful one (common practice, no source), and the
-#: largest seed every worker's sampler accepts (seed + 7919 * worker index must stay below 2**32).
+#: largest 31-bit seed (worker seeds derive from it: optim.study.sampler.derive_seed).
 RUN_MAX = {
     "trials": 10**9,
     "minutes": 525_600,
