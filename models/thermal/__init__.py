@@ -6,7 +6,7 @@ design; the heat balance at a temperature state), ``coupling`` (temperatures and
 agree, ``solve_coupled``), ``limits`` (a held part, the time from cold to each limit).
 Temperatures are in degC, everything else SI.
 
-Worked example (the demo design, studies/demo_design.toml, with this [thermal] and [supply])::
+Worked example (the demo design, optim/demo/demo_design.toml, with this [thermal] and [supply])::
 
     [thermal]                                 [supply]
     duty_cycle = 0.1                          max_voltage_V = 120.0

@@ -1,6 +1,6 @@
 """Problems of the search-quality benchmark, their brute-force reference fronts and hypervolume.
 
-Every problem is a study of the demo design (``studies/demo_design.toml``), isothermal, over the
+Every problem is a study of the demo design (``optim/demo/demo_design.toml``), isothermal, over the
 same 3-parameter space (ring outer radius as a fraction of the pole radius, ring depth, frequency
 on a log scale). Its reference is the feasible Pareto front of a 12 x 12 x 12 grid of that space
 (1,728 designs, evaluated by the project's own ``evaluate_trial``), cached in
@@ -66,7 +66,7 @@ def study_text(
 ) -> str:
     """The study file of ``problem`` (sampler None: the engine's default)."""
     objectives, constraints = PROBLEMS[problem]
-    design = (ROOT / "studies" / "demo_design.toml").as_posix()
+    design = (ROOT / "optim" / "demo" / "demo_design.toml").as_posix()
     lines = [f'name = "{name}"', f'design = "{design}"', SEARCH, "[objectives]"]
     lines += [f'{k} = "{v}"' for k, v in objectives.items()]
     if constraints:
