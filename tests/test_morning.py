@@ -15,8 +15,8 @@ import pytest
 from models.design import load_design
 from models.evaluate import evaluate
 from optim.cli import main
-from optim.morning.outputs import design_of
 from optim.demo import DEMO_STUDY
+from optim.morning.outputs import design_of
 from optim.study.engine import record_of
 from optim.study.run import run_study
 from optim.study.spec import load_study_spec, spec_from_json
