@@ -48,6 +48,13 @@ def _cmd_run(args) -> int:
             f"--storage = {args.storage!r}: must be a database URL (scheme://...); leave it out "
             "for the study folder's journal"
         )
+    if args.storage is not None and _has_password(args.storage):
+        print(
+            "eddypull: warning: the password in --storage shows in the process list to every "
+            "user of this machine; put the URL in EDDYPULL_STORAGE_URL instead (or use the "
+            "database client's password file)",
+            file=sys.stderr,
+        )
     # A password is safer in the environment than on a command line (shell history, ps).
     storage = args.storage or os.environ.get("EDDYPULL_STORAGE_URL") or run.get("storage")
     folder = study_folder(spec, Path(args.study), Path(args.out) if args.out else None)
@@ -66,9 +73,35 @@ def _cmd_run(args) -> int:
         print(strict_json(summary))
     else:
         print(f"study folder: {summary['folder']}")
+        if not summary["feasible_this_run"] and summary["trials_this_run"]:
+            for line in _why_none_feasible(storage or summary["folder"], spec.name):
+                print(line)
     for line in summary["errors"]:
         print(f"eddypull: error: {line}", file=sys.stderr)
     return 1 if summary["errors"] else 0
+
+
+def _has_password(url: str) -> bool:
+    from urllib.parse import urlsplit
+
+    try:
+        return bool(urlsplit(url).password)
+    except ValueError:
+        return False
+
+
+def _why_none_feasible(location, name: str) -> list[str]:
+    """Which constraint rejected how many trials, and the best margin reached: the reason a run
+    found no feasible design."""
+    from optim.morning.front import constraint_lines, status_summary
+    from optim.study.storage import load_existing, release
+
+    study, spec_json, _ = load_existing(location, name)
+    try:
+        lines = constraint_lines(status_summary(study, spec_json))
+    finally:
+        release(study)
+    return ["no feasible design yet:", *lines] if lines else []
 
 
 def _open(args):

@@ -212,7 +212,8 @@ def format_status(s: dict, where: str) -> str:
         f"  trials      {s['trials']} ({s['complete']} done, {s['failed']} failed, "
         f"{s['running']} running)",
         f"  feasible    {s['feasible']} ({100 * s['feasible_share']:.1f} % of finished)",
-        f"  rate        {s['rate_per_s']:.2f} trials/s between {s['first']} and {s['last']}",
+        f"  rate        {s['rate_per_s']:.2f} trials/s between the first and the last finish "
+        f"({s['first']} to {s['last']}; pauses between runs count)",
         f"  front       {s['front_size']} designs",
     ]
     for name, direction in s["objectives"].items():

@@ -16,7 +16,7 @@ from pathlib import Path
 
 from models.errors import DesignError
 from optim.files import atomic_path, atomic_write_text
-from optim.morning.front import for_people, status_summary, trials_table
+from optim.morning.front import constraint_lines, for_people, status_summary, trials_table
 
 __all__ = ["write_front", "export_trial", "handoff_folder", "pick_trial", "design_of"]
 
@@ -167,8 +167,10 @@ def write_front(study, spec_json: dict, where: str, folder: Path, echo=print) ->
             "study": spec.name,
             "storage": where,
             "budget": _budget_text(spec.run),
-            "sampler": spec.run.get("sampler", "nsga2"),
+            "sampler": spec.run.get("sampler", "auto"),
             "picked trials": ", ".join(str(t) for t in picked) or "-",
+            "constraints": "; ".join(x.strip() for x in constraint_lines(summary))
+            or "no done trial rejected by a constraint",
         }
     )
     notes = _notes(spec, df, front, designs[0][1] if designs else None)

@@ -59,6 +59,7 @@ class Progress:
         self.budget_trials = budget_trials
         self.deadline = deadline
         self.done = self.failed = self.feasible = 0
+        self.first_finish = self.last_finish = None
         self.best = [None] * len(spec.objectives)
         self.signs = np.array([1.0 if d == "minimize" else -1.0 for d in spec.directions])
         self.front = np.empty((0, len(spec.objectives)))
@@ -66,6 +67,9 @@ class Progress:
     def add(self, state, feasible, values):
         """Count one finished trial; keep the front of feasible ones (minimisation form)."""
         self.done += 1
+        now = time.time()
+        self.first_finish = now if self.first_finish is None else self.first_finish
+        self.last_finish = now
         if state != "COMPLETE":
             self.failed += 1
             return
@@ -82,25 +86,39 @@ class Progress:
         keep = ~(np.all(v <= f, axis=1) & np.any(v < f, axis=1))
         self.front = np.vstack([f[keep], v[None, :]])
 
-    def line(self) -> str:
-        elapsed = max(time.time() - self.t0, 1e-9)
-        rate = self.done / elapsed
+    def rate(self) -> float | None:
+        """Trials finished per second between this run's first and last finish (the rate
+        ``study status`` gives over the whole study); None before two have finished."""
+        if self.done < 2 or self.last_finish <= self.first_finish:
+            return None
+        return (self.done - 1) / (self.last_finish - self.first_finish)
+
+    def line(self, final: bool = False) -> str:
+        """The progress line; ``final``: the run's last, without what is left."""
+        rate = self.rate()
         share = self.feasible / self.done if self.done else 0.0
         best = ", ".join(
             f"{o.name} {'-' if b is None else format(s * b, '.4g')}"
             for o, b, s in zip(self.spec.objectives, self.best, self.signs, strict=True)
         )
-        left = []
-        if self.deadline is not None:
-            left.append(max(self.deadline - time.time(), 0.0))
-        if self.budget_trials is not None and rate > 0:
-            left.append(max(self.budget_trials - self.done, 0) / rate)
-        eta = f"{min(left) / 60:.1f} min left" if left else "no end set"
-        return (
-            f"{self.start_count + self.done} trials ({self.done} this run, {rate:.1f}/s), "
-            f"feasible {100 * share:.0f} %, failed {self.failed}, front {len(self.front)}; "
-            f"best {best}; {eta}"
+        text = (
+            f"{self.start_count + self.done} trials ({self.done} this run"
+            + (f", {rate:.2f}/s" if rate is not None else "")
+            + f"), feasible {100 * share:.0f} %, failed {self.failed}, "
+            f"front {len(self.front)}; best {best}"
         )
+        return text if final else f"{text}; {self._left(rate)}"
+
+    def _left(self, rate) -> str:
+        """What is left of the budget: the trials to go and the time they take, or the time."""
+        left = []
+        if self.budget_trials is not None:
+            to_go = max(self.budget_trials - self.done, 0)
+            eta = f", about {to_go / rate / 60:.1f} min" if rate else ""
+            left.append(f"{to_go} of {self.budget_trials} trials to go{eta}")
+        if self.deadline is not None:
+            left.append(f"{max(self.deadline - time.time(), 0.0) / 60:.1f} min of time left")
+        return " or ".join(left)
 
 
 def prepare(spec, location):
@@ -172,7 +190,7 @@ def run_study(
     interrupted = pool.run(tty)
     if tty:
         sys.stdout.write("\n")
-    end = progress.line()
+    end = progress.line(final=True)
     echo(("stopped by Ctrl-C: " if interrupted else "done: ") + end)
     log.info(end)
     return {
