@@ -116,9 +116,6 @@ def _state_note(design, isothermal: bool) -> str:
 def write_front(study, spec_json: dict, where: str, folder: Path, echo=print) -> dict:
     """Write the front table, plots and report of a study into ``folder``; returns the paths and
     the lines to print."""
-    from optim.morning import plots
-    from optim.morning.report import binding_counts, write_report
-
     folder = Path(folder)
     folder.mkdir(parents=True, exist_ok=True)
     spec = _spec(spec_json)
@@ -128,6 +125,30 @@ def write_front(study, spec_json: dict, where: str, folder: Path, echo=print) ->
     if not front.empty:
         first, direction = next(iter(objectives.items()))
         front = front.sort_values(first, ascending=direction == "minimize")
+    paths = _write_tables(folder, df, front)
+    picks = _picks(front, objectives)
+    picked = [t for _, t in picks][:3]  # the first three get a pull-against-gap curve
+    designs = []
+    for t in picked:
+        row = front[front["trial"] == t].iloc[0]
+        designs.append((f"trial {t}", design_of(spec, {p.name: row[p.name] for p in spec.params})))
+    images = _write_plots(folder / "plots", spec, objectives, df, front, designs)
+    paths["report.html"] = _write_study_report(
+        folder, study, spec_json, spec, where, df, front, images, picks, designs
+    )
+    lines = [
+        f"study {spec.name}: {len(df)} trials, {int(df['feasible'].sum()) if len(df) else 0} "
+        f"feasible, front of {len(front)}",
+        f"front table   {paths['front.csv']} (and .parquet)",
+        f"all trials    {paths['trials.csv']}",
+        f"plots         {folder / 'plots'} ({len(images)} files)",
+        f"report        {paths['report.html']}",
+    ]
+    return {"paths": paths, "lines": lines, "picked": picked, "front": front}
+
+
+def _write_tables(folder: Path, df, front) -> dict[str, Path]:
+    """front.csv, trials.csv (states in our words) and front.parquet."""
     paths: dict[str, Path] = {}
     csv = io.StringIO()
     for_people(front).to_csv(csv, index=False)
@@ -138,8 +159,14 @@ def write_front(study, spec_json: dict, where: str, folder: Path, echo=print) ->
     with atomic_path(folder / "front.parquet") as tmp:
         front.reset_index(drop=True).to_parquet(tmp, index=False)
     paths["front.parquet"] = folder / "front.parquet"
+    return paths
 
-    plot_dir = folder / "plots"
+
+def _write_plots(plot_dir: Path, spec, objectives: dict, df, front, designs) -> list[Path]:
+    """The study's plots: front pairs and progress, parameter coupling, and pull against gap and
+    the section of the picked designs."""
+    from optim.morning import plots
+
     images: list[Path] = []
     pairs = list(objectives.items())  # [(name, direction)] in the study's order
     if len(df):
@@ -150,16 +177,22 @@ def write_front(study, spec_json: dict, where: str, folder: Path, echo=print) ->
         images += plots.plot_parameter_coupling(
             front, [p.name for p in spec.params], plot_dir, log=log
         )
-    picks = _picks(front, objectives)
-    picked = [t for _, t in picks][:3]  # the first three get a pull-against-gap curve
-    designs = []
-    for t in picked:
-        row = front[front["trial"] == t].iloc[0]
-        designs.append((f"trial {t}", design_of(spec, {p.name: row[p.name] for p in spec.params})))
-    isothermal = bool(spec.run.get("isothermal", False))
     if designs:
+        isothermal = bool(spec.run.get("isothermal", False))
         images += plots.plot_pull_vs_gap(designs, plot_dir, isothermal=isothermal)
         images += plots.plot_section(designs[0][1], plot_dir, designs[0][0])
+    return images
+
+
+def _write_study_report(
+    folder, study, spec_json, spec, where, df, front, images, picks, designs
+) -> Path:
+    """report.html: the picks, the summary (with what the constraints rejected), the front,
+    the plots with their captions and the model's notes."""
+    from optim.morning import plots
+    from optim.morning.report import binding_counts, write_report
+
+    pairs = list(dict(spec_json["objectives"]).items())
     pngs = [(p, plots.caption_for(p, pairs)) for p in images if Path(p).suffix == ".png"]
     summary = status_summary(study, spec_json, df)
     summary.update(
@@ -168,7 +201,7 @@ def write_front(study, spec_json: dict, where: str, folder: Path, echo=print) ->
             "storage": where,
             "budget": _budget_text(spec.run),
             "sampler": spec.run.get("sampler", "auto"),
-            "picked trials": ", ".join(str(t) for t in picked) or "-",
+            "picked trials": ", ".join(str(t) for _, t in picks[:3]) or "-",
             "constraints": "; ".join(x.strip() for x in constraint_lines(summary))
             or "no done trial rejected by a constraint",
         }
@@ -185,16 +218,7 @@ def write_front(study, spec_json: dict, where: str, folder: Path, echo=print) ->
         params=[p.name for p in spec.params],
         picks=picks,
     )
-    paths["report.html"] = Path(report)
-    lines = [
-        f"study {spec.name}: {len(df)} trials, {int(df['feasible'].sum()) if len(df) else 0} "
-        f"feasible, front of {len(front)}",
-        f"front table   {paths['front.csv']} (and .parquet)",
-        f"all trials    {paths['trials.csv']}",
-        f"plots         {plot_dir} ({len(images)} files)",
-        f"report        {paths['report.html']}",
-    ]
-    return {"paths": paths, "lines": lines, "picked": picked, "front": front}
+    return Path(report)
 
 
 def _budget_text(run: dict) -> str:
