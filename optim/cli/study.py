@@ -82,12 +82,10 @@ def _cmd_run(args) -> int:
 
 
 def _has_password(url: str) -> bool:
-    from urllib.parse import urlsplit
+    """True when a database URL carries a password (user:password@host, or ?password=...)."""
+    from optim.files import redact_url
 
-    try:
-        return bool(urlsplit(url).password)
-    except ValueError:
-        return False
+    return redact_url(url) != url
 
 
 def _why_none_feasible(location, name: str) -> list[str]:
