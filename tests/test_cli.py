@@ -145,3 +145,16 @@ def test_json_output_is_strict_even_for_a_runaway(tmp_path, capsys):
     assert out["coil_temperature_C_why"].startswith("thermal runaway")
     assert out["margins"]["coil_temperature_C"] is None
     assert out["margins_why"]["coil_temperature_C"].startswith("thermal runaway")
+    # Numbers or null everywhere (no "inf" strings), each null of a table explained beside it.
+
+    def no_inf_strings(v):
+        if isinstance(v, dict):
+            return all(no_inf_strings(x) for x in v.values())
+        if isinstance(v, list):
+            return all(no_inf_strings(x) for x in v)
+        return v not in ("inf", "-inf")
+
+    assert no_inf_strings(out)
+    for table in ("margins", "time_to_limit_s", "temperatures_C"):
+        for key, why in out.get(f"{table}_why", {}).items():
+            assert out[table][key] is None and why
