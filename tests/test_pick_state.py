@@ -312,3 +312,21 @@ def test_held_part_warming_against_integration_of_its_own_loss_law():
     rise = exact - t0
     assert abs(chord - exact) < 0.05 * rise
     assert abs(chord - exact) < abs(tangent - exact)
+
+
+def test_defaults_reach_the_report_note_and_the_hand_off(tmp_path):
+    from optim.morning.handoff import write_handoff
+    from optim.morning.outputs import _state_note
+
+    design = _design(WASHER)
+    note = _state_note(design, isothermal=False)
+    assert "moment of pick" in note and "Thermal assumptions:" in note
+    assert "continuous duty (default)" in note and "10 s hold (default)" in note
+    assert "no thermal.ring_limit_C given" in note
+    paths = write_handoff(design, evaluate(design), tmp_path, {})
+    data = json.loads(paths["handoff.json"].read_text(encoding="utf-8"))
+    assert data["thermal_assumptions"]["duty_cycle"] == 1.0
+    assert "hold_time_s" in data["thermal_assumptions"]["defaults"]
+    used = data["limits"]["temperature_limits_used"]
+    assert used["ring"]["limit_C"] == pytest.approx(1083.0)
+    assert "no thermal.ring_limit_C given" in used["ring"]["source"]
