@@ -330,3 +330,19 @@ def test_defaults_reach_the_report_note_and_the_hand_off(tmp_path):
     used = data["limits"]["temperature_limits_used"]
     assert used["ring"]["limit_C"] == pytest.approx(1083.0)
     assert "no thermal.ring_limit_C given" in used["ring"]["source"]
+
+
+def test_energy_balance_closes_at_the_end_of_the_hold():
+    # Poynting again, in the held state: the part warm, at the holding gap.
+    from models.evaluate import _part_losses, _steady_state, at_hold_gap, pick_state
+
+    design = _design({**WASHER, "thermal": {"hold_gap_mm": 0.8, "hold_time_s": 30.0}})
+    held = at_hold_gap(design)
+    system = _system(held)
+    state = _steady_state(held, system, isothermal=False)
+    part = pick_state(design, state, False, system)
+    assert part.target_hold_C > part.target_arrival_C + 5.0
+    sol = solve_system(system, part.hold)
+    losses = _part_losses(sol)
+    terminal = float((sol.coil_voltage * sol.coil_current.conjugate()).real)
+    assert terminal == pytest.approx(sum(losses.values()), rel=1e-9)
