@@ -189,9 +189,14 @@ def evaluate_pick_gaps(
         else assemble_circuit(held_design, fineness, pole_model_for(held_design, fineness))
     )
     state = _steady_state(held_design, held_system, isothermal)
-    part = pick_state(design, state, isothermal, held_system)
-    arrival = solve_system(pick_system, part.arrival)
-    hold = solve_system(held_system, part.hold) if part.hold is not None else None
+    solve = _solved_once()
+
+    def loss_at_arrival(temps):
+        return _part_losses(solve(held_system, temps))["target"]
+
+    part = pick_state(design, state, isothermal, loss_at_arrival)
+    arrival = solve(pick_system, part.arrival)
+    hold = solve(held_system, part.hold) if part.hold is not None else None
     electrical = _electrical(design, arrival, hold)
     thermal = _thermal(design, state, part, electrical)
     flat = _flat_for_checks(electrical, thermal)
@@ -270,12 +275,26 @@ class PickState:
     hold: dict | None
 
 
-def pick_state(design: Design, state, isothermal: bool, held_system=None) -> PickState:
+def _solved_once():
+    """``solve_system`` that solves each (system, temperatures) once: at the design's own gap
+    the part's loss at arrival, the arrival itself and (isothermal) the hold are one solve."""
+    seen = {}
+
+    def solve(system, temps):
+        key = (id(system), tuple(sorted(temps.items())))
+        if key not in seen:
+            seen[key] = solve_system(system, temps)
+        return seen[key]
+
+    return solve
+
+
+def pick_state(design: Design, state, isothermal: bool, loss_at_arrival=None) -> PickState:
     """The moment of pick and the end of the hold: the fixed parts (coil, ring) at the steady
     state of ``state``, the part arriving at ``thermal.target_arrival_C`` (default the ambient)
     and warmed for ``thermal.hold_time_s`` from there; with ``thermal.target_stays``, the part
-    at its steady state in both. ``held_system`` (the circuit at the holding gap) gives the
-    part's loss as it arrives, which the warming follows (models.thermal.limits)."""
+    at its steady state in both. ``loss_at_arrival(temperatures)`` (the part's loss [W] in the
+    circuit at the holding gap) gives the loss the warming starts from (models.thermal.limits)."""
     th = design.thermal
     net = state.network
     T = state.T if np.all(np.isfinite(state.T)) else state.T_last  # a runaway: its last iterate
@@ -291,12 +310,11 @@ def pick_state(design: Design, state, isothermal: bool, held_system=None) -> Pic
     else:
         t_arrival = th.ambient_C if th.target_arrival_C is None else th.target_arrival_C
         circuit_target = t_arrival
-        loss_at_arrival = None
-        if held_system is not None and not isothermal:
-            at_arrival = solve_system(held_system, {**fixed, "target": t_arrival})
-            loss_at_arrival = _part_losses(at_arrival)["target"]
+        initial_loss = None
+        if loss_at_arrival is not None and not isothermal:
+            initial_loss = loss_at_arrival({**fixed, "target": t_arrival})
         t_hold, _, tau = hold_temperature(
-            state, th.hold_time, initial_C=t_arrival, initial_loss_W=loss_at_arrival
+            state, th.hold_time, initial_C=t_arrival, initial_loss_W=initial_loss
         )
     if isothermal:
         arrival = {**fixed, "target": 20.0}
