@@ -15,6 +15,7 @@ import tomllib
 from dataclasses import dataclass, field
 from pathlib import Path
 
+from models.core_loss import lamination_permeability
 from models.errors import DesignError, nearest
 from models.materials import MATERIALS, get_material
 
@@ -47,8 +48,11 @@ DEFAULT_FILL_FACTOR = 0.6
 
 @dataclass(frozen=True)
 class Pole:
-    """Steel pole: radius [m], length [m], relative permeability [-], conductivity [S/m] (0 = laminated),
-    saturation flux density [T] (None if unknown)."""
+    """Steel pole: radius [m], length [m], relative permeability [-], conductivity [S/m] (0 = laminated
+    or non-conducting), saturation flux density [T] (None if unknown), sheet thickness [m] and
+    the sheets' conductivity [S/m] of a laminated stack (None: thin sheets, no eddy loss), the
+    core's hysteresis and excess loss law (models.core_loss.CoreLossLaw; None: not modelled) and
+    its mass density [kg/m^3]."""
 
     radius: float
     length: float
@@ -58,10 +62,31 @@ class Pole:
     saturation_flux_density: float | None = None
     lamination_thickness: float | None = None
     sheet_conductivity: float | None = None
+    core_loss: object = None
+    density: float = 7700.0
 
     @property
     def laminated(self) -> bool:
         return self.conductivity == 0.0
+
+    def effective_permeability(self, frequency: float) -> complex:
+        """Relative permeability the models use at ``frequency``: complex for a laminated stack
+        with sheet data (models.core_loss.lamination_permeability), else the real mu_r."""
+        if not self.lamination_thickness or not self.sheet_conductivity:
+            return complex(self.relative_permeability)
+        return lamination_permeability(
+            self.relative_permeability, self.sheet_conductivity, self.lamination_thickness, frequency
+        )
+
+    def saturation_at(self, temperature_C: float) -> float | None:
+        """Saturation flux density [T] at ``temperature_C``: the library material's table where it
+        has one, else ``saturation_flux_density``."""
+        m = MATERIALS.get(self.material or "")
+        if m is not None and m.saturation_vs_temperature and self.saturation_flux_density == (
+            m.saturation_flux_density
+        ):
+            return m.saturation_at(temperature_C)
+        return self.saturation_flux_density
 
 
 @dataclass(frozen=True)
@@ -251,6 +276,8 @@ DESIGN_KEYS: dict[str, dict[str, tuple[str, bool]]] = {
         "relative_permeability": ("pos", False),
         "conductivity_S_per_m": ("nonneg", False),
         "saturation_flux_density_T": ("pos", False),
+        "lamination_thickness_mm": ("pos", False),
+        "sheet_conductivity_S_per_m": ("nonneg", False),
     },
     "coil": {
         "inner_radius_mm": ("pos", True),
@@ -528,16 +555,42 @@ def _parse_pole(p: _Values, problems: list[str]) -> dict | None:
         )
     if mu_r is not None and mu_r < 1.0:
         problems.append(f"pole.relative_permeability = {mu_r!r}: must be >= 1 (a magnetic steel)")
+    given = _pole_sheets(p, pole_mat, sigma, problems)
     if mu_r is None or sigma is None:
         return None
+    m = None if pole_mat is None else get_material(pole_mat)
     return {
         "relative_permeability": float(mu_r),
         "conductivity": float(sigma),
-        "material": pole_mat if pole_mat is None else get_material(pole_mat).name,
+        "material": None if m is None else m.name,
         "saturation_flux_density": bsat,
-        "lamination_thickness": lamination[0],
-        "sheet_conductivity": lamination[1],
+        "lamination_thickness": lamination[0] if m is not None else given[0],
+        "sheet_conductivity": lamination[1] if m is not None else given[1],
+        "core_loss": None if m is None else m.core_loss,
+        "density": 7700.0 if m is None else m.density,
     }
+
+
+def _pole_sheets(p: _Values, pole_mat, sigma, problems: list[str]) -> tuple:
+    """The sheets of a pole given by relative_permeability: (thickness [m], conductivity
+    [S/m]), each None when not given; both or neither, and only for a laminated pole."""
+    d, s = p.get("lamination_thickness_mm"), p.get("sheet_conductivity_S_per_m")
+    if d is None and s is None:
+        return None, None
+    if pole_mat is not None:
+        problems.append(
+            f"pole.material = {pole_mat!r}: its sheets come from the library; leave out "
+            "lamination_thickness_mm and sheet_conductivity_S_per_m"
+        )
+    elif (d is None) != (s is None):
+        missing = "sheet_conductivity_S_per_m" if s is None else "lamination_thickness_mm"
+        problems.append(f"pole.{missing}: missing; give both sheet keys of a laminated pole or neither")
+    elif sigma is not None and sigma != 0.0:
+        problems.append(
+            f"pole.conductivity_S_per_m = {sigma!r}: a pole with sheet keys is laminated; "
+            "allowed: 0"
+        )
+    return (None if d is None else d * MM), s
 
 
 def _parse_drive(d: _Values, problems: list[str]) -> dict:
