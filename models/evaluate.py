@@ -25,8 +25,8 @@ from models.checks import (
 from models.design import Design, with_value
 from models.errors import DesignError
 from models.fast.circuit import RING, TARGET, CircuitSolution, assemble_circuit, solve_system
-from models.fast.discretize import Fineness
 from models.fast.core import radial_flux_fraction
+from models.fast.discretize import Fineness
 from models.fast.flux import core_peak_flux_density, pole_flux_density
 from models.fast.pull import pull_by_source
 from models.result import MODEL_VERSION, Electrical, Result, Thermal, ring_phase

@@ -61,9 +61,15 @@ def _edges(lo, hi, n, toward_hi=False, ratio=1.0):
 def _section(pole, ring, per_segment=3, n_face=4, n_back=7):
     """Centres and volumes of the rectangles of the steel section."""
     depth = 0.0 if ring is None else ring.depth
-    radii = [0.0, pole.radius] if ring is None else [0.0, ring.inner_radius, ring.outer_radius, pole.radius]
+    radii = (
+        [0.0, pole.radius]
+        if ring is None
+        else [0.0, ring.inner_radius, ring.outer_radius, pole.radius]
+    )
     r_edges = np.unique(
-        np.concatenate([np.linspace(a, b, per_segment + 1) for a, b in zip(radii, radii[1:], strict=False)])
+        np.concatenate(
+            [np.linspace(a, b, per_segment + 1) for a, b in zip(radii, radii[1:], strict=False)]
+        )
     )
     z_face = depth if depth > 0.0 else min(0.1 * pole.length, pole.radius)
     z_edges = np.unique(
@@ -161,4 +167,3 @@ def radial_flux_fraction(grid: CoreGrid, cell_current, face_depth: float) -> flo
     e_r = np.abs(br) ** 2 * grid.volume
     total = (e_r + np.abs(bz) ** 2 * grid.volume).sum()
     return float(e_r[grid.z > -face_depth].sum() / total) if total > 0 else 0.0
-
