@@ -157,5 +157,27 @@ def format_materials() -> str:
             if key == "lamination_thickness":
                 value = value * 1e3  # files give it in mm
             rows.append(f"  {label:26s} {value:<10.4g} {unit:9s} {src}")
+        rows += _core_rows(m)
         rows.append("")
     return "\n".join(rows).rstrip()
+
+
+def _core_rows(m) -> list[str]:
+    """A core material's saturation against temperature, temperature limit and loss law."""
+    rows = []
+    if m.saturation_vs_temperature:
+        table = ", ".join(f"{b:g} T at {t:g} degC" for t, b in m.saturation_vs_temperature)
+        rows.append(f"  {'saturation by temperature':26s} {table}")
+    if m.is_magnetic and m.max_temperature_C is not None:
+        src = m.sources.get("max_temperature_C", "no source recorded")
+        rows.append(f"  {'temperature limit':26s} {m.max_temperature_C:<10.4g} {'degC':9s} {src}")
+    law = m.core_loss
+    if law is not None:
+        sheets = "classical (sheets) + " if m.sheet_conductivity else ""
+        rows.append(
+            f"  {'core loss law':26s} {sheets}{law.k_h:.4g} f B^{law.alpha:g} + "
+            f"{law.k_e:.4g} (f B)^1.5 W/kg (B peak in T, f in Hz)"
+        )
+        points = "; ".join(f"{total:.4g} W/kg at {b:g} T, {f:g} Hz" for b, f, total in law.points)
+        rows.append(f"  {'  fitted to':26s} {points}: {law.source}")
+    return rows
