@@ -254,6 +254,7 @@ _CARD_ROWS = (
     (("worst_lift_ratio", "lift_ratio"), "lift ratio"),
     (("input_power_W",), "input power"),
     (("core_loss_W",), "core loss"),
+    (("pull_uncertainty_relative",), "pull error bar (relative)"),
 )
 
 
