@@ -4,6 +4,8 @@ temperature swings, supply limits)."""
 
 from __future__ import annotations
 
+import math
+
 import numpy as np
 
 from models.design import Design
@@ -49,18 +51,20 @@ FLUX_WARNING_FRACTION = 0.9
 SWING_WARNING_K = 2.0
 
 
-def range_warnings(design: Design, sol: CircuitSolution, fineness: Fineness, b_peak: float):
+def range_warnings(design: Design, sol: CircuitSolution, fineness: Fineness, electrical):
     """Warnings where the linear model or its discretisation leaves its validated range: flux
-    density past saturation, a design outside VALIDATED_RANGE, sheets thicker than twice their
-    skin depth, cells coarser than a part's skin depth."""
+    density past saturation (at the core's temperature), a design outside VALIDATED_RANGE, a
+    pole's sheets or loss law not given, sheets thick against their skin depth where flux runs
+    across them, cells coarser than a part's skin depth."""
     out = []
-    bsat = design.pole.saturation_flux_density
-    if bsat is not None and b_peak > bsat:
+    b_peak = electrical.core_peak_flux_density_T
+    bsat = electrical.core_saturation_T
+    if math.isfinite(bsat) and b_peak > bsat:
         out.append(
-            f"core peak flux density {b_peak:.3g} T exceeds the steel's linear limit {bsat:.3g} T: "
-            "saturation makes the linear model optimistic"
+            f"core peak flux density {b_peak:.3g} T exceeds the steel's linear limit {bsat:.3g} T "
+            "at its temperature: saturation makes the linear model optimistic"
         )
-    elif bsat is None and b_peak > TYPICAL_SATURATION_T:
+    elif not math.isfinite(bsat) and b_peak > TYPICAL_SATURATION_T:
         out.append(
             f"core peak flux density {b_peak:.3g} T is above {TYPICAL_SATURATION_T:g} T, where "
             "electrical steels saturate, and pole.saturation_flux_density_T is not given: the "
@@ -82,15 +86,7 @@ def range_warnings(design: Design, sol: CircuitSolution, fineness: Fineness, b_p
                 f"{key} = {value:.4g} is outside the range checked against the FEM "
                 f"({lo:g} to {hi:g}): confirm with 'eddypull verify'"
             )
-    p = design.pole
-    if p.lamination_thickness is not None and p.sheet_conductivity:
-        delta_sheet = skin_depth(f, p.sheet_conductivity, p.relative_permeability)
-        if delta_sheet < 0.5 * p.lamination_thickness:
-            out.append(
-                f"skin depth in the {p.lamination_thickness * 1e3:.3g} mm sheets is "
-                f"{delta_sheet * 1e3:.3g} mm at {f:g} Hz, under half the sheet thickness: the "
-                "pole has eddy losses and a lower effective permeability than modelled"
-            )
+    out += _core_warnings(design, electrical)
     for name, part, label in (("target", design.target, TARGET), ("ring", design.ring, RING)):
         if part is None:
             continue
@@ -102,6 +98,36 @@ def range_warnings(design: Design, sol: CircuitSolution, fineness: Fineness, b_p
             out.append(
                 f"{name} skin depth {delta * 1e3:.3g} mm is finer than its cells "
                 f"({finest * 1e3:.3g} mm): raise the cell limit for a converged answer"
+            )
+    return out
+
+
+def _core_warnings(design: Design, electrical) -> list[str]:
+    """What the core-loss model leaves out: sheets or a loss law not given, and sheets over two
+    skin depths thick where much of the flux runs across them."""
+    p, f = design.pole, design.drive.frequency
+    out = []
+    if p.core_loss is None and p.lamination_thickness is None:
+        out.append(
+            "pole given by relative_permeability alone (no lamination_thickness_mm and "
+            "sheet_conductivity_S_per_m, no loss data): taken as thin sheets without loss, "
+            "core_loss_W = 0; name pole.material for a graded steel"
+        )
+    elif p.core_loss is None:
+        out.append(
+            "the pole's steel has no hysteresis and excess loss data (name pole.material for a "
+            "graded steel): core_loss_W holds its sheets' eddy loss only"
+        )
+    if p.lamination_thickness and p.sheet_conductivity:
+        delta = skin_depth(f, p.sheet_conductivity, p.relative_permeability)
+        fraction = electrical.core_radial_flux_fraction
+        if p.lamination_thickness > 2.0 * delta:
+            out.append(
+                f"the {p.lamination_thickness * 1e3:.3g} mm sheets are "
+                f"{p.lamination_thickness / delta:.2g} skin depths thick at {f:g} Hz: their eddy "
+                "loss and the pole's lower, lagging permeability are modelled for flux along the "
+                f"sheets; {100 * fraction:.1f} % of the flux energy runs radially at the face, "
+                "across them, where the loss is higher than modelled"
             )
     return out
 
@@ -131,8 +157,8 @@ def limits_and_margins(design: Design, state, result: dict):
             th.target_limit_C - result["target_hold_temperature_C"],
             th.target_limit_C - ta,
         )
-    bsat = design.pole.saturation_flux_density
-    if bsat:
+    bsat = result["core_saturation_T"]
+    if math.isfinite(bsat) and bsat > 0:
         add("core_flux_density_T", bsat - result["core_peak_flux_density_T"], bsat)
     sup = design.supply
     if sup is not None:

@@ -75,15 +75,20 @@ class Pole:
         if not self.lamination_thickness or not self.sheet_conductivity:
             return complex(self.relative_permeability)
         return lamination_permeability(
-            self.relative_permeability, self.sheet_conductivity, self.lamination_thickness, frequency
+            self.relative_permeability,
+            self.sheet_conductivity,
+            self.lamination_thickness,
+            frequency,
         )
 
     def saturation_at(self, temperature_C: float) -> float | None:
         """Saturation flux density [T] at ``temperature_C``: the library material's table where it
         has one, else ``saturation_flux_density``."""
         m = MATERIALS.get(self.material or "")
-        if m is not None and m.saturation_vs_temperature and self.saturation_flux_density == (
-            m.saturation_flux_density
+        if (
+            m is not None
+            and m.saturation_vs_temperature
+            and self.saturation_flux_density == (m.saturation_flux_density)
         ):
             return m.saturation_at(temperature_C)
         return self.saturation_flux_density
@@ -584,7 +589,9 @@ def _pole_sheets(p: _Values, pole_mat, sigma, problems: list[str]) -> tuple:
         )
     elif (d is None) != (s is None):
         missing = "sheet_conductivity_S_per_m" if s is None else "lamination_thickness_mm"
-        problems.append(f"pole.{missing}: missing; give both sheet keys of a laminated pole or neither")
+        problems.append(
+            f"pole.{missing}: missing; give both sheet keys of a laminated pole or neither"
+        )
     elif sigma is not None and sigma != 0.0:
         problems.append(
             f"pole.conductivity_S_per_m = {sigma!r}: a pole with sheet keys is laminated; "

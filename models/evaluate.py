@@ -25,14 +25,14 @@ from models.checks import (
 from models.design import Design, with_value
 from models.errors import DesignError
 from models.fast.circuit import RING, TARGET, CircuitSolution, assemble_circuit, solve_system
+from models.fast.core import radial_flux_fraction
 from models.fast.discretize import Fineness
 from models.fast.flux import core_peak_flux_density, pole_flux_density
 from models.fast.pull import pull_by_source
-from models.materials import MATERIALS
 from models.result import MODEL_VERSION, Electrical, Result, Thermal, ring_phase
 from models.thermal.coupling import solve_coupled
 from models.thermal.limits import hold_temperature
-from models.thermal.network import build_network
+from models.thermal.network import build_network, face_slab_thickness
 
 __all__ = [
     "DEFAULT_FINENESS",
@@ -58,11 +58,13 @@ def _panel_size(design: Design, fineness: Fineness) -> float:
 def pole_model_for(design: Design, fineness: Fineness):
     """The magnetised-pole model of ``design`` (None if the pole is not magnetic).
 
-    The model depends only on the pole's radius, length and permeability, the groove (ring
-    radii and depth) and the panel size, not on frequency, drive, coil or target material: the
-    last few built are kept (``_cached_pole_model``, keyed by those exact floats) so that sweeps
-    and studies over the others reuse it. The same object is returned for equal keys; treat it
-    as read-only.
+    The model depends on the pole's radius and length, the groove (ring radii and depth), the
+    panel size and the pole's permeability at the design's frequency (complex for a laminated
+    stack with sheet data), not on drive, coil or target material. The panels and their field
+    matrix (the costly part, geometry only) are kept for the last few geometries
+    (``_cached_pole_geometry``), the factorised model for the last few (geometry,
+    permeability) pairs (``_cached_pole_model``), so that sweeps and studies over frequency and
+    the rest reuse them. The same object is returned for equal keys; treat it as read-only.
     """
     if design.pole.relative_permeability <= 1.0:
         return None
@@ -71,7 +73,7 @@ def pole_model_for(design: Design, fineness: Fineness):
     return _cached_pole_model(
         float(p.radius),
         float(p.length),
-        float(p.relative_permeability),
+        complex(p.effective_permeability(design.drive.frequency)),
         None if groove is None else tuple(float(x) for x in groove),
         float(_panel_size(design, fineness)),
     )
@@ -79,8 +81,22 @@ def pole_model_for(design: Design, fineness: Fineness):
 
 @functools.lru_cache(maxsize=8)
 def _cached_pole_model(radius, length, relative_permeability, groove, panel_size):
-    """MagnetisedPole of a pole (radius, length [m], mu_r) with the groove (inner radius, outer
-    radius, depth [m]) or None, meshed with ``panel_size`` [m]. build_panels reads only these
+    """MagnetisedPole of a pole (radius, length [m], relative permeability, complex or real) with
+    the groove (inner radius, outer radius, depth [m]) or None, meshed with ``panel_size`` [m]."""
+    geometry = _cached_pole_geometry(radius, length, groove, panel_size)
+    mu = relative_permeability.real if relative_permeability.imag == 0.0 else relative_permeability
+    model = geometry.with_permeability(mu)
+    # Shared between callers: lock the arrays so that an accidental in-place change fails loudly.
+    for a in (model.matrix, *model._lu):
+        if isinstance(a, np.ndarray):
+            a.setflags(write=False)
+    return model
+
+
+@functools.lru_cache(maxsize=8)
+def _cached_pole_geometry(radius, length, groove, panel_size):
+    """Panels and field matrix of a pole geometry (a MagnetisedPole at mu_r = 2, whose
+    ``with_permeability`` gives the model at any permeability). build_panels reads only these
     fields of the pole and the ring, so they stand in for the design's dataclasses here."""
     from types import SimpleNamespace
 
@@ -90,9 +106,8 @@ def _cached_pole_model(radius, length, relative_permeability, groove, panel_size
     ring = None
     if groove is not None:
         ring = SimpleNamespace(inner_radius=groove[0], outer_radius=groove[1], depth=groove[2])
-    model = MagnetisedPole(build_panels(pole, ring, panel_size=panel_size), relative_permeability)
-    # Shared between callers: lock the arrays so that an accidental in-place change fails loudly.
-    for a in (*vars(model.panels).values(), model.matrix, *model._lu):
+    model = MagnetisedPole(build_panels(pole, ring, panel_size=panel_size), 2.0)
+    for a in (*vars(model.panels).values(), model.field_matrix):
         if isinstance(a, np.ndarray):
             a.setflags(write=False)
     return model
@@ -101,17 +116,27 @@ def _cached_pole_model(radius, length, relative_permeability, groove, panel_size
 def clear_pole_cache():
     """Forget the kept pole models (``pole_model_for``), e.g. to time a cold evaluation."""
     _cached_pole_model.cache_clear()
+    _cached_pole_geometry.cache_clear()
 
 
-def _part_losses(sol: CircuitSolution) -> dict:
-    """Joule losses [W] of coil, ring and target of one solution (rms: |I|^2 R)."""
+def _part_losses(sol: CircuitSolution, face_depth: float | None = None) -> dict:
+    """Losses [W] of one solution: Joule losses of coil, ring and target (rms: |I|^2 R) and, with
+    iron, the core's losses split between the steel within ``face_depth`` [m] of the face
+    ("face") and the rest ("core") where the field puts them (models.fast.core)."""
     loss = np.abs(sol.cell_current) ** 2 * sol.cell_resistance
     part = sol.cells.part
-    return {
+    out = {
         "coil": float(abs(sol.coil_current) ** 2 * sol.coil_resistance),
         "ring": float(loss[part == RING].sum()),
         "target": float(loss[part == TARGET].sum()),
     }
+    c = sol.core
+    if c is not None and face_depth is not None:
+        at = c.eddy * c.eddy_share + c.hysteresis_at + c.excess_at
+        face = sol.core_grid.z > -face_depth
+        out["face"] = float(at[face].sum())
+        out["core"] = float(at[~face].sum())
+    return out
 
 
 def pole_mass(design: Design) -> float:
@@ -120,8 +145,7 @@ def pole_mass(design: Design) -> float:
     volume = np.pi * p.radius**2 * p.length
     if g is not None:
         volume -= np.pi * (g.outer_radius**2 - g.inner_radius**2) * g.depth
-    steel = MATERIALS.get(p.material or "", MATERIALS["electrical-steel-m400"])
-    return float(volume * steel.density)
+    return float(volume * p.density)
 
 
 def evaluate(
@@ -197,11 +221,11 @@ def evaluate_pick_gaps(
     part = pick_state(design, state, isothermal, loss_at_arrival)
     arrival = solve(pick_system, part.arrival)
     hold = solve(held_system, part.hold) if part.hold is not None else None
-    electrical = _electrical(design, arrival, hold)
+    electrical = _electrical(design, arrival, hold, state.temperature("core"))
     thermal = _thermal(design, state, part, electrical)
     flat = _flat_for_checks(electrical, thermal)
     warnings = [f"design: {note}" for note in design.notes]
-    warnings += range_warnings(design, arrival, fineness, electrical.core_peak_flux_density_T)
+    warnings += range_warnings(design, arrival, fineness, electrical)
     warnings += thermal_warnings(design, state, flat, part.hold_time_constant_s)
     result = Result(
         electrical=electrical,
@@ -245,9 +269,11 @@ def _steady_state(design: Design, system, isothermal: bool):
     (the part under the pole at its holding gap, as for a part that stays)."""
     network = build_network(design)
 
+    face_depth = face_slab_thickness(design)
+
     def losses_at(temps):
         sol = solve_system(system, temps)
-        return _part_losses(sol), sol
+        return _part_losses(sol, face_depth), sol
 
     coil_sensitivity = None
     if design.drive.current is not None:  # P = I^2 R(T) exactly
@@ -331,9 +357,12 @@ def pick_state(design: Design, state, isothermal: bool, loss_at_arrival=None) ->
     )
 
 
-def _electrical(design: Design, sol: CircuitSolution, hold: CircuitSolution | None) -> Electrical:
+def _electrical(
+    design: Design, sol: CircuitSolution, hold: CircuitSolution | None, core_C: float
+) -> Electrical:
     """Pull, losses, terminal quantities and flux densities of the solution at the moment of
-    pick (``sol``), and the pull of the solution at the end of the hold (``hold``, None: nan)."""
+    pick (``sol``), and the pull of the solution at the end of the hold (``hold``, None: nan);
+    the steel's saturation at its temperature ``core_C`` [degC]."""
     split = pull_by_source(sol)
     pull = sum(split.values())
     losses = _part_losses(sol)
@@ -345,7 +374,8 @@ def _electrical(design: Design, sol: CircuitSolution, hold: CircuitSolution | No
     weight = design.target.density * design.target.volume * standard_gravity
     input_power = float(np.real(sol.coil_voltage * np.conj(sol.coil_current)))
     va = abs(sol.coil_voltage) * abs(sol.coil_current)
-    bsat = design.pole.saturation_flux_density
+    bsat = design.pole.saturation_at(core_C if math.isfinite(core_C) else 20.0)
+    core = sol.core
     return Electrical(
         pull_N=pull,
         pull_by_source_N=split,
@@ -369,6 +399,16 @@ def _electrical(design: Design, sol: CircuitSolution, hold: CircuitSolution | No
         power_factor=input_power / va if va > 0 else 0.0,
         pole_mass_kg=pole_mass(design),
         core_flux_fraction=b_peak / bsat if bsat else 0.0,
+        core_saturation_T=bsat if bsat else math.nan,
+        core_loss_W=0.0 if core is None else core.total,
+        core_eddy_loss_W=0.0 if core is None else core.eddy,
+        core_hysteresis_loss_W=0.0 if core is None else core.hysteresis,
+        core_excess_loss_W=0.0 if core is None else core.excess,
+        core_radial_flux_fraction=(
+            0.0
+            if sol.core_grid is None
+            else radial_flux_fraction(sol.core_grid, sol.cell_current, face_slab_thickness(design))
+        ),
     )
 
 
@@ -427,6 +467,7 @@ def _flat_for_checks(electrical: Electrical, thermal: Thermal) -> dict:
         "target_hold_temperature_C": thermal.target_hold_temperature_C,
         "core_peak_flux_density_T": electrical.core_peak_flux_density_T,
         "core_flux_fraction": electrical.core_flux_fraction,
+        "core_saturation_T": electrical.core_saturation_T,
         "coil_voltage_V": electrical.coil_voltage_V,
         "coil_current_A": electrical.coil_current_A,
         "supply_VA": electrical.supply_VA,

@@ -11,7 +11,6 @@ import math
 from dataclasses import dataclass, field
 
 import numpy as np
-
 from scipy.constants import mu_0
 
 from models.core_loss import CoreLossLaw, classical_specific_loss
@@ -116,6 +115,7 @@ _IEC60028 = "IEC 60028 (international annealed copper standard)"
 _FROM_MEMORY_HB = (
     "from memory of handbook tables (ASM Metals Handbook / CRC Handbook); check before use"
 )
+
 
 def _steel_grade(
     name, description, thickness_mm, resistivity_uohm_m, density, saturation_T, points, sources

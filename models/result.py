@@ -23,8 +23,9 @@ __all__ = [
 
 #: The fast model's version: results of different versions mean different things and are never
 #: mixed in one study. 2: pull at the part's arrival and end-of-hold states (was: at its steady
-#: state), ring phase in [-270, 90).
-MODEL_VERSION = "multiloop-2"
+#: state), ring phase in [-270, 90). 3: the laminated pole loses power (its sheets' eddy currents
+#: as a complex permeability, hysteresis and excess losses), in the terminal power and the heat.
+MODEL_VERSION = "multiloop-3"
 
 
 #: ``ring_phase_deg`` lies in [RING_PHASE_FROM_DEG, RING_PHASE_FROM_DEG + 360): a ring's current
@@ -66,8 +67,16 @@ class Electrical:
         largest along its length [T] (the FEM reports the same quantity)
     target_weight_N, lift_ratio : weight of the target [N] and pull / weight [-]
     power_factor : input_power_W / supply_VA; pole_mass_kg : the pole's steel, groove removed;
-    core_flux_fraction : core_peak_flux_density_T / the steel's saturation flux density (0 if
-        unknown)
+    core_flux_fraction : core_peak_flux_density_T / the steel's saturation flux density at the
+        core's temperature (0 if unknown); core_saturation_T : that saturation flux density [T]
+        (nan if unknown)
+    core_loss_W : the pole's loss [W], the sum of core_eddy_loss_W (eddy currents in its sheets,
+        from their complex permeability), core_hysteresis_loss_W and core_excess_loss_W (the
+        grade's loss law at the computed flux densities); all in input_power_W and in the heat
+        of the face and core
+    core_radial_flux_fraction : share of the steel's |B|^2 dV that runs radially in the face
+        slab [-]: there the flux crosses the sheets of a real stack, which the homogenised
+        permeability (flux along the sheets) does not describe
     """
 
     pull_N: float
@@ -92,6 +101,12 @@ class Electrical:
     pull_hold_N: float
     lift_ratio_hold: float
     pull_cancellation: float
+    core_saturation_T: float
+    core_loss_W: float
+    core_eddy_loss_W: float
+    core_hysteresis_loss_W: float
+    core_excess_loss_W: float
+    core_radial_flux_fraction: float
 
 
 @dataclass(frozen=True)
@@ -217,6 +232,12 @@ FLAT_FIELDS = (
     ("thermal", "target_arrival_temperature_C"),
     ("thermal", "thermal_assumptions"),
     ("thermal", "face_temperature_C"),
+    ("electrical", "core_loss_W"),
+    ("electrical", "core_eddy_loss_W"),
+    ("electrical", "core_hysteresis_loss_W"),
+    ("electrical", "core_excess_loss_W"),
+    ("electrical", "core_saturation_T"),
+    ("electrical", "core_radial_flux_fraction"),
 )
 _GROUP_OF = {name: group for group, name in FLAT_FIELDS if group}
 

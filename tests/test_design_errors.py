@@ -137,6 +137,8 @@ def test_a_valid_file_loads_as_before(tmp_path):
             saturation_flux_density=steel.saturation_flux_density,
             lamination_thickness=steel.lamination_thickness,
             sheet_conductivity=steel.sheet_conductivity,
+            core_loss=steel.core_loss,
+            density=steel.density,
         ),
         coil=Coil(
             inner_radius=10.5 * mm,

@@ -23,9 +23,13 @@ def test_result_identities(demo_result):
     assert r.lift_ratio == pytest.approx(r.pull_N / r.target_weight_N, rel=1e-12)
     # weight = rho V g with rho = 2703 kg/m^3 (IEC 60889, from memory), g = 9.80665 m/s^2 (CGPM)
     assert r.target_weight_N == pytest.approx(2703.0 * math.pi * 5e-3**2 * 1e-3 * 9.80665)
-    # energy balance: laminated iron stores but does not dissipate (internal identity)
-    total = r.target_loss_W + r.ring_loss_W + r.coil_loss_W
-    assert r.input_power_W == pytest.approx(total, rel=1e-9)
+    # energy balance (Poynting): the terminal power is every loss, the core's included
+    total = r.target_loss_W + r.ring_loss_W + r.coil_loss_W + r.core_loss_W
+    assert r.core_loss_W > 0
+    assert r.input_power_W == pytest.approx(total, rel=1e-12)
+    assert r.core_loss_W == pytest.approx(
+        r.core_eddy_loss_W + r.core_hysteresis_loss_W + r.core_excess_loss_W, rel=1e-12
+    )
     # |V| = |Z| |I| and VA = |V| |I| (definitions)
     z = complex(*r.coil_impedance_ohm)
     assert r.coil_voltage_V == pytest.approx(abs(z) * r.coil_current_A, rel=1e-12)
@@ -50,7 +54,7 @@ def test_outside_validated_range_warns():
     d = load_design(DEMO)
     r = evaluate(with_value(d, "frequency_Hz", 20000.0), isothermal=True)
     assert any("frequency_Hz = 2e+04 is outside the range checked" in w for w in r.warnings)
-    assert any("skin depth in the 0.5 mm sheets" in w for w in r.warnings)
+    assert any("the 0.5 mm sheets are 9.7 skin depths thick at 20000 Hz" in w for w in r.warnings)
 
 
 def test_saturation_warns():

@@ -63,7 +63,7 @@ def test_the_demo_is_inside_the_range():
         # saturation: 20x the demo's current drives the linear core far past 1.5 T
         ({"drive.current_A": 120.0}, "exceeds the steel's linear limit"),
         # sheets thick against their skin depth
-        ({"drive.frequency_Hz": 2e4}, "under half the sheet thickness"),
+        ({"drive.frequency_Hz": 2e4}, "skin depths thick at 20000 Hz"),
     ],
 )
 def test_out_of_range_warns(changes, expected):

@@ -207,7 +207,7 @@ def _report_stats(request):
 def _check_invariants(design, r):
     STATS["designs"] += 1
     assert all(math.isfinite(v) for v in _numbers(r)), r
-    assert min(r.target_loss_W, r.ring_loss_W, r.coil_loss_W) >= 0.0
+    assert min(r.target_loss_W, r.ring_loss_W, r.coil_loss_W, r.core_loss_W) >= 0.0
     # The split is the pull by definition (models/fast/pull.py); 1e-12 relative to the largest term
     # is the rounding of a 3-term sum.
     split = r.pull_by_source_N
@@ -220,7 +220,7 @@ def _check_invariants(design, r):
     # size VA; a dense double-precision solve leaves an error of (condition number) x 1e-16
     # relative to VA. Measured: at most 3e-15 VA over the samples here; 1e-12 VA leaves
     # room for condition numbers up to 1e4 and still sees a lost loss term of 1e-12 VA.
-    losses = r.target_loss_W + r.ring_loss_W + r.coil_loss_W
+    losses = r.target_loss_W + r.ring_loss_W + r.coil_loss_W + r.core_loss_W
     residual = abs(r.input_power_W - losses) / r.supply_VA
     STATS["balance / VA"] = max(STATS["balance / VA"], residual)
     assert residual <= 1e-12

@@ -2,10 +2,17 @@
 
 Loops: every ring and target cell is a shorted loop; the coil is one loop of N turns spread over
 sub-cells of its window. The laminated pole enters through bound sheet currents on its contour that
-follow linearly from all free currents (models.fast.pole), so it adds a real, symmetric inductance
-M_iron = M_cp P to the loop matrix. Loop equations (Kirchhoff's voltage law for each loop)::
+follow linearly from all free currents (models.fast.pole), so it adds a symmetric inductance
+M_iron = M_cp P to the loop matrix, complex when the sheets carry eddy currents (its imaginary
+part is the sheets' loss: Re(j omega I^H M_iron I) = -omega I^H Im(M_iron) I). Loop equations
+(Kirchhoff's voltage law for each loop)::
 
-    (R + j omega (M + M_iron)) I = V,   V = 0 for cells, V = supply for the coil
+    (R + j omega (M + M_iron)) I = V,   V = 0 for cells, V = supply - R_he I_coil for the coil
+
+R_he carries the core's hysteresis and excess losses (models.core_loss) in series with the coil,
+so that the terminal power is every loss; it depends on the coil current (the loss law is not
+quadratic in the flux density), and the cell currents per ampere of coil current do not depend on
+it, so the loop equations are solved for 1 A in the coil and scaled.
 
 Time averages of rms phasors carry no factor 1/2: <P> = |I|^2 R.
 """
@@ -17,6 +24,8 @@ from dataclasses import dataclass
 import numpy as np
 from scipy.constants import mu_0
 
+from models.core_loss import coil_current_with_core_loss, peak_flux_density
+from models.fast.core import CoreGrid, CoreLosses, core_grid, core_losses, hysteresis_excess_at
 from models.fast.discretize import Cells, Fineness, coil_filaments, conductor_cells
 from models.fast.filaments import mutual, mutual_pair, rect_log_mean, self_inductance_rect
 
@@ -255,6 +264,8 @@ class CircuitSolution:
     panel_dMdz: np.ndarray | None
     panels: object
     omega: float
+    core: CoreLosses | None = None
+    core_grid: CoreGrid | None = None
 
 
 @dataclass(frozen=True)
@@ -268,7 +279,10 @@ class CircuitSystem:
     cells : the cells; solid, coil : indices of solid cells and coil sub-cells; share : turns per
     coil sub-cell; L_loop : loop inductance matrix (solid cells, then the coil) [H];
     cell_resistance_20 : resistance of each cell at 20 degC [Ohm]; P : panels x cells operator
-    (None without iron); M, dMdz, panel_M, panel_dMdz, panels as in CircuitSolution.
+    (None without iron); M, dMdz, panel_M, panel_dMdz, panels as in CircuitSolution;
+    iron_loss : cells x cells, -omega Im(M_iron) [Ohm] (None without iron): the sheets' eddy
+    loss is I^H iron_loss I; core_grid : the steel's field map (models.fast.core; None without
+    iron).
     """
 
     design: object
@@ -285,6 +299,8 @@ class CircuitSystem:
     panel_dMdz: np.ndarray | None
     panels: object
     omega: float
+    iron_loss: np.ndarray | None = None
+    core_grid: CoreGrid | None = None
 
 
 def assemble_circuit(design, fineness: Fineness, pole_model=None) -> CircuitSystem:
@@ -303,7 +319,7 @@ def assemble_circuit(design, fineness: Fineness, pole_model=None) -> CircuitSyst
 
     panels = None
     panel_M = panel_D = None
-    P = None
+    P = iron_loss = grid = None
     if pole_model is not None:
         from models.fast.pole import panel_mutual, panel_mutual_dz
 
@@ -315,7 +331,10 @@ def assemble_circuit(design, fineness: Fineness, pole_model=None) -> CircuitSyst
         panel_M = nodes.to_cells(panel_mutual(panels, nr, nz))  # (n_cells, n_panels)
         panel_D = nodes.to_cells(panel_mutual_dz(panels, nr, nz))
         M_iron = panel_M @ P
-        M_total = M + 0.5 * (M_iron + M_iron.T)
+        M_iron = 0.5 * (M_iron + M_iron.T)
+        M_total = M + M_iron
+        iron_loss = -omega * M_iron.imag if np.iscomplexobj(M_iron) else None
+        grid = core_grid(design, cells, panels, P)
     else:
         M_total = M
 
@@ -329,7 +348,7 @@ def assemble_circuit(design, fineness: Fineness, pole_model=None) -> CircuitSyst
     coil = np.flatnonzero(coil_mask)
     share = turns / n_sub
     n = solid.size
-    L_loop = np.empty((n + 1, n + 1))
+    L_loop = np.empty((n + 1, n + 1), dtype=M_total.dtype)
     L_loop[:n, :n] = M_total[np.ix_(solid, solid)]
     L_loop[:n, n] = M_total[np.ix_(solid, coil)].sum(axis=1) * share
     L_loop[n, :n] = M_total[np.ix_(coil, solid)].sum(axis=0) * share
@@ -349,6 +368,8 @@ def assemble_circuit(design, fineness: Fineness, pole_model=None) -> CircuitSyst
         panel_dMdz=panel_D,
         panels=panels,
         omega=omega,
+        iron_loss=iron_loss,
+        core_grid=grid,
     )
 
 
@@ -376,21 +397,31 @@ def solve_system(system: CircuitSystem, temperatures=None) -> CircuitSolution:
 
     Z = 1j * system.omega * system.L_loop
     Z[np.diag_indices_from(Z)] += np.concatenate([r_cells[solid], [r_coil]])
+    # The cells' currents for 1 A in the coil, and the input impedance without R_he.
+    unit = np.empty(cells.n, complex)
+    unit[solid] = np.linalg.solve(Z[:n, :n], -Z[:n, n])
+    unit[coil] = share
+    z_in = complex(Z[n, n] + Z[n, :n] @ unit[solid])
+    loss_at = _hysteresis_excess_of(design, system.core_grid, unit)
     if design.drive.current is not None:
         i0 = complex(design.drive.current)
-        i_solid = np.linalg.solve(Z[:n, :n], -Z[:n, n] * i0)
-        v0 = complex(Z[n, :n] @ i_solid + Z[n, n] * i0)
+    elif loss_at is None:
+        i0 = complex(design.drive.voltage) / z_in
     else:
-        v0 = complex(design.drive.voltage)
-        rhs = np.zeros(n + 1, complex)
-        rhs[n] = v0
-        x = np.linalg.solve(Z, rhs)
-        i_solid, i0 = x[:n], complex(x[n])
-    cell_current = np.empty(cells.n, complex)  # C @ (loop currents)
-    cell_current[solid] = i_solid
-    cell_current[coil] = share * i0
+        i0 = coil_current_with_core_loss(complex(design.drive.voltage), z_in, loss_at)
+    r_he = 0.0 if loss_at is None or i0 == 0 else loss_at(abs(i0)) / abs(i0) ** 2
+    v0 = (z_in + r_he) * i0
+    cell_current = unit * i0
     P = system.P
     panel_current = P @ cell_current if P is not None else np.zeros(0, complex)
+    core = None
+    if system.core_grid is not None:
+        eddy = 0.0
+        if system.iron_loss is not None:
+            eddy = float(np.real(np.conj(cell_current) @ (system.iron_loss @ cell_current)))
+        core = core_losses(
+            design.pole, design.drive.frequency, system.core_grid, cell_current, eddy
+        )
     return CircuitSolution(
         cells=cells,
         cell_current=cell_current,
@@ -405,7 +436,26 @@ def solve_system(system: CircuitSystem, temperatures=None) -> CircuitSolution:
         panel_dMdz=system.panel_dMdz,
         panels=system.panels,
         omega=system.omega,
+        core=core,
+        core_grid=system.core_grid,
     )
+
+
+def _hysteresis_excess_of(design, grid, unit):
+    """loss_at(|I_coil|) [W]: the core's hysteresis and excess loss at a coil current, from the
+    peak flux densities at 1 A (``unit`` cell currents), which scale with the current; None
+    when the pole has no loss law."""
+    if grid is None or design.pole.core_loss is None:
+        return None
+    br, bz = grid.field(unit)
+    b_unit = peak_flux_density(br, bz)
+    f = design.drive.frequency
+
+    def loss_at(x):
+        h, e = hysteresis_excess_at(design.pole, f, b_unit * x, grid.volume)
+        return float(h.sum() + e.sum())
+
+    return loss_at
 
 
 def solve_circuit(

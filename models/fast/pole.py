@@ -101,12 +101,15 @@ __all__ = [
 
 
 def _lambda(relative_permeability):
-    mu_r = float(relative_permeability)
-    if not (np.isfinite(mu_r) and mu_r >= 1.0):
+    """lambda = (mu - 1) / (mu + 1), complex for a lossy (laminated, eddy-current) permeability."""
+    mu = complex(relative_permeability)
+    if not (np.isfinite(mu) and mu.real >= 1.0 and mu.imag <= 0.0):
         raise DesignError(
-            f"relative_permeability = {relative_permeability!r}: must be a finite number >= 1"
+            f"relative_permeability = {relative_permeability!r}: must be finite with a real "
+            "part >= 1 and an imaginary part <= 0 (a lossy magnet)"
         )
-    return (mu_r - 1.0) / (mu_r + 1.0)
+    lam = (mu - 1.0) / (mu + 1.0)
+    return lam.real if mu.imag == 0.0 else lam
 
 
 class MagnetisedPole:
@@ -115,8 +118,12 @@ class MagnetisedPole:
     Parameters
     ----------
     panels : PanelSet
-    relative_permeability : float
-        mu_r >= 1 of the (laminated, non-conducting) iron.
+    relative_permeability : float or complex
+        mu_r >= 1 of the (laminated, non-conducting) iron; complex (Im <= 0) for a laminated stack
+        whose sheets carry eddy currents (models.core_loss.lamination_permeability): lambda and
+        the panel currents are then complex, the iron's loss and its flux lag included.
+    field_matrix : ndarray, optional
+        The geometry's panel field matrix of an earlier model of the same panels (reuse).
 
     Notes
     -----
@@ -125,14 +132,25 @@ class MagnetisedPole:
     panel and graded rules on the source panel.
     """
 
-    def __init__(self, panels: PanelSet, relative_permeability: float):
+    def __init__(self, panels: PanelSet, relative_permeability, field_matrix=None):
         self.panels = panels
-        self.relative_permeability = float(relative_permeability)
+        mu = complex(relative_permeability)
+        self.relative_permeability = mu.real if mu.imag == 0.0 else mu
         self.lam = _lambda(relative_permeability)
-        self.matrix = self._assemble()
+        self.field_matrix = self._field_matrix() if field_matrix is None else field_matrix
+        a = 2.0 * self.lam * self.field_matrix
+        a[np.diag_indices(panels.n)] += mu_0 / panels.length
+        self.matrix = a
         self._lu = lu_factor(self.matrix)
 
-    def _assemble(self):
+    def with_permeability(self, relative_permeability) -> MagnetisedPole:
+        """The same panels with another (complex) permeability: shares the geometry's field matrix,
+        so the cost is one factorisation."""
+        return MagnetisedPole(self.panels, relative_permeability, self.field_matrix)
+
+    def _field_matrix(self):
+        """G[i, p]: panel-averaged tangential field on panel i of panel p carrying 1 A [T/A];
+        geometry only (independent of the permeability)."""
         p = self.panels
         n = p.n
         sep = np.hypot(p.mid_r[:, None] - p.mid_r[None, :], p.mid_z[:, None] - p.mid_z[None, :])
@@ -175,9 +193,7 @@ class MagnetisedPole:
         groups.append((k, k + 1, xg[::-1] * -1.0 + 1.0, wg[::-1], 1e-5, _GAUSS_GRADED))
         groups.append((k + 1, k, xg, wg, 1e-5, _GAUSS_GRADED))
         self._average_groups(g, groups)
-        a = 2.0 * self.lam * g
-        a[np.diag_indices(n)] += mu_0 / p.length
-        return a
+        return g
 
     def _average_groups(self, g, groups):
         """g[i, p] = sum_k w_k B_t,i(x_k on panel i) of panel p carrying 1 A, for every group.
@@ -240,7 +256,7 @@ class MagnetisedPole:
             axial field B0 gives B0 * panels.tz.
         """
         rhs = -2.0 * self.lam * np.asarray(applied_bt, dtype=float)
-        return lu_solve(self._lu, rhs)
+        return lu_solve(self._lu, rhs)  # complex for a lossy permeability
 
     def operator(self, src_r, src_z):
         """Panel currents [A] induced by 1 A in each source filament, shape (n_panels, n_src).

@@ -43,12 +43,13 @@ class ThermalState:
         return float(self.T[self.network.index(node)])
 
 
-_LOSS_NODES = ("coil", "ring", "target")
+_LOSS_NODES = ("coil", "ring", "target")  # the circuit's temperatures
+_HEATED_NODES = (*_LOSS_NODES, "core", "face")  # the core's losses sit in the steel's nodes
 
 
 def _losses_vector(network, losses: dict) -> np.ndarray:
     P = np.zeros(len(network.nodes))
-    for name in _LOSS_NODES:
+    for name in _HEATED_NODES:
         if name in network.nodes:
             P[network.index(name)] = losses.get(name, 0.0)
     return P
@@ -74,7 +75,8 @@ def solve_coupled(
     losses_at : callable
         ``losses_at({"coil": T, "ring": T, "target": T}) -> (losses, solution)``: on-state losses
         [W] by part at those temperatures [degC] (resistivity rho_20 (1 + alpha (T - 20))) and the
-        electrical solution behind them.
+        electrical solution behind them; "core" and "face" losses (the pole's iron) heat those
+        nodes too.
     coupled : bool
         False: the losses at 20 degC (one call) heat the network, with no feedback (isothermal
         electrical model).

@@ -10,8 +10,8 @@ exchanges heat with the face and the ring across the air gap (conduction through
 layer, radiation). Temperatures are in degC, everything else SI.
 
 Assumptions (each said again where it is used): the magnet is held by nothing that conducts heat
-(no mounting plate): conservative; iron losses of the laminated pole are not modelled (the linear
-model has none); the air gap is a still layer (conduction only), true for a face-down magnet
+(no mounting plate): conservative; the pole's core losses heat the face and core nodes where
+the field puts them (models.fast.core); the air gap is a still layer (conduction only), true for a face-down magnet
 (stable layer) and for gaps of a few mm (Rayleigh number below 1708, Incropera section 9.8).
 
 References
@@ -343,6 +343,15 @@ def _add_coil(net: _Assembly, design, k_fe: float) -> float:
     return min(build_r, lc) ** 2 / (24 * k_w * volume)
 
 
+def face_slab_thickness(design) -> float:
+    """Thickness [m] of the pole's face node: at least the groove (whose volume it loses), else a
+    tenth to half of the pole; the core node keeps the rest (the groove is shallower than the
+    pole, models.design)."""
+    p, ring = design.pole, design.ring
+    depth = ring.depth if ring is not None else 0.0
+    return max(min(max(depth, 0.1 * p.length), 0.5 * p.length), depth)
+
+
 def _add_pole(net: _Assembly, design, steel) -> None:
     """The face slab and the core behind it: capacities, their link, the core's back and the
     pole's side beyond the coil (core) and between coil and face (face)."""
@@ -351,9 +360,7 @@ def _add_pole(net: _Assembly, design, steel) -> None:
     rho_fe, c_fe, k_fe, ceil_fe, why_fe = steel
     area_p = math.pi * p.radius**2
     depth = ring.depth if ring is not None else 0.0
-    # at least the groove (whose volume it loses), else a tenth to half of the pole; the core
-    # keeps the rest (the groove is shallower than the pole, models.design)
-    t_f = max(min(max(depth, 0.1 * p.length), 0.5 * p.length), depth)
+    t_f = face_slab_thickness(design)
     l_core = p.length - t_f
     groove = (
         0.0 if ring is None else math.pi * (ring.outer_radius**2 - ring.inner_radius**2) * depth

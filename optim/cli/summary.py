@@ -99,7 +99,9 @@ def format_result(design, result) -> str:
         f"{r.lift_ratio_hold:+.3g} (part at {r.target_hold_temperature_C:.4g} degC, "
         f"gap {a['hold_gap_mm']:g} mm)",
         f"  losses             target {_w(r.target_loss_W)} W, ring {_w(r.ring_loss_W)} W, "
-        f"coil {_w(r.coil_loss_W)} W (input {_w(r.input_power_W)} W)",
+        f"coil {_w(r.coil_loss_W)} W, core {_w(r.core_loss_W)} W (input {_w(r.input_power_W)} W)",
+        f"  core loss          sheets' eddy currents {_w(r.core_eddy_loss_W)} W, hysteresis "
+        f"{_w(r.core_hysteresis_loss_W)} W, excess {_w(r.core_excess_loss_W)} W",
         f"  coil               {_w(r.coil_current_A)} A rms, {_w(r.coil_voltage_V)} V rms, "
         f"{_w(r.supply_VA)} VA, Z = {r.coil_impedance_ohm[0]:.4g} + j{r.coil_impedance_ohm[1]:.4g} "
         "Ohm",
@@ -107,7 +109,8 @@ def format_result(design, result) -> str:
         "coil current",
         f"  core peak flux     {r.core_peak_flux_density_T:.3g} T",
         f"  power factor       {r.power_factor:.3g}   pole mass {r.pole_mass_kg * 1e3:.4g} g   "
-        f"core flux {r.core_flux_fraction:.0%} of saturation",
+        f"core flux {r.core_flux_fraction:.0%} of saturation ({r.core_saturation_T:.3g} T at "
+        f"{r.core_temperature_C:.4g} degC)",
         f"  thermal            {r.thermal_status}",
         "  temperatures       "
         + ", ".join(f"{k} {v:.4g}" for k, v in r.temperatures_C.items())
@@ -154,5 +157,27 @@ def format_materials() -> str:
             if key == "lamination_thickness":
                 value = value * 1e3  # files give it in mm
             rows.append(f"  {label:26s} {value:<10.4g} {unit:9s} {src}")
+        rows += _core_rows(m)
         rows.append("")
     return "\n".join(rows).rstrip()
+
+
+def _core_rows(m) -> list[str]:
+    """A core material's saturation against temperature, temperature limit and loss law."""
+    rows = []
+    if m.saturation_vs_temperature:
+        table = ", ".join(f"{b:g} T at {t:g} degC" for t, b in m.saturation_vs_temperature)
+        rows.append(f"  {'saturation by temperature':26s} {table}")
+    if m.is_magnetic and m.max_temperature_C is not None:
+        src = m.sources.get("max_temperature_C", "no source recorded")
+        rows.append(f"  {'temperature limit':26s} {m.max_temperature_C:<10.4g} {'degC':9s} {src}")
+    law = m.core_loss
+    if law is not None:
+        sheets = "classical (sheets) + " if m.sheet_conductivity else ""
+        rows.append(
+            f"  {'core loss law':26s} {sheets}{law.k_h:.4g} f B^{law.alpha:g} + "
+            f"{law.k_e:.4g} (f B)^1.5 W/kg (B peak in T, f in Hz)"
+        )
+        points = "; ".join(f"{total:.4g} W/kg at {b:g} T, {f:g} Hz" for b, f, total in law.points)
+        rows.append(f"  {'  fitted to':26s} {points}: {law.source}")
+    return rows

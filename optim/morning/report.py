@@ -254,6 +254,7 @@ _CARD_ROWS = (
     (("worst_pull_N", "pull_N"), "pull"),
     (("worst_lift_ratio", "lift_ratio"), "lift ratio"),
     (("input_power_W",), "input power"),
+    (("core_loss_W",), "core loss"),
 )
 
 

@@ -14,6 +14,7 @@ COLUMNS = [
     ("pull_N", "pull_mN", 1e3),
     ("target_loss_W", "target_loss_W", 1.0),
     ("ring_loss_W", "ring_loss_W", 1.0),
+    ("core_loss_W", "core_loss_W", 1.0),
     ("coil_voltage_V", "coil_voltage_V", 1.0),
     ("lift_ratio", "lift_ratio", 1.0),
     ("core_peak_flux_density_T", "core_peak_flux_density_T", 1.0),

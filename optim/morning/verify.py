@@ -25,6 +25,8 @@ QUANTITIES = (
     ("target_loss_W", "W", "target loss"),
     ("ring_loss_W", "W", "ring loss"),
     ("pole_loss_W", "W", "pole loss"),
+    ("core_loss_W", "W", "core loss (laminated)"),
+    ("core_eddy_loss_W", "W", "  sheets' eddy loss"),
     ("coil_loss_W", "W", "coil loss"),
     ("input_power_W", "W", "input power Re(V I*)"),
     ("coil_current_A", "A", "coil current |I|"),
