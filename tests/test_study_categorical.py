@@ -188,11 +188,11 @@ _MATERIAL = "pole_material = {{ choices = {} }}\n"
         ),
         (
             'pole_material = { choices = ["ferrite-mnzn"], low = 1, high = 2 }\n',
-            r"search\.pole_material: choices cannot be combined with low, high",
+            r"search\.pole_material\.low: choices cannot be combined with low, high",
         ),
         (
             'pole_material = { choices = ["ferrite-mnzn"], scale = "log" }\n',
-            r"search\.pole_material: choices cannot be combined with scale",
+            r"search\.pole_material\.scale: choices cannot be combined with scale",
         ),
         (
             "pole_material = { low = 1, high = 2 }\n",

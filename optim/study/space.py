@@ -323,7 +323,7 @@ def _categorical(name: str, spec, key: str, problems: list[str]):
         return None
     if ranged:
         problems.append(
-            f"{where}: choices cannot be combined with {', '.join(ranged)} (a list of choices "
+            f"{where}.{ranged[0]}: choices cannot be combined with {', '.join(ranged)} (a list of choices "
             "has no range, scale or step)"
         )
     choices = _choices(where, key, spec["choices"], problems)
