@@ -22,6 +22,7 @@ from models.checks import (
     thermal_assumptions,
     thermal_warnings,
 )
+from models.core_loss import face_slab_depth
 from models.design import Design, with_value
 from models.errors import DesignError
 from models.fast.circuit import RING, TARGET, CircuitSolution, assemble_circuit, solve_system
@@ -411,7 +412,7 @@ def _electrical(
         core_radial_flux_fraction=(
             0.0
             if sol.core_grid is None
-            else radial_flux_fraction(sol.core_grid, sol.cell_current, face_slab_thickness(design))
+            else radial_flux_fraction(sol.core_grid, sol.cell_current, face_slab_depth(design))
         ),
     )
 

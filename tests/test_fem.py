@@ -417,7 +417,7 @@ def test_reference_reports_its_own_uncertainty():
         "ring_current_A",
         "core_eddy_loss_W",
         "core_loss_W",
-        "pole_field_crossing_fraction",
+        "core_radial_flux_fraction",
     ):
         assert 0.0 <= ref.uncertainty[key] < 1e-2, (key, ref.uncertainty[key])
     assert ref.to_dict()["result"]["pull_N"] == far.pull_N

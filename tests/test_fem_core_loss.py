@@ -238,8 +238,8 @@ def test_field_crossing_fraction_integrates_the_slab_exactly():
     middle = field_crossing_fraction(sol, 1e-3)
     assert at_a < middle < at_b
     res = solve(design, refine=0.35)
-    assert res.pole_field_crossing_fraction == pytest.approx(middle, rel=1e-12)
-    assert 0.0 < res.pole_field_crossing_fraction < 1.0
+    assert res.core_radial_flux_fraction == pytest.approx(middle, rel=1e-12)
+    assert 0.0 < res.core_radial_flux_fraction < 1.0
 
 
 def test_field_crossing_fraction_is_the_radial_share_of_the_core_eddy_loss():

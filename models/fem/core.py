@@ -21,6 +21,8 @@ import math
 import numpy as np
 from skfem import Basis, ElementQuad2
 
+from models.core_loss import FACE_SLAB_MIN as FACE_SLAB_MIN
+from models.core_loss import face_slab_depth as face_slab_depth
 from models.core_loss import hysteresis_excess_loss, peak_flux_density
 
 __all__ = [
@@ -31,20 +33,9 @@ __all__ = [
     "field_crossing_fraction",
 ]
 
-#: Least depth of the face slab of `field_crossing_fraction` [m] (common practice, no source: the
-#: depth over which the flux of a pole without a groove turns from the axis to the side).
-FACE_SLAB_MIN = 1e-3
-
 #: Gauss-Legendre points per direction on the part of an element cut by the slab's plane: the
 #: integrand |dA/dz|^2 r of biquadratic elements is of degree 5 in r and 2 in z, integrated exactly.
 _CUT_POINTS = 4
-
-
-def face_slab_depth(design) -> float:
-    """Depth of the pole's face slab [m]: the ring's depth, at least `FACE_SLAB_MIN`, at most the
-    pole's length."""
-    ring_depth = design.ring.depth if design.ring is not None else 0.0
-    return min(max(ring_depth, FACE_SLAB_MIN), design.pole.length)
 
 
 def pole_peak_flux_density(sol, role: str = "pole") -> tuple[np.ndarray, np.ndarray]:

@@ -39,7 +39,7 @@ CORE_KEYS = (
     "core_hysteresis_loss_W",
     "core_excess_loss_W",
     "core_loss_W",
-    "pole_field_crossing_fraction",
+    "core_radial_flux_fraction",
 )
 
 
@@ -206,7 +206,7 @@ class FemResult:
         Peak in time of the section-averaged axial flux density of the pole, max over the pole's
         length, 2 |A(R_p, z)| sqrt(2) / R_p [T] (saturation check; the local peak at the groove's
         corners is higher and grows under refinement).
-    pole_field_crossing_fraction : float
+    core_radial_flux_fraction : float
         int_slab |B_r|^2 dV / int_pole |B|^2 dV [-], the slab being the pole's steel within
         ``models.fem.core.face_slab_depth`` of the face (the ring's depth, at least 1 mm): how much
         of the pole's field runs radially in its face, where the flux turns from the axis toward the
@@ -238,7 +238,7 @@ class FemResult:
     ring_current_A: complex
     ring_phase_deg: float
     pole_flux_density_T: float
-    pole_field_crossing_fraction: float
+    core_radial_flux_fraction: float
     n_dofs: int
     run_time_s: float
     refine: float = 1.0
@@ -270,7 +270,7 @@ class FemResult:
             "ring_current_A": float(abs(self.ring_current_A)),
             "ring_phase_deg": phase,
             "pole_flux_density_T": float(self.pole_flux_density_T),
-            "pole_field_crossing_fraction": float(self.pole_field_crossing_fraction),
+            "core_radial_flux_fraction": float(self.core_radial_flux_fraction),
             "coil_current_A_complex": _complex_pair(self.coil_current_A),
             "coil_voltage_V_complex": _complex_pair(self.coil_voltage_V),
             "ring_current_A_complex": _complex_pair(self.ring_current_A),

@@ -442,7 +442,7 @@ def solve(design, refine: float = 1.0, far_factor: float = 1.0, options: MeshOpt
         ring_current_A=complex(i_ring),
         ring_phase_deg=phase,
         pole_flux_density_T=_pole_mean_flux_density(sol, pole),
-        pole_field_crossing_fraction=field_crossing_fraction(unit, face_slab_depth(design)),
+        core_radial_flux_fraction=field_crossing_fraction(unit, face_slab_depth(design)),
         n_dofs=sol.n_dofs,
         run_time_s=time.perf_counter() - t0,
         refine=float(refine),
