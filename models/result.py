@@ -25,8 +25,8 @@ __all__ = [
 #: mixed in one study. 2: pull at the part's arrival and end-of-hold states (was: at its steady
 #: state), ring phase in [-270, 90). 3: the laminated pole loses power (its sheets' eddy currents
 #: as a complex permeability, hysteresis and excess losses), in the terminal power and the heat;
-#: cells couple to the iron through Gauss nodes within 6 cell sizes (was 1.5); an error bar on
-#: every pull.
+#: cells couple to the iron through Gauss nodes within 6 cell sizes (was 1.5) and grow by 1.25
+#: (was 1.5); an error bar on every pull.
 MODEL_VERSION = "multiloop-3"
 
 

