@@ -73,3 +73,27 @@ def test_error_bar_covers_the_difference_and_is_sharp():
             ratio.append(r.pull_uncertainty_N / diff)
     assert np.mean(covered) >= 0.9, covered
     assert ratio and np.median(ratio) <= 3.0, ratio
+
+
+def test_a_study_can_hold_the_error_bar_as_a_constraint():
+    # The accuracy issue's example: pull_uncertainty_relative = { max = 0.1 } in [constraints];
+    # the study's results carry it, and its margin is the limit minus the value.
+    import tomllib
+
+    from models.design import load_design
+    from optim.demo import DEMO_DESIGN, DEMO_STUDY
+    from optim.study.objectives import margins, results_of
+    from optim.study.spec import spec_from_dict
+
+    data = tomllib.loads(DEMO_STUDY.read_text(encoding="utf-8"))
+    data["constraints"]["pull_uncertainty_relative"] = {"max": 0.1}
+    spec = spec_from_dict(data, folder=DEMO_STUDY.parent)
+    flat, _, _ = results_of(load_design(DEMO_DESIGN), isothermal=True)
+    assert 0.0 < flat["pull_uncertainty_relative"] < 0.1
+    assert flat["pull_uncertainty_N"] == pytest.approx(
+        flat["pull_uncertainty_relative"] * abs(flat["pull_N"]), rel=1e-12
+    )
+    (limit,) = [c for c in spec.constraints if c.name == "pull_uncertainty_relative"]
+    assert margins(flat, [limit])["pull_uncertainty_relative"] == pytest.approx(
+        0.1 - flat["pull_uncertainty_relative"]
+    )
