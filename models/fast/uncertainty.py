@@ -14,8 +14,9 @@ The constants were chosen on the edge set (tests/edge_model.py, 24 cases) and th
 set (tests/cross_model.py, 22 cases) so that |fast - FEM| <= estimate on at least 90 % of each:
 measured 23 of 24 and 22 of 22, with the median of estimate / |fast - FEM| 1.9 where the
 difference exceeds 1 % (7 cases). The terms' part dominates near a sign change; the second level
-is what covers the low-cancellation designs (without it, 18 of 22 on the cross-model set). The
-random audit (``python -m tests.audit_random``) checks it on designs it was not fitted to.
+is what covers the low-cancellation designs (without it, 18 of 22 on the cross-model set). On
+designs it was not fitted to, the random audit (``python -m tests.audit_random 11 30``): covers 28
+of 30, median estimate / |difference| 2.8 over the 4 differences above 1 %.
 """
 
 from __future__ import annotations

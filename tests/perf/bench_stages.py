@@ -18,7 +18,7 @@ import numpy as np
 import models.fast.pole as pole
 from models import load_design
 from models.evaluate import DEFAULT_FINENESS
-from models.fast import circuit, flux
+from models.fast import circuit, core, flux
 from models.fast.circuit import TARGET, build_cells, cell_mutual_matrix, iron_nodes, solve_circuit
 from optim.demo import DEMO_DESIGN
 
@@ -36,13 +36,20 @@ def _clear_caches():
         cache_clear()
 
 
+def sol_P(design, fine, mp):
+    """The bound-current operator of the demo's cells (panels x cells)."""
+    return circuit.assemble_circuit(design, fine, mp).P
+
+
 def _stages(design):
     fine = DEFAULT_FINENESS
     cells = build_cells(design, fine)
     mp = ev.pole_model_for(design, fine)
     panels = mp.panels
-    nr, nz, _ = iron_nodes(cells, panels, fine.iron_nodes)
+    nr, nz, _ = iron_nodes(cells, panels, fine.iron_nodes, fine.iron_reach)
     sol = solve_circuit(design, fine, mp)
+    result = ev.evaluate(design)
+    temps = {"coil": 20.0, "ring": 20.0, "target": 20.0}
     n = cells.n - int((cells.part == circuit.COIL).sum()) + 1
     rng = np.random.default_rng(0)
     Z = rng.standard_normal((n, n)) + 1j * rng.standard_normal((n, n))
@@ -64,7 +71,7 @@ def _stages(design):
         "MagnetisedPole()": lambda: pole.MagnetisedPole(panels, design.pole.relative_permeability),
         "pole_model_for (cold)": cold(lambda: ev.pole_model_for(design, fine)),
         "pole_model_for (warm)": lambda: ev.pole_model_for(design, fine),
-        "iron_nodes": lambda: iron_nodes(cells, panels, fine.iron_nodes),
+        "iron_nodes": lambda: iron_nodes(cells, panels, fine.iron_nodes, fine.iron_reach),
         "operator": cold(lambda: mp.operator(nr, nz)),
         "panel_mutual+_dz": cold(
             lambda: (pole.panel_mutual(panels, nr, nz), pole.panel_mutual_dz(panels, nr, nz))
@@ -74,6 +81,8 @@ def _stages(design):
         "pull_by_source": lambda: ev.pull_by_source(sol),
         "core_peak_flux_density": lambda: flux.core_peak_flux_density(design, sol),
         "pole_flux_density": lambda: flux.pole_flux_density(design, sol),
+        "core_grid": lambda: core.core_grid(design, cells, panels, sol_P(design, fine, mp)),
+        "error bar (cold)": cold(lambda: ev._with_error_bar(result.electrical, design, fine, temps)),
         "evaluate (cold)": cold(lambda: ev.evaluate(design)),
         "evaluate (warm pole)": lambda: ev.evaluate(design),
     }, (cells.n, panels.n, nr.size)
