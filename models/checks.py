@@ -87,6 +87,7 @@ def range_warnings(design: Design, sol: CircuitSolution, fineness: Fineness, ele
                 f"({lo:g} to {hi:g}): confirm with 'eddypull verify'"
             )
     out += _core_warnings(design, electrical)
+    out += _pull_warnings(electrical)
     for name, part, label in (("target", design.target, TARGET), ("ring", design.ring, RING)):
         if part is None:
             continue
@@ -100,6 +101,23 @@ def range_warnings(design: Design, sol: CircuitSolution, fineness: Fineness, ele
                 f"({finest * 1e3:.3g} mm): raise the cell limit for a converged answer"
             )
     return out
+
+
+#: A pull whose error estimate exceeds this fraction of it warns (common practice, no source: a
+#: tenth is where a lift ratio's margin stops meaning what it says).
+PULL_UNCERTAINTY_WARNING = 0.1
+
+
+def _pull_warnings(electrical) -> list[str]:
+    """A pull whose size is not to be trusted: its error estimate over PULL_UNCERTAINTY_WARNING."""
+    u = electrical.pull_uncertainty_relative
+    if not u > PULL_UNCERTAINTY_WARNING:
+        return []
+    return [
+        f"pull {electrical.pull_N * 1e3:+.4g} mN +- {electrical.pull_uncertainty_N * 1e3:.2g} mN "
+        f"({100 * u:.0f} %; its terms sum to {electrical.pull_cancellation:.3g} x the net): trust "
+        "its sign rather than its size, and check it with 'eddypull verify'"
+    ]
 
 
 def _core_warnings(design: Design, electrical) -> list[str]:

@@ -40,6 +40,8 @@ __all__ = [
     "sheet_loss_density",
     "CoreLossLaw",
     "peak_flux_density",
+    "face_slab_depth",
+    "FACE_SLAB_MIN",
     "hysteresis_excess_loss",
     "coil_current_with_core_loss",
 ]
@@ -149,6 +151,19 @@ class CoreLossLaw:
         if k_h < 0.0 or k_e < 0.0:
             raise ValueError(f"loss data {points} need a negative coefficient at alpha = {alpha}")
         return cls(float(alpha), float(k_h), float(k_e), tuple(points), source)
+
+
+#: Least depth of the pole's face slab [m] (common practice, no source: the depth over which the
+#: flux of a pole without a groove turns from the axis to the side).
+FACE_SLAB_MIN = 1e-3
+
+
+def face_slab_depth(design) -> float:
+    """Depth of the pole's face slab [m], where flux running radially crosses the sheets of a real
+    stack (``core_radial_flux_fraction`` of both models): the ring's depth, at least
+    FACE_SLAB_MIN, at most the pole's length."""
+    ring_depth = design.ring.depth if design.ring is not None else 0.0
+    return min(max(ring_depth, FACE_SLAB_MIN), design.pole.length)
 
 
 def peak_flux_density(br, bz) -> np.ndarray:

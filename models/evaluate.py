@@ -22,6 +22,7 @@ from models.checks import (
     thermal_assumptions,
     thermal_warnings,
 )
+from models.core_loss import face_slab_depth
 from models.design import Design, with_value
 from models.errors import DesignError
 from models.fast.circuit import RING, TARGET, CircuitSolution, assemble_circuit, solve_system
@@ -29,6 +30,7 @@ from models.fast.core import radial_flux_fraction
 from models.fast.discretize import Fineness
 from models.fast.flux import core_peak_flux_density, pole_flux_density
 from models.fast.pull import pull_by_source
+from models.fast.uncertainty import COARSE_FACTOR, pull_uncertainty
 from models.result import MODEL_VERSION, Electrical, Result, Thermal, ring_phase
 from models.thermal.coupling import solve_coupled
 from models.thermal.limits import hold_temperature
@@ -233,6 +235,7 @@ def evaluate_pick_gaps(
     arrival = solve(pick_system, part.arrival)
     hold = solve(held_system, part.hold) if part.hold is not None else None
     electrical = _electrical(design, arrival, hold, state.temperature("core"))
+    electrical = _with_error_bar(electrical, design, fineness, part.arrival)
     thermal = _thermal(design, state, part, electrical)
     flat = _flat_for_checks(electrical, thermal)
     warnings = [f"design: {note}" for note in design.notes]
@@ -407,6 +410,8 @@ def _electrical(
         pull_hold_N=pull_hold,
         lift_ratio_hold=pull_hold / weight,
         pull_cancellation=pull_cancellation(split),
+        pull_uncertainty_N=math.nan,
+        pull_uncertainty_relative=math.nan,
         power_factor=input_power / va if va > 0 else 0.0,
         pole_mass_kg=pole_mass(design),
         core_flux_fraction=b_peak / bsat if bsat else 0.0,
@@ -418,8 +423,23 @@ def _electrical(
         core_radial_flux_fraction=(
             0.0
             if sol.core_grid is None
-            else radial_flux_fraction(sol.core_grid, sol.cell_current, face_slab_thickness(design))
+            else radial_flux_fraction(sol.core_grid, sol.cell_current, face_slab_depth(design))
         ),
+    )
+
+
+def _with_error_bar(electrical: Electrical, design: Design, fineness, temperatures) -> Electrical:
+    """``electrical`` with the pull's error estimate (models.fast.uncertainty): the pull again at
+    a coarser fineness, in the same state (one circuit assembly and solve, no thermal solve)."""
+    coarse = fineness.scaled(COARSE_FACTOR)
+    system = assemble_circuit(design, coarse, pole_model_for(design, coarse))
+    pull_coarse = float(sum(pull_by_source(solve_system(system, temperatures)).values()))
+    u = pull_uncertainty(electrical.pull_N, pull_coarse, electrical.pull_by_source_N)
+    pull = abs(electrical.pull_N)
+    return dataclasses.replace(
+        electrical,
+        pull_uncertainty_N=u,
+        pull_uncertainty_relative=u / pull if pull > 0 else math.inf,
     )
 
 
@@ -482,4 +502,6 @@ def _flat_for_checks(electrical: Electrical, thermal: Thermal) -> dict:
         "coil_voltage_V": electrical.coil_voltage_V,
         "coil_current_A": electrical.coil_current_A,
         "supply_VA": electrical.supply_VA,
+        "pull_uncertainty_relative": electrical.pull_uncertainty_relative,
+        "pull_cancellation": electrical.pull_cancellation,
     }

@@ -122,7 +122,7 @@ def test_target_size_sweep_shows_the_sign_change(capsys):
     assert main(["evaluate", str(DEMO), "--isothermal", "--sweep", "target.radius_mm=2:14:13"]) == 0
     out = capsys.readouterr().out
     rows = [line.split() for line in out.splitlines() if line.strip()[:1].isdigit()]
-    pulls = [float(r[1]) for r in rows if len(r) == 7]
+    pulls = [float(r[1]) for r in rows if len(r) == 8]
     assert len(pulls) == 13
     assert pulls[0] > 0 > pulls[-1]
 

@@ -92,6 +92,7 @@ def test_sweep_reads_start_dot_dot_stop_with_points(capsys):
         "pull_mN",
         "target_loss_W",
         "ring_loss_W",
+        "core_loss_W",
         "coil_voltage_V",
         "lift_ratio",
         "core_peak_flux_density_T",  # the JSON name; the pull column says it is in mN

@@ -68,12 +68,16 @@ BASE["run"] = {
 #: A storage URL that a wrongly accepted file would create: the tests check it never appears.
 NEVER_DB = "never_created.db"
 
+#: The searched parameters with a range (the others have choices).
+RANGED = [p for p, spec in BASE["search"].items() if "low" in spec]
+
 #: Every key of the study with its kind; "hours" is absent from BASE but a key all the same.
 FIELDS: list[tuple[tuple, str]] = [
     (("name",), "name"),
     (("description",), "str"),
     (("design",), "str"),
-    *[(("search", p, b), "num") for p in BASE["search"] for b in ("low", "high")],
+    *[(("search", p, b), "num") for p in RANGED for b in ("low", "high")],
+    *[(("search", p, "choices"), "choices") for p in BASE["search"] if p not in RANGED],
     (("search", "ring_depth_mm", "step"), "num"),
     (("search", "frequency_Hz", "scale"), "enum"),
     *[(("objectives", o), "enum") for o in BASE["objectives"]],
@@ -214,6 +218,8 @@ def _wrong_for(kind):
         return st.one_of(_numbers, st.booleans(), _lists, _dates, st.text(max_size=12)).filter(
             lambda v: not isinstance(v, str) or v not in allowed
         )
+    if kind == "choices":  # a list of library names: anything else
+        return st.one_of(_numbers, st.booleans(), st.text(max_size=12), _lists, _dicts, _dates)
     if kind == "name":  # strings are checked by their characters in test_bad_names
         return st.one_of(_numbers, st.booleans(), _lists, _dicts, _dates)
     return st.one_of(_numbers, st.booleans(), _lists, _dicts, _dates)  # a string key
@@ -259,7 +265,7 @@ def test_missing_tables(workdir, capsys, keys):
 
 
 @QUICK
-@given(st.sampled_from(list(BASE["search"])), st.floats(0.0, 2.0), st.booleans())
+@given(st.sampled_from(RANGED), st.floats(0.0, 2.0), st.booleans())
 def test_inverted_and_equal_search_bounds(workdir, capsys, name, back, equal):
     d = _base(workdir)
     spec = d["search"][name]

@@ -326,7 +326,7 @@ def assemble_circuit(design, fineness: Fineness, pole_model=None) -> CircuitSyst
         panels = pole_model.panels
         # Node quantities to cell quantities: W.T @ (nodes x panels), (panels x nodes) @ W, with
         # W applied by index (``NodeMap``) rather than as a dense matrix.
-        nr, nz, nodes = iron_nodes(cells, panels, fineness.iron_nodes)
+        nr, nz, nodes = iron_nodes(cells, panels, fineness.iron_nodes, fineness.iron_reach)
         P = nodes.from_cells_right(pole_model.operator(nr, nz))  # (n_panels, n_cells)
         panel_M = nodes.to_cells(panel_mutual(panels, nr, nz))  # (n_cells, n_panels)
         panel_D = nodes.to_cells(panel_mutual_dz(panels, nr, nz))

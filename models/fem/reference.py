@@ -12,16 +12,17 @@ from dataclasses import dataclass
 
 from models.errors import DesignError
 from models.fem.mesh import MeshOptions
-from models.fem.results import RESULT_KEYS, FemResult
+from models.fem.results import CORE_KEYS, RESULT_KEYS, FemResult
 from models.fem.solve import solve
 
 __all__ = ["ReferenceResult", "reference"]
 
 
 def _flatten(d: dict) -> dict:
-    """Scalar view of a result dict: [re, im] pairs become ``key.re`` and ``key.im``."""
+    """Scalar view of a result dict (the fast model's keys and the FEM's core keys): [re, im] pairs
+    become ``key.re`` and ``key.im``."""
     out = {}
-    for k in RESULT_KEYS:
+    for k in RESULT_KEYS + CORE_KEYS:
         v = d.get(k)
         if isinstance(v, (list, tuple)):
             out[k + ".re"], out[k + ".im"] = float(v[0]), float(v[1])

@@ -8,7 +8,9 @@ into the edges (and the element size each edge wants) through which `models.fem.
 
 from __future__ import annotations
 
+import cmath
 import math
+import numbers
 from dataclasses import dataclass
 
 import numpy as np
@@ -32,8 +34,12 @@ class Region:
     r0, r1, z0, z1 : float
         Extent [m]; ``r1`` may be ``math.inf`` and ``z0``/``z1`` may be -/+ ``math.inf`` to reach the far
         boundary (a plate or half-space).
-    relative_permeability : float
-        mu_r [-] (>= 1 for the cases the checks cover; any positive value is solved).
+    relative_permeability : float or complex
+        mu_r [-] (>= 1 for the cases the checks cover; any positive value is solved). A complex value
+        is a lossy magnet, e.g. the homogenised permeability of a laminated stack
+        (`models.core_loss.lamination_permeability`): Re > 0 and Im <= 0 (time factor
+        exp(j omega t)), so that its reluctivity nu = 1 / (mu_0 mu_r) has Im nu >= 0 and the region
+        takes the power omega int Im(nu) |B|^2 dV (rms).
     conductivity : float
         sigma [S/m]; a solid shorted conductor carries J = -j omega sigma A (no applied voltage).
     turns : int
@@ -49,7 +55,7 @@ class Region:
     r1: float
     z0: float
     z1: float
-    relative_permeability: float = 1.0
+    relative_permeability: float | complex = 1.0
     conductivity: float = 0.0
     turns: int = 0
 
@@ -61,10 +67,11 @@ class Region:
             )
         if not (self.z0 < self.z1) or math.isnan(self.z0) or math.isnan(self.z1):
             problems.append(f"region {self.role!r}: z0 = {self.z0!r}: must be < z1 = {self.z1!r}")
-        if not (self.relative_permeability > 0.0 and math.isfinite(self.relative_permeability)):
+        if not _permeability_ok(self.relative_permeability):
             problems.append(
                 f"region {self.role!r}: relative_permeability = {self.relative_permeability!r}: "
-                "must be a finite number > 0"
+                "must be a finite number > 0, or complex with real part > 0 and imaginary part "
+                "<= 0 (a lossy magnet)"
             )
         if not (self.conductivity >= 0.0 and math.isfinite(self.conductivity)):
             problems.append(
@@ -88,6 +95,19 @@ class Region:
         """Cross-section in the meridian plane [m^2]."""
         return (self.r1 - self.r0) * (self.z1 - self.z0)
 
+    @property
+    def lossy(self) -> bool:
+        """True for a complex permeability with Im mu_r < 0 (a lossy magnet)."""
+        return complex(self.relative_permeability).imag < 0.0
+
+
+def _permeability_ok(mu) -> bool:
+    """A finite mu_r with Re > 0 and Im <= 0 (real numbers: > 0)."""
+    if not isinstance(mu, numbers.Complex):
+        return False
+    z = complex(mu)
+    return cmath.isfinite(z) and z.real > 0.0 and z.imag <= 0.0
+
 
 def design_regions(design) -> list[Region]:
     """The regions of a design: pole, ring in its groove (painted over the pole), coil, target.
@@ -101,11 +121,15 @@ def design_regions(design) -> list[Region]:
     -------
     list of Region
         Roles 'pole', 'ring' (if any), 'coil', 'target'. A laminated pole (conductivity 0) has
-        sigma = 0; a solid pole carries eddy currents.
+        sigma = 0 and, with sheet data, the complex homogenised permeability of its stack at the
+        drive frequency (``design.pole.effective_permeability``; the sheets' eddy loss); without
+        sheet data its real mu_r. A solid pole carries eddy currents.
     """
     p, c, g = design.pole, design.coil, design.target
+    mu = p.effective_permeability(design.drive.frequency)
+    mu = mu if mu.imag != 0.0 else mu.real  # a real mu_r stays real (the lossless solve)
     regions = [
-        Region("pole", 0.0, p.radius, -p.length, 0.0, p.relative_permeability, p.conductivity),
+        Region("pole", 0.0, p.radius, -p.length, 0.0, mu, p.conductivity),
     ]
     if design.ring is not None:
         ring = design.ring
@@ -134,7 +158,7 @@ def region_edges(regions, frequency: float, options: MeshOptions):
     for r (the axis and infinite edges left out) and for z (infinite edges left out)."""
     edges_r, edges_z = [], []
     for reg in regions:
-        delta = skin_depth(frequency, reg.conductivity, reg.relative_permeability)
+        delta = skin_depth(frequency, reg.conductivity, abs(reg.relative_permeability))
         dr, dz = reg.r1 - reg.r0, reg.z1 - reg.z0
         hs = delta / options.per_skin_depth
         for x in (reg.r0, reg.r1):

@@ -24,10 +24,17 @@ import scipy.sparse.linalg as spla
 from scipy.constants import mu_0
 from skfem import Basis, BilinearForm, ElementQuad2, LinearForm, MeshQuad, asm
 
+from models.core_loss import coil_current_with_core_loss
 from models.errors import DesignError
+from models.fem.core import (
+    face_slab_depth,
+    field_crossing_fraction,
+    hysteresis_excess,
+    pole_peak_flux_density,
+)
 from models.fem.mesh import MeshOptions, grid_nodes
 from models.fem.regions import design_regions, paint, region_edges
-from models.fem.results import FemResult, FieldSolution
+from models.fem.results import FemResult, FieldSolution, QuadratureField
 from models.result import ring_phase
 
 __all__ = ["solve_regions", "solve"]
@@ -86,18 +93,24 @@ def _grid(regions, frequency, refine, far_factor, options):
 
 
 def _element_materials(regions, owner):
-    """Per element: reluctivity nu [m/H], conductivity sigma [S/m] and source density per ampere of
-    coil current J_s / I [1/m^2]."""
+    """Per element: real and imaginary parts of the reluctivity nu = 1 / (mu_0 mu_r) [m/H] (the
+    imaginary part >= 0, nonzero only in a lossy magnet), conductivity sigma [S/m] and source
+    density per ampere of coil current J_s / I [1/m^2]."""
     nu_e = np.full(owner.shape, 1.0 / mu_0)
+    nu_im = np.zeros(owner.shape)
     sigma_e = np.zeros(owner.shape)
     js_e = np.zeros(owner.shape)
     for k, reg in enumerate(regions):
         sel = owner == k
-        nu_e[sel] = 1.0 / (mu_0 * reg.relative_permeability)
+        if reg.lossy:
+            nu = 1.0 / (mu_0 * complex(reg.relative_permeability))
+            nu_e[sel], nu_im[sel] = nu.real, nu.imag
+        else:
+            nu_e[sel] = 1.0 / (mu_0 * complex(reg.relative_permeability).real)
         sigma_e[sel] = reg.conductivity
         if reg.turns > 0:
             js_e[sel] = reg.turns / reg.area  # per ampere
-    return nu_e, sigma_e, js_e
+    return nu_e, nu_im, sigma_e, js_e
 
 
 def _check_coils_whole(regions, coils, mesh, owner):
@@ -112,9 +125,19 @@ def _check_coils_whole(regions, coils, mesh, owner):
             )
 
 
-def _solve_potential(mesh, nu_e, sigma_e, js_e, omega):
-    """Assemble K + j omega M and the load of a unit coil current, solve with A = 0 on the whole
-    outline; return the basis, the potential A at every dof [Wb/m rms] and the number of free dofs."""
+def _lossy_stiffness(mesh, nu_im):
+    """Stiffness of the imaginary part of nu, assembled over the lossy elements only (the same
+    quadrature points as the full basis, so that the power identities stay exact)."""
+    lossy = np.flatnonzero(nu_im)
+    sub = Basis(mesh, ElementQuad2(), intorder=_INTORDER, elements=lossy)
+    nqp = sub.X.shape[1]
+    return asm(_curl_curl, sub, nu=np.repeat(nu_im[lossy, None], nqp, axis=1))
+
+
+def _solve_potential(mesh, nu_e, nu_im, sigma_e, js_e, omega):
+    """Assemble K + j K_im + j omega M and the load of a unit coil current, solve with A = 0 on the
+    whole outline; return the basis, the potential A at every dof [Wb/m rms] and the number of
+    free dofs. K and K_im are the curl-curl stiffness of Re nu and Im nu (two real assemblies)."""
     basis = Basis(mesh, ElementQuad2(), intorder=_INTORDER)
     nqp = basis.X.shape[1]
     per_qp = {
@@ -125,23 +148,28 @@ def _solve_potential(mesh, nu_e, sigma_e, js_e, omega):
     K = asm(_curl_curl, basis, nu=per_qp["nu"])
     f = asm(_load, basis, js=per_qp["js"])
     conducting = bool(np.any(sigma_e > 0.0))
+    lossy = bool(np.any(nu_im != 0.0))
     if conducting:
         M = asm(_mass, basis, sigma=per_qp["sigma"])
-        system = (K + 1j * omega * M).tocsc()
+        system = K + 1j * omega * M
     else:
-        system = K.tocsc()
+        system = K
+    if lossy:
+        system = system + 1j * _lossy_stiffness(mesh, nu_im)
+    system = system.tocsc()
+    complex_system = conducting or lossy
 
     fixed = basis.get_dofs().all()  # the whole outline: axis and far boundary, A = 0
     free = np.setdiff1d(np.arange(basis.N), fixed)
     a = np.zeros(basis.N, dtype=complex)
     lu = spla.splu(sp.csc_matrix(system[free][:, free]), permc_spec="MMD_AT_PLUS_A")
-    a[free] = lu.solve(f[free].astype(complex if conducting else float))
+    a[free] = lu.solve(f[free].astype(complex if complex_system else float))
     return basis, a, free.size
 
 
 def _quadrature_fields(basis, a):
     """A, B_r, B_z at the quadrature points, shape (elements, points), with the volume weights
-    2 pi r dA [m^3] and the meridian area weights dA [m^2]."""
+    2 pi r dA [m^3], the meridian area weights dA [m^2] and the points' coordinates (r, z) [m]."""
     af = basis.interpolate(a)
     av = np.asarray(af)
     dadr, dadz = af.grad[0], af.grad[1]
@@ -151,7 +179,7 @@ def _quadrature_fields(basis, a):
     da = basis.dx  # meridian area weights [m^2]
     br = -dadz
     bz = dadr + av / r
-    return av, br, bz, dv, da
+    return av, br, bz, dv, da, x
 
 
 def _flux_linkage(regions, coils, owner, av, dv) -> complex:
@@ -162,6 +190,18 @@ def _flux_linkage(regions, coils, owner, av, dv) -> complex:
         reg = regions[k]
         flux_linkage += reg.turns / reg.area * np.sum(av[sel] * dv[sel])
     return flux_linkage
+
+
+def _magnetic_losses(regions, owner, omega, nu_im, br, bz, dv) -> dict:
+    """Per role of a lossy magnet: omega int Im(nu) |B|^2 dV [W] (see `solve_regions`)."""
+    loss = {}
+    b2 = np.abs(br) ** 2 + np.abs(bz) ** 2
+    for k, reg in enumerate(regions):
+        sel = owner == k
+        if reg.lossy and np.any(sel):
+            p = float(omega * np.sum(nu_im[sel, None] * b2[sel] * dv[sel]))
+            loss[reg.role] = loss.get(reg.role, 0.0) + p
+    return loss
 
 
 def _role_integrals(regions, owner, omega, av, br, bz, dv, da):
@@ -221,7 +261,8 @@ def solve_regions(
     options : MeshOptions, optional
         Grid knobs (defaults: `MeshOptions()`).
     keep_field : bool
-        Keep the basis and the nodal potential in the result (for point evaluation).
+        Keep the basis, the nodal potential (for point evaluation) and the field at the quadrature
+        points (`QuadratureField`, for integrals over a region) in the result.
 
     Returns
     -------
@@ -234,7 +275,9 @@ def solve_regions(
         int nu (curl A).(curl v) dV + j omega int sigma A v dV = int J_s v dV,
         curl A = (-dA/dz) e_r + (dA/dr + A/r) e_z,
 
-    with nu = 1 / (mu_0 mu_r), J_s = N I / A_w in a stranded coil, J = -j omega sigma A in a solid
+    with nu = 1 / (mu_0 mu_r) (complex in a lossy magnet: Im mu_r <= 0, Im nu >= 0; its real and
+    imaginary parts are assembled as two real stiffness matrices), J_s = N I / A_w in a stranded
+    coil, J = -j omega sigma A in a solid
     shorted conductor (an axisymmetric closed loop has no applied voltage), and A = 0 on the axis and on
     the far boundary (r = r_far, z = z_lo, z = z_hi). Biquadratic Lagrange quadrilaterals. A_phi rather
     than psi = r A_phi is the unknown: every basis function that survives A = 0 on the axis vanishes
@@ -242,9 +285,12 @@ def solve_regions(
     whereas in psi the modes with d psi / dr != 0 on the axis have a log-divergent energy.
 
     Post-processing, all with the quadrature of the assembly (so that the power balance
-    Re(V I*) = R |I|^2 + sum of eddy losses holds to round-off):
+    Re(V I*) = R |I|^2 + sum of eddy losses + sum of magnetic losses holds to round-off):
 
     * eddy loss int omega^2 sigma |A|^2 dV; region current int -j omega sigma A dA;
+    * magnetic loss of a lossy magnet omega int Im(nu) |B|^2 dV (|B|^2 = |B_r|^2 + |B_z|^2): with
+      Psi = f^T a and (K + j K_im + j omega M) a = f for real symmetric K, K_im, M,
+      Re(j omega Psi) = omega a^H K_im a + omega^2 a^H M a, the two loss integrals;
     * axial force Re int (J x B*)_z dV = -Re int J B_r* dV, B_r = -dA/dz (e_phi x e_r = -e_z);
     * coil flux linkage Psi = (N / A_w) int_coil 2 pi r A dA, Z = R + j omega Psi / I.
     """
@@ -254,14 +300,19 @@ def solve_regions(
     omega = 2.0 * math.pi * frequency
 
     mesh, r_nodes, z_nodes, owner = _grid(regions, frequency, refine, far_factor, options)
-    nu_e, sigma_e, js_e = _element_materials(regions, owner)
+    nu_e, nu_im, sigma_e, js_e = _element_materials(regions, owner)
     _check_coils_whole(regions, coils, mesh, owner)
-    basis, a, n_free = _solve_potential(mesh, nu_e, sigma_e, js_e, omega)
+    basis, a, n_free = _solve_potential(mesh, nu_e, nu_im, sigma_e, js_e, omega)
 
     # ---- post-processing at the quadrature points (unit current)
-    av, br, bz, dv, da = _quadrature_fields(basis, a)
+    av, br, bz, dv, da, x = _quadrature_fields(basis, a)
     flux_linkage = _flux_linkage(regions, coils, owner, av, dv)
     loss, rcur, force, bmax = _role_integrals(regions, owner, omega, av, br, bz, dv, da)
+    magnetic_loss = _magnetic_losses(regions, owner, omega, nu_im, br, bz, dv)
+    quadrature = None
+    if keep_field:
+        roles = tuple(reg.role for reg in regions)
+        quadrature = QuadratureField(owner, roles, x[0], x[1], br, bz, dv)
 
     impedance = coil_resistance + 1j * omega * flux_linkage
     sol = FieldSolution(
@@ -272,6 +323,7 @@ def solve_regions(
         impedance=complex(impedance),
         voltage=complex(impedance),
         loss_W=loss,
+        magnetic_loss_W=magnetic_loss,
         region_current_A=rcur,
         force_z_N=force,
         flux_density_T=bmax,
@@ -281,6 +333,7 @@ def solve_regions(
         z_nodes=z_nodes,
         basis=basis if keep_field else None,
         potential=a if keep_field else None,
+        quadrature=quadrature,
     )
     scale = complex(current) if current is not None else complex(voltage) / sol.impedance
     return sol.scaled(scale)
@@ -290,6 +343,28 @@ def solve_regions(
 # Design layer
 
 
+def _coil_current(drive, pole, unit, loss_at) -> complex:
+    """Coil current [A rms]: the drive's, or with a voltage drive the root of V = (Z + R_he) I
+    (`models.core_loss.coil_current_with_core_loss`; I = V / Z without a loss law)."""
+    if drive.current is not None:
+        return complex(drive.current)
+    if pole.core_loss is None:
+        return complex(drive.voltage) / unit.impedance
+    return coil_current_with_core_loss(complex(drive.voltage), unit.impedance, loss_at)
+
+
+def _pole_mean_flux_density(sol, pole) -> float:
+    """Peak section-averaged axial flux density of the pole, max over its length [T], from A on its
+    side: B_mean = 2 A(R_p, z) / R_p (Stokes' theorem over the section), times sqrt 2."""
+    p, a_vertex = sol.vertex_potential()
+    on_side = (
+        np.isclose(p[0], pole.radius, rtol=0.0, atol=1e-12)
+        & (p[1] >= -pole.length - 1e-12)
+        & (p[1] <= 1e-12)
+    )
+    return float(np.max(np.abs(a_vertex[on_side]))) * 2.0 / pole.radius * math.sqrt(2.0)
+
+
 def solve(design, refine: float = 1.0, far_factor: float = 1.0, options: MeshOptions | None = None):
     """Reference FEM solution of one design.
 
@@ -297,7 +372,7 @@ def solve(design, refine: float = 1.0, far_factor: float = 1.0, options: MeshOpt
     ----------
     design : models.design.Design
         The design (SI). Current drive uses ``design.drive.current`` [A rms]; voltage drive
-        ``design.drive.voltage`` [V rms] (taken as the phase reference), I = V / Z.
+        ``design.drive.voltage`` [V rms] (taken as the phase reference).
     refine : float
         Divides every element size (> 0).
     far_factor : float
@@ -314,43 +389,60 @@ def solve(design, refine: float = 1.0, far_factor: float = 1.0, options: MeshOpt
     Materials at 20 degC (the design's conductivities); the winding resistance is
     ``design.coil.resistance(20.0)``. Pull = -F_z(target) = Re int_target J B_r* dV, the force density
     being f = Re(J x B*) for rms phasors and e_phi x e_r = -e_z (see `solve_regions`).
+
+    A laminated pole with sheet data is a lossy magnet of permeability
+    ``design.pole.effective_permeability(f)`` (DESIGN.md, "Iron losses"): the field's impedance
+    Z = R + j omega Psi / I carries its sheets' eddy loss. Its hysteresis and excess losses
+    (`models.fem.core.hysteresis_excess`, from the field's peak flux density at every quadrature
+    point of the pole) are carried by a series resistance R_he = P_he / |I|^2 of the coil:
+    V = (Z + R_he) I. The problem is solved once at unit current and scaled: by the drive current,
+    or with a voltage drive by the root of |V| = |Z + R_he(|I|)| |I|
+    (`models.core_loss.coil_current_with_core_loss`; I = V / Z without a loss law). Hence
+
+        Re(V I*) = coil + ring + target + pole eddy + core eddy + hysteresis + excess losses,
+
+    to round-off (the Galerkin identity of the weak form and R_he's definition).
     """
     t0 = time.perf_counter()
-    drive = design.drive
-    sol = solve_regions(
+    drive, pole = design.drive, design.pole
+    unit = solve_regions(
         design_regions(design),
         drive.frequency,
-        current=drive.current,
-        voltage=drive.voltage,
+        current=1.0,
         coil_resistance=design.coil.resistance(20.0),
         refine=refine,
         far_factor=far_factor,
         options=options,
         keep_field=True,
     )
-    i_coil = sol.current
+    b_unit, dv = pole_peak_flux_density(unit)  # per ampere of coil current
+
+    def loss_at(i_abs: float) -> float:
+        return sum(hysteresis_excess(pole, drive.frequency, i_abs * b_unit, dv))
+
+    i_coil = _coil_current(drive, pole, unit, loss_at)
+    sol = unit.scaled(i_coil)
+    hysteresis, excess = hysteresis_excess(pole, drive.frequency, abs(i_coil) * b_unit, dv)
+    r_he = (hysteresis + excess) / abs(i_coil) ** 2 if i_coil != 0.0 else 0.0
+    impedance = sol.impedance + r_he
     i_ring = sol.region_current_A.get("ring", 0.0j)
     phase = ring_phase(i_ring, i_coil) if design.ring is not None else math.nan
-    pole = design.pole
-    p, a_vertex = sol.vertex_potential()
-    on_side = (
-        np.isclose(p[0], pole.radius, rtol=0.0, atol=1e-12)
-        & (p[1] >= -pole.length - 1e-12)
-        & (p[1] <= 1e-12)
-    )
-    b_pole = float(np.max(np.abs(a_vertex[on_side]))) * 2.0 / pole.radius * math.sqrt(2.0)
     return FemResult(
         pull_N=-sol.force_z_N.get("target", 0.0),
         target_loss_W=sol.loss_W.get("target", 0.0),
         ring_loss_W=sol.loss_W.get("ring", 0.0),
         pole_loss_W=sol.loss_W.get("pole", 0.0),
         coil_loss_W=abs(i_coil) ** 2 * sol.coil_resistance,
+        core_eddy_loss_W=sol.magnetic_loss_W.get("pole", 0.0),
+        core_hysteresis_loss_W=hysteresis,
+        core_excess_loss_W=excess,
         coil_current_A=i_coil,
-        coil_voltage_V=sol.voltage,
-        coil_impedance_ohm=sol.impedance,
+        coil_voltage_V=impedance * i_coil,
+        coil_impedance_ohm=impedance,
         ring_current_A=complex(i_ring),
         ring_phase_deg=phase,
-        pole_flux_density_T=b_pole,
+        pole_flux_density_T=_pole_mean_flux_density(sol, pole),
+        core_radial_flux_fraction=field_crossing_fraction(unit, face_slab_depth(design)),
         n_dofs=sol.n_dofs,
         run_time_s=time.perf_counter() - t0,
         refine=float(refine),

@@ -90,6 +90,9 @@ def format_result(design, result) -> str:
         f"{'ring' if design.ring is not None else 'plain pole (no ring)'}, "
         f"target r = {design.target.radius * 1e3:g} mm at gap {design.target.gap * 1e3:g} mm",
         f"  pull               {r.pull_N * 1e3:+.4g} mN   {verdict}",
+        f"    error bar        +-{r.pull_uncertainty_N * 1e3:.2g} mN "
+        f"({100 * r.pull_uncertainty_relative:.2g} %; terms sum to {r.pull_cancellation:.3g} x "
+        "the net)",
         f"    from coil        {split['coil'] * 1e3:+.4g} mN",
         f"    from pole (iron) {split['pole'] * 1e3:+.4g} mN",
         f"    from ring        {split['ring'] * 1e3:+.4g} mN",

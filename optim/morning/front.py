@@ -2,7 +2,8 @@
 
 Columns of the trials table (units in the names): ``trial``, ``state``, ``feasible``,
 ``on_front``, ``completed_at``, ``eval_s``, ``reason``, ``worker``; the searched parameters
-(``frequency_Hz``, ``ring_outer_fraction``...); the trial design's main dimensions
+(``frequency_Hz``, ``ring_outer_fraction``...; a text parameter such as ``pole_material`` as
+text); the trial design's main dimensions
 (``pole_radius_mm``, ``ring_inner_radius_mm``, ``ring_outer_radius_mm``, ``ring_depth_mm``,
 ``gap_mm``, ``target_radius_mm``, ``frequency_Hz``, ``turns``, ``current_A`` or ``voltage_V``);
 every flat result (``pull_N``, ``ring_temperature_C``, ...; ``margins.<limit>`` is the margin to
@@ -156,7 +157,9 @@ def trials_table(study, spec_json: dict) -> pd.DataFrame:
 
 
 def status_summary(study, spec_json: dict, table: pd.DataFrame | None = None) -> dict:
-    """Counts, rate, feasible share, best value per objective and front size of a study."""
+    """Counts, rate, feasible share, best value per objective (``best``) and the trial that
+    reached it with its searched parameters (``best_trials``: objective -> ``trial``,
+    ``parameters``; a material as its text), front size, failures and constraints of a study."""
     df = trials_table(study, spec_json) if table is None else table
     objectives = spec_json["objectives"]
     n = len(df)
@@ -165,13 +168,21 @@ def status_summary(study, spec_json: dict, table: pd.DataFrame | None = None) ->
     feasible = int(df["feasible"].sum()) if n else 0
     times = done["completed_at"].dropna() if n else pd.Series([], dtype="datetime64[ns, UTC]")
     span = (times.max() - times.min()).total_seconds() if len(times) > 1 else 0.0
-    best = {}
+    best, best_trials = {}, {}
     for name, direction in objectives.items():
-        if n and name in df and feasible:
-            col = df.loc[df["feasible"], name].astype(float)
-            best[name] = float(col.max() if direction == "maximize" else col.min())
-        else:
+        col = df.loc[df["feasible"], name].astype(float) if n and name in df and feasible else []
+        col = col[np.isfinite(col)] if len(col) else col
+        if not len(col):
             best[name] = None
+            continue
+        idx = col.idxmax() if direction == "maximize" else col.idxmin()
+        best[name] = float(col[idx])
+        best_trials[name] = {
+            "trial": int(df.loc[idx, "trial"]),
+            "parameters": {
+                p: _plain(df.loc[idx, p]) for p in spec_json.get("search", {}) if p in df
+            },
+        }
     rejected = {}
     for c in spec_json.get("constraints", {}):
         col = f"constraint_margin.{c}"
@@ -200,10 +211,25 @@ def status_summary(study, spec_json: dict, table: pd.DataFrame | None = None) ->
         "last": None if not len(times) else times.max().isoformat(),
         "front_size": int(df["on_front"].sum()) if n else 0,
         "best": best,
+        "best_trials": best_trials,
         "failure_reasons": reasons,
         "constraints": rejected,
         "objectives": dict(objectives),
     }
+
+
+def _plain(value):
+    """A table cell as a plain Python value (a number, a text such as a material, or None)."""
+    value = value.item() if hasattr(value, "item") else value
+    return None if isinstance(value, float) and math.isnan(value) else value
+
+
+def _values_text(parameters: dict) -> str:
+    """``name value`` pairs: numbers to 5 significant digits, text (a material) as it is."""
+    return ", ".join(
+        f"{k} {v if isinstance(v, str) or v is None else format(v, '.5g')}"
+        for k, v in parameters.items()
+    )
 
 
 def format_status(s: dict, where: str) -> str:
@@ -219,6 +245,9 @@ def format_status(s: dict, where: str) -> str:
     for name, direction in s["objectives"].items():
         b = s["best"][name]
         lines.append(f"  best {name:24s} {'-' if b is None else format(b, '.5g')} ({direction})")
+        t = (s.get("best_trials") or {}).get(name)
+        if t is not None:
+            lines.append(f"       trial {t['trial']}: {_values_text(t['parameters'])}")
     for reason, count in sorted(s["failure_reasons"].items(), key=lambda kv: -kv[1]):
         lines.append(f"  failed: {reason:20s} {count}")
     lines += constraint_lines(s)

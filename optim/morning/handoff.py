@@ -10,7 +10,8 @@ The folder is what a mechanical engineer receives in the morning:
   assumptions behind them, limits (and where each temperature limit comes from) and margins,
   ``time_to_limit_s`` labelled as continuous running beside the duty cycle's own figures, what
   rounding to the manufacturing resolution did (``rounding``, from ``study export``), tool and
-  model version, study, trial and time;
+  model version, study, trial (with its searched parameters, a chosen material among them) and
+  time;
 * ``parameters.csv`` - ``name,value,unit,description`` rows a parametric CAD model can read;
 * ``profile.dxf`` - the half cross-section in mm, one layer per part, the full section, linear
   dimensions and a text block (`optim.morning.dxf`, `optim.morning.dxfnotes`);
@@ -384,6 +385,7 @@ def write_handoff(design, result, out_dir, meta: dict, verify: dict | None = Non
         Folder to write into (created if missing).
     meta : dict
         Study context written under ``"study"`` in handoff.json: e.g. ``study``, ``trial``,
+        ``parameters`` (the trial's searched values: numbers, or text for a chosen material),
         ``storage`` (a URL loses its password here again), ``objectives``, ``constraint_margins``,
         ``created_at``, ``isothermal`` (True when the study evaluated at 20 degC: the reproducing
         command then carries ``--isothermal``).

@@ -183,8 +183,9 @@ def _write_plots(plot_dir: Path, spec, objectives: dict, df, front, designs) -> 
         images += plots.plot_front_progress(df, pairs, plot_dir)
     if len(front):
         log = [p.name for p in spec.params if p.log]
+        choices = {p.name: list(p.choices) for p in spec.params if p.categorical}
         images += plots.plot_parameter_coupling(
-            front, [p.name for p in spec.params], plot_dir, log=log
+            front, [p.name for p in spec.params], plot_dir, log=log, choices=choices
         )
     if designs:
         isothermal = bool(spec.run.get("isothermal", False))
@@ -204,6 +205,7 @@ def _write_study_report(
     pairs = list(dict(spec_json["objectives"]).items())
     pngs = [(p, plots.caption_for(p, pairs)) for p in images if Path(p).suffix == ".png"]
     summary = status_summary(study, spec_json, df)
+    summary.pop("best_trials", None)  # the picks' cards show the best designs
     summary.update(
         {
             "study": spec.name,
@@ -338,6 +340,7 @@ def export_trial(
         "study": spec.name,
         "trial": t.number,
         "storage": where,
+        "parameters": dict(t.params),
         "objectives": objective_values,
         "constraint_margins": rounding["constraint_margins"],
         "constraint_margins_unrounded": record.get("margins", {}),

@@ -233,12 +233,15 @@ def _empty(out_dir, stem: str, text: str) -> list[Path]:
 
 
 def plot_parameter_coupling(
-    front: pd.DataFrame, params, out_dir, color_by: str | None = None, log=()
+    front: pd.DataFrame, params, out_dir, color_by: str | None = None, log=(), choices=None
 ) -> list[Path]:
     """How the searched parameters move together along the front.
 
     A parallel-coordinates plot (each front design a line, each parameter scaled to its range on
     the front, the range written under its axis) and, for 2 to 6 parameters, a scatter matrix.
+    A text parameter (a material searched over a list of choices) is drawn as categories: each
+    choice at a fixed place on its axis, named beside it (the parallel plot) or as the tick
+    labels (the scatter matrix, whose diagonal then counts the designs of each choice).
 
     Parameters
     ----------
@@ -252,6 +255,10 @@ def plot_parameter_coupling(
     log : collection of str
         Parameters searched on a log scale: their axis is logarithmic (positions by the
         logarithm of the value, log axes in the scatter matrix).
+    choices : dict of str to list of str, optional
+        The choices of the text parameters, in the study's order (every choice gets its place,
+        on the front or not). A column of text not named here is taken as categories too, its
+        values in alphabetical order.
 
     Returns
     -------
@@ -264,8 +271,8 @@ def plot_parameter_coupling(
         raise DesignError(f"params = {missing!r}: not columns of the front table")
     if len(front) == 0 or not params:
         return _empty(out_dir, "coupling_parallel", "empty front: no feasible design to show")
-    data = front[params].apply(pd.to_numeric, errors="coerce").to_numpy(float)
-    is_log = np.array([p in set(log) for p in params], bool)
+    data, cats = _coded(front, params, dict(choices or {}))
+    is_log = np.array([p in set(log) and p not in cats for p in params], bool)
     with np.errstate(invalid="ignore", divide="ignore"):
         data = np.where(is_log & ~(data > 0), np.nan, data)  # a log axis holds positive values
         axis = np.where(is_log, np.log10(data), data)  # the value as placed on its axis
@@ -276,6 +283,8 @@ def plot_parameter_coupling(
     hi = np.array(
         [axis[finite[:, i], i].max() if finite[:, i].any() else np.nan for i in range(len(params))]
     )
+    for i, names in cats.items():  # a category's place does not depend on the front
+        lo[i], hi[i] = -0.5, len(names) - 0.5
     with np.errstate(invalid="ignore"):
         span = np.where(hi > lo, hi - lo, np.nan)
         scaled = np.where(np.isfinite(span), (axis - lo) / span, np.where(finite, 0.5, np.nan))
@@ -298,11 +307,17 @@ def plot_parameter_coupling(
         import matplotlib as mpl
 
         fig.colorbar(mpl.cm.ScalarMappable(norm=norm, cmap=cmap), ax=ax, label=words(color_by))
+    for i, names in cats.items():
+        for code, name in enumerate(names):
+            y = (code + 0.5) / len(names)
+            ax.text(x[i] + 0.04, y, name, fontsize=6, va="center", ha="left", color="0.25")
     ax.set_xticks(x)
     ax.set_xticklabels(
         [
-            f"{words(p)}\n{_g(a)} .. {_g(b)}" + ("\n(log axis)" if g else "")
-            for p, a, b, g in zip(params, lo, hi, is_log, strict=True)
+            f"{_stem_words(p)}\n(choices)"
+            if i in cats
+            else f"{words(p)}\n{_g(a)} .. {_g(b)}" + ("\n(log axis)" if g else "")
+            for i, (p, a, b, g) in enumerate(zip(params, lo, hi, is_log, strict=True))
         ],
         fontsize=8,
     )
@@ -311,16 +326,40 @@ def plot_parameter_coupling(
     _finish(ax, fig, f"parameters along the front ({len(front)} designs)")
     paths = _save(fig, out_dir, "coupling_parallel")
     if 2 <= len(params) <= 6 and len(front) >= 2:
-        fig = _scatter_matrix(params, data, axis, is_log, colours)
+        fig = _scatter_matrix(params, data, axis, is_log, colours, cats)
         fig.suptitle(f"parameter coupling across the front ({len(front)} designs)", fontsize=9)
         fig.tight_layout()
         paths += _save(fig, out_dir, "coupling_matrix")
     return paths
 
 
-def _scatter_matrix(params, data, axis, is_log, colours) -> Figure:
+def _coded(front: pd.DataFrame, params, choices: dict) -> tuple[np.ndarray, dict]:
+    """The parameter columns as numbers: a text parameter's values replaced by their index in
+    its choices (NaN for a value that is none of them). Returns (data, {column index: choices})."""
+    data = np.full((len(front), len(params)), np.nan)
+    cats: dict[int, list[str]] = {}
+    for i, p in enumerate(params):
+        col = front[p]
+        text = p in choices or not (
+            pd.api.types.is_numeric_dtype(col) or pd.api.types.is_bool_dtype(col)
+        )
+        if not text:
+            data[:, i] = pd.to_numeric(col, errors="coerce").to_numpy(float)
+            continue
+        names = [str(c) for c in choices.get(p, ())] or sorted(
+            {str(v) for v in col if isinstance(v, str)}
+        )
+        index = {name: k for k, name in enumerate(names)}
+        data[:, i] = [index.get(v, np.nan) if isinstance(v, str) else np.nan for v in col]
+        cats[i] = names
+    return data, cats
+
+
+def _scatter_matrix(params, data, axis, is_log, colours, cats=None) -> Figure:
     """The scatter matrix of the coupling plot: each parameter against each other one below the
-    diagonal, its spread on the diagonal, log axes for the log-scaled ones."""
+    diagonal, its spread on the diagonal, log axes for the log-scaled ones; a text parameter's
+    axis has its choices as tick labels and its diagonal counts the designs of each choice."""
+    cats = cats or {}
     n = len(params)
     finite = np.isfinite(axis)
     fig = Figure(figsize=(2.2 * n, 2.2 * n))
@@ -328,8 +367,13 @@ def _scatter_matrix(params, data, axis, is_log, colours) -> Figure:
     for i in range(n):
         for j in range(n):
             a = axes[i, j]
+            a.tick_params(labelsize=7)  # before the category names, which are smaller
             if j > i:
                 a.axis("off")
+            elif j == i and i in cats:
+                codes = data[finite[:, i], i].astype(int)
+                counts = np.bincount(codes, minlength=len(cats[i]))
+                a.bar(np.arange(len(cats[i])), counts, color="0.6")
             elif j == i:
                 bins = 10
                 if is_log[i]:
@@ -341,14 +385,30 @@ def _scatter_matrix(params, data, axis, is_log, colours) -> Figure:
                 )
                 if is_log[i]:
                     a.set_yscale("log")
+                if i in cats:
+                    _category_axis(a.yaxis, a.set_ylim, cats[i], j == 0)
             if is_log[j]:
                 a.set_xscale("log")
+            if j in cats:
+                _category_axis(a.xaxis, a.set_xlim, cats[j], i == n - 1)
             if i == n - 1:
-                a.set_xlabel(words(params[j]), fontsize=8)
+                a.set_xlabel(_stem_words(params[j]) if j in cats else words(params[j]), fontsize=8)
             if j == 0 and i > 0:
-                a.set_ylabel(words(params[i]), fontsize=8)
-            a.tick_params(labelsize=7)
+                a.set_ylabel(_stem_words(params[i]) if i in cats else words(params[i]), fontsize=8)
     return fig
+
+
+def _category_axis(axis, set_limits, names, labelled: bool) -> None:
+    """An axis of categories: one tick per choice, labelled with its name when ``labelled``
+    (the matrix's outer row and column)."""
+    axis.set_ticks(np.arange(len(names)))
+    if not labelled:
+        axis.set_ticklabels([])
+    elif axis.axis_name == "x":
+        axis.set_ticklabels(names, fontsize=6, rotation=40, ha="right", rotation_mode="anchor")
+    else:
+        axis.set_ticklabels(names, fontsize=6)
+    set_limits(-0.5, len(names) - 0.5)
 
 
 def _g(x) -> str:
@@ -529,9 +589,11 @@ def caption_for(path, objectives=()) -> str:
         "progress": "How the front grew over the run: the share of the objective box it "
         "dominates, and how many designs were on it, after each finished trial.",
         "coupling_parallel": "How the searched parameters move together along the front: each "
-        "line is one front design, each axis spans that parameter's range on the front.",
+        "line is one front design, each axis spans that parameter's range on the front (a "
+        "searched material's axis holds its choices, each named beside it).",
         "coupling_matrix": "The searched parameters of the front designs against each other, "
-        "with each parameter's spread on the diagonal.",
+        "with each parameter's spread on the diagonal (for a searched material, the designs of "
+        "each choice).",
         "pull_vs_gap": "Pull against gap for the picked designs: where a curve is under the "
         "part-weight line, the magnet does not lift the part at that gap.",
     }

@@ -1,10 +1,11 @@
 """The study report: one self-contained HTML page a person reads in the morning.
 
 ``report.html`` holds, in order: the picks (the best design in each objective and the knee of the
-front, each a short card of its dimensions, drive, pull, lift ratio, power, temperatures and
-binding limit), the study summary (budget, trials, feasible share, rate), the front table
-(objectives and searched parameters first, a units row, bookkeeping columns last and collapsed;
-sortable by any column with a few lines of inline JavaScript, numbers and dates as such), the
+front, each a short card of its dimensions, searched materials, drive, pull, lift ratio, power,
+temperatures and binding limit), the study summary (budget, trials, feasible share, rate), the
+front table (objectives and searched parameters first, a units row, bookkeeping columns last and
+collapsed; sortable by any column with a few lines of inline JavaScript, numbers and dates as
+such, text such as a searched material alphabetically), the
 plots (embedded as base64 data URIs, so the page needs no other file, each with a caption), the
 limits that bind the front's designs, the model's validity notes and the cautions. Every piece of
 text is escaped with ``html.escape``.
@@ -254,6 +255,7 @@ _CARD_ROWS = (
     (("worst_lift_ratio", "lift_ratio"), "lift ratio"),
     (("input_power_W",), "input power"),
     (("core_loss_W",), "core loss"),
+    (("pull_uncertainty_relative",), "pull error bar (relative)"),
 )
 
 
@@ -270,12 +272,15 @@ def _card_value(name: str, v) -> str:
 
 
 def _pick_card(why: str, row: pd.Series) -> str:
-    """One pick: its trial and why it was picked, then dimensions, drive, pull, lift ratio,
-    power, temperatures and the limit that binds it."""
+    """One pick: its trial and why it was picked, then dimensions, searched materials, drive,
+    pull, lift ratio, power, temperatures and the limit that binds it."""
     items: list[tuple[str, str]] = []
     for c in row.index:
         if str(c).endswith("_mm") and "." not in str(c):
             items.append((str(c)[: -len("_mm")].replace("_", " "), _card_value(c, row[c])))
+    for c in row.index:  # a searched material (pole_material or "pole.material")
+        if str(c).endswith("material") and isinstance(row[c], str):
+            items.append((str(c).replace(".", " ").replace("_", " "), row[c]))
     for names, what in _CARD_ROWS:
         name = next((n for n in names if n in row.index), None)
         if name is not None:

@@ -3,18 +3,36 @@ parameter values becomes a design file (mm, Hz, A) and then a validated design.
 
 Parameter names (the ``[search]`` keys of a study file):
 
-* any numeric design-file key written ``"table.key"`` (``"target.radius_mm"``, ``"coil.turns"``);
-* the short names in ``ALIASES`` (``pole_radius_mm``, ``ring_depth_mm``, ``frequency_Hz``, ...);
+* any design-file key written ``"table.key"`` (``"target.radius_mm"``, ``"coil.turns"``,
+  ``"ring.material"``);
+* the short names in ``ALIASES`` (``pole_radius_mm``, ``ring_depth_mm``, ``frequency_Hz``,
+  ``pole_material``, ...);
 * ``ring_outer_fraction``: ring outer radius / pole radius, and ``ring_inner_fraction``: ring inner
   radius / ring outer radius. Both in (0, 1), so the ring always lies inside the pole and its inner
   radius below its outer one, whatever the pole radius the trial draws.
+
+A numeric key takes a range, a text key (a material, ``thermal.orientation``) a list of choices::
+
+    pole_radius_mm = { low = 6, high = 12 }                 # scale = "log", step = ... optional
+    pole_material = { choices = ["electrical-steel-m400", "ferrite-mnzn"] }
+
+A material's choices must be library materials (``models.materials.MATERIALS``; kept as the
+library names them, whatever the letter case in the file): magnetic ones for the pole
+(``CORE_MATERIALS``, and laminated: the fast model refuses a solid pole), conductors for the
+coil, ring and target. Choices are sampled as categories
+(``optuna.distributions.CategoricalDistribution``), in the order the file gives them (the order
+is part of the study's definition).
 
 Coupled dimensions follow the searched ones, so that a trial stays a buildable machine:
 
 * when the pole radius changes, the coil's inner and outer radii move by the same amount (the
   radial clearance and the winding depth of the base design are kept);
 * when the turns change and the base design names a wire diameter, the wire diameter scales as
-  sqrt(N_base / N) (the copper fill of the window is kept).
+  sqrt(N_base / N) (the copper fill of the window is kept);
+* when a material is searched, the properties it brings are dropped from the base design
+  (``SET_BY_MATERIAL``: a pole given by ``relative_permeability`` and ``conductivity_S_per_m``
+  becomes a pole of the chosen steel; a ring or part given by its conductivity one of the chosen
+  metal), unless the search sets them too.
 
 Geometry that still cannot be built (a steel wall under ``MIN_WALL_MM``, a coil longer than the
 pole, ...) is refused by ``models.design`` before the model runs; the study records the reason.
@@ -27,8 +45,16 @@ from dataclasses import dataclass
 
 from models.design import DESIGN_KEYS, PLAUSIBLE_LIMITS, Design, design_from_dict
 from models.errors import DesignError, nearest
+from models.materials import CORE_MATERIALS, MATERIALS
 
-__all__ = ["Parameter", "ALIASES", "parse_search", "design_source", "build_design"]
+__all__ = [
+    "Parameter",
+    "ALIASES",
+    "SET_BY_MATERIAL",
+    "parse_search",
+    "design_source",
+    "build_design",
+]
 
 #: Short names of the commonly searched design keys.
 ALIASES = {
@@ -45,27 +71,64 @@ ALIASES = {
     "target_radius_mm": "target.radius_mm",
     "target_thickness_mm": "target.thickness_mm",
     "coil_setback_mm": "coil.setback_mm",
+    "pole_material": "pole.material",
+    "coil_material": "coil.material",
+    "ring_material": "ring.material",
+    "target_material": "target.material",
 }
 FRACTIONS = ("ring_outer_fraction", "ring_inner_fraction")
 _NUMERIC = ("pos", "nonneg", "int", "num", "frac", "unit")
+#: Kinds of design keys searched over a list of choices (models.design.DESIGN_KEYS).
+_TEXT = ("str",)
+_RANGE_KEYS = ("low", "high", "scale", "step")
+
+#: Keys of a table that its ``material`` sets: a trial that chooses the material drops them from
+#: the base design (unless it searches them too); the first group cannot be searched with it
+#: (models.design refuses them beside a material), the second overrides the material's value.
+SET_BY_MATERIAL = {
+    "pole": (
+        (
+            "relative_permeability",
+            "conductivity_S_per_m",
+            "lamination_thickness_mm",
+            "sheet_conductivity_S_per_m",
+        ),
+        ("saturation_flux_density_T",),
+    ),
+    "ring": (("conductivity_S_per_m", "temperature_coefficient_per_K", "density_kg_per_m3"), ()),
+    "target": (
+        ("conductivity_S_per_m", "temperature_coefficient_per_K"),
+        ("density_kg_per_m3",),
+    ),
+}
 
 
 @dataclass(frozen=True)
 class Parameter:
     """One free parameter: name as in the study file, the design key it sets (None for the ring
-    fractions), bounds, log scale, integer, step."""
+    fractions), and either its range (bounds, log scale, integer, step) or, for a text key, its
+    choices (``low`` and ``high`` are then None)."""
 
     name: str
     key: str | None
-    low: float
-    high: float
+    low: float | None = None
+    high: float | None = None
     log: bool = False
     integer: bool = False
     step: float | None = None
+    choices: tuple[str, ...] = ()
+
+    @property
+    def categorical(self) -> bool:
+        """True for a parameter drawn from a list of choices (a text key)."""
+        return bool(self.choices)
 
     def distribution(self):
+        """The optuna distribution of the parameter: categorical, integer or float."""
         import optuna.distributions as od
 
+        if self.choices:
+            return od.CategoricalDistribution(self.choices)
         if self.integer:
             step = int(self.step) if self.step else 1
             return od.IntDistribution(int(self.low), int(self.high), log=self.log, step=step)
@@ -73,12 +136,12 @@ class Parameter:
 
 
 def _all_keys() -> dict[str, str]:
-    """Every numeric design key, table.key -> kind."""
+    """Every design key a study can search (numeric and text), table.key -> kind."""
     return {
         f"{t}.{k}": kind
         for t, keys in DESIGN_KEYS.items()
         for k, (kind, _) in keys.items()
-        if kind in _NUMERIC
+        if kind in _NUMERIC or kind in _TEXT
     }
 
 
@@ -131,6 +194,14 @@ def parse_search(table, problems: list[str]) -> list[Parameter]:
         {"ring.outer_radius_mm", "ring.inner_radius_mm"} & set(seen)
     ):
         problems.append("search: give the ring's radii either as fractions or in mm, not both")
+    for table, (refused, _) in SET_BY_MATERIAL.items():
+        if f"{table}.material" in seen:
+            for k in refused:
+                if f"{table}.{k}" in seen:
+                    problems.append(
+                        f"search.{seen[f'{table}.{k}']}: {table}.{k} is set by {table}.material "
+                        f"(searched by search.{seen[f'{table}.material']}); search one of them"
+                    )
     return params
 
 
@@ -143,18 +214,27 @@ def _key_and_kind(name: str, keys: dict, valid_names: list, problems: list[str])
     if key not in keys:
         problems.append(
             f"search.{name}: unknown parameter; allowed: {', '.join([*ALIASES, *FRACTIONS])} "
-            f"or a numeric design key 'table.key'{nearest(name, valid_names)}"
+            f"or a design key 'table.key'{nearest(name, valid_names)}"
         )
         return None
     return key, keys[key]
 
 
 def _parameter(name: str, spec, key: str | None, kind: str, problems: list[str]):
-    """One ``[search]`` entry ``{ low, high, scale, step }`` -> a Parameter, or None (with its
-    problems) if it is not a valid range of ``key``."""
+    """One ``[search]`` entry ``{ low, high, scale, step }`` (a numeric key) or ``{ choices }``
+    (a text key) -> a Parameter, or None (with its problems) if it is not valid for ``key``."""
     where = f"search.{name}"
+    if kind in _TEXT:
+        return _categorical(name, spec, key, problems)
     if not isinstance(spec, dict):
         problems.append(f"{where} = {spec!r}: must be a table {{ low = ..., high = ... }}")
+        return None
+    if "choices" in spec:
+        what = key or f"{name} (a fraction)"
+        problems.append(
+            f"{where}.choices: {what} is a number; give a range {{ low = ..., high = ... }} "
+            "(choices are for text keys such as pole_material)"
+        )
         return None
     for extra in set(spec) - {"low", "high", "scale", "step"}:
         problems.append(
@@ -222,14 +302,127 @@ def _range_problem(where, key, kind, low, high, scale, step) -> str | None:
     return None
 
 
+def _categorical(name: str, spec, key: str, problems: list[str]):
+    """One ``[search]`` entry ``{ choices = [...] }`` of a text key -> a Parameter, or None (with
+    its problems) if the choices are not valid values of ``key``."""
+    where = f"search.{name}"
+    if not isinstance(spec, dict):
+        problems.append(f'{where} = {spec!r}: must be a table {{ choices = ["...", ...] }}')
+        return None
+    ranged = [k for k in _RANGE_KEYS if k in spec]
+    for extra in [k for k in spec if k != "choices" and k not in _RANGE_KEYS]:
+        problems.append(
+            f"{where}.{extra}: unknown key; allowed: choices{nearest(extra, ['choices'])}"
+        )
+    if "choices" not in spec:
+        problems.append(
+            f"{where}: {key} is text, not a number"
+            + (f" ({', '.join(ranged)} given)" if ranged else "")
+            + '; give its choices = ["...", ...]'
+        )
+        return None
+    if ranged:
+        problems.append(
+            f"{where}.{ranged[0]}: choices cannot be combined with {', '.join(ranged)} (a list of choices "
+            "has no range, scale or step)"
+        )
+    choices = _choices(where, key, spec["choices"], problems)
+    if len(spec) > 1 or choices is None:
+        return None
+    return Parameter(name, key, choices=choices)
+
+
+def _choices(where: str, key: str, choices, problems: list[str]) -> tuple[str, ...] | None:
+    """The checked choices of a text key (materials as the library names them), or None with
+    one problem per bad choice."""
+    if not isinstance(choices, list) or not choices:
+        problems.append(f"{where}.choices = {choices!r}: must be a non-empty list of strings")
+        return None
+    out: dict[str, int] = {}
+    bad = False
+    for i, choice in enumerate(choices):
+        at = f"{where}.choices[{i}]"
+        if not isinstance(choice, str):
+            problems.append(f"{at} = {choice!r}: must be a string")
+            bad = True
+            continue
+        value = _material_choice(at, key, choice, problems) if key.endswith(".material") else choice
+        if value is None:
+            bad = True
+        elif value in out:
+            same = "" if value == choice else f" ({value!r})"
+            problems.append(f"{at} = {choice!r}: repeats choices[{out[value]}]{same}")
+            bad = True
+        else:
+            out[value] = i
+    return None if bad else tuple(out)
+
+
+def _material_choice(at: str, key: str, choice: str, problems: list[str]) -> str | None:
+    """The library name of a material choice for ``key`` (pole: a magnetic one; coil, ring,
+    target: a conductor), or None with its problem."""
+    table = key.split(".", 1)[0]
+    if table == "pole":  # laminated (conductivity 0): the fast model refuses a solid pole
+        allowed = [k for k in CORE_MATERIALS if MATERIALS[k].conductivity == 0]
+    else:
+        allowed = [k for k, m in MATERIALS.items() if m.conductivity > 0]
+    m = MATERIALS.get(choice.strip().lower())
+    if m is None:
+        problems.append(
+            f"{at} = {choice!r}: not in the material library; allowed: {', '.join(allowed)}"
+            f"{nearest(choice, allowed)}"
+        )
+        return None
+    if m.name not in allowed:
+        if table != "pole":
+            why = f"not a conductor (conductivity 0); a {table} needs one"
+        elif m.is_magnetic:
+            why = "a solid (conductive) steel; the fast model covers laminated poles only"
+        else:
+            why = "not a magnetic material"
+        problems.append(f"{at} = {choice!r}: {why}; allowed: {', '.join(allowed)}")
+        return None
+    return m.name
+
+
 def design_source(base: dict, params: list[Parameter], values: dict) -> dict:
-    """The design file (a dict in file units) of one trial: ``base`` with ``values`` applied."""
+    """The design file (a dict in file units) of one trial: ``base`` with ``values`` applied.
+
+    Parameters
+    ----------
+    base : dict
+        The study's base design, as a design file (mm, Hz, A).
+    params : list of Parameter
+        The study's free parameters.
+    values : dict
+        Parameter name -> the trial's value (a number, or one of a text key's choices).
+
+    Returns
+    -------
+    dict
+        The trial's design file. Dimensions coupled to a searched one follow it (module
+        docstring). A searched material replaces what the base design said about that part's
+        material: the keys of ``SET_BY_MATERIAL`` are dropped from the base (so a base pole
+        given by ``relative_permeability`` and ``conductivity_S_per_m``, which models.design
+        refuses beside a ``material``, becomes a pole of the chosen steel, with the chosen
+        steel's saturation flux density), unless the trial sets them itself.
+    """
     data = {k: (dict(v) if isinstance(v, dict) else v) for k, v in base.items()}
     by_key = {p.key: values[p.name] for p in params if p.key is not None}
+    text = {p.key for p in params if p.categorical}
     pole0 = base["pole"]["radius_mm"]
     for key, value in by_key.items():
         table, k = key.split(".", 1)
-        data.setdefault(table, {})[k] = int(round(value)) if k == "turns" else float(value)
+        if key in text:
+            value = str(value)
+        else:
+            value = int(round(value)) if k == "turns" else float(value)
+        data.setdefault(table, {})[k] = value
+    for table, (refused, overrides) in SET_BY_MATERIAL.items():
+        if f"{table}.material" in by_key:
+            for k in (*refused, *overrides):
+                if f"{table}.{k}" not in by_key:
+                    data[table].pop(k, None)
     pole = data["pole"]["radius_mm"]
     if pole != pole0:
         coil = data["coil"]

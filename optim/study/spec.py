@@ -9,6 +9,7 @@ A study file::
     [search]                          # free parameters: optim.study.space
     ring_outer_fraction = { low = 0.4, high = 0.95 }
     frequency_Hz = { low = 50, high = 5000, scale = "log" }
+    pole_material = { choices = ["electrical-steel-m400", "ferrite-mnzn"] }   # a text key
     [objectives]                      # result = "maximize" | "minimize", in order
     worst_pull_N = "maximize"
     input_power_W = "minimize"
@@ -103,12 +104,7 @@ class StudySpec:
             "name": self.name,
             "description": self.description,
             "base": self.base,
-            "search": {
-                p.name: {"low": p.low, "high": p.high}
-                | ({"scale": "log"} if p.log else {})
-                | ({"step": p.step} if p.step else {})
-                for p in self.params
-            },
+            "search": {p.name: _search_json(p) for p in self.params},
             "objectives": {o.name: o.direction for o in self.objectives},
             "robust": self._robust_json(),
             "constraints": {
@@ -141,6 +137,17 @@ class StudySpec:
     @property
     def directions(self) -> list[str]:
         return [o.direction for o in self.objectives]
+
+
+def _search_json(p: Parameter) -> dict:
+    """One ``[search]`` entry as the study file gives it: a range, or a text key's choices."""
+    if p.categorical:
+        return {"choices": list(p.choices)}
+    return (
+        {"low": p.low, "high": p.high}
+        | ({"scale": "log"} if p.log else {})
+        | ({"step": p.step} if p.step else {})
+    )
 
 
 def finite_number(value) -> bool:
@@ -383,6 +390,7 @@ def _model_results(base, params, objectives, constraints, gaps, run, study_name)
         base_design = design_from_dict(base, name=study_name)
     except DesignError as err:
         raise DesignError([f"base design: {line}" for line in err.problems]) from None
+    _check_choices(base, params, mid, study_name)
     try:  # a search whose middle cannot be built would spend its night on failed trials
         design_from_dict(design_source(base, params, mid), name=study_name)
     except DesignError as err:
@@ -416,7 +424,32 @@ def _model_results(base, params, objectives, constraints, gaps, run, study_name)
     return known
 
 
+def _check_choices(base, params, mid, study_name) -> None:
+    """Every choice of a text parameter must give a design at the middle of the search space
+    (with the others at their middle); raises DesignError with one line per choice that does
+    not."""
+    from optim.study.space import design_source
+
+    problems = []
+    for p in params:
+        for i, choice in enumerate(p.choices):
+            try:
+                design_from_dict(
+                    design_source(base, params, mid | {p.name: choice}), name=study_name
+                )
+            except DesignError as err:
+                problems.append(
+                    f"search.{p.name}.choices[{i}] = {choice!r}: the design at the middle of the "
+                    f"search space cannot be built with it ({'; '.join(err.problems)})"
+                )
+    if problems:
+        raise DesignError(problems)
+
+
 def _mid(p: Parameter):
+    """The middle of a parameter's range (its first choice for a text key)."""
+    if p.categorical:
+        return p.choices[0]
     if p.log:
         v = math.sqrt(p.low * p.high)
     else:

@@ -78,9 +78,18 @@ class SamplerWindow:
             system_attrs=system,
         )
 
+    def fits(self, trial) -> bool:
+        """Whether a trial from elsewhere belongs to this search: finished with values, and each
+        of its parameters drawn from this window's own distribution (the same range, the same
+        choices in the same order)."""
+        if trial.values is None or set(trial.params) != set(self.dists):
+            return False
+        return all(trial.distributions.get(k) == d for k, d in self.dists.items())
+
     def add(self, trials) -> int:
-        """Add finished trials from elsewhere to the generation being filled."""
-        usable = [t for t in trials if set(t.params) == set(self.dists) and t.values is not None]
+        """Add finished trials from elsewhere to the generation being filled (those that
+        ``fits``)."""
+        usable = [t for t in trials if self.fits(t)]
         if not usable:
             return 0
         generation = self.current_generation()
