@@ -90,6 +90,7 @@ def test_written_files_parse(demo_map, tmp_path):
         "pull_N",
         "lift_ratio",
         "in_validated_range",
+        "pull_uncertainty_N",
         "refused",
     ]
     first = rows[0]

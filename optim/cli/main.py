@@ -266,7 +266,7 @@ def _parser() -> argparse.ArgumentParser:
     d.add_argument(
         "--no-pick-maps",
         action="store_true",
-        help="leave the picked designs' pick maps out of the report (~12 s each)",
+        help="leave the picked designs' pick maps out of the report (~25 s each)",
     )
     d.set_defaults(func=_cmd_demo)
 

@@ -231,7 +231,7 @@ def add_study_parser(sub) -> None:
             p.add_argument(
                 "--no-pick-maps",
                 action="store_true",
-                help="leave the picked designs' pick maps out of the report (~12 s each)",
+                help="leave the picked designs' pick maps out of the report (~25 s each)",
             )
         if cmd == "export":
             p.add_argument("--trial", type=int, help="trial number")
@@ -246,7 +246,7 @@ def add_study_parser(sub) -> None:
             p.add_argument(
                 "--tolerance",
                 action="store_true",
-                help="add the tolerance table and a part radius x gap pick map (a minute or two)",
+                help="add the tolerance table and a part radius x gap pick map (~2-3 min)",
             )
             p.add_argument(
                 "--resolution-mm",

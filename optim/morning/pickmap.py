@@ -54,8 +54,8 @@ __all__ = [
     "pick_map_around",
 ]
 
-#: Points per axis above which a map is refused: 200 x 200 = 40,000 evaluations, about an hour
-#: on one core at ~0.08 s each (measured on the demo design, 2 cores, 2026-12).
+#: Points per axis above which a map is refused: 200 x 200 = 40,000 evaluations, about two hours
+#: on one core at ~0.18 s each (measured on the demo design, 2 cores, 2026-12).
 MAX_POINTS = 200
 #: Spans of ``around_axes`` as factors of the design's own part radius and gap (common practice,
 #: no source: wide enough to show the sign change of the demo design's pull).
@@ -83,6 +83,8 @@ class PickMap:
     """A map's grid and results. Arrays are (len(y), len(x)): row j is ``y.values[j]``.
 
     pull_N : time-averaged pull on the part [N], positive toward the face (nan: refused)
+    pull_uncertainty_N : the fast model's error estimate of that pull [N]
+        (``Result.pull_uncertainty_N``): near the zero-pull line it says how far the line may sit
     lift_ratio : pull / part weight [-] (nan: refused)
     in_range : the point lies inside models.checks.VALIDATED_RANGE (False: refused too)
     refused : the design rules' reason a point was not evaluated ("" where it was)
@@ -93,6 +95,7 @@ class PickMap:
     x: MapAxis
     y: MapAxis
     pull_N: np.ndarray
+    pull_uncertainty_N: np.ndarray
     lift_ratio: np.ndarray
     in_range: np.ndarray
     refused: list
@@ -171,8 +174,9 @@ def _point_design(design, x: MapAxis, xv: float, y: MapAxis, yv: float):
 
 
 def _evaluate_points(design, x: MapAxis, y: MapAxis, cells, isothermal: bool) -> list:
-    """Evaluate grid cells ``[(j, i), ...]`` in order; returns ``[(j, i, pull, lift, in range,
-    refused reason)]``. A point the design rules refuse is recorded, not raised."""
+    """Evaluate grid cells ``[(j, i), ...]`` in order; returns ``[(j, i, pull, its uncertainty,
+    lift, in range, refused reason)]``. A point the design rules refuse is recorded, not
+    raised."""
     from models.evaluate import evaluate
 
     out = []
@@ -180,9 +184,10 @@ def _evaluate_points(design, x: MapAxis, y: MapAxis, cells, isothermal: bool) ->
         try:
             r = evaluate(_point_design(design, x, x.values[i], y, y.values[j]), isothermal)
         except DesignError as err:
-            out.append((j, i, math.nan, math.nan, False, str(err).splitlines()[0]))
+            out.append((j, i, math.nan, math.nan, math.nan, False, str(err).splitlines()[0]))
             continue
-        out.append((j, i, r.pull_N, r.lift_ratio, not outside_checked_range(r), ""))
+        ok = not outside_checked_range(r)
+        out.append((j, i, r.pull_N, r.pull_uncertainty_N, r.lift_ratio, ok, ""))
     return out
 
 
@@ -233,13 +238,13 @@ def evaluate_map(design, x: MapAxis, y: MapAxis, isothermal: bool = False) -> Pi
     t0 = time.perf_counter()
     rows = _evaluate_points(design, x, y, _ordered_cells(design, x, y), isothermal)
     shape = (len(y.values), len(x.values))
-    pull, lift = np.full(shape, math.nan), np.full(shape, math.nan)
+    pull, error, lift = (np.full(shape, math.nan) for _ in range(3))
     in_range = np.zeros(shape, bool)
     refused = [["" for _ in range(shape[1])] for _ in range(shape[0])]
-    for j, i, p, lr, ok, why in rows:
-        pull[j, i], lift[j, i], in_range[j, i], refused[j][i] = p, lr, ok, why
+    for j, i, p, u, lr, ok, why in rows:
+        pull[j, i], error[j, i], lift[j, i], in_range[j, i], refused[j][i] = p, u, lr, ok, why
     if not np.isfinite(pull).any():
-        why = next((r[5] for r in rows if r[5]), "no finite pull")
+        why = next((r[6] for r in rows if r[6]), "no finite pull")
         raise DesignError(f"map: every point of the grid is refused; the first: {why}")
     xv, yv = _file_value(design, x.key), _file_value(design, y.key)
     return PickMap(
@@ -247,6 +252,7 @@ def evaluate_map(design, x: MapAxis, y: MapAxis, isothermal: bool = False) -> Pi
         x=x,
         y=y,
         pull_N=pull,
+        pull_uncertainty_N=error,
         lift_ratio=lift,
         in_range=in_range,
         refused=refused,
@@ -383,10 +389,11 @@ def map_stem(pmap: PickMap) -> str:
 
 def map_csv(pmap: PickMap) -> str:
     """The grid as CSV: one row per point, x and y under their keys, then pull_N, lift_ratio,
-    in_validated_range and refused (the reason, empty where evaluated)."""
+    in_validated_range, pull_uncertainty_N and refused (the reason, empty where evaluated)."""
     buf = io.StringIO()
     w = csv.writer(buf, lineterminator="\n")
-    w.writerow([pmap.x.key, pmap.y.key, "pull_N", "lift_ratio", "in_validated_range", "refused"])
+    head = ["pull_N", "lift_ratio", "in_validated_range", "pull_uncertainty_N", "refused"]
+    w.writerow([pmap.x.key, pmap.y.key, *head])
     for j, yv in enumerate(pmap.y.values):
         for i, xv in enumerate(pmap.x.values):
             w.writerow(
@@ -396,6 +403,7 @@ def map_csv(pmap: PickMap) -> str:
                     repr(float(pmap.pull_N[j, i])),
                     repr(float(pmap.lift_ratio[j, i])),
                     bool(pmap.in_range[j, i]),
+                    repr(float(pmap.pull_uncertainty_N[j, i])),
                     pmap.refused[j][i],
                 ]
             )
@@ -433,6 +441,7 @@ def map_json(pmap: PickMap, files: dict | None = None) -> dict:
         "y": {"key": pmap.y.key, "values": pmap.y.values.tolist()},
         "isothermal": pmap.isothermal,
         "pull_N": pmap.pull_N.tolist(),
+        "pull_uncertainty_N": pmap.pull_uncertainty_N.tolist(),
         "lift_ratio": pmap.lift_ratio.tolist(),
         "in_validated_range": pmap.in_range.tolist(),
         "refused": pmap.refused,

@@ -38,7 +38,7 @@ HANDOFF_SAMPLES = DEFAULT_SAMPLES
 #: Points per axis of the report's pick maps: coarse, 144 evaluations per pick.
 REPORT_POINTS = 12
 #: Whether ``write_front`` draws a pick map of each picked design by default (REPORT_POINTS per
-#: axis: ~144 evaluations, ~12 s per pick on one core).
+#: axis: 144 evaluations, ~25 s per pick on one core of this 2-core machine).
 REPORT_PICK_MAPS = True
 
 
