@@ -544,6 +544,11 @@ def _notes(study: ToleranceStudy) -> list[str]:
                 f"{words}: the Monte Carlo 5-95 % spread is {e['span_ratio']:.2f} x the linear "
                 "estimate (more than 20 % apart): the output is not linear over these "
                 "tolerances (a sign change, a limit or an interaction); trust the Monte Carlo"
+                + (
+                    f", though {study.n_samples} samples give rough percentiles"
+                    if study.n_samples < 100
+                    else ""
+                )
             )
     return notes
 
