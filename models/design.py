@@ -32,6 +32,7 @@ __all__ = [
     "read_toml",
     "design_from_dict",
     "with_value",
+    "resolve_key",
     "DESIGN_KEYS",
     "MIN_WALL_MM",
     "DEFAULT_FILL_FACTOR",
@@ -1048,29 +1049,42 @@ def load_design(path) -> Design:
     return design_from_dict(data, name=path.stem)
 
 
-def with_value(design: Design, key: str, value) -> Design:
-    """A copy of ``design`` with one file key changed (``"gap_mm"`` or ``"target.gap_mm"``).
+def resolve_key(design: Design, key: str) -> tuple[str, str]:
+    """The (table, key) a design-file key names: ``"target.gap_mm"`` as written, a bare
+    ``"gap_mm"`` where it names exactly one key of the design's tables.
 
-    A bare key must name exactly one key of the design's tables.
+    Raises
+    ------
+    DesignError
+        Not a design key (with the nearest name), or a bare key that more than one table has.
     """
-    data = _deep_copy(design.source)
+    data = design.source
     if "." in key:
         table, k = key.split(".", 1)
         if table not in DESIGN_KEYS or k not in DESIGN_KEYS[table]:
             flat = [f"{t}.{kk}" for t, ks in DESIGN_KEYS.items() for kk in ks]
             raise DesignError(f"{key}: not a design key{nearest(key, flat)}")
-    else:
-        tables = [
-            t for t in DESIGN_KEYS if key in DESIGN_KEYS[t] and (t in data or t in _OPTIONAL_TABLES)
-        ]
-        tables = [t for t in tables if t in data] or tables
-        if len(tables) != 1:
-            flat = sorted({kk for ks in DESIGN_KEYS.values() for kk in ks})
-            if not tables:
-                raise DesignError(f"{key}: not a design key{nearest(key, flat)}")
-            raise DesignError(
-                f"{key}: ambiguous; write one of {', '.join(t + '.' + key for t in tables)}"
-            )
-        table, k = tables[0], key
+        return table, k
+    tables = [
+        t for t in DESIGN_KEYS if key in DESIGN_KEYS[t] and (t in data or t in _OPTIONAL_TABLES)
+    ]
+    tables = [t for t in tables if t in data] or tables
+    if len(tables) != 1:
+        flat = sorted({kk for ks in DESIGN_KEYS.values() for kk in ks})
+        if not tables:
+            raise DesignError(f"{key}: not a design key{nearest(key, flat)}")
+        raise DesignError(
+            f"{key}: ambiguous; write one of {', '.join(t + '.' + key for t in tables)}"
+        )
+    return tables[0], key
+
+
+def with_value(design: Design, key: str, value) -> Design:
+    """A copy of ``design`` with one file key changed (``"gap_mm"`` or ``"target.gap_mm"``).
+
+    A bare key must name exactly one key of the design's tables (``resolve_key``).
+    """
+    table, k = resolve_key(design, key)
+    data = _deep_copy(design.source)
     data.setdefault(table, {})[k] = value
     return design_from_dict(data, name=design.name)

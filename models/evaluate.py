@@ -44,6 +44,7 @@ __all__ = [
     "evaluate",
     "evaluate_pick_gaps",
     "pick_state",
+    "pole_model_key",
 ]
 
 DEFAULT_FINENESS = Fineness()
@@ -68,16 +69,26 @@ def pole_model_for(design: Design, fineness: Fineness):
     permeability) pairs (``_cached_pole_model``), so that sweeps and studies over frequency and
     the rest reuse them. The same object is returned for equal keys; treat it as read-only.
     """
+    key = pole_model_key(design, fineness)
+    return None if key is None else _cached_pole_model(*key)
+
+
+def pole_model_key(design: Design, fineness: Fineness | None = None):
+    """What the pole model of ``design`` depends on (``pole_model_for``): (pole radius [m], pole
+    length [m], relative permeability at the drive frequency (complex for a laminated stack with
+    sheet data), groove (ring inner radius, outer radius, depth [m]) or None, panel size [m]);
+    None when the pole is not magnetic. Designs with equal keys share one model; callers that
+    evaluate many designs can order them by it to reuse the kept ones."""
     if design.pole.relative_permeability <= 1.0:
         return None
     p, g = design.pole, design.ring
     groove = None if g is None else (g.inner_radius, g.outer_radius, g.depth)
-    return _cached_pole_model(
+    return (
         float(p.radius),
         float(p.length),
         complex(p.effective_permeability(design.drive.frequency)),
         None if groove is None else tuple(float(x) for x in groove),
-        float(_panel_size(design, fineness)),
+        float(_panel_size(design, fineness or DEFAULT_FINENESS)),
     )
 
 

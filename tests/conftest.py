@@ -62,6 +62,16 @@ def demo():
     return copy.deepcopy(demo_dict())
 
 
+@pytest.fixture(autouse=True)
+def _reports_without_pick_maps(monkeypatch):
+    """Study reports leave out the picks' pick maps (about 12 s each) unless a test turns them
+    on (tests/test_robustness.py does): the tests of fronts and reports stay within the default
+    run's budget."""
+    from optim.morning import robustness
+
+    monkeypatch.setattr(robustness, "REPORT_PICK_MAPS", False)
+
+
 def write_counts(request, label: str, counts: dict) -> None:
     """Print how many inputs each category tried, once a module is done (for the record)."""
     reporter = request.config.pluginmanager.get_plugin("terminalreporter")

@@ -1,4 +1,4 @@
-"""The eddypull command line: evaluate, verify, materials, demo.
+"""The eddypull command line: evaluate, map, tolerance, verify, materials, demo.
 
 Exit codes: 0 success, 2 bad input (one line per problem, no traceback).
 """
@@ -47,6 +47,55 @@ def _cmd_evaluate(args) -> int:
         print(strict_json(result.to_dict()))
     else:
         print(format_result(design, result))
+    return 0
+
+
+def _cmd_map(args) -> int:
+    """A pick map: the lift ratio over two design keys, drawn and tabulated."""
+    from optim.morning.pickmap import evaluate_map, format_map, map_json, parse_axis, write_map
+
+    design = load_design(args.design)
+    x = parse_axis(design, args.x, args.points, "--x")
+    y = parse_axis(design, args.y, args.points, "--y")
+    pmap = evaluate_map(design, x, y, isothermal=args.isothermal)
+    files = write_map(pmap, Path(args.out))
+    print(strict_json(map_json(pmap, files)) if args.json else format_map(pmap, files))
+    return 0
+
+
+def _cmd_tolerance(args) -> int:
+    """The tolerance table: sensitivities, Monte Carlo spread and the limits kept."""
+    from optim.morning.tolerance import (
+        SAMPLES_RANGE,
+        format_tolerance,
+        read_tolerance_spec,
+        run_tolerance,
+        tolerance_json,
+        tolerances_for,
+        write_tolerance,
+    )
+
+    design = load_design(args.design)
+    lo, hi = SAMPLES_RANGE
+    if not lo <= args.samples <= hi:
+        raise UsageError(f"--samples = {args.samples}: must be between {lo} and {hi}")
+    if not 0 <= args.seed < 2**32:
+        raise UsageError(f"--seed = {args.seed}: must be between 0 and {2**32 - 1}")
+    spec = read_tolerance_spec(args.spec, design) if args.spec else None
+    study = run_tolerance(
+        design,
+        tolerances_for(design, spec),
+        samples=args.samples,
+        seed=args.seed,
+        isothermal=args.isothermal,
+    )
+    files = write_tolerance(study, Path(args.out)) if args.out else {}
+    if args.json:
+        print(strict_json(tolerance_json(study, files)))
+    else:
+        print(format_tolerance(study))
+        for name, path in files.items():
+            print(f"{name:26s} {path}")
     return 0
 
 
@@ -106,7 +155,9 @@ def _cmd_demo(args) -> int:
     if summary["errors"]:
         return 1
     study, spec_json, where = load_existing(folder)
-    out = write_front(study, spec_json, where, folder)
+    out = write_front(
+        study, spec_json, where, folder, pick_maps=False if args.no_pick_maps else None
+    )
     for line in out["lines"]:
         print(line)
     first = next(iter(spec_json["objectives"]))
@@ -150,6 +201,47 @@ def _parser() -> argparse.ArgumentParser:
     e.add_argument("--plot", metavar="PNG", help="with --sweep: plot pull against the key")
     e.set_defaults(func=_cmd_evaluate)
 
+    mp = sub.add_parser("map", help="pick map: lift ratio over two design keys (PNG, SVG, CSV)")
+    mp.add_argument("design", help="design TOML file")
+    mp.add_argument(
+        "--x", required=True, metavar="KEY=START..STOP", help="horizontal axis (a numeric key)"
+    )
+    mp.add_argument(
+        "--y", required=True, metavar="KEY=START..STOP", help="vertical axis (a numeric key)"
+    )
+    mp.add_argument("--points", type=int, metavar="N", help="values per axis (default 25)")
+    mp.add_argument("--out", metavar="DIR", default=".", help="output folder (default: here)")
+    mp.add_argument("--json", action="store_true", help="print one JSON object")
+    mp.add_argument("--isothermal", action="store_true", help="resistivities at 20 degC, uncoupled")
+    mp.set_defaults(func=_cmd_map)
+
+    from optim.morning.tolerance import DEFAULT_SAMPLES, DEFAULT_SEED
+
+    t = sub.add_parser(
+        "tolerance",
+        help="tolerance table: sensitivities, Monte Carlo spread and the limits kept",
+    )
+    t.add_argument("design", help="design TOML file")
+    t.add_argument(
+        "--spec",
+        metavar="TOL.toml",
+        help='tolerance file: [tolerances] "key" = half-width or "N %%" (overrides the defaults)',
+    )
+    t.add_argument(
+        "--samples",
+        type=int,
+        default=DEFAULT_SAMPLES,
+        metavar="N",
+        help=f"Monte Carlo designs (default {DEFAULT_SAMPLES})",
+    )
+    t.add_argument(
+        "--seed", type=int, default=DEFAULT_SEED, help=f"sampling seed (default {DEFAULT_SEED})"
+    )
+    t.add_argument("--out", metavar="DIR", help="also write the tables (text, CSV, JSON) here")
+    t.add_argument("--json", action="store_true", help="print one JSON object")
+    t.add_argument("--isothermal", action="store_true", help="resistivities at 20 degC, uncoupled")
+    t.set_defaults(func=_cmd_tolerance)
+
     v = sub.add_parser("verify", help="check one design against the finite-element reference")
     v.add_argument("design", help="design TOML file")
     v.add_argument("--json", action="store_true", help="print one JSON object")
@@ -170,6 +262,11 @@ def _parser() -> argparse.ArgumentParser:
         "--out",
         metavar="DIR",
         help="study folder (default ./harrowgate-night in the current folder)",
+    )
+    d.add_argument(
+        "--no-pick-maps",
+        action="store_true",
+        help="leave the picked designs' pick maps out of the report (~25 s each)",
     )
     d.set_defaults(func=_cmd_demo)
 

@@ -131,7 +131,13 @@ def _cmd_front(args) -> int:
     from optim.morning.outputs import write_front
 
     study, spec_json, where = _open(args)
-    out = write_front(study, spec_json, where, _folder_for(args.location, spec_json, args.out))
+    out = write_front(
+        study,
+        spec_json,
+        where,
+        _folder_for(args.location, spec_json, args.out),
+        pick_maps=False if args.no_pick_maps else None,
+    )
     for line in out["lines"]:
         print(line)
     return 0
@@ -155,6 +161,7 @@ def _cmd_export(args) -> int:
         verify=args.verify,
         echo=print,
         resolution_mm=args.resolution_mm,
+        tolerance=args.tolerance,
     )
     for name, path in paths.items():
         print(f"{name:16s} {path}")
@@ -221,6 +228,11 @@ def add_study_parser(sub) -> None:
             p.add_argument("--json", action="store_true", help="print one JSON object")
         if cmd == "front":
             p.add_argument("--out", metavar="DIR", help="output folder (default: the study's)")
+            p.add_argument(
+                "--no-pick-maps",
+                action="store_true",
+                help="leave the picked designs' pick maps out of the report (~25 s each)",
+            )
         if cmd == "export":
             p.add_argument("--trial", type=int, help="trial number")
             p.add_argument("--best", metavar="OBJECTIVE", help="best front design for it")
@@ -231,6 +243,11 @@ def add_study_parser(sub) -> None:
                 "handoff-trial-N there; an absolute path is used as it is)",
             )
             p.add_argument("--verify", action="store_true", help="add the FEM side-by-side")
+            p.add_argument(
+                "--tolerance",
+                action="store_true",
+                help="add the tolerance table and a part radius x gap pick map (~2-3 min)",
+            )
             p.add_argument(
                 "--resolution-mm",
                 type=float,

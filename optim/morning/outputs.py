@@ -113,9 +113,12 @@ def _state_note(design, isothermal: bool) -> str:
     )
 
 
-def write_front(study, spec_json: dict, where: str, folder: Path, echo=print) -> dict:
+def write_front(
+    study, spec_json: dict, where: str, folder: Path, echo=print, pick_maps: bool | None = None
+) -> dict:
     """Write the front table, plots and report of a study into ``folder``; returns the paths and
-    the lines to print."""
+    the lines to print. ``pick_maps``: a coarse pick map of each picked design in the report
+    (None: ``optim.morning.robustness.REPORT_PICK_MAPS``, on)."""
     folder = Path(folder)
     folder.mkdir(parents=True, exist_ok=True)
     spec = _spec(spec_json)
@@ -133,8 +136,14 @@ def write_front(study, spec_json: dict, where: str, folder: Path, echo=print) ->
         row = front[front["trial"] == t].iloc[0]
         designs.append((f"trial {t}", design_of(spec, {p.name: row[p.name] for p in spec.params})))
     images = _write_plots(folder / "plots", spec, objectives, df, front, designs)
+    from optim.morning import robustness
+
+    maps = []
+    if designs and (robustness.REPORT_PICK_MAPS if pick_maps is None else pick_maps):
+        isothermal = bool(spec.run.get("isothermal", False))
+        maps = robustness.pick_map_figures(designs, folder / "plots", isothermal=isothermal)
     paths["report.html"] = _write_study_report(
-        folder, study, spec_json, spec, where, df, front, images, picks, designs
+        folder, study, spec_json, spec, where, df, front, images, picks, designs, maps
     )
     lines = [
         f"study {spec.name}: {len(df)} trials, {int(df['feasible'].sum()) if len(df) else 0} "
@@ -186,7 +195,7 @@ def _write_plots(plot_dir: Path, spec, objectives: dict, df, front, designs) -> 
 
 
 def _write_study_report(
-    folder, study, spec_json, spec, where, df, front, images, picks, designs
+    folder, study, spec_json, spec, where, df, front, images, picks, designs, maps=()
 ) -> Path:
     """report.html: the picks, the summary (with what the constraints rejected), the front,
     the plots with their captions and the model's notes."""
@@ -219,6 +228,7 @@ def _write_study_report(
         objectives=pairs,
         params=[p.name for p in spec.params],
         picks=picks,
+        pick_maps=maps,
     )
     return Path(report)
 
@@ -289,6 +299,7 @@ def export_trial(
     verify: bool = False,
     echo=None,
     resolution_mm: float | None = None,
+    tolerance: bool = False,
 ) -> dict:
     """Write the hand-off of one trial; returns file name -> path.
 
@@ -297,6 +308,8 @@ def export_trial(
     own results, checked against the study's constraints (``rounding`` in handoff.json).
     ``echo`` receives what rounding did (and whether it broke a constraint) and a note when the
     re-evaluated numbers differ from the stored ones (the model changed since the study).
+    ``tolerance`` adds the rounded design's tolerance table and pick map
+    (`optim.morning.robustness.write_robustness`).
     """
     from models.evaluate import evaluate
     from optim.morning.handoff import write_handoff
@@ -344,6 +357,10 @@ def export_trial(
 
         checked = run_verify(design)
     paths = write_handoff(design, result, target, meta, verify=checked)
+    if tolerance:
+        from optim.morning.robustness import write_robustness
+
+        paths.update(write_robustness(design, target, isothermal=isothermal, echo=echo))
     if echo is not None:
         echo(("warning: " if rounding["broken_constraints"] else "") + rounding["words"])
     if drift and echo is not None:

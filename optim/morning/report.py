@@ -357,8 +357,30 @@ def _picks_section(front: pd.DataFrame, picks) -> list[str]:
     ]
 
 
+def _pick_maps_section(pick_maps) -> list[str]:
+    """The pick maps of the picked designs (``(image, caption)`` each), after their cards."""
+    if not pick_maps:
+        return []
+    return [
+        "<h2>Pick maps</h2>",
+        "<p>Where each picked design lifts its part (lift ratio 1 or more), pulls it too weakly "
+        "to lift it, or pushes it, as the part's size and the gap change. Draw a finer one with "
+        "'eddypull map'.</p>",
+        "<div>" + "".join(_figure(m) for m in pick_maps) + "</div>",
+    ]
+
+
 def render_report(
-    summary: dict, front, images, binding: dict, notes, *, objectives=(), params=(), picks=()
+    summary: dict,
+    front,
+    images,
+    binding: dict,
+    notes,
+    *,
+    objectives=(),
+    params=(),
+    picks=(),
+    pick_maps=(),
 ) -> str:
     """The report page as a string (see `write_report`)."""
     from importlib.metadata import PackageNotFoundError, version
@@ -379,6 +401,7 @@ def render_report(
         f"<h1>eddypull study {_e(name)}</h1>",
         f'<p class="caution">{_e(CAUTIONS[0][1])}</p>',
         *_picks_section(front, picks),
+        *_pick_maps_section(pick_maps),
         "<h2>Summary</h2>",
         _kv_table(_summary(summary)),
         f"<h2>Front ({len(front)} designs)</h2>",
@@ -418,6 +441,7 @@ def write_report(
     objectives=(),
     params=(),
     picks=(),
+    pick_maps=(),
 ) -> Path:
     """Write ``report.html`` into ``out_dir``: one self-contained page.
 
@@ -444,6 +468,9 @@ def write_report(
         The searched parameters: the front table's next columns.
     picks : list of (str, int), optional
         ``(why, trial)`` of the designs shown as cards at the top (e.g. ``("best pull_N", 12)``).
+    pick_maps : list of Path or (Path, str), optional
+        Pick maps of the picked designs (`optim.morning.robustness.pick_map_figures`), shown
+        after the cards.
 
     Returns
     -------
@@ -461,5 +488,6 @@ def write_report(
         objectives=objectives,
         params=list(params),
         picks=list(picks),
+        pick_maps=list(pick_maps),
     )
     return atomic_write_text(safe_child(out_dir, "report.html"), text)
