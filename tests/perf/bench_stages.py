@@ -49,6 +49,7 @@ def _stages(design):
     nr, nz, _ = iron_nodes(cells, panels, fine.iron_nodes, fine.iron_reach)
     sol = solve_circuit(design, fine, mp)
     result = ev.evaluate(design)
+    P = sol_P(design, fine, mp)
     temps = {"coil": 20.0, "ring": 20.0, "target": 20.0}
     n = cells.n - int((cells.part == circuit.COIL).sum()) + 1
     rng = np.random.default_rng(0)
@@ -81,7 +82,7 @@ def _stages(design):
         "pull_by_source": lambda: ev.pull_by_source(sol),
         "core_peak_flux_density": lambda: flux.core_peak_flux_density(design, sol),
         "pole_flux_density": lambda: flux.pole_flux_density(design, sol),
-        "core_grid": lambda: core.core_grid(design, cells, panels, sol_P(design, fine, mp)),
+        "core_grid": lambda: core.core_grid(design, cells, panels, P),
         "error bar (cold)": cold(lambda: ev._with_error_bar(result.electrical, design, fine, temps)),
         "evaluate (cold)": cold(lambda: ev.evaluate(design)),
         "evaluate (warm pole)": lambda: ev.evaluate(design),
