@@ -150,6 +150,18 @@ def _demo(**values):
     return d
 
 
+def _lossless(design):
+    """``design`` with its pole given by its permeability alone: no sheets, no loss law."""
+    pole = dataclasses.replace(
+        design.pole,
+        material=None,
+        lamination_thickness=None,
+        sheet_conductivity=None,
+        core_loss=None,
+    )
+    return dataclasses.replace(design, pole=pole)
+
+
 def _solved(design):
     system = assemble_circuit(design, DEFAULT_FINENESS, pole_model_for(design, DEFAULT_FINENESS))
     return solve_system(system)
@@ -200,14 +212,7 @@ def test_core_loss_heats_the_face_and_core_nodes():
     assert losses["face"] + losses["core"] == pytest.approx(sol.core.total, rel=1e-12)
     assert losses["face"] > 0 and losses["core"] > 0
     lossy = evaluate(design)
-    pole = dataclasses.replace(
-        design.pole,
-        material=None,
-        lamination_thickness=None,
-        sheet_conductivity=None,
-        core_loss=None,
-    )
-    lossless = evaluate(dataclasses.replace(design, pole=pole))
+    lossless = evaluate(_lossless(design))
     assert lossless.core_loss_W == 0.0
     for part in ("coil", "core", "face", "ring", "target"):
         assert lossy.temperatures_C[part] > lossless.temperatures_C[part] + 1.0, part
@@ -215,13 +220,6 @@ def test_core_loss_heats_the_face_and_core_nodes():
 
 def test_a_pole_without_sheet_data_is_lossless_and_says_so():
     design = _demo()
-    pole = dataclasses.replace(
-        design.pole,
-        material=None,
-        lamination_thickness=None,
-        sheet_conductivity=None,
-        core_loss=None,
-    )
-    r = evaluate(dataclasses.replace(design, pole=pole), isothermal=True)
+    r = evaluate(_lossless(design), isothermal=True)
     assert r.core_loss_W == 0.0
     assert any("taken as thin sheets without loss" in w for w in r.warnings)
