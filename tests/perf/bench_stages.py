@@ -83,7 +83,9 @@ def _stages(design):
         "core_peak_flux_density": lambda: flux.core_peak_flux_density(design, sol),
         "pole_flux_density": lambda: flux.pole_flux_density(design, sol),
         "core_grid": lambda: core.core_grid(design, cells, panels, P),
-        "error bar (cold)": cold(lambda: ev._with_error_bar(result.electrical, design, fine, temps)),
+        "error bar (cold)": cold(
+            lambda: ev._with_error_bar(result.electrical, design, fine, temps)
+        ),
         "evaluate (cold)": cold(lambda: ev.evaluate(design)),
         "evaluate (warm pole)": lambda: ev.evaluate(design),
     }, (cells.n, panels.n, nr.size)
