@@ -8,7 +8,9 @@ for certain: no generated file is valid, so every test can fail. ``test_the_base
 checks the starting point itself. Categories: wrong types at every key, tables that are not
 tables, missing tables, inverted or equal bounds, negative, zero and absurd sizes, NaN, inf and
 huge numbers, unknown keys and tables, wrong units in names, unknown results, broken TOML, binary
-garbage, invalid UTF-8 and bad ``design`` paths. The tests try about 2,800 inputs (unknown keys,
+garbage, invalid UTF-8 and bad ``design`` paths; part families (``[[parts]]``, from the
+sorting demo): wrong types at every part key, bad sizes, unknown keys and fixed cases (names,
+roles, [target] beside them, a searched part metal). The tests try about 3,200 inputs (unknown keys,
 unknown results and wrong units in result names are marked slow, the rest run by default); the
 slow ``test_many_malformed_studies`` draws 2,000 more from six categories at once.
 
@@ -31,7 +33,8 @@ from hypothesis import strategies as st
 
 from models.design import DESIGN_KEYS
 from optim.cli import main
-from optim.demo import DEMO_STUDY
+from optim.demo import DEMO_SORTING, DEMO_STUDY
+from optim.study.parts import PART_KEYS, ROLES
 from optim.study.spec import RUN_MAX, load_study_spec
 from tests.conftest import write_counts
 from tests.test_properties_files import BREAKERS, UNITS, Raw, _time_box, to_toml
@@ -368,7 +371,17 @@ def test_largest_float(workdir, capsys, path):
     run_study(d, workdir, capsys, "nan, inf or huge", must_name=must)
 
 
-_TOP = {"name", "description", "design", "search", "objectives", "robust", "constraints", "run"}
+_TOP = {
+    "name",
+    "description",
+    "design",
+    "search",
+    "objectives",
+    "robust",
+    "constraints",
+    "run",
+    "parts",
+}
 _keys = st.text(st.characters(codec="utf-8", exclude_categories=("Cs",)), min_size=1, max_size=16)
 
 
@@ -800,3 +813,111 @@ def test_bad_export_choices(small_study, capsys, flags, must):
 def test_bad_study_name(small_study, capsys, command):
     (line,) = refused(["study", command, small_study, "--name", "x"], capsys, "bad name", True)
     assert "--name" in line
+
+
+# ------------------------------------------------------------------ part families ([[parts]])
+#: The sorting demo (two parts, one lift, one leave) as the valid starting point.
+_SORTING = tomllib.loads(DEMO_SORTING.read_text(encoding="utf-8"))
+_SORTING["design"] = str((DEMO_SORTING.parent / _SORTING["design"]).resolve())
+_SORTING["run"] = {"trials": 2, "workers": 1, "seed": 3, "isothermal": True}
+#: Every key a part can take, with its kind (models.design.DESIGN_KEYS for the part's own).
+PART_FIELDS = {
+    "name": "name",
+    "role": "role",
+    **{k: DESIGN_KEYS["target"][k][0] for k in PART_KEYS},
+    "gap_min_mm": "pos",
+    "gap_max_mm": "pos",
+    "points": "int",
+}
+
+
+def _sorting(tmp: Path) -> dict:
+    d = copy.deepcopy(_SORTING)
+    d["run"]["storage"] = f"sqlite:///{tmp / NEVER_DB}"
+    return d
+
+
+def test_the_sorting_study_is_valid(workdir):
+    path = workdir / "sorting.toml"
+    path.write_text(to_toml(_sorting(workdir)), encoding="utf-8")
+    spec = load_study_spec(path)
+    assert [p.role for p in spec.parts] == ["lift", "leave"]
+
+
+@QUICK
+@given(st.integers(0, 1), st.sampled_from(sorted(PART_FIELDS)), st.data())
+def test_wrong_types_in_parts(workdir, capsys, i, key, data):
+    kind = PART_FIELDS[key]
+    if kind == "role":
+        value = data.draw(
+            st.one_of(_numbers, st.booleans(), _lists, _dates, st.text(max_size=8)).filter(
+                lambda v: v not in ROLES
+            )
+        )
+    else:
+        value = data.draw(_wrong_for(kind))
+    d = _sorting(workdir)
+    d["parts"][i][key] = value
+    run_study(d, workdir, capsys, "part: wrong type", must_name=f"parts[{i}].{key}")
+
+
+@QUICK
+@given(
+    st.integers(0, 1),
+    st.sampled_from(["radius_mm", "thickness_mm", "gap_min_mm", "gap_max_mm"]),
+    st.one_of(st.just(0.0), st.floats(-1e300, -1e-300), st.floats(1000.001, 1e300)),
+)
+def test_negative_zero_and_absurd_part_sizes(workdir, capsys, i, key, value):
+    d = _sorting(workdir)
+    d["parts"][i][key] = value
+    if key.startswith("gap_"):  # the other end of the range, so that only this one is wrong
+        other = "gap_max_mm" if key == "gap_min_mm" else "gap_min_mm"
+        d["parts"][i][other] = d["robust"][other]
+    run_study(d, workdir, capsys, "part: negative, zero or absurd", must_name=f"parts[{i}]")
+
+
+@QUICK
+@given(st.integers(0, 1), _keys.filter(lambda k: k not in PART_FIELDS))
+def test_unknown_keys_in_parts(workdir, capsys, i, key):
+    d = _sorting(workdir)
+    d["parts"][i][key] = 1.0
+    lines = run_study(d, workdir, capsys, "part: unknown key", must_name=f"parts[{i}]")
+    assert any("unknown key" in line for line in lines), lines
+
+
+FIXED_FAMILIES = {
+    "same names": (lambda d: d["parts"][1].update(name="cap10"), "parts[1].name"),
+    "no lift part": (lambda d: d["parts"][0].update(role="leave"), "role = 'lift'"),
+    "empty": (lambda d: d.update(parts=[]), "parts = an empty array"),
+    "not tables": (lambda d: d.update(parts=[1.0, "cap"]), "parts = [1.0, 'cap']"),
+    "a table, not an array": (lambda d: d.update(parts={"name": "cap10"}), "parts ="),
+    "with [target]": (lambda d: d.update(target={"gap_mm": 2.0}), "target: a [target] table"),
+    "searched part metal": (
+        lambda d: d["search"].update(target_material={"choices": ["copper"]}),
+        "search.target_material",
+    ),
+    "inner radius beyond the part": (
+        lambda d: d["parts"][1].update(inner_radius_mm=9.0),
+        "parts[1].inner_radius_mm = 9.0: must be < parts[1].radius_mm",
+    ),
+    "metal and conductivity": (
+        lambda d: d["parts"][0].update(conductivity_S_per_m=3.5e7),
+        "parts[0].conductivity_S_per_m",
+    ),
+    "conductivity without density": (
+        lambda d: d["parts"][0].pop("material") and d["parts"][0].update(conductivity_S_per_m=3e7),
+        "parts[0].density_kg_per_m3: missing",
+    ),
+    "leave results without a leave part": (
+        lambda d: d["parts"].pop(1),
+        "objectives.selectivity_margin: needs a part with role = 'leave'",
+    ),
+}
+
+
+@pytest.mark.parametrize("name", list(FIXED_FAMILIES))
+def test_fixed_malformed_families(name, workdir, capsys):
+    edit, must = FIXED_FAMILIES[name]
+    d = _sorting(workdir)
+    edit(d)
+    run_study(d, workdir, capsys, "part: fixed case", must_name=must)

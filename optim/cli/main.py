@@ -126,23 +126,26 @@ def _cmd_demo(args) -> int:
     """The main job on the demo scenario: run the demo study (resuming it if it exists), then
     write its front, plots and report and the hand-off of its best design.
 
-    The demo files are read from the installed package; every output goes to ``--out`` or to
-    ``./harrowgate-night`` in the current folder, never beside the package's files."""
+    ``--scenario`` picks the study: "lifter" (the default, ``demo_study.toml``) or "sorting"
+    (``demo_sorting.toml``, a family of parts). The demo files are read from the installed
+    package; every output goes to ``--out`` or to ``./<study name>`` (``harrowgate-night``,
+    ``harrowgate-sorting``) in the current folder, never beside the package's files."""
     from optim.cli.study import check_budget
-    from optim.demo import DEMO_STUDY
+    from optim.demo import SCENARIOS
     from optim.morning.outputs import export_trial, write_front
     from optim.study.run import run_study
     from optim.study.spec import load_study_spec
     from optim.study.storage import load_existing
 
-    spec = load_study_spec(DEMO_STUDY)
+    demo_study = SCENARIOS[args.scenario]
+    spec = load_study_spec(demo_study)
     minutes = args.minutes if args.minutes is not None else spec.run.get("minutes", 3.0)
     if args.trials is not None:
         minutes = args.minutes
     workers = args.workers if args.workers is not None else spec.run.get("workers", 1)
     check_budget(workers, args.trials, minutes)
     folder = Path(args.out) if args.out else Path.cwd() / spec.name
-    print(f"demo study {DEMO_STUDY.name}: {spec.description}")
+    print(f"demo study {demo_study.name}: {spec.description}")
     summary = run_study(
         spec,
         folder,
@@ -252,6 +255,8 @@ def _parser() -> argparse.ArgumentParser:
     m.add_argument("--json", action="store_true", help="print one JSON object")
     m.set_defaults(func=_cmd_materials)
 
+    from optim.demo import SCENARIOS
+
     d = sub.add_parser(
         "demo", help="run the demo study, then write its front, report and best design's hand-off"
     )
@@ -259,9 +264,16 @@ def _parser() -> argparse.ArgumentParser:
     d.add_argument("--trials", type=int, help="trial budget instead of the time budget")
     d.add_argument("--workers", type=int, help="worker processes (default: the study file's)")
     d.add_argument(
+        "--scenario",
+        choices=list(SCENARIOS),
+        default=next(iter(SCENARIOS)),
+        help="lifter (default): lift one cap size; sorting: lift 10 mm caps, leave 16 mm ones",
+    )
+    d.add_argument(
         "--out",
         metavar="DIR",
-        help="study folder (default ./harrowgate-night in the current folder)",
+        help="study folder (default ./harrowgate-night, or ./harrowgate-sorting for the sorting "
+        "scenario, in the current folder)",
     )
     d.add_argument(
         "--no-pick-maps",

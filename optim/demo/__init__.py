@@ -1,8 +1,11 @@
-"""The demo scenario (the invented Harrowgate Tinware cap lifter), shipped as package data.
+"""The demo scenarios (the invented Harrowgate Tinware line), shipped as package data.
 
-``demo_study.toml`` is a commented example study file; ``demo_design.toml`` its base design.
-``eddypull demo`` reads them from the installed package (``importlib.resources``) and writes the
-study's outputs in the current folder, never beside these files.
+``demo_study.toml`` is a commented example study file (the cap lifter); ``demo_design.toml`` its
+base design. ``demo_sorting.toml`` is a second one on the same magnet: a family of parts
+(``[[parts]]``), lifting 10 mm caps and leaving 16 mm ones. ``eddypull demo`` (``--scenario
+lifter``, the default, or ``sorting``) reads them from the installed package
+(``importlib.resources``) and writes the study's outputs in the current folder, never beside
+these files.
 """
 
 from __future__ import annotations
@@ -10,7 +13,7 @@ from __future__ import annotations
 from importlib.resources import files
 from pathlib import Path
 
-__all__ = ["DEMO_DESIGN", "DEMO_STUDY"]
+__all__ = ["DEMO_DESIGN", "DEMO_STUDY", "DEMO_SORTING", "SCENARIOS"]
 
 #: The installed package folder that holds the demo files (a plain folder: setuptools installs
 #: packages unzipped, so ``files`` gives a real path that the study file's relative design uses).
@@ -20,3 +23,7 @@ _HERE = Path(str(files(__name__)))
 DEMO_DESIGN = _HERE / "demo_design.toml"
 #: The demo study file (``design = "demo_design.toml"``, beside it).
 DEMO_STUDY = _HERE / "demo_study.toml"
+#: The sorting demo's study file (the same base design, a lift part and a leave part).
+DEMO_SORTING = _HERE / "demo_sorting.toml"
+#: ``eddypull demo --scenario NAME`` -> its study file; the first is the default.
+SCENARIOS = {"lifter": DEMO_STUDY, "sorting": DEMO_SORTING}

@@ -73,6 +73,8 @@ def _notes(spec, df, front, design=None) -> list[str]:
     ]
     if design is not None:
         notes.append(_state_note(design, bool(spec.run.get("isothermal"))))
+    if spec.parts:
+        notes.append(_family_note(spec))
     failed = df[df["state"] == "FAIL"] if not df.empty else df
     if len(failed):
         kinds: dict[str, int] = {}
@@ -84,6 +86,30 @@ def _notes(spec, df, front, design=None) -> list[str]:
             + ", ".join(f"{v} {k}" for k, v in sorted(kinds.items(), key=lambda kv: -kv[1]))
         )
     return notes
+
+
+def _family_note(spec) -> str:
+    """What the results of a family of parts are (optim.study.family), part by part."""
+
+    def words(part) -> str:
+        t, g = part.target, part.gaps_mm
+        metal = t.get("material") or f"{t.get('conductivity_S_per_m', 0):.3g} S/m"
+        gaps = f"{g[0]:g}-{g[-1]:g} mm ({len(g)} gaps)" if g else "the design's gap"
+        return (
+            f"{part.name} ({part.role}: radius {t['radius_mm']:g} mm, {t['thickness_mm']:g} mm "
+            f"thick, {metal}, {gaps})"
+        )
+
+    own = next(p for p in spec.parts if p.role == "lift")
+    return (
+        f"Parts: {'; '.join(words(p) for p in spec.parts)}. pull_N, the temperatures and the "
+        f"other model results are {own.name}'s (the first lift part) at the design's own gap; "
+        "every part sits under the magnet at that steady state. parts.<name>.worst_lift_ratio "
+        "and best_lift_ratio are each part's smallest and largest pull over its weight (its "
+        "gaps, at arrival and at the end of the hold); worst_lift_ratio is the smallest over "
+        "the lift parts, best_leave_lift_ratio the largest over the leave parts, "
+        "selectivity_margin their difference (a leave part pushed away counts as left)."
+    )
 
 
 def _state_note(design, isothermal: bool) -> str:

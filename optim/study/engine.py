@@ -77,7 +77,9 @@ def evaluate_trial(spec, values: dict):
         return out
     isothermal = bool(spec.run.get("isothermal", False))
     try:
-        flat, warnings, binding = results_of(design, spec.gaps_mm, isothermal=isothermal)
+        flat, warnings, binding = results_of(
+            design, spec.gaps_mm, isothermal=isothermal, parts=spec.parts
+        )
     except DesignError as err:
         out["reason"] = "model refused: " + "; ".join(err.problems)
         return out

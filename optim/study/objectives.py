@@ -11,6 +11,11 @@ their names (``pull_N``, ``ring_loss_W``, ``ring_temperature_C`` ...), dictionar
   (``pull_hold_N``, at the holding gap), the magnet's fixed parts at the design's steady state;
 * ``worst_lift_ratio``: ``worst_pull_N`` / target weight.
 
+A study with a family of parts (``[[parts]]``) measures every part instead, under one steady
+state of the magnet: ``optim.study.family`` (``parts.<name>.worst_lift_ratio`` ...,
+``best_leave_lift_ratio``, ``selectivity_margin``; ``worst_pull_N`` and ``worst_lift_ratio``
+over every lift part).
+
 ``pole_mass_kg`` and ``core_flux_fraction`` come from the model's result itself.
 """
 
@@ -81,13 +86,19 @@ def flatten(d: dict) -> dict[str, float]:
     return out
 
 
-def results_of(design: Design, gaps_mm=(), isothermal: bool = False):
+def results_of(design: Design, gaps_mm=(), isothermal: bool = False, parts=()):
     """Evaluate ``design`` and return (flat results, warnings, binding limit name or "").
 
     With ``gaps_mm`` [mm] the part's pull at arrival is also taken at each gap for
     ``worst_pull_N``, with the magnet's parts at the design's own steady state (each extra gap
-    costs a circuit assembly and solve, no thermal solve; the pole model is cached).
+    costs a circuit assembly and solve, no thermal solve; the pole model is cached). With
+    ``parts`` (a family, optim.study.parts.Part) the design's target is replaced by each part
+    in turn and ``gaps_mm`` is not used: ``optim.study.family.family_results``.
     """
+    if parts:
+        from optim.study.family import family_results
+
+        return family_results(design, parts, isothermal=isothermal)
     result, pulls = evaluate_pick_gaps(design, gaps_mm, isothermal=isothermal)
     flat = flatten(result.to_dict())
     flat.pop("run_time_s", None)

@@ -17,6 +17,11 @@ A study file::
     gap_min_mm = 2.0
     gap_max_mm = 4.0
     points = 3
+    [[parts]]                         # or a family of parts instead of [target] overrides:
+    name = "cap10"                    #   optim.study.parts (each part's size, metal, gap range
+    radius_mm = 5.0                   #   and role, "lift" or "leave"); results by part and
+    thickness_mm = 0.6                #   over the family: optim.study.family
+    material = "aluminium-1350"
     [constraints]                     # result = { min = ..., max = ... }
     ring_temperature_C = { max = 180 }
     [run]                             # budget and engine; the command line overrides these
@@ -44,6 +49,7 @@ from models.design import DESIGN_KEYS, PLAUSIBLE_LIMITS, design_from_dict, read_
 from models.errors import DesignError, nearest
 from optim.files import safe_name
 from optim.study.objectives import Constraint, Objective, results_of
+from optim.study.parts import GAP_KEYS, Part, parse_parts, part_source
 from optim.study.space import Parameter, parse_search
 
 __all__ = [
@@ -56,7 +62,17 @@ __all__ = [
 ]
 
 SAMPLERS = ("auto", "nsga2", "tpe", "random")
-_TOP = {"name", "description", "design", "search", "objectives", "robust", "constraints", "run"}
+_TOP = {
+    "name",
+    "description",
+    "design",
+    "search",
+    "objectives",
+    "robust",
+    "constraints",
+    "run",
+    "parts",
+}
 _RUN_KEYS = {
     "trials": "int",
     "minutes": "pos",
@@ -80,6 +96,8 @@ RUN_MAX = {
     "seed": 2**31 - 1,
 }
 _WORST = ("worst_pull_N", "worst_lift_ratio")
+#: Results of a family with a leave part (optim.study.family).
+_LEAVE_RESULTS = ("best_leave_lift_ratio", "selectivity_margin")
 GAP_LIMITS_MM = PLAUSIBLE_LIMITS["_mm"]
 
 
@@ -97,6 +115,7 @@ class StudySpec:
     description: str = ""
     folder: Path | None = None
     result_names: tuple = ()
+    parts: tuple[Part, ...] = ()
 
     def to_json(self) -> dict:
         """Everything needed to rebuild the spec without its file (kept in the storage)."""
@@ -112,7 +131,7 @@ class StudySpec:
                 for c in self.constraints
             },
             "run": {k: v for k, v in self.run.items() if k != "storage"},
-        }
+        } | ({"parts": [p.to_json() for p in self.parts]} if self.parts else {})
 
     def _robust_json(self):
         if not self.gaps_mm:
@@ -122,12 +141,14 @@ class StudySpec:
 
     def fingerprint(self) -> str:
         """Hash of what defines the study's trials (base design, search, objectives, robust
-        range, constraints, isothermal, the fast model's version): a resumed study must match
-        it."""
+        range, constraints, parts, isothermal, the fast model's version): a resumed study must
+        match it. A study without ``[[parts]]`` hashes as it did before parts existed."""
         from models.result import MODEL_VERSION
 
         d = self.to_json()
         key = {k: d[k] for k in ("base", "search", "objectives", "robust", "constraints")}
+        if self.parts:
+            key["parts"] = d["parts"]
         key["isothermal"] = bool(self.run.get("isothermal", False))
         key["model"] = MODEL_VERSION
         key["objectives"] = [[o.name, o.direction] for o in self.objectives]  # order matters
@@ -274,11 +295,12 @@ def _constraints(table, problems) -> list[Constraint]:
     return out
 
 
-def _robust_gaps(robust: dict, problems) -> tuple:
-    where = "robust"
+def _robust_gaps(robust: dict, problems, where: str = "robust") -> tuple:
+    """The gaps [mm] of a range ``{gap_min_mm, gap_max_mm, points}`` (points default 3), evenly
+    spaced; () with the problems (named ``where``) if it is not a range."""
     lo, hi, n = robust.get("gap_min_mm"), robust.get("gap_max_mm"), robust.get("points", 3)
-    for extra in set(robust) - {"gap_min_mm", "gap_max_mm", "points"}:
-        problems.append(f"robust.{extra}: unknown key; allowed: gap_min_mm, gap_max_mm, points")
+    for extra in set(robust) - set(GAP_KEYS):
+        problems.append(f"{where}.{extra}: unknown key; allowed: gap_min_mm, gap_max_mm, points")
     if _check(f"{where}.gap_min_mm", lo, "pos", problems) is None:
         return ()
     if _check(f"{where}.gap_max_mm", hi, "pos", problems) is None:
@@ -291,10 +313,10 @@ def _robust_gaps(robust: dict, problems) -> tuple:
             problems.append(f"{where}.{key} = {value!r}: must be between {low:g} and {high:g}")
             return ()
     if hi < lo:
-        problems.append(f"robust: gap_max_mm = {hi:g} must be >= gap_min_mm = {lo:g}")
+        problems.append(f"{where}: gap_max_mm = {hi:g} must be >= gap_min_mm = {lo:g}")
         return ()
     if n > 50:
-        problems.append(f"robust.points = {n}: must be at most 50")
+        problems.append(f"{where}.points = {n}: must be at most 50")
         return ()
     return tuple(float(x) for x in np.linspace(lo, hi, n if hi > lo else 1))
 
@@ -319,10 +341,19 @@ def spec_from_dict(data: dict, folder: Path | None = None, name: str = "study") 
         raise DesignError(problems)
 
     names = {o.name for o in objectives} | {c.name for c in constraints}
-    gaps = _robust_gaps(robust, problems) if (names & set(_WORST) or robust) else ()
+    parts: list[Part] = []
+    if "parts" in data:
+        gaps = _robust_gaps(robust, problems) if robust else ()
+        parts = _family(data, base, params, robust, gaps, problems)
+        if not problems:
+            base = part_source(base, next(p for p in parts if p.role == "lift"))
+    else:
+        gaps = _robust_gaps(robust, problems) if (names & set(_WORST) or robust) else ()
     if problems:
         raise DesignError(problems)
-    known = _model_results(base, params, objectives, constraints, gaps, run, str(study_name))
+    known = _model_results(
+        base, params, objectives, constraints, gaps, run, str(study_name), tuple(parts)
+    )
     return StudySpec(
         name=str(study_name),
         base=base,
@@ -334,7 +365,32 @@ def spec_from_dict(data: dict, folder: Path | None = None, name: str = "study") 
         description=str(data.get("description", "")),
         folder=folder,
         result_names=tuple(known),
+        parts=tuple(parts),
     )
+
+
+def _family(data: dict, base, params, robust: dict, gaps: tuple, problems) -> list[Part]:
+    """The ``[[parts]]`` of a study (optim.study.parts), with what a family cannot be combined
+    with: ``[target]`` overrides of a design file, a searched part size or metal."""
+    if "target" in data and data.get("design") is not None:
+        problems.append(
+            "target: a [target] table cannot be combined with [[parts]]; allowed: the parts' own "
+            "keys (size, metal, gap range, role), with the design's own gap from the design file"
+        )
+    for p in params:
+        if p.key is not None and p.key.startswith("target.") and p.key != "target.gap_mm":
+            problems.append(
+                f"search.{p.name}: sets {p.key}, which [[parts]] give part by part; allowed "
+                "with [[parts]]: target.gap_mm (gap_mm, the design's own gap)"
+            )
+    robust_ok = not robust or bool(gaps)
+
+    def gaps_of(where, keys, found):
+        if not keys or not robust_ok:  # a bad [robust] range is reported once, as robust.*
+            return gaps
+        return _robust_gaps({**robust, **keys}, found, where=where)
+
+    return parse_parts(data["parts"], base, gaps_of, problems)
 
 
 def _top_level(data: dict, name: str, problems: list[str]):
@@ -377,10 +433,13 @@ def _run_table(data: dict, problems: list[str]) -> dict:
     return run
 
 
-def _model_results(base, params, objectives, constraints, gaps, run, study_name) -> list[str]:
+def _model_results(
+    base, params, objectives, constraints, gaps, run, study_name, parts=()
+) -> list[str]:
     """Check the study against the model: the base design and the middle of the search space
-    must be buildable, every objective and constraint must be a result of the model. Returns the
-    sorted names of the model's flat results; raises DesignError otherwise."""
+    must be buildable (with every part of a family), every objective and constraint must be a
+    result of the model. Returns the sorted names of the model's flat results; raises
+    DesignError otherwise."""
     # The base design must itself be a valid design, and every trial is built from it.
     from optim.study.space import design_source
 
@@ -399,7 +458,9 @@ def _model_results(base, params, objectives, constraints, gaps, run, study_name)
             + "; ".join(err.problems)
             + "); narrow the bounds"
         ) from None
-    flat, _, _ = results_of(base_design, gaps, isothermal=bool(run.get("isothermal", False)))
+    _check_parts_at_middle(base, params, mid, parts, study_name)
+    isothermal = bool(run.get("isothermal", False))
+    flat, _, _ = results_of(base_design, gaps, isothermal=isothermal, parts=parts)
     known = sorted(flat)
     from models.result import FLAT_FIELDS
 
@@ -412,6 +473,11 @@ def _model_results(base, params, objectives, constraints, gaps, run, study_name)
                     f"{what}.{item.name}: the base design cannot have this result ({why}); "
                     "remove it or add the part"
                 )
+            elif item.name in _LEAVE_RESULTS and item.name not in flat:
+                problems.append(
+                    f"{what}.{item.name}: needs a part with role = 'leave' in [[parts]] (a part "
+                    "the magnet must leave where it lies)"
+                )
             elif item.name not in flat:
                 problems.append(
                     f"{what}.{item.name}: not a result of the model{nearest(item.name, known)}; "
@@ -422,6 +488,24 @@ def _model_results(base, params, objectives, constraints, gaps, run, study_name)
     if problems:
         raise DesignError(problems)
     return known
+
+
+def _check_parts_at_middle(base, params, mid, parts, study_name) -> None:
+    """Every part of a family must give a design at the middle of the search space; raises
+    DesignError with one line per part that does not."""
+    from optim.study.space import design_source
+
+    problems = []
+    for i, part in enumerate(parts):
+        try:
+            design_from_dict(part_source(design_source(base, params, mid), part), name=study_name)
+        except DesignError as err:
+            problems.append(
+                f"parts[{i}] ({part.name}): the design at the middle of the search space cannot "
+                f"be built with this part ({'; '.join(err.problems)}); narrow the bounds"
+            )
+    if problems:
+        raise DesignError(problems)
 
 
 def _check_choices(base, params, mid, study_name) -> None:
@@ -477,4 +561,6 @@ def spec_from_json(d: dict) -> StudySpec:
     }
     if d.get("robust"):
         data["robust"] = d["robust"]
+    if d.get("parts"):
+        data["parts"] = d["parts"]
     return spec_from_dict(data, name=d["name"])
