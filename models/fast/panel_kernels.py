@@ -1,9 +1,12 @@
 """Field, mutual inductance and its axial derivative of uniformly loaded panels (1 A each).
 
-Kernels are evaluated once over the flat node arrays of a ``_Rule`` (``models.fast.quadrature``), in
-cache-sized blocks; the rule of a set of points is kept (by content) for the next call with the
-same points, since the circuit asks for the operator, ``panel_mutual`` and ``panel_mutual_dz`` at
-the same filaments, and the last two come from one pass that shares the near-range terms.
+Each (point, panel) pair is integrated by the rules of ``models.fast.quadrature`` in compiled code
+(``models.fast.kernels.panel_pair_sums``), one evaluation of the elliptic integrals per node for
+every quantity the pair yields. The circuit asks for the operator (the panel-averaged tangential
+field of filaments at the points), ``panel_mutual`` and ``panel_mutual_dz`` at the same points:
+all three come from one pass, kept (by the content of the panels and points) for the calls that
+follow, as are the fields of ``panel_field`` at the flux-density diagnostics' points, which recur
+for a pole model that is reused.
 """
 
 from __future__ import annotations
@@ -11,60 +14,13 @@ from __future__ import annotations
 import numpy as np
 
 from models.errors import DesignError
-from models.fast.filaments import loop_field, mutual_pair
-from models.fast.quadrature import _rule
+from models.fast.kernels import FIELD, SOURCE, panel_pair_sums
+from models.fast.quadrature import _EPS_FIELD, _GAUSS_GRADED
 
-#: Kernels on flat arrays are evaluated in blocks of this many elements (temporaries stay in cache).
-_BLOCK = 16384
-
-
-def _blocked(kernel, n_out, *arrays):
-    """``kernel(*arrays)`` for 1-D arrays of equal length, evaluated block by block."""
-    n = arrays[0].size
-    if n <= _BLOCK or any(a.ndim != 1 or a.size != n for a in arrays):
-        return kernel(*arrays)
-    out = [np.empty(n) for _ in range(n_out)]
-    for lo in range(0, n, _BLOCK):
-        hi = lo + _BLOCK
-        for o, v in zip(out, kernel(*(a[lo:hi] for a in arrays)), strict=True):
-            o[lo:hi] = v
-    return out
-
-
-def _loop_field(a, z0, r, z):
-    """Smythe's loop field per ampere [T/A] (``models.fast.filaments.loop_field``), block by block."""
-    args = np.broadcast_arrays(*(np.asarray(x, dtype=float) for x in (a, z0, r, z)))
-    shape = args[0].shape
-    br, bz = _blocked(loop_field, 2, *(x.ravel() for x in args))
-    return br.reshape(shape), bz.reshape(shape)
-
-
-def _mutual_pair_block(node_r, node_z, pr, pz):
-    """(``mutual(node, point)``, dM/dz at the point) in one pass (``models.fast.filaments.mutual_pair``;
-    dM/dz_point = -dM/dz_node)."""
-    mut, dz_node = mutual_pair(node_r, node_z, pr, pz)
-    return mut, -dz_node
-
-
-def _mutual_pair_kernel(node_r, node_z, pr, pz):
-    return _blocked(_mutual_pair_block, 2, node_r, node_z, pr, pz)
-
-
-def _field_kernel(node_r, node_z, pr, pz):
-    return _loop_field(node_r, node_z, pr, pz)
-
-
-def _source_field_kernel(node_r, node_z, pr, pz):
-    """Field at the panel nodes of a loop at the point (the source filament) [T/A]."""
-    return _loop_field(pr, pz, node_r, node_z)
-
-
-#: Rules of (point, panel) pairs recently used, by the content of the panels and points, least
-#: recently used dropped first: the circuit asks for the operator, the mutual inductance and its
-#: derivative at the same points, and one evaluation uses three point sets (the circuit's nodes
-#: and the two flux-density diagnostics), which recur for a pole model that is reused.
+#: Results of (panels, points) recently computed, by their content, least recently used dropped
+#: first (the name is the one benchmarks clear to time a stage from cold).
 _PAIR_RULES: dict = {}
-_PAIR_RULES_KEPT = 4
+_PAIR_RULES_KEPT = 6
 
 
 def _points(r, z):
@@ -75,50 +31,33 @@ def _points(r, z):
     return r, z
 
 
-def _pair_rule(panels, r, z, with_spare=False):
-    """Quadrature rule (``_Rule``) of every (point, panel) pair, point-major, and the point of each
-    node (point_r, point_z). Cached by the content of panels and points; treat as read-only.
-    ``with_spare`` adds the entry's dict of results computed ahead (``_mutual_pair``)."""
-    key = tuple(
+def _all_pairs(panels, r, z, mode):
+    """panel_pair_sums of every (point, panel) pair, point-major, as (k, n_pts, n_panels); cached
+    by the content of the panels and points; treat as read-only."""
+    r, z = _points(r, z)
+    key = (mode,) + tuple(
         a.tobytes() for a in (panels.mid_r, panels.mid_z, panels.length, panels.tr, panels.tz, r, z)
     )
     hit = _PAIR_RULES.pop(key, None)
-    if hit is not None:
-        _PAIR_RULES[key] = hit  # now the most recently used
-    else:
+    if hit is None:
         n_pts, n_p = r.size, panels.n
-        pr, pz = np.repeat(r, n_p), np.repeat(z, n_p)
         rho = np.hypot(r[:, None] - panels.mid_r, z[:, None] - panels.mid_z) / panels.length
-        rule = _rule(panels, np.tile(np.arange(n_p), n_pts), pr, pz, rho=rho.ravel())
-        point = rule.owner // n_p
-        hit = rule, r[point], z[point], {}
+        sums = panel_pair_sums(
+            mode,
+            panels,
+            np.tile(np.arange(n_p), n_pts),
+            np.repeat(r, n_p),
+            np.repeat(z, n_p),
+            rho.ravel(),
+            _EPS_FIELD,
+            _GAUSS_GRADED,
+        )
+        hit = sums.reshape(sums.shape[0], n_pts, n_p)
+        hit.setflags(write=False)
         while len(_PAIR_RULES) >= _PAIR_RULES_KEPT:
             _PAIR_RULES.pop(next(iter(_PAIR_RULES)), None)
-        _PAIR_RULES[key] = hit
-    return hit if with_spare else hit[:3]
-
-
-def _mutual_pair(panels, r, z, which):
-    """``panel_mutual`` (which = 0) or ``panel_mutual_dz`` (1): both are computed in one pass and
-    the other one is kept with the cached rule for the call that the circuit makes next."""
-    r, z = _points(r, z)
-    rule, pr, pz, spare = _pair_rule(panels, r, z, with_spare=True)
-    done = spare.pop(which, None)
-    if done is not None:
-        return done
-    vals = rule.apply(_mutual_pair_kernel(rule.node_r, rule.node_z, pr, pz))
-    vals = [v.reshape(r.size, panels.n) for v in vals]
-    spare.clear()
-    spare[1 - which] = vals[1 - which]
-    return vals[which]
-
-
-def _dense(panels, r, z, kernel):
-    """kernel integrated over every panel for every point: arrays of shape (n_pts, n_panels)."""
-    r, z = _points(r, z)
-    rule, pr, pz = _pair_rule(panels, r, z)
-    vals = rule.apply(kernel(rule.node_r, rule.node_z, pr, pz))
-    return [v.reshape(r.size, panels.n) for v in vals]
+    _PAIR_RULES[key] = hit  # now the most recently used
+    return hit
 
 
 def panel_field(panels, r, z):
@@ -141,8 +80,14 @@ def panel_field(panels, r, z):
     Integral of Smythe's loop field (``models.fast.filaments.loop_field``) over the panel, by Gauss
     rules graded toward the point (module docstring).
     """
-    br, bz = _dense(panels, r, z, _field_kernel)
+    br, bz = _all_pairs(panels, r, z, FIELD)
     return br, bz
+
+
+def source_tangential_field(panels, r, z):
+    """Panel-averaged tangential field on each panel of 1 A in a filament at each point [T/A],
+    shape (n_pts, n_panels)."""
+    return _all_pairs(panels, r, z, SOURCE)[2]
 
 
 def panel_mutual(panels, r, z):
@@ -164,7 +109,7 @@ def panel_mutual(panels, r, z):
     Maxwell's formula (``models.fast.filaments.mutual``) averaged over the panel with graded Gauss rules;
     finite (log-integrable) even for a filament on the panel.
     """
-    return _mutual_pair(panels, r, z, 0)
+    return _all_pairs(panels, r, z, SOURCE)[0]
 
 
 def panel_mutual_dz(panels, r, z):
@@ -180,4 +125,4 @@ def panel_mutual_dz(panels, r, z):
     -----
     Closed-form dM/dz of Maxwell's formula (``models.fast.filaments.mutual_dz``) averaged over the panel.
     """
-    return _mutual_pair(panels, r, z, 1)
+    return _all_pairs(panels, r, z, SOURCE)[1]

@@ -50,16 +50,16 @@ from scipy.constants import mu_0
 from scipy.linalg import lu_factor, lu_solve
 
 from models.errors import DesignError
+from models.fast.filaments import loop_field
+from models.fast.kernels import FIELD, panel_pair_sums
 from models.fast.panel_kernels import (
     _PAIR_RULES as _PAIR_RULES,
 )
 from models.fast.panel_kernels import (
-    _dense,
-    _loop_field,
-    _source_field_kernel,
     panel_field,
     panel_mutual,
     panel_mutual_dz,
+    source_tangential_field,
 )
 from models.fast.panels import (
     DEFAULT_PANEL_SIZE,
@@ -77,10 +77,8 @@ from models.fast.quadrature import (
     _MID2,
     _TEST_NODES,
     _gauss01,
-    _geometry,
     _graded01,
     _moment_radius,
-    _rule,
 )
 
 __all__ = [
@@ -175,7 +173,7 @@ class MagnetisedPole:
         far[k, k + 1] = False
         far[k + 1, k] = False
         fi, fp = np.nonzero(far)
-        br, bz = _loop_field(_moment_radius(p)[fp], p.mid_z[fp], p.mid_r[fi], p.mid_z[fi])
+        br, bz = loop_field(_moment_radius(p)[fp], p.mid_z[fp], p.mid_r[fi], p.mid_z[fi])
         with np.errstate(invalid="ignore"):
             g[fi, fp] = br * p.tr[fi] + bz * p.tz[fi]
         # Self terms: a horizontal panel has no tangential (radial) field in its own plane
@@ -203,37 +201,31 @@ class MagnetisedPole:
         once for all groups that share the graded rule's parameters.
         """
         p = self.panels
-        geometry = _geometry(p)
-        r0, z0, _, _, dr, dz, _ = geometry
-        by_rule = {}  # (eps, n_gauss) -> [(ii, pp, x, w, test points r, z)]
+        (r0, z0), (r1, z1) = p.start, p.end
+        dr, dz = r1 - r0, z1 - z0
+        by_rule = {}  # (eps, n_gauss) -> [(ii, pp, x, w)]
         for ii, pp, x, w, eps, n_gauss in groups:
             if ii.size:
-                xr = (r0[ii][:, None] + dr[ii][:, None] * x).ravel()
-                xz = (z0[ii][:, None] + dz[ii][:, None] * x).ravel()
-                by_rule.setdefault((eps, n_gauss), []).append((ii, pp, x, w, xr, xz))
-        if not by_rule:
-            return
-        rules, points_r, points_z, used = [], [], [], []
+                by_rule.setdefault((eps, n_gauss), []).append((ii, pp, x, w))
         for (eps, n_gauss), items in by_rule.items():
-            pidx = np.concatenate([np.repeat(pp, x.size) for _, pp, x, _, _, _ in items])
-            xr = np.concatenate([it[4] for it in items])
-            xz = np.concatenate([it[5] for it in items])
-            rules.append(_rule(p, pidx, xr, xz, eps, n_gauss, geometry))
-            points_r.append(xr)
-            points_z.append(xz)
-            used += [it[:4] for it in items]
-        parts = []
-        for rule, xr, xz in zip(rules, points_r, points_z, strict=True):
-            field = _loop_field(rule.node_r, rule.node_z, xr[rule.owner], xz[rule.owner])
-            parts.append(rule.apply(field))
-        bri = np.concatenate([b for b, _ in parts])
-        bzi = np.concatenate([b for _, b in parts])
-        lo = 0
-        for ii, pp, x, w in used:
-            hi = lo + ii.size * x.size
-            bt = bri[lo:hi] * np.repeat(p.tr[ii], x.size) + bzi[lo:hi] * np.repeat(p.tz[ii], x.size)
-            g[ii, pp] = bt.reshape(-1, x.size) @ w
-            lo = hi
+            # Test points: x along each test panel, pair-major; the source panel repeats.
+            xr = np.concatenate(
+                [(r0[ii][:, None] + dr[ii][:, None] * x).ravel() for ii, _, x, _ in items]
+            )
+            xz = np.concatenate(
+                [(z0[ii][:, None] + dz[ii][:, None] * x).ravel() for ii, _, x, _ in items]
+            )
+            pidx = np.concatenate([np.repeat(pp, x.size) for _, pp, x, _ in items])
+            rho = np.hypot(xr - p.mid_r[pidx], xz - p.mid_z[pidx]) / p.length[pidx]
+            bri, bzi = panel_pair_sums(FIELD, p, pidx, xr, xz, rho, eps, n_gauss)
+            lo = 0
+            for ii, pp, x, w in items:
+                hi = lo + ii.size * x.size
+                bt = bri[lo:hi] * np.repeat(p.tr[ii], x.size) + bzi[lo:hi] * np.repeat(
+                    p.tz[ii], x.size
+                )
+                g[ii, pp] = bt.reshape(-1, x.size) @ w
+                lo = hi
 
     def applied_tangential_field(self, src_r, src_z):
         """Panel-averaged tangential field <B_t>_i of 1 A in each source filament [T/A].
@@ -242,9 +234,7 @@ class MagnetisedPole:
         -------
         ndarray, shape (n_panels, n_src)
         """
-        p = self.panels
-        br, bz = _dense(p, src_r, src_z, _source_field_kernel)
-        return np.ascontiguousarray((br * p.tr + bz * p.tz).T)
+        return np.ascontiguousarray(source_tangential_field(self.panels, src_r, src_z).T)
 
     def response(self, applied_bt):
         """Panel currents [A] for a given panel-averaged applied tangential field [T].
