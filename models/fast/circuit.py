@@ -22,12 +22,12 @@ from __future__ import annotations
 from dataclasses import dataclass
 
 import numpy as np
-from scipy.constants import mu_0
 
 from models.core_loss import coil_current_with_core_loss, peak_flux_density
 from models.fast.core import CoreGrid, CoreLosses, core_grid, core_losses, hysteresis_excess_at
 from models.fast.discretize import Cells, Fineness, coil_filaments, conductor_cells
-from models.fast.filaments import mutual, mutual_pair, rect_log_mean, self_inductance_rect
+from models.fast.filaments import self_inductance_rect
+from models.fast.kernels import cell_mutual, cell_panel_sums
 
 __all__ = [
     "CircuitSolution",
@@ -107,64 +107,6 @@ def _near_pairs(cells: Cells, reach=1.01):
     return np.nonzero(near)
 
 
-@dataclass(frozen=True)
-class NodeMap:
-    """Which cells the iron nodes stand for (``iron_nodes``): the first far.size nodes are the
-    centres of the cells ``far``; then each cell of ``close`` has weight.size nodes in a row."""
-
-    far: np.ndarray
-    close: np.ndarray
-    weight: np.ndarray
-    n_cells: int
-
-    def to_cells(self, a):
-        """W.T @ a for node rows ``a`` (n_nodes, k): the cell rows (n_cells, k)."""
-        out = np.empty((self.n_cells, a.shape[1]), dtype=a.dtype)
-        nf = self.far.size
-        out[self.far] = a[:nf]
-        near = a[nf:].reshape(self.close.size, self.weight.size, a.shape[1])
-        out[self.close] = np.einsum("cnk,n->ck", near, self.weight)
-        return out
-
-    def from_cells_right(self, a):
-        """a @ W for node columns ``a`` (k, n_nodes): the cell columns (k, n_cells)."""
-        return self.to_cells(a.T).T
-
-
-def iron_nodes(cells: Cells, panels, order: int, reach: float = 1.5):
-    """Filament nodes that stand for the cells in their coupling to the iron's panels.
-
-    A cell within ``reach`` cell sizes of a panel is represented by order x order Gauss-Legendre
-    nodes (each with its weight's share of the cell current); a farther one by its centre.
-
-    Returns
-    -------
-    (r, z, NodeMap)
-        Node radii and heights [m], and the map from node quantities back to cells.
-    """
-    size = np.maximum(cells.dr, cells.dz)
-    dist = (
-        np.hypot(
-            cells.rc[:, None] - panels.mid_r[None, :], cells.zc[:, None] - panels.mid_z[None, :]
-        )
-        - 0.5 * panels.length[None, :]
-    )
-    near = (dist.min(axis=1) < reach * size) if order > 1 else np.zeros(cells.n, bool)
-    x, w = np.polynomial.legendre.leggauss(max(order, 1))
-    x, w = 0.5 * x, 0.5 * w
-    xr, xz = np.repeat(x, x.size), np.tile(x, x.size)
-    ww = np.repeat(w, w.size) * np.tile(w, w.size)
-    far = np.flatnonzero(~near)
-    close = np.flatnonzero(near)
-    r = np.concatenate(
-        [cells.rc[far], (cells.rc[close, None] + cells.dr[close, None] * xr).ravel()]
-    )
-    z = np.concatenate(
-        [cells.zc[far], (cells.zc[close, None] + cells.dz[close, None] * xz).ravel()]
-    )
-    return r, z, NodeMap(far, close, ww, cells.n)
-
-
 def _gauss_nodes(cells: Cells, idx):
     """2 x 2 Gauss nodes of the cells ``idx``: (len(idx), 4) arrays of r and z."""
     gr = cells.rc[idx, None] + cells.dr[idx, None] * np.repeat(_G2, 2)[None, :]
@@ -189,54 +131,9 @@ def cell_mutual_matrix(cells: Cells, dz_rows=None):
         Cells whose dMdz rows are wanted (the pull needs only the target's rows, against every
         other cell); other rows are left 0. Default: all.
     """
-    rc, zc = cells.rc, cells.zc
-    n = cells.n
-    rows = np.ones(n, bool) if dz_rows is None else np.asarray(dz_rows, bool)
-    i, j = _near_pairs(cells)
-    # Far pairs (i < j) between centres; near pairs are set below. A pair with a cell of ``rows``
-    # needs dM/dz as well: mutual_pair gives both from one elliptic evaluation (elementwise equal
-    # to mutual and mutual_dz), and dM/dz_j = -dM/dz_i exactly (the formula is odd in z1 - z2).
-    far = np.triu(np.ones((n, n), bool), 1)
-    far[i, j] = False
-    iu, ju = np.nonzero(far)
-    with_dz = rows[iu] | rows[ju]
-    M = np.zeros((n, n))
-    D = np.zeros((n, n))
-    a, b = iu[with_dz], ju[with_dz]
-    m_ab, d_ab = mutual_pair(rc[a], zc[a], rc[b], zc[b])
-    M[a, b] = m_ab
-    M[b, a] = m_ab
-    D[a, b] = np.where(rows[a], d_ab, 0.0)
-    D[b, a] = np.where(rows[b], -d_ab, 0.0)
-    a, b = iu[~with_dz], ju[~with_dz]
-    m_ab = mutual(rc[a], zc[a], rc[b], zc[b])
-    M[a, b] = m_ab
-    M[b, a] = m_ab
-    if i.size:
-        ri, zi = _gauss_nodes(cells, i)
-        rj, zj = _gauss_nodes(cells, j)
-        args = (ri[:, :, None], zi[:, :, None], rj[:, None, :], zj[:, None, :])
-        m_near, d_near = mutual_pair(*args)
-        # The log singularity of the kernel is averaged exactly (the rectangles' GMD) instead of
-        # by the Gauss nodes: M ~ mu0 R (ln(8R/rho) - 2) near coincidence.
-        dr_, dz_ = args[0] - args[2], args[1] - args[3]
-        rho2 = dr_**2 + dz_**2
-        gauss_log = 0.5 * np.log(rho2).mean(axis=(1, 2))
-        gauss_dlog = (dz_ / rho2).mean(axis=(1, 2))
-        exact_log, exact_dlog = rect_log_mean(
-            (cells.r0[i], cells.r1[i]),
-            (cells.z0[i], cells.z1[i]),
-            (cells.r0[j], cells.r1[j]),
-            (cells.z0[j], cells.z1[j]),
-        )
-        scale = mu_0 * np.sqrt(rc[i] * rc[j])
-        m_near = m_near.mean(axis=(1, 2)) - scale * (exact_log - gauss_log)
-        d_near = d_near.mean(axis=(1, 2)) - scale * (exact_dlog - gauss_dlog)
-        M[i, j] = m_near
-        M[j, i] = m_near
-        D[i, j] = np.where(rows[i], d_near, 0.0)
-        D[j, i] = np.where(rows[j], -d_near, 0.0)
-    np.fill_diagonal(M, self_inductance_rect(rc, cells.dr, cells.dz))
+    rows = np.ones(cells.n, bool) if dz_rows is None else np.asarray(dz_rows, bool)
+    M, D = cell_mutual(cells.r0, cells.r1, cells.z0, cells.z1, rows)
+    np.fill_diagonal(M, self_inductance_rect(cells.rc, cells.dr, cells.dz))
     return M, D
 
 
@@ -321,15 +218,20 @@ def assemble_circuit(design, fineness: Fineness, pole_model=None) -> CircuitSyst
     panel_M = panel_D = None
     P = iron_loss = grid = None
     if pole_model is not None:
-        from models.fast.pole import panel_mutual, panel_mutual_dz
-
         panels = pole_model.panels
-        # Node quantities to cell quantities: W.T @ (nodes x panels), (panels x nodes) @ W, with
-        # W applied by index (``NodeMap``) rather than as a dense matrix.
-        nr, nz, nodes = iron_nodes(cells, panels, fineness.iron_nodes, fineness.iron_reach)
-        P = nodes.from_cells_right(pole_model.operator(nr, nz))  # (n_panels, n_cells)
-        panel_M = nodes.to_cells(panel_mutual(panels, nr, nz))  # (n_cells, n_panels)
-        panel_D = nodes.to_cells(panel_mutual_dz(panels, nr, nz))
+        # Each cell with each panel: its mutual inductance, the derivative in the cell's z and
+        # the panel-averaged tangential field of 1 A in it, the cell averaged over Gauss nodes
+        # where it is within iron_reach cell sizes of the panel (models.fast.kernels).
+        panel_M, panel_D, applied = cell_panel_sums(
+            panels,
+            cells.rc,
+            cells.zc,
+            cells.dr,
+            cells.dz,
+            fineness.iron_nodes,
+            fineness.iron_reach,
+        )  # (n_cells, n_panels) each
+        P = pole_model.response(applied.T)  # (n_panels, n_cells)
         M_iron = panel_M @ P
         M_iron = 0.5 * (M_iron + M_iron.T)
         M_total = M + M_iron

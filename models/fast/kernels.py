@@ -78,6 +78,16 @@ _BRACKET, _FORCE = _series_coefficients()
 _K_SERIES, _E_SERIES = _ke_series_coefficients()
 #: K and E by their series below this m (17 terms: the first left out is below 1e-22 of K).
 _KE_SERIES = 0.05
+#: The fixed five steps of the arithmetic-geometric mean in ``_pairs_block`` converge to
+#: rounding up to this m (the sixth step's c is below 1e-11 there).
+_AGM_FIXED = 0.95
+
+
+@njit(cache=True, error_model="numpy")
+def _dist(x, y):
+    """sqrt(x^2 + y^2) (math.hypot guards against overflow at a cost the model's lengths do not
+    need)."""
+    return math.sqrt(x * x + y * y)
 
 
 @njit(cache=True, error_model="numpy")
@@ -152,36 +162,23 @@ def _pair(a, z0, r, z):
     return mut, dz, br, bz
 
 
-@njit(cache=True, error_model="numpy")
-def _coaxial_flat(r1, z1, r2, z2, mut, dz):
-    for i in range(r1.size):
-        m_, d_, _, _ = _pair(r2[i], z2[i], r1[i], z1[i])
-        mut[i] = m_
-        dz[i] = d_
+def _all_four(a, z0, r, z):
+    n = a.size
+    out = [np.empty(n) for _ in range(4)]
+    _pairs_block(a, z0, r, z, n, *out)
+    return out
 
 
 def coaxial_pair(r1, z1, r2, z2):
     """M [H] and dM/dz1 [H/m] of coaxial filaments (r1, z1), (r2, z2), 1-D float arrays of equal
     length (models.fast.filaments.mutual_pair's values, compiled)."""
-    mut = np.empty(r1.size)
-    dz = np.empty(r1.size)
-    _coaxial_flat(r1, z1, r2, z2, mut, dz)
+    mut, dz, _, _ = _all_four(r2, z2, r1, z1)
     return mut, dz
-
-
-@njit(cache=True, error_model="numpy")
-def _loop_field_flat(a, z0, r, z, br, bz):
-    for i in range(a.size):
-        _, _, b_r, b_z = _pair(a[i], z0[i], r[i], z[i])
-        br[i] = b_r
-        bz[i] = b_z
 
 
 def loop_field_flat(a, z0, r, z):
     """(B_r, B_z) [T/A] of loops (a, z0) at points (r, z), 1-D float arrays of equal length."""
-    br = np.empty(a.size)
-    bz = np.empty(a.size)
-    _loop_field_flat(a, z0, r, z, br, bz)
+    _, _, br, bz = _all_four(a, z0, r, z)
     return br, bz
 
 
@@ -195,17 +192,72 @@ def loop_field_flat(a, z0, r, z):
 FIELD, SOURCE = 0, 1
 
 
+#: Nodes per block of the panel integration (the block's arrays stay in cache), and the most
+#: nodes one pair's rule can have (two sides of max_levels + 1 intervals of up to 5 points).
+_BLOCK_NODES = 4096
+_PAIR_NODES_MAX = 2 * (q._MAX_LEVELS + 1) * 5
+
+
 @njit(cache=True, error_model="numpy")
-def _accumulate(mode, nr, nz, w, pr, pz, tr, tz, out, k):
-    if mode == 0:
-        _, _, br, bz = _pair(nr, nz, pr, pz)
-        out[0, k] += w * br
-        out[1, k] += w * bz
-    else:
-        mut, dz_node, br, bz = _pair(pr, pz, nr, nz)
-        out[0, k] += w * mut
-        out[1, k] -= w * dz_node
-        out[2, k] += w * (br * tr + bz * tz)
+def _pairs_block(a_, z0_, r_, z_, n, mut, dzo, bro, bzo):
+    """``_pair`` over the first n elements, written so that the compiler vectorises it: the
+    arithmetic-geometric mean takes a fixed 5 steps (converged to rounding for m <= 0.95) and
+    both branches of the series are computed; elements outside that range (m > 0.95, a point
+    near the axis, a radius of 0) are done again by ``_pair``."""
+    for i in range(n):
+        a = a_[i]
+        r = r_[i]
+        zeta = z_[i] - z0_[i]
+        zeta2 = zeta * zeta
+        d = a - r
+        s = a + r
+        alpha2 = d * d + zeta2
+        beta2 = s * s + zeta2
+        p = alpha2 / beta2
+        m = min(4.0 * a * r / beta2, 1.0)
+        aa = 1.0
+        bb = math.sqrt(p)
+        acc = 0.5 * m
+        w = 0.5
+        for _ in range(5):
+            c = 0.5 * (aa - bb)
+            w *= 2.0
+            acc += w * c * c
+            a_next = 0.5 * (aa + bb)
+            bb = math.sqrt(aa * bb)
+            aa = a_next
+        k_agm = math.pi / (2.0 * aa)
+        e_agm = k_agm * (1.0 - acc)
+        k_ser = 0.0
+        e_ser = 0.0
+        for j in range(_K_SERIES.size - 1, -1, -1):
+            k_ser = k_ser * m + _K_SERIES[j]
+            e_ser = e_ser * m + _E_SERIES[j]
+        b_m_ser = 0.0
+        for j in range(_BRACKET.size - 1, -1, -1):
+            b_m_ser = b_m_ser * m + _BRACKET[j]
+        b_f_ser = 0.0
+        for j in range(_FORCE.size - 1, -1, -1):
+            b_f_ser = b_f_ser * m + _FORCE[j]
+        k = k_ser if m < _KE_SERIES else k_agm
+        e = e_ser if m < _KE_SERIES else e_agm
+        b_m = b_m_ser if m < _M_SERIES else (1.0 - 0.5 * m) * k - e
+        b_f = b_f_ser if m < _M_SERIES else (2.0 - m) * e - 2.0 * p * k
+        sq = math.sqrt(a * r)
+        km = math.sqrt(m)
+        dz = -_MU0 * zeta * km / (4.0 * p * sq) * b_f
+        mut[i] = _MU0 * sq * 2.0 / km * b_m
+        dzo[i] = dz
+        bzo[i] = _MU0 / (_TWO_PI * math.sqrt(beta2)) * (e * (a * a - r * r - zeta2) / alpha2 + k)
+        bro[i] = -dz / (_TWO_PI * r)
+    for i in range(n):
+        a = a_[i]
+        r = r_[i]
+        zeta = z_[i] - z0_[i]
+        s = a + r
+        m = 4.0 * a * r / (s * s + zeta * zeta)
+        if not (m <= _AGM_FIXED and m > 0.0 and r >= 1e-6 * a):
+            mut[i], dzo[i], bro[i], bzo[i] = _pair(a, z0_[i], r, z_[i])
 
 
 @njit(cache=True, error_model="numpy")
@@ -238,98 +290,148 @@ def _panel_pair_sums(
     out,
 ):
     ln_g = math.log(grade)
-    for k in range(pidx.size):
-        p = pidx[k]
-        q = rho[k]
-        if q >= far and axis[p]:
-            q = far * 0.999
-        ar = r0[p]
-        az = z0[p]
-        dr = r1[p] - ar
-        dz = z1[p] - az
-        t_r = tr[p]
-        t_z = tz[p]
-        if q >= far:
-            _accumulate(mode, moment_r[p], az + dz * 0.5, 1.0, pr[k], pz[k], t_r, t_z, out, k)
-        elif q >= mid2:
-            for j in range(x2.size):
-                x = x2[j]
-                _accumulate(mode, ar + dr * x, az + dz * x, w2[j], pr[k], pz[k], t_r, t_z, out, k)
-        elif q >= near:
-            for j in range(x4.size):
-                x = x4[j]
-                _accumulate(mode, ar + dr * x, az + dz * x, w4[j], pr[k], pz[k], t_r, t_z, out, k)
+    cap = _BLOCK_NODES + _PAIR_NODES_MAX
+    nr = np.empty(cap)
+    nz = np.empty(cap)
+    nw = np.empty(cap)
+    owner = np.empty(cap, np.int64)
+    la = np.empty(cap)
+    lz = np.empty(cap)
+    fr = np.empty(cap)
+    fz = np.empty(cap)
+    v0 = np.empty(cap)
+    v1 = np.empty(cap)
+    v2 = np.empty(cap)
+    v3 = np.empty(cap)
+    k = 0
+    n_pairs = pidx.size
+    while k < n_pairs:
+        n = 0
+        while k < n_pairs and n < _BLOCK_NODES:
+            # The rule of panel p for the point (px, py), written to nr, nz, nw from n on. The
+            # tiers and the graded rule are those of models.fast.quadrature (module docstring).
+            # Written out here rather than called: a call per pair costs more than the rule.
+            n_first = n
+            p = pidx[k]
+            px = pr[k]
+            py = pz[k]
+            q_ = rho[k]
+            if q_ >= far and axis[p]:
+                q_ = far * 0.999
+            ar = r0[p]
+            az = z0[p]
+            dr = r1[p] - ar
+            dz = z1[p] - az
+            if q_ >= far:
+                nr[n] = moment_r[p]
+                nz[n] = az + dz * 0.5
+                nw[n] = 1.0
+                n += 1
+            elif q_ >= mid2:
+                for j in range(x2.size):
+                    nr[n] = ar + dr * x2[j]
+                    nz[n] = az + dz * x2[j]
+                    nw[n] = w2[j]
+                    n += 1
+            elif q_ >= near:
+                for j in range(x4.size):
+                    nr[n] = ar + dr * x4[j]
+                    nz[n] = az + dz * x4[j]
+                    nw[n] = w4[j]
+                    n += 1
+            else:
+                # Graded composite rule toward the point of the panel nearest the point: the
+                # innermost interval on each side is max(d, eps) (d the point's distance from
+                # the panel in panel lengths), the others grow by 1 / grade.
+                length2 = dr * dr + dz * dz
+                s = ((px - ar) * dr + (py - az) * dz) / length2
+                if s < 0.0:
+                    s = 0.0
+                elif s > 1.0:
+                    s = 1.0
+                d = _dist(px - (ar + s * dr), py - (az + s * dz)) / math.sqrt(length2)
+                t = d if d > eps else eps
+                for side in range(2):
+                    extent = s if side == 0 else 1.0 - s
+                    if extent <= 0.0:
+                        continue
+                    sgn = -1.0 if side == 0 else 1.0
+                    lev = 0
+                    if extent > t:
+                        lev = int(math.ceil(math.log(t / extent) / ln_g))
+                        if lev < 1:
+                            lev = 1
+                        elif lev > max_levels:
+                            lev = max_levels
+                    for j in range(lev + 1):
+                        if j == lev:
+                            lo = 0.0
+                            hi = extent if lev == 0 else t
+                        else:
+                            hi = extent * grade**j
+                            lo = t if j == lev - 1 else extent * grade ** (j + 1)
+                        span = hi - lo
+                        for g in range(xg.size):
+                            sn = s + sgn * (lo + span * xg[g])
+                            nr[n] = ar + dr * sn
+                            nz[n] = az + dz * sn
+                            nw[n] = span * wg[g]
+                            n += 1
+            for j in range(n_first, n):
+                owner[j] = k
+            k += 1
+        if mode == 0:  # the panel's node is the loop, the field at the point
+            for j in range(n):
+                la[j] = nr[j]
+                lz[j] = nz[j]
+                fr[j] = pr[owner[j]]
+                fz[j] = pz[owner[j]]
+        else:  # the point is the loop, the field (and flux) at the panel's node
+            for j in range(n):
+                la[j] = pr[owner[j]]
+                lz[j] = pz[owner[j]]
+                fr[j] = nr[j]
+                fz[j] = nz[j]
+        _pairs_block(la, lz, fr, fz, n, v0, v1, v2, v3)
+        if mode == 0:
+            for j in range(n):
+                o = owner[j]
+                out[0, o] += nw[j] * v2[j]
+                out[1, o] += nw[j] * v3[j]
         else:
-            # Graded composite rule toward the point of the panel nearest the point
-            # (models.fast.quadrature._graded_nodes).
-            length2 = dr * dr + dz * dz
-            s = ((pr[k] - ar) * dr + (pz[k] - az) * dz) / length2
-            if s < 0.0:
-                s = 0.0
-            elif s > 1.0:
-                s = 1.0
-            d = math.hypot(pr[k] - (ar + s * dr), pz[k] - (az + s * dz)) / math.sqrt(length2)
-            t = d if d > eps else eps
-            for side in range(2):
-                extent = s if side == 0 else 1.0 - s
-                if extent <= 0.0:
-                    continue
-                sgn = -1.0 if side == 0 else 1.0
-                lev = 0
-                if extent > t:
-                    lev = int(math.ceil(math.log(t / extent) / ln_g))
-                    if lev < 1:
-                        lev = 1
-                    elif lev > max_levels:
-                        lev = max_levels
-                for j in range(lev + 1):
-                    if j == lev:
-                        lo = 0.0
-                        hi = extent if lev == 0 else t
-                    else:
-                        hi = extent * grade**j
-                        lo = t if j == lev - 1 else extent * grade ** (j + 1)
-                    span = hi - lo
-                    for g in range(xg.size):
-                        sn = s + sgn * (lo + span * xg[g])
-                        _accumulate(
-                            mode,
-                            ar + dr * sn,
-                            az + dz * sn,
-                            span * wg[g],
-                            pr[k],
-                            pz[k],
-                            t_r,
-                            t_z,
-                            out,
-                            k,
-                        )
+            for j in range(n):
+                o = owner[j]
+                p = pidx[o]
+                out[0, o] += nw[j] * v0[j]
+                out[1, o] -= nw[j] * v1[j]
+                out[2, o] += nw[j] * (v2[j] * tr[p] + v3[j] * tz[p])
 
 
 def panel_pair_sums(mode, panels, pidx, pr, pz, rho, eps, n_gauss):
     """Integrals over panel ``pidx[k]`` for the point (pr[k], pz[k]), every k: (2, n) sums for
-    FIELD, (3, n) for SOURCE (see the modes), by the rules of models.fast.quadrature (``_rule``:
-    tiers by ``rho``, the point's distance from the panel's midpoint in panel lengths; graded
-    rules with innermost interval ``eps`` and ``n_gauss`` points per interval)."""
+    FIELD, (3, n) for SOURCE (see the modes), by the rules of models.fast.quadrature (tiers by
+    ``rho``, the point's distance from the panel's midpoint in panel lengths; graded rules with
+    innermost interval ``eps`` and ``n_gauss`` points per interval)."""
     (r0, z0), (r1, z1) = panels.start, panels.end
     x2, w2 = q._gauss01(2)
     x4, w4 = q._gauss01(4)
     xg, wg = q._gauss01(n_gauss)
+    c = np.ascontiguousarray
     out = np.zeros((2 if mode == FIELD else 3, len(pidx)))
     _panel_pair_sums(
         mode,
-        np.ascontiguousarray(pidx, dtype=np.int64),
-        np.ascontiguousarray(pr, dtype=float),
-        np.ascontiguousarray(pz, dtype=float),
-        np.ascontiguousarray(rho, dtype=float),
-        np.ascontiguousarray(r0, dtype=float),
-        np.ascontiguousarray(z0, dtype=float),
-        np.ascontiguousarray(r1, dtype=float),
-        np.ascontiguousarray(z1, dtype=float),
-        np.ascontiguousarray(q._moment_radius(panels), dtype=float),
-        np.ascontiguousarray(panels.tr, dtype=float),
-        np.ascontiguousarray(panels.tz, dtype=float),
-        np.ascontiguousarray(panels.mid_r < q._AXIS * panels.length),
+        c(pidx, dtype=np.int64),
+        c(pr, dtype=float),
+        c(pz, dtype=float),
+        c(rho, dtype=float),
+        c(r0, dtype=float),
+        c(z0, dtype=float),
+        c(r1, dtype=float),
+        c(z1, dtype=float),
+        c(q._moment_radius(panels), dtype=float),
+        c(panels.tr, dtype=float),
+        c(panels.tz, dtype=float),
+        c(panels.mid_r < q._AXIS * panels.length),
         x2,
         x4,
         w2,
@@ -347,6 +449,96 @@ def panel_pair_sums(mode, panels, pidx, pr, pz, rho, eps, n_gauss):
     return out
 
 
+@njit(cache=True, error_model="numpy")
+def _scatter(sums, scale, target, out):
+    for k in range(scale.size):
+        for i in range(sums.shape[0]):
+            out[i, target[k]] += scale[k] * sums[i, k]
+
+
+@njit(cache=True, error_model="numpy")
+def _cell_pairs(rc, zc, dr, dz, gx, gw, reach, mid_r, mid_z, length):
+    """(panel, point, distance in panel lengths, weight, output index) of every cell-panel
+    pair: order^2 Gauss nodes of a cell within ``reach`` cell sizes of some panel, else its
+    centre."""
+    n_c = rc.size
+    n_p = mid_r.size
+    n_g = gx.size * gx.size
+    count = 0
+    near = np.zeros(n_c * n_p, np.bool_)
+    dist = np.empty(n_p)
+    for c in range(n_c):
+        size = max(dr[c], dz[c])
+        closest = np.inf
+        for p in range(n_p):
+            dist[p] = _dist(rc[c] - mid_r[p], zc[c] - mid_z[p]) - 0.5 * length[p]
+            closest = min(closest, dist[p])
+        for p in range(n_p):
+            if n_g > 1 and closest < reach * size:
+                near[c * n_p + p] = True
+                count += n_g
+            else:
+                count += 1
+    pidx = np.empty(count, np.int64)
+    pr = np.empty(count)
+    pz = np.empty(count)
+    rho = np.empty(count)
+    scale = np.empty(count)
+    target = np.empty(count, np.int64)
+    n = 0
+    for c in range(n_c):
+        for p in range(n_p):
+            k = c * n_p + p
+            if near[k]:
+                for i in range(gx.size):
+                    for j in range(gx.size):
+                        x = rc[c] + dr[c] * gx[i]
+                        y = zc[c] + dz[c] * gx[j]
+                        pidx[n] = p
+                        pr[n] = x
+                        pz[n] = y
+                        rho[n] = _dist(x - mid_r[p], y - mid_z[p]) / length[p]
+                        scale[n] = gw[i] * gw[j]
+                        target[n] = k
+                        n += 1
+            else:
+                pidx[n] = p
+                pr[n] = rc[c]
+                pz[n] = zc[c]
+                rho[n] = _dist(rc[c] - mid_r[p], zc[c] - mid_z[p]) / length[p]
+                scale[n] = 1.0
+                target[n] = k
+                n += 1
+    return pidx, pr, pz, rho, scale, target
+
+
+def cell_panel_sums(panels, rc, zc, dr, dz, order, reach):
+    """SOURCE sums (mutual inductance, its derivative in the cell's z, panel-averaged tangential
+    field; shape (3, n_cells, n_panels)) of uniform-current cells (centres rc, zc, sides dr, dz)
+    with every panel. A cell within ``reach`` cell sizes of a panel (the distance of its centre
+    from the panel's midpoint less half the panel's length) is averaged over order x order
+    Gauss-Legendre nodes, otherwise taken at its centre."""
+    x, w = np.polynomial.legendre.leggauss(max(int(order), 1))
+    c = np.ascontiguousarray
+    pairs = _cell_pairs(
+        c(rc, dtype=float),
+        c(zc, dtype=float),
+        c(dr, dtype=float),
+        c(dz, dtype=float),
+        0.5 * x,
+        0.5 * w,
+        float(reach),
+        c(panels.mid_r, dtype=float),
+        c(panels.mid_z, dtype=float),
+        c(panels.length, dtype=float),
+    )
+    pidx, pr, pz, rho, scale, target = pairs
+    sums = panel_pair_sums(SOURCE, panels, pidx, pr, pz, rho, q._EPS_FIELD, q._GAUSS_GRADED)
+    out = np.zeros((3, rc.size * panels.n))
+    _scatter(sums, scale, target, out)
+    return out.reshape(3, rc.size, panels.n)
+
+
 # ------------------------------------------------------------------------------------------------
 # The logarithmic mean distance of two rectangles (models.fast.filaments.rect_log_mean)
 
@@ -360,8 +552,18 @@ def _log_f(u, v):
     v = abs(v)
     r2 = u * u + v * v
     log = math.log(r2) if r2 > 0.0 else 0.0
-    at_vu = math.atan(v / u) if u > 0.0 else 0.5 * math.pi
-    at_uv = math.atan(u / v) if v > 0.0 else 0.5 * math.pi
+    # atan(v/u) and atan(u/v) (pi/2 where the argument's denominator is 0); the two add up
+    # to pi/2 where u, v > 0, so one arc tangent serves, taken on the argument <= 1.
+    if u > 0.0 and v > 0.0:
+        if v <= u:
+            at_vu = math.atan(v / u)
+            at_uv = 0.5 * math.pi - at_vu
+        else:
+            at_uv = math.atan(u / v)
+            at_vu = 0.5 * math.pi - at_uv
+    else:
+        at_vu = 0.0 if v == 0.0 and u > 0.0 else 0.5 * math.pi
+        at_uv = 0.0 if u == 0.0 and v > 0.0 else 0.5 * math.pi
     uu = u * u
     vv = v * v
     u3 = uu * u
@@ -408,3 +610,135 @@ def rect_log_mean_flat(a1, b1, c1, d1, a2, b2, c2, d2):
     d_ln_g = np.empty(a1.size)
     _rect_log_mean_flat(a1, b1, c1, d1, a2, b2, c2, d2, ln_g, d_ln_g)
     return ln_g, d_ln_g
+
+
+# ------------------------------------------------------------------------------------------------
+# The cells' mutual inductance matrix (models.fast.circuit.cell_mutual_matrix)
+
+#: Pairs of cells nearer than this many cell sizes average the kernel over Gauss nodes.
+_NEAR_REACH = 1.01
+#: Two-point Gauss-Legendre abscissae on [-1/2, 1/2].
+_G2 = 0.5 / math.sqrt(3.0)
+
+
+@njit(cache=True, error_model="numpy")
+def _log_mean_pair(a1, b1, c1, d1, a2, b2, c2, d2):
+    """One pair of ``_rect_log_mean_flat``."""
+    du = (b1 - a2, b1 - b2, a1 - a2, a1 - b2)
+    dv = (d1 - c2, d1 - d2, c1 - c2, c1 - d2)
+    sign = (1.0, -1.0, -1.0, 1.0)
+    f_sum = 0.0
+    fd_sum = 0.0
+    for i in range(4):
+        for j in range(4):
+            f, fd = _log_f(du[i], dv[j])
+            w = sign[i] * sign[j]
+            f_sum += w * f
+            fd_sum += w * fd
+    area = (b1 - a1) * (d1 - c1) * (b2 - a2) * (d2 - c2)
+    return f_sum / area, fd_sum / area
+
+
+@njit(cache=True, error_model="numpy")
+def _cell_mutual(r0, r1, z0, z1, rows, mat, der):
+    n = r0.size
+    rc = 0.5 * (r0 + r1)
+    zc = 0.5 * (z0 + z1)
+    dr = r1 - r0
+    dz = z1 - z0
+    n_far = 0
+    n_near = 0
+    near = np.zeros((n, n), np.bool_)
+    for i in range(n):
+        for j in range(i + 1, n):
+            gap_r = abs(rc[i] - rc[j]) - 0.5 * (dr[i] + dr[j])
+            gap_z = abs(zc[i] - zc[j]) - 0.5 * (dz[i] + dz[j])
+            size = max(max(dr[i], dr[j]), max(dz[i], dz[j]))
+            if max(gap_r, gap_z) < _NEAR_REACH * size:
+                near[i, j] = True
+                n_near += 1
+            else:
+                n_far += 1
+    # Far pairs: Maxwell's formula between centres.
+    m = n_far + 16 * n_near
+    a1 = np.empty(m)
+    b1 = np.empty(m)
+    a2 = np.empty(m)
+    b2 = np.empty(m)
+    k = 0
+    for i in range(n):
+        for j in range(i + 1, n):
+            if near[i, j]:
+                for u in range(4):
+                    ri = rc[i] + dr[i] * (_G2 if u >= 2 else -_G2)
+                    zi = zc[i] + dz[i] * (_G2 if u % 2 == 1 else -_G2)
+                    for v in range(4):
+                        a1[k] = ri
+                        b1[k] = zi
+                        a2[k] = rc[j] + dr[j] * (_G2 if v >= 2 else -_G2)
+                        b2[k] = zc[j] + dz[j] * (_G2 if v % 2 == 1 else -_G2)
+                        k += 1
+            else:
+                a1[k] = rc[i]
+                b1[k] = zc[i]
+                a2[k] = rc[j]
+                b2[k] = zc[j]
+                k += 1
+    mut = np.empty(m)
+    dz1 = np.empty(m)
+    br = np.empty(m)
+    bz = np.empty(m)
+    _pairs_block(a2, b2, a1, b1, m, mut, dz1, br, bz)  # dz1: derivative in cell i's z
+    k = 0
+    for i in range(n):
+        for j in range(i + 1, n):
+            if near[i, j]:
+                # The log singularity of the kernel is averaged exactly (the rectangles' GMD)
+                # in place of its Gauss average: M ~ mu0 R (ln(8R/rho) - 2) near coincidence.
+                m_sum = 0.0
+                d_sum = 0.0
+                log_sum = 0.0
+                dlog_sum = 0.0
+                for t in range(16):
+                    m_sum += mut[k + t]
+                    d_sum += dz1[k + t]
+                    ddr = a1[k + t] - a2[k + t]
+                    ddz = b1[k + t] - b2[k + t]
+                    rho2 = ddr * ddr + ddz * ddz
+                    log_sum += math.log(rho2)
+                    dlog_sum += ddz / rho2
+                k += 16
+                exact_log, exact_dlog = _log_mean_pair(
+                    r0[i], r1[i], z0[i], z1[i], r0[j], r1[j], z0[j], z1[j]
+                )
+                scale = _MU0 * math.sqrt(rc[i] * rc[j])
+                m_ij = m_sum / 16.0 - scale * (exact_log - 0.5 * log_sum / 16.0)
+                d_ij = d_sum / 16.0 - scale * (exact_dlog - dlog_sum / 16.0)
+            else:
+                m_ij = mut[k]
+                d_ij = dz1[k]
+                k += 1
+            mat[i, j] = m_ij
+            mat[j, i] = m_ij
+            der[i, j] = d_ij if rows[i] else 0.0
+            der[j, i] = -d_ij if rows[j] else 0.0
+
+
+def cell_mutual(r0, r1, z0, z1, rows):
+    """Mutual inductances of uniform-current cells [r0, r1] x [z0, z1] (diagonal left 0) [H] and
+    dM/dz_i [H/m] in the rows ``rows`` (others 0): models.fast.circuit.cell_mutual_matrix's
+    off-diagonal terms."""
+    n = r0.size
+    mat = np.zeros((n, n))
+    der = np.zeros((n, n))
+    c = np.ascontiguousarray
+    _cell_mutual(
+        c(r0, dtype=float),
+        c(r1, dtype=float),
+        c(z0, dtype=float),
+        c(z1, dtype=float),
+        c(rows, dtype=np.bool_),
+        mat,
+        der,
+    )
+    return mat, der

@@ -19,7 +19,8 @@ import models.fast.pole as pole
 from models import load_design
 from models.evaluate import DEFAULT_FINENESS
 from models.fast import circuit, core, flux
-from models.fast.circuit import TARGET, build_cells, cell_mutual_matrix, iron_nodes, solve_circuit
+from models.fast.circuit import TARGET, build_cells, cell_mutual_matrix, solve_circuit
+from models.fast.kernels import cell_panel_sums
 from optim.demo import DEMO_DESIGN
 
 # models/__init__ exports the function evaluate, which hides the module of that name.
@@ -46,7 +47,8 @@ def _stages(design):
     cells = build_cells(design, fine)
     mp = ev.pole_model_for(design, fine)
     panels = mp.panels
-    nr, nz, _ = iron_nodes(cells, panels, fine.iron_nodes, fine.iron_reach)
+    coupling = (cells.rc, cells.zc, cells.dr, cells.dz, fine.iron_nodes, fine.iron_reach)
+    applied = cell_panel_sums(panels, *coupling)[2].T.copy()
     sol = solve_circuit(design, fine, mp)
     result = ev.evaluate(design)
     P = sol_P(design, fine, mp)
@@ -72,11 +74,8 @@ def _stages(design):
         "MagnetisedPole()": lambda: pole.MagnetisedPole(panels, design.pole.relative_permeability),
         "pole_model_for (cold)": cold(lambda: ev.pole_model_for(design, fine)),
         "pole_model_for (warm)": lambda: ev.pole_model_for(design, fine),
-        "iron_nodes": lambda: iron_nodes(cells, panels, fine.iron_nodes, fine.iron_reach),
-        "operator": cold(lambda: mp.operator(nr, nz)),
-        "panel_mutual+_dz": cold(
-            lambda: (pole.panel_mutual(panels, nr, nz), pole.panel_mutual_dz(panels, nr, nz))
-        ),
+        "cell_panel_sums": lambda: cell_panel_sums(panels, *coupling),
+        "operator solve": lambda: mp.response(applied),
         "complex solve": lambda: np.linalg.solve(Z, rhs),
         "solve_circuit (warm pole)": cold(lambda: solve_circuit(design, fine, mp)),
         "pull_by_source": lambda: ev.pull_by_source(sol),
@@ -88,7 +87,7 @@ def _stages(design):
         ),
         "evaluate (cold)": cold(lambda: ev.evaluate(design)),
         "evaluate (warm pole)": lambda: ev.evaluate(design),
-    }, (cells.n, panels.n, nr.size)
+    }, (cells.n, panels.n)
 
 
 def main():
@@ -96,7 +95,7 @@ def main():
     parser.add_argument("--repeats", type=int, default=20)
     args = parser.parse_args()
     design = load_design(DEMO)
-    stages, (n_cells, n_panels, n_nodes) = _stages(design)
+    stages, (n_cells, n_panels) = _stages(design)
     times = {k: [] for k in stages}
     for fn in stages.values():  # warm-up
         fn()
@@ -106,7 +105,7 @@ def main():
             fn()
             times[stage].append(time.perf_counter() - t)
     print(
-        f"demo design: {n_cells} cells, {n_panels} panels, {n_nodes} iron nodes; "
+        f"demo design: {n_cells} cells, {n_panels} panels; "
         f"OPENBLAS_NUM_THREADS={os.environ.get('OPENBLAS_NUM_THREADS', 'unset')}; "
         f"load average {' '.join(f'{x:.2f}' for x in os.getloadavg())}; "
         f"median of {args.repeats} runs [ms]"
