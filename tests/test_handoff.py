@@ -384,13 +384,14 @@ def test_rounded_design_is_rechecked_against_the_constraints():
 
     design = design_from_dict(odd_design_dict())
     rounded, result, _ = rounded_for_handoff(
-        SimpleNamespace(gaps_mm=(), constraints=[]), design, 0.01, False
+        SimpleNamespace(gaps_mm=(), constraints=[], parts=()), design, 0.01, False
     )
     pull = evaluate(rounded).pull_N
     assert result.pull_N == pull  # the rounded design's own result
     spec = SimpleNamespace(
         gaps_mm=(),
         constraints=[Constraint("pull_N", low=pull - 1.0), Constraint("input_power_W", high=1e9)],
+        parts=(),
     )
     _, _, ok = rounded_for_handoff(spec, design, 0.01, False)
     assert ok["constraints_met"] and ok["broken_constraints"] == []
