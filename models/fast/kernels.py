@@ -162,7 +162,14 @@ def _pair(a, z0, r, z):
     return mut, dz, br, bz
 
 
+def _f(x, dtype=float):
+    """A C-contiguous, writeable array of ``dtype`` (a copy only when needed): the compiled
+    functions then see one type per argument and are compiled once."""
+    return np.require(x, dtype=dtype, requirements=("C", "W"))
+
+
 def _all_four(a, z0, r, z):
+    a, z0, r, z = (_f(x) for x in (a, z0, r, z))
     n = a.size
     out = [np.empty(n) for _ in range(4)]
     _pairs_block(a, z0, r, z, n, *out)
@@ -416,7 +423,7 @@ def panel_pair_sums(mode, panels, pidx, pr, pz, rho, eps, n_gauss):
     x2, w2 = q._gauss01(2)
     x4, w4 = q._gauss01(4)
     xg, wg = q._gauss01(n_gauss)
-    c = np.ascontiguousarray
+    c = _f
     out = np.zeros((2 if mode == FIELD else 3, len(pidx)))
     _panel_pair_sums(
         mode,
@@ -431,13 +438,13 @@ def panel_pair_sums(mode, panels, pidx, pr, pz, rho, eps, n_gauss):
         c(q._moment_radius(panels), dtype=float),
         c(panels.tr, dtype=float),
         c(panels.tz, dtype=float),
-        c(panels.mid_r < q._AXIS * panels.length),
-        x2,
-        x4,
-        w2,
-        w4,
-        xg,
-        wg,
+        c(panels.mid_r < q._AXIS * panels.length, dtype=np.bool_),
+        c(x2),
+        c(x4),
+        c(w2),
+        c(w4),
+        c(xg),
+        c(wg),
         float(eps),
         q._FAR,
         q._MID2,
@@ -519,7 +526,7 @@ def cell_panel_sums(panels, rc, zc, dr, dz, order, reach):
     from the panel's midpoint less half the panel's length) is averaged over order x order
     Gauss-Legendre nodes, otherwise taken at its centre."""
     x, w = np.polynomial.legendre.leggauss(max(int(order), 1))
-    c = np.ascontiguousarray
+    c = _f
     pairs = _cell_pairs(
         c(rc, dtype=float),
         c(zc, dtype=float),
@@ -585,43 +592,6 @@ def _log_f(u, v):
 
 
 @njit(cache=True, error_model="numpy")
-def _rect_log_mean_flat(a1, b1, c1, d1, a2, b2, c2, d2, ln_g, d_ln_g):
-    sign = (1.0, -1.0, -1.0, 1.0)
-    for k in range(a1.size):
-        du = (b1[k] - a2[k], b1[k] - b2[k], a1[k] - a2[k], a1[k] - b2[k])
-        dv = (d1[k] - c2[k], d1[k] - d2[k], c1[k] - c2[k], c1[k] - d2[k])
-        f_sum = 0.0
-        fd_sum = 0.0
-        for i in range(4):
-            for j in range(4):
-                f, fd = _log_f(du[i], dv[j])
-                w = sign[i] * sign[j]
-                f_sum += w * f
-                fd_sum += w * fd
-        area = (b1[k] - a1[k]) * (d1[k] - c1[k]) * (b2[k] - a2[k]) * (d2[k] - c2[k])
-        ln_g[k] = f_sum / area
-        d_ln_g[k] = fd_sum / area
-
-
-def rect_log_mean_flat(a1, b1, c1, d1, a2, b2, c2, d2):
-    """models.fast.filaments.rect_log_mean for 1-D float arrays of the bounds: rectangle 1 is
-    [a1, b1] x [c1, d1] in (r, z), rectangle 2 [a2, b2] x [c2, d2]; (ln g12, d ln g12 / dz1)."""
-    ln_g = np.empty(a1.size)
-    d_ln_g = np.empty(a1.size)
-    _rect_log_mean_flat(a1, b1, c1, d1, a2, b2, c2, d2, ln_g, d_ln_g)
-    return ln_g, d_ln_g
-
-
-# ------------------------------------------------------------------------------------------------
-# The cells' mutual inductance matrix (models.fast.circuit.cell_mutual_matrix)
-
-#: Pairs of cells nearer than this many cell sizes average the kernel over Gauss nodes.
-_NEAR_REACH = 1.01
-#: Two-point Gauss-Legendre abscissae on [-1/2, 1/2].
-_G2 = 0.5 / math.sqrt(3.0)
-
-
-@njit(cache=True, error_model="numpy")
 def _log_mean_pair(a1, b1, c1, d1, a2, b2, c2, d2):
     """One pair of ``_rect_log_mean_flat``."""
     du = (b1 - a2, b1 - b2, a1 - a2, a1 - b2)
@@ -637,6 +607,30 @@ def _log_mean_pair(a1, b1, c1, d1, a2, b2, c2, d2):
             fd_sum += w * fd
     area = (b1 - a1) * (d1 - c1) * (b2 - a2) * (d2 - c2)
     return f_sum / area, fd_sum / area
+
+
+@njit(cache=True, error_model="numpy")
+def _rect_log_mean_flat(a1, b1, c1, d1, a2, b2, c2, d2, ln_g, d_ln_g):
+    for k in range(a1.size):
+        ln_g[k], d_ln_g[k] = _log_mean_pair(a1[k], b1[k], c1[k], d1[k], a2[k], b2[k], c2[k], d2[k])
+
+
+def rect_log_mean_flat(a1, b1, c1, d1, a2, b2, c2, d2):
+    """models.fast.filaments.rect_log_mean for 1-D float arrays of the bounds: rectangle 1 is
+    [a1, b1] x [c1, d1] in (r, z), rectangle 2 [a2, b2] x [c2, d2]; (ln g12, d ln g12 / dz1)."""
+    ln_g = np.empty(a1.size)
+    d_ln_g = np.empty(a1.size)
+    _rect_log_mean_flat(*(_f(x) for x in (a1, b1, c1, d1, a2, b2, c2, d2)), ln_g, d_ln_g)
+    return ln_g, d_ln_g
+
+
+# ------------------------------------------------------------------------------------------------
+# The cells' mutual inductance matrix (models.fast.circuit.cell_mutual_matrix)
+
+#: Pairs of cells nearer than this many cell sizes average the kernel over Gauss nodes.
+_NEAR_REACH = 1.01
+#: Two-point Gauss-Legendre abscissae on [-1/2, 1/2].
+_G2 = 0.5 / math.sqrt(3.0)
 
 
 @njit(cache=True, error_model="numpy")
@@ -731,7 +725,7 @@ def cell_mutual(r0, r1, z0, z1, rows):
     n = r0.size
     mat = np.zeros((n, n))
     der = np.zeros((n, n))
-    c = np.ascontiguousarray
+    c = _f
     _cell_mutual(
         c(r0, dtype=float),
         c(r1, dtype=float),
