@@ -1,0 +1,155 @@
+"""The compiled kernels (models.fast.kernels) against general-purpose references and themselves.
+
+References: scipy.special.ellipk / ellipe (the complete elliptic integrals, parameter m) and
+scipy.integrate.quad (the integral of a kernel along a panel). Internal identities: the
+vectorised block equals the adaptive scalar kernel; a cell's coupling to a panel is the average
+of its Gauss nodes'; each compiled function is compiled for one signature.
+"""
+
+from __future__ import annotations
+
+import warnings
+
+import numba
+import numpy as np
+import pytest
+from scipy.integrate import IntegrationWarning, quad
+from scipy.special import ellipe, ellipk, ellipkm1
+
+from models import evaluate, load_design
+from models.fast import kernels as K
+from models.fast.filaments import loop_field, mutual, mutual_dz
+from optim.demo import DEMO_DESIGN
+
+
+def test_elliptic_integrals_match_scipy():
+    """K and E by the series (m < 0.05) and the arithmetic-geometric mean, against scipy, from
+    m = 1e-12 to 1 - 1e-14 (1 - m passed exactly, as the kernels form it)."""
+    m = np.concatenate([np.logspace(-12, -0.01, 300), 1.0 - np.logspace(-14, -1, 200)])
+    p = 1.0 - m
+    for mi, pi in zip(m, p, strict=True):
+        k, e = K._ellip_ke(pi, mi)
+        k_ref = ellipkm1(pi) if pi < 0.5 else ellipk(mi)
+        assert k == pytest.approx(k_ref, rel=2e-15, abs=0)
+        assert e == pytest.approx(ellipe(mi), rel=1e-14, abs=0)  # E = K (1 - s): eps K
+
+
+def test_fixed_five_steps_converge_up_to_the_bound():
+    """The vectorised block runs the mean for five steps; at m = _AGM_FIXED the sixth step's
+    c = (a - b) / 2 is below 1e-11, so the fifth a is the mean to rounding (its error ~ c^2)."""
+    a, b = 1.0, np.sqrt(1.0 - K._AGM_FIXED)
+    for _ in range(5):
+        a, b = 0.5 * (a + b), np.sqrt(a * b)
+    assert 0.5 * (a - b) < 1e-11
+
+
+def _random_pairs(rng, n):
+    a = rng.uniform(1e-4, 2e-2, n)
+    r = rng.uniform(1e-4, 2e-2, n)
+    z0 = rng.uniform(-1e-2, 1e-2, n)
+    z = rng.uniform(-1e-2, 1e-2, n)
+    # nearly coincident, near the axis, in one plane, and a zero radius
+    r[:50] = a[:50] * (1.0 + rng.uniform(-1e-6, 1e-6, 50))
+    z[:50] = z0[:50] + rng.uniform(-1e-8, 1e-8, 50)
+    r[50:100] = a[50:100] * 1e-8
+    z[100:150] = z0[100:150]
+    r[150] = 0.0
+    return a, z0, r, z
+
+
+def test_vectorised_block_equals_scalar_kernel():
+    rng = np.random.default_rng(3)
+    a, z0, r, z = _random_pairs(rng, 20000)
+    block = [np.empty(a.size) for _ in range(4)]
+    K._pairs_block(a, z0, r, z, a.size, *block)
+    scalar = np.array([K._pair(*x) for x in zip(a, z0, r, z, strict=True)]).T
+    for got, want in zip(block, scalar, strict=True):
+        scale = np.maximum(np.abs(want), 1e-12 * np.nanmax(np.abs(want)))
+        assert np.nanmax(np.abs(got - want) / scale) < 1e-12
+        assert np.array_equal(np.isnan(got), np.isnan(want))
+
+
+def _panel(r0, z0, r1, z1):
+    from types import SimpleNamespace
+
+    length = np.hypot(r1 - r0, z1 - z0)
+    return SimpleNamespace(
+        start=(np.array([r0]), np.array([z0])),
+        end=(np.array([r1]), np.array([z1])),
+        mid_r=np.array([0.5 * (r0 + r1)]),
+        mid_z=np.array([0.5 * (z0 + z1)]),
+        length=np.array([length]),
+        tr=np.array([(r1 - r0) / length]),
+        tz=np.array([(z1 - z0) / length]),
+        n=1,
+    )
+
+
+@pytest.mark.parametrize(
+    ("point", "tol"),
+    [
+        ((8e-3, 40e-3), 3e-3),  # 40 lengths: the one-point (moment radius) rule
+        ((8e-3, 10e-3), 1e-4),  # 10 lengths: two Gauss points
+        ((8e-3, 3e-3), 1e-5),  # 4 lengths: four Gauss points
+        ((6.0e-3, 1.0e-3), 1e-5),  # graded rule
+        ((5.3e-3, 0.2e-3), 1e-5),
+        ((5.5e-3, 1e-9), 2e-5),  # on the panel (the log singularity)
+    ],
+    ids=["far", "2-point", "4-point", "graded", "graded, close", "on the panel"],
+)
+def test_panel_sums_match_quadrature(point, tol):
+    """The integral over a face panel (5-6 mm at z = 0, 1 A along it) of the flux linking a
+    filament at the point, its z derivative (the closed form of mutual_dz) and the
+    panel-averaged tangential field of the filament, against scipy.integrate.quad of the
+    filament formulas along the panel; and the panel's field at the point. The tolerance is the
+    rule's own at that distance (the model's tiers, models.fast.quadrature)."""
+    panel = _panel(5e-3, 0.0, 6e-3, 0.0)
+    pr, pz = point
+    rho = np.hypot(pr - panel.mid_r[0], pz - panel.mid_z[0]) / panel.length[0]
+    src = K.panel_pair_sums(K.SOURCE, panel, [0], [pr], [pz], [rho], 1e-7, 5)[:, 0]
+    fld = K.panel_pair_sums(K.FIELD, panel, [0], [pr], [pz], [rho], 1e-7, 5)[:, 0]
+
+    def along(f):
+        pts = [min(max(pr, 5e-3 + 1e-12), 6e-3 - 1e-12)] if pz < 1e-3 else None
+        with warnings.catch_warnings():  # quad's round-off notes where the kernel is log-singular
+            warnings.simplefilter("ignore", IntegrationWarning)
+            return quad(f, 5e-3, 6e-3, points=pts, limit=200, epsabs=0, epsrel=1e-9)[0] / 1e-3
+
+    m_ref = along(lambda x: float(mutual(x, 0.0, pr, pz)))
+    dz_ref = along(lambda x: float(mutual_dz(pr, pz, x, 0.0)))
+    bt_ref = along(lambda x: float(loop_field(pr, pz, x, 0.0)[0]))
+    br_ref = along(lambda x: float(loop_field(x, 0.0, pr, pz)[0]))
+    bz_ref = along(lambda x: float(loop_field(x, 0.0, pr, pz)[1]))
+    assert src[0] == pytest.approx(m_ref, rel=tol)
+    assert src[1] == pytest.approx(dz_ref, rel=tol)
+    assert src[2] == pytest.approx(bt_ref, rel=tol)
+    assert fld[0] == pytest.approx(br_ref, rel=tol)
+    assert fld[1] == pytest.approx(bz_ref, rel=tol)
+
+
+def test_cell_coupling_is_the_average_of_its_gauss_nodes():
+    """cell_panel_sums: a cell near a panel is the mean of its 2 x 2 Gauss nodes' sums, a cell
+    far from every panel its centre's."""
+    panel = _panel(5e-3, 0.0, 6e-3, 0.0)
+    rc, zc = np.array([5.4e-3, 30e-3]), np.array([0.6e-3, 60e-3])
+    dr, dz = np.array([0.4e-3, 0.4e-3]), np.array([0.3e-3, 0.3e-3])
+    got = K.cell_panel_sums(panel, rc, zc, dr, dz, 2, 6.0)
+    g = 0.5 / np.sqrt(3.0)
+    nr = (rc[0] + dr[0] * np.array([-g, -g, g, g])).tolist()
+    nz = (zc[0] + dz[0] * np.array([-g, g, -g, g])).tolist()
+    rho = np.hypot(np.array(nr) - 5.5e-3, np.array(nz)) / 1e-3
+    near = K.panel_pair_sums(K.SOURCE, panel, [0] * 4, nr, nz, rho, 1e-7, 5).mean(axis=1)
+    rho_far = np.hypot(rc[1] - 5.5e-3, zc[1]) / 1e-3
+    far = K.panel_pair_sums(K.SOURCE, panel, [0], [rc[1]], [zc[1]], [rho_far], 1e-7, 5)[:, 0]
+    np.testing.assert_allclose(got[:, 0, 0], near, rtol=1e-14)
+    np.testing.assert_allclose(got[:, 1, 0], far, rtol=1e-14)
+
+
+def test_each_kernel_compiled_once():
+    """After an evaluation every compiled function holds one signature (a second one would mean
+    an argument of another type, and a second compilation on every fresh install)."""
+    evaluate(load_design(DEMO_DESIGN))
+    for name in dir(K):
+        f = getattr(K, name)
+        if isinstance(f, numba.core.registry.CPUDispatcher):
+            assert len(f.signatures) <= 1, (name, f.signatures)
