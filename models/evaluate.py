@@ -255,7 +255,9 @@ def evaluate_pick_gaps(
             pulls.append(result.pull_N)
             continue
         at_gap = with_value(design, "target.gap_mm", g)
-        system = assemble_circuit(at_gap, fineness, pole_model_for(at_gap, fineness))
+        system = assemble_circuit(
+            at_gap, fineness, pole_model_for(at_gap, fineness), pull_only=True
+        )
         pulls.append(float(sum(pull_by_source(solve_system(system, part.arrival)).values())))
     return result, pulls
 
@@ -429,10 +431,11 @@ def _electrical(
 
 
 def _with_error_bar(electrical: Electrical, design: Design, fineness, temperatures) -> Electrical:
-    """``electrical`` with the pull's error estimate (models.fast.uncertainty): the pull again at
-    a coarser fineness, in the same state (one circuit assembly and solve, no thermal solve)."""
-    coarse = fineness.scaled(COARSE_FACTOR)
-    system = assemble_circuit(design, coarse, pole_model_for(design, coarse))
+    """``electrical`` with the pull's error estimate (models.fast.uncertainty): the pull again
+    with coarser cells and the same pole model, in the same state (one circuit assembly and
+    solve, no thermal solve, no new pole geometry)."""
+    coarse = dataclasses.replace(fineness.scaled(COARSE_FACTOR), panel_size=fineness.panel_size)
+    system = assemble_circuit(design, coarse, pole_model_for(design, coarse), pull_only=True)
     pull_coarse = float(sum(pull_by_source(solve_system(system, temperatures)).values()))
     u = pull_uncertainty(electrical.pull_N, pull_coarse, electrical.pull_by_source_N)
     pull = abs(electrical.pull_N)

@@ -200,7 +200,9 @@ class CircuitSystem:
     core_grid: CoreGrid | None = None
 
 
-def assemble_circuit(design, fineness: Fineness, pole_model=None) -> CircuitSystem:
+def assemble_circuit(
+    design, fineness: Fineness, pole_model=None, pull_only: bool = False
+) -> CircuitSystem:
     """Cells, inductance matrices and the iron's operator of ``design`` (no temperatures yet).
 
     Parameters
@@ -209,6 +211,10 @@ def assemble_circuit(design, fineness: Fineness, pole_model=None) -> CircuitSyst
     fineness : Fineness
     pole_model : object or None
         Magnetised-pole model with ``panels`` and ``operator(r, z)`` (models.fast.pole); None: no iron.
+    pull_only : bool
+        The system serves for currents and the pull alone (another gap, the error bar's second
+        level): under current drive the steel's field map is then left out, since it sets only
+        the terminal voltage and the core's losses there (``core_grid`` None, no core losses).
     """
     cells = build_cells(design, fineness)
     omega = design.drive.omega
@@ -236,7 +242,8 @@ def assemble_circuit(design, fineness: Fineness, pole_model=None) -> CircuitSyst
         M_iron = 0.5 * (M_iron + M_iron.T)
         M_total = M + M_iron
         iron_loss = -omega * M_iron.imag if np.iscomplexobj(M_iron) else None
-        grid = core_grid(design, cells, panels, P)
+        if not (pull_only and design.drive.current is not None):
+            grid = core_grid(design, cells, panels, P)
     else:
         M_total = M
 
