@@ -36,11 +36,10 @@ point; the grading is symmetric about a point on the panel itself, so the princi
 1/rho (two-dimensional) part is taken exactly and the log singularity of a curved sheet is
 integrated.
 
-Implementation (speed only; the numbers are those of the direct evaluation): every rule is built
-once as flat arrays of nodes and each kernel is evaluated once over them, in cache-sized blocks;
-the rule of a set of points is kept (by content) for the next call with the same points, since the
-circuit asks for the operator, ``panel_mutual`` and ``panel_mutual_dz`` at the same filaments, and
-the last two come from one pass that shares the near-range terms.
+Implementation (speed only): the rules are applied by the compiled kernels of
+models.fast.kernels, one evaluation of the elliptic integrals per node for every quantity a pair
+yields; the circuit takes its cells' coupling to the panels from ``kernels.cell_panel_sums``, and
+the diagnostics' panel fields are kept by the content of their points (models.fast.panel_kernels).
 """
 
 from __future__ import annotations
