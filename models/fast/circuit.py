@@ -133,8 +133,29 @@ def cell_mutual_matrix(cells: Cells, dz_rows=None):
     """
     rows = np.ones(cells.n, bool) if dz_rows is None else np.asarray(dz_rows, bool)
     M, D = cell_mutual(cells.r0, cells.r1, cells.z0, cells.z1, rows)
-    np.fill_diagonal(M, self_inductance_rect(cells.rc, cells.dr, cells.dz))
+    np.fill_diagonal(M, _self_inductances(cells.rc, cells.dr, cells.dz))
     return M, D
+
+
+#: Self-inductances of cell sections already computed, by (mean radius, dr, dz) [m] to the last
+#: bit: a section's self depends on nothing else, and the coil's, the target's and (at one gap)
+#: the ring's cells recur from one assembly to the next (other gaps, the error bar, a study's
+#: trials). Cleared when it holds _SELF_KEPT sections.
+_SELF: dict = {}
+_SELF_KEPT = 50_000
+
+
+def _self_inductances(rc, dr, dz):
+    """``self_inductance_rect`` of each section, from ``_SELF`` where known."""
+    keys = list(zip(rc.tolist(), dr.tolist(), dz.tolist(), strict=True))
+    out = np.array([_SELF.get(k, np.nan) for k in keys])
+    miss = np.flatnonzero(np.isnan(out))
+    if miss.size:
+        out[miss] = self_inductance_rect(rc[miss], dr[miss], dz[miss])
+        if len(_SELF) + miss.size > _SELF_KEPT:
+            _SELF.clear()
+        _SELF.update(zip((keys[i] for i in miss), out[miss].tolist(), strict=True))
+    return out
 
 
 @dataclass(frozen=True)
