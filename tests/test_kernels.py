@@ -34,13 +34,16 @@ def test_elliptic_integrals_match_scipy():
         assert e == pytest.approx(ellipe(mi), rel=1e-14, abs=0)  # E = K (1 - s): eps K
 
 
-def test_fixed_five_steps_converge_up_to_the_bound():
-    """The vectorised block runs the mean for five steps; at m = _AGM_FIXED the sixth step's
-    c = (a - b) / 2 is below 1e-11, so the fifth a is the mean to rounding (its error ~ c^2)."""
-    a, b = 1.0, np.sqrt(1.0 - K._AGM_FIXED)
-    for _ in range(5):
-        a, b = 0.5 * (a + b), np.sqrt(a * b)
-    assert 0.5 * (a - b) < 1e-11
+def test_fixed_eight_steps_converge_down_to_the_bound():
+    """The vectorised block runs the mean for eight steps; from 1 - m = 1 to _P_FIXED the eighth
+    step's c = (a - b) / 2 is below 1e-9 a, so the steps after it change a by below 1e-18 (the
+    error after a step is about c^2 / a) and the sum of E by less (King 1924; A&S 17.6)."""
+    for p in np.logspace(np.log10(K._P_FIXED), 0.0, 200):
+        a, b = 1.0, np.sqrt(p)
+        for _ in range(8):
+            c = 0.5 * (a - b)
+            a, b = 0.5 * (a + b), np.sqrt(a * b)
+        assert c <= 1e-9 * a, p
 
 
 def _random_pairs(rng, n):

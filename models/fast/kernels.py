@@ -78,9 +78,10 @@ _BRACKET, _FORCE = _series_coefficients()
 _K_SERIES, _E_SERIES = _ke_series_coefficients()
 #: K and E by their series below this m (17 terms: the first left out is below 1e-22 of K).
 _KE_SERIES = 0.05
-#: The fixed five steps of the arithmetic-geometric mean in ``_pairs_block`` converge to
-#: rounding up to this m (the sixth step's c is below 1e-11 there).
-_AGM_FIXED = 0.95
+#: The fixed eight steps of the arithmetic-geometric mean in ``_pairs_block`` converge to
+#: rounding (the last step's c below 1e-9 a, so that what follows is below 1e-18) for every
+#: 1 - m down to this.
+_P_FIXED = 1e-16
 
 
 @njit(cache=True, error_model="numpy")
@@ -208,9 +209,9 @@ _PAIR_NODES_MAX = 2 * (q._MAX_LEVELS + 1) * 5
 @njit(cache=True, error_model="numpy")
 def _pairs_block(a_, z0_, r_, z_, n, mut, dzo, bro, bzo):
     """``_pair`` over the first n elements, written so that the compiler vectorises it: the
-    arithmetic-geometric mean takes a fixed 5 steps (converged to rounding for m <= 0.95) and
-    both branches of the series are computed; elements outside that range (m > 0.95, a point
-    near the axis, a radius of 0) are done again by ``_pair``."""
+    arithmetic-geometric mean takes a fixed 8 steps (converged to rounding for 1 - m >= _P_FIXED)
+    and both branches of the series are computed; elements outside that range (nearly
+    coincident filaments, a point near the axis, a radius of 0) are done again by ``_pair``."""
     for i in range(n):
         a = a_[i]
         r = r_[i]
@@ -226,7 +227,7 @@ def _pairs_block(a_, z0_, r_, z_, n, mut, dzo, bro, bzo):
         bb = math.sqrt(p)
         acc = 0.5 * m
         w = 0.5
-        for _ in range(5):
+        for _ in range(8):
             c = 0.5 * (aa - bb)
             w *= 2.0
             acc += w * c * c
@@ -261,9 +262,12 @@ def _pairs_block(a_, z0_, r_, z_, n, mut, dzo, bro, bzo):
         a = a_[i]
         r = r_[i]
         zeta = z_[i] - z0_[i]
+        d = a - r
         s = a + r
-        m = 4.0 * a * r / (s * s + zeta * zeta)
-        if not (m <= _AGM_FIXED and m > 0.0 and r >= 1e-6 * a):
+        beta2 = s * s + zeta * zeta
+        p = (d * d + zeta * zeta) / beta2
+        m = 4.0 * a * r / beta2
+        if not (p >= _P_FIXED and m > 0.0 and r >= 1e-6 * a):
             mut[i], dzo[i], bro[i], bzo[i] = _pair(a, z0_[i], r, z_[i])
 
 
