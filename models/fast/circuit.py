@@ -27,7 +27,7 @@ from models.core_loss import coil_current_with_core_loss, peak_flux_density
 from models.fast.core import CoreGrid, CoreLosses, core_grid, core_losses, hysteresis_excess_at
 from models.fast.discretize import Cells, Fineness, coil_filaments, conductor_cells
 from models.fast.filaments import self_inductance_rect
-from models.fast.kernels import cell_mutual, cell_panel_sums
+from models.fast.kernels import cell_mutual, cell_panel_sums, real_matmul
 
 __all__ = [
     "CircuitSolution",
@@ -259,7 +259,7 @@ def assemble_circuit(
             fineness.iron_reach,
         )  # (n_cells, n_panels) each
         P = pole_model.response(applied.T)  # (n_panels, n_cells)
-        M_iron = panel_M @ P
+        M_iron = real_matmul(panel_M, P)
         M_iron = 0.5 * (M_iron + M_iron.T)
         M_total = M + M_iron
         iron_loss = -omega * M_iron.imag if np.iscomplexobj(M_iron) else None

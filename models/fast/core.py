@@ -21,6 +21,7 @@ import numpy as np
 
 from models.core_loss import peak_flux_density
 from models.fast.filaments import loop_field
+from models.fast.kernels import real_matmul
 from models.fast.pole import panel_field
 
 __all__ = [
@@ -105,7 +106,9 @@ def core_grid(design, cells, panels, P) -> CoreGrid:
     r, z, vol = _section(design.pole, design.ring)
     br_c, bz_c = loop_field(cells.rc[None, :], cells.zc[None, :], r[:, None], z[:, None])
     br_p, bz_p = panel_field(panels, r, z)
-    return CoreGrid(r=r, z=z, volume=vol, G_r=br_c + br_p @ P, G_z=bz_c + bz_p @ P)
+    return CoreGrid(
+        r=r, z=z, volume=vol, G_r=br_c + real_matmul(br_p, P), G_z=bz_c + real_matmul(bz_p, P)
+    )
 
 
 @dataclass(frozen=True)

@@ -169,6 +169,17 @@ def _f(x, dtype=float):
     return np.require(x, dtype=dtype, requirements=("C", "W"))
 
 
+def real_matmul(a, b):
+    """a @ b for a real ``a`` and a real or complex ``b``: as two real products when b is
+    complex (numpy would promote ``a`` and multiply complex by complex, twice the work)."""
+    if np.iscomplexobj(b):
+        out = np.empty((a.shape[0], b.shape[1]), dtype=complex)
+        out.real = a @ b.real
+        out.imag = a @ b.imag
+        return out
+    return a @ b
+
+
 def _all_four(a, z0, r, z):
     a, z0, r, z = (_f(x) for x in (a, z0, r, z))
     n = a.size
