@@ -123,43 +123,59 @@ def _ellip_ke(p, m):
     return k, k * (1.0 - s)
 
 
-@njit(cache=True, error_model="numpy")
-def _pair(a, z0, r, z):
-    """Filament (a, z0) and point/filament (r, z): mutual inductance M [H], dM/dz of the (r, z)
-    filament [H/m], and the loop field of 1 A in (a, z0) at (r, z): B_r, B_z [T/A]."""
+@njit(cache=True, error_model="numpy", inline="always")
+def _geometry(a, z0, r, z):
+    """zeta = z - z0, zeta^2, alpha^2 = (a - r)^2 + zeta^2, beta^2 = (a + r)^2 + zeta^2,
+    p = 1 - m = alpha^2 / beta^2 (formed without cancellation) and m = min(4 a r / beta^2, 1)."""
     zeta = z - z0
     zeta2 = zeta * zeta
     d = a - r
     s = a + r
     alpha2 = d * d + zeta2
     beta2 = s * s + zeta2
-    p = alpha2 / beta2
-    m = 4.0 * a * r / beta2
-    if m > 1.0:
-        m = 1.0
+    return zeta, zeta2, alpha2, beta2, alpha2 / beta2, min(4.0 * a * r / beta2, 1.0)
+
+
+@njit(cache=True, error_model="numpy", inline="always")
+def _brackets(m, p, k, e):
+    """(1 - m/2) K - E and (2 - m) E - 2 (1 - m) K, by their series below _M_SERIES."""
+    if m < _M_SERIES:
+        return _horner(_BRACKET, m), _horner(_FORCE, m)
+    return (1.0 - 0.5 * m) * k - e, (2.0 - m) * e - 2.0 * p * k
+
+
+@njit(cache=True, error_model="numpy", inline="always")
+def _from_brackets(a, r, zeta, zeta2, alpha2, beta2, p, m, k, e, b_m, b_f):
+    """M, dM/dz of the (r, z) filament, B_r and B_z at (r, z) from K, E and the brackets
+    (module docstring of models.fast.filaments)."""
+    sq = math.sqrt(a * r)
+    km = math.sqrt(m)
+    dz = -_MU0 * zeta * km / (4.0 * p * sq) * b_f
+    mut = _MU0 * sq * 2.0 / km * b_m
+    bz = _MU0 / (_TWO_PI * math.sqrt(beta2)) * (e * (a * a - r * r - zeta2) / alpha2 + k)
+    return mut, dz, -dz / (_TWO_PI * r), bz
+
+
+@njit(cache=True, error_model="numpy")
+def _pair(a, z0, r, z):
+    """Filament (a, z0) and point/filament (r, z): mutual inductance M [H], dM/dz of the (r, z)
+    filament [H/m], and the loop field of 1 A in (a, z0) at (r, z): B_r, B_z [T/A]."""
+    zeta, zeta2, alpha2, beta2, p, m = _geometry(a, z0, r, z)
+    if not (m > 0.0):  # a loop or a point of zero radius
+        if r < 1e-6 * a:
+            d2 = a * a + zeta2
+            return 0.0, 0.0, 0.0, _MU0 * a * a / (2.0 * d2**1.5)
+        return 0.0, 0.0, 0.0, 0.0
+    k, e = _ellip_ke(p, m)
+    b_m, b_f = _brackets(m, p, k, e)
+    mut, dz, br, bz = _from_brackets(a, r, zeta, zeta2, alpha2, beta2, p, m, k, e, b_m, b_f)
+    if zeta == 0.0:
+        dz = 0.0
+        br = 0.0
     if r < 1e-6 * a:  # near the axis: the loop field's expansion (Jackson sec. 5.5)
         d2 = a * a + zeta2
         br = 3.0 * _MU0 * a * a * zeta * r / (4.0 * d2**2.5)
         bz = _MU0 * a * a / (2.0 * d2**1.5)
-        if not (m > 0.0):
-            return 0.0, 0.0, br, bz
-    elif not (m > 0.0):  # a loop or a point of zero radius
-        return 0.0, 0.0, 0.0, 0.0
-    k, e = _ellip_ke(p, m)
-    sq = math.sqrt(a * r)
-    km = math.sqrt(m)
-    if m < _M_SERIES:
-        b_m = _horner(_BRACKET, m)
-        b_f = _horner(_FORCE, m)
-    else:
-        b_m = (1.0 - 0.5 * m) * k - e
-        b_f = (2.0 - m) * e - 2.0 * p * k
-    mut = _MU0 * sq * 2.0 / km * b_m
-    dz = 0.0 if zeta == 0.0 else -_MU0 * zeta * km / (4.0 * p * sq) * b_f
-    if r >= 1e-6 * a:
-        beta = math.sqrt(beta2)
-        bz = _MU0 / (_TWO_PI * beta) * (e * (a * a - r * r - zeta2) / alpha2 + k)
-        br = -dz / (_TWO_PI * r)
     return mut, dz, br, bz
 
 
@@ -226,14 +242,7 @@ def _pairs_block(a_, z0_, r_, z_, n, mut, dzo, bro, bzo):
     for i in range(n):
         a = a_[i]
         r = r_[i]
-        zeta = z_[i] - z0_[i]
-        zeta2 = zeta * zeta
-        d = a - r
-        s = a + r
-        alpha2 = d * d + zeta2
-        beta2 = s * s + zeta2
-        p = alpha2 / beta2
-        m = min(4.0 * a * r / beta2, 1.0)
+        zeta, zeta2, alpha2, beta2, p, m = _geometry(a, z0_[i], r, z_[i])
         aa = 1.0
         bb = math.sqrt(p)
         acc = 0.5 * m
@@ -262,22 +271,13 @@ def _pairs_block(a_, z0_, r_, z_, n, mut, dzo, bro, bzo):
         e = e_ser if m < _KE_SERIES else e_agm
         b_m = b_m_ser if m < _M_SERIES else (1.0 - 0.5 * m) * k - e
         b_f = b_f_ser if m < _M_SERIES else (2.0 - m) * e - 2.0 * p * k
-        sq = math.sqrt(a * r)
-        km = math.sqrt(m)
-        dz = -_MU0 * zeta * km / (4.0 * p * sq) * b_f
-        mut[i] = _MU0 * sq * 2.0 / km * b_m
-        dzo[i] = dz
-        bzo[i] = _MU0 / (_TWO_PI * math.sqrt(beta2)) * (e * (a * a - r * r - zeta2) / alpha2 + k)
-        bro[i] = -dz / (_TWO_PI * r)
+        mut[i], dzo[i], bro[i], bzo[i] = _from_brackets(
+            a, r, zeta, zeta2, alpha2, beta2, p, m, k, e, b_m, b_f
+        )
     for i in range(n):
         a = a_[i]
         r = r_[i]
-        zeta = z_[i] - z0_[i]
-        d = a - r
-        s = a + r
-        beta2 = s * s + zeta * zeta
-        p = (d * d + zeta * zeta) / beta2
-        m = 4.0 * a * r / beta2
+        _, _, _, _, p, m = _geometry(a, z0_[i], r, z_[i])
         if not (p >= _P_FIXED and m > 0.0 and r >= 1e-6 * a):
             mut[i], dzo[i], bro[i], bzo[i] = _pair(a, z0_[i], r, z_[i])
 

@@ -17,7 +17,6 @@ from __future__ import annotations
 
 import argparse
 import os
-import statistics
 import sys
 import tempfile
 import time
@@ -32,16 +31,12 @@ import numpy as np  # noqa: E402
 from models import evaluate, load_design  # noqa: E402
 from models.design import with_value  # noqa: E402
 from optim.demo import DEMO_DESIGN, DEMO_STUDY  # noqa: E402
+from tests.perf.bench_evaluate import median_time  # noqa: E402
 
 
 def median_ms(fn, repeats):
-    fn()
-    times = []
-    for _ in range(repeats):
-        t = time.perf_counter()
-        fn()
-        times.append(time.perf_counter() - t)
-    return statistics.median(times) * 1e3
+    """Median time of ``fn`` [ms] (bench_evaluate's median_time)."""
+    return median_time(fn, repeats) * 1e3
 
 
 class Fresh:
