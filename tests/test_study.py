@@ -462,13 +462,17 @@ def test_progress_front_equals_the_pareto_mask_of_all_points():
     assert sorted(map(tuple, progress.front)) == sorted(map(tuple, expected))
 
 
-def test_pareto_mask_matches_the_definition():
+@pytest.mark.parametrize("k", [1, 2, 3, 4])
+@pytest.mark.parametrize("step", [0.1, 0.01])
+def test_pareto_mask_matches_the_definition(k, step):
     """Against the definition itself (no row is at least as good everywhere and better
-    somewhere), by brute force over every pair; ties kept."""
-    rng = np.random.default_rng(11)
-    values = np.round(rng.random((300, 3)), 1)  # coarse: many ties and equal rows
-    directions = ["maximize", "minimize", "minimize"]
-    s = values * np.array([-1.0, 1.0, 1.0])
+    somewhere), by brute force over every pair; ties and equal rows kept. 700 rows span several
+    of the blocks the mask compares at once (three or more objectives); two objectives take the
+    sorted single pass."""
+    rng = np.random.default_rng(11 + k)
+    values = np.round(rng.random((700, k)) / step) * step  # coarse: many ties and equal rows
+    directions = (["maximize", "minimize", "minimize", "maximize"])[:k]
+    s = values * np.array([-1.0, 1.0, 1.0, -1.0])[:k]
     dominated = (
         np.all(s[None, :, :] <= s[:, None, :], axis=2)
         & np.any(s[None, :, :] < s[:, None, :], axis=2)
