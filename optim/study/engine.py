@@ -3,8 +3,9 @@
 How a worker keeps the storage out of the way of a millisecond model:
 
 * The sampler runs on a private in-memory study (fast ask/tell). The worker writes each finished
-  trial to the shared storage as one complete record (``Study.add_trial``): one append to the
-  journal, one transaction on a database. Nothing is ever left RUNNING in the shared storage, so
+  trial to the shared storage as one complete record (optim.study.ledger: the record
+  ``Study.add_trial`` would write): one append to the journal, one transaction on a database. The
+  worker never holds the shared study: it reads only what was added since it last looked. Nothing is ever left RUNNING in the shared storage, so
   a worker killed with SIGKILL loses only the trial it was evaluating and no heartbeat is needed
   to clean up after it.
 * Every ``sync_s`` seconds (and at start, which is how a study resumes) the worker copies the
@@ -190,16 +191,14 @@ class _Worker:
     and the number of the newest shared trial it has seen."""
 
     def __init__(self, cfg: dict):
-        import optuna
-
+        from optim.study.ledger import open_ledger
         from optim.study.spec import spec_from_json
-        from optim.study.storage import open_storage
 
         self.cfg = cfg
         spec = self.spec = spec_from_json(cfg["spec"])
-        storage, _ = open_storage(cfg["location"], repair=False)
-        self.shared = optuna.load_study(study_name=spec.name, storage=storage)
-        self.result_names = self.shared.user_attrs[RESULT_NAMES_ATTR]
+        # never the whole study in memory: whole records written, only new ones read
+        self.ledger = open_ledger(cfg["location"], spec.name)
+        self.result_names = self.ledger.user_attrs[RESULT_NAMES_ATTR]
         self.dists = {p.name: p.distribution() for p in spec.params}
         self.worker_id = f"{socket.gethostname()}:{os.getpid()}:{uuid.uuid4().hex[:8]}"
         seed = cfg.get("seed")
@@ -209,29 +208,24 @@ class _Worker:
             lambda k: make_sampler(spec, _rollover_seed(seed, k), k),
             int(cfg.get("window_limit") or window_limit(choose(spec)[1])),
         )
-        self.study_id = self.shared._study_id
-        # optuna's own wrapper of a database storage keeps finished trials and reads only new ones.
-        self.reader = self.shared._storage
         self.seen = -1
         self.evaluator = _evaluator(cfg)
 
     def sync(self, first: bool = False) -> None:
-        """Copy the trials other workers have finished since the last sync into the window."""
+        """Copy the trials other workers have finished since the last sync into the window (at
+        the first, the most recent window of a resumed study)."""
         from optuna.trial import TrialState
 
-        trials = self.reader.get_all_trials(
-            self.study_id, deepcopy=False, states=(TrialState.COMPLETE,)
-        )
+        ledger = self.ledger
+        trials = ledger.recent(self.window.limit) if first else ledger.fresh()
+        if trials:
+            self.seen = max(self.seen, max(t.number for t in trials))
         fresh = [
             t
             for t in trials
-            if t.number > self.seen and record_of(t).get("worker") != self.worker_id
+            if t.state == TrialState.COMPLETE and record_of(t).get("worker") != self.worker_id
         ]
-        if first:  # a resumed study: the most recent window of it
-            fresh = fresh[-self.window.limit :]
         self.window.add(fresh)
-        if trials:
-            self.seen = max(self.seen, max(t.number for t in trials))
 
     def may_start(self, stop, counter) -> bool:
         """Whether to start one more trial: not stopped, before the deadline, within this slot's
@@ -262,7 +256,7 @@ class _Worker:
         )
         frozen.datetime_start, frozen.datetime_complete = start, end
         try:
-            self.shared.add_trial(frozen)
+            self.ledger.add(frozen, self.worker_id)
         except OSError as err:  # disk full, quota, lost mount: stop, say so, keep the rest
             raise DesignError(
                 f"storage write failed ({err.strerror or err}): every trial recorded before "

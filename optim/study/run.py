@@ -26,7 +26,13 @@ from models.errors import DesignError
 from optim.files import redact_text, redact_url
 from optim.study.engine import RESULT_NAMES_ATTR, run_worker
 from optim.study.sampler import derive_seed
-from optim.study.storage import create_or_load, is_url, open_storage, release
+from optim.study.storage import (
+    FINGERPRINT_ATTR,
+    create_or_load,
+    is_url,
+    open_storage,
+    release,
+)
 
 __all__ = ["study_folder", "run_study", "Progress", "prepare"]
 
@@ -122,12 +128,35 @@ class Progress:
 
 
 def prepare(spec, location):
-    """Open (repairing a torn journal) or create the study. Returns (study, where it is stored)."""
+    """Open (repairing a torn journal) or create the study. Returns (ledger, where it is
+    stored): ``optim.study.ledger``'s line to the study, which does not read its trials (a
+    journal's existing study is read by one pass over its records' heads)."""
+    from optim.study.ledger import JournalLedger, LedgerUnfit, open_ledger
+    from optim.study.storage import JOURNAL, check_stored, repair_journal
+
+    if not is_url(str(location)):
+        path = Path(location) / JOURNAL
+        note = repair_journal(path)
+        if note:
+            logging.getLogger("eddypull").warning(note)
+        try:
+            ledger = JournalLedger(path, spec.name)
+        except (KeyError, LedgerUnfit):  # a new study, or a journal only optuna can follow
+            ledger = None
+        if ledger is not None and FINGERPRINT_ATTR in ledger.user_attrs:
+            check_stored(ledger.user_attrs, ledger.directions, spec)
+            _result_names(ledger, spec)
+            return ledger, str(path)
     storage, where = open_storage(location)
     study = create_or_load(storage, spec)
+    _result_names(study, spec)
+    release(study)
+    return open_ledger(location, spec.name), where
+
+
+def _result_names(study, spec) -> None:
     if RESULT_NAMES_ATTR not in study.user_attrs:
         study.set_user_attr(RESULT_NAMES_ATTR, list(spec.result_names))
-    return study, where
 
 
 def run_study(
@@ -158,11 +187,11 @@ def run_study(
     folder.mkdir(parents=True, exist_ok=True)
     location = storage_url if storage_url else folder
     log = _file_logger(folder)
-    study, where = prepare(spec, location)
-    start_count = len(study.get_trials(deepcopy=False))
-    run_number = int(study.user_attrs.get(RUNS_ATTR, 0))
-    study.set_user_attr(RUNS_ATTR, run_number + 1)
-    release(study)
+    ledger, where = prepare(spec, location)
+    start_count = ledger.n_trials
+    run_number = int(ledger.user_attrs.get(RUNS_ATTR, 0))
+    ledger.set_user_attr(RUNS_ATTR, run_number + 1)
+    release(getattr(ledger, "storage", None) or getattr(ledger, "study", None))
     deadline = time.time() + 60.0 * minutes if minutes is not None else None
     progress = Progress(spec, start_count, trials, deadline)
     tty = sys.stdout.isatty() if tty is None else tty

@@ -33,6 +33,7 @@ __all__ = [
     "is_url",
     "open_storage",
     "repair_journal",
+    "check_stored",
     "create_or_load",
     "load_existing",
     "release",
@@ -199,7 +200,17 @@ def create_or_load(storage, spec):
         directions=spec.directions,
         load_if_exists=True,
     )
-    attrs = study.user_attrs
+    check_stored(study.user_attrs, [d.name.lower() for d in study.directions], spec)
+    if FINGERPRINT_ATTR not in study.user_attrs:
+        study.set_user_attr(SPEC_ATTR, spec.to_json())
+        study.set_user_attr(FINGERPRINT_ATTR, spec.fingerprint())
+        study.set_user_attr(MODEL_ATTR, MODEL_VERSION)
+    return study
+
+
+def check_stored(attrs: dict, directions: list[str], spec) -> None:
+    """Refuse to resume a stored study (its attributes and directions) with ``spec`` when the
+    model version, the search, objectives or constraints, or the directions differ."""
     fp = spec.fingerprint()
     recorded = attrs.get(MODEL_ATTR, FIRST_MODEL_VERSION)
     if FINGERPRINT_ATTR in attrs and recorded != MODEL_VERSION:
@@ -213,15 +224,10 @@ def create_or_load(storage, spec):
             f"name = {spec.name!r}: a study of that name already exists in this storage with a "
             "different base design, search, objectives or constraints; give the study a new name"
         )
-    if [d.name.lower() for d in study.directions] != spec.directions:
+    if list(directions) != list(spec.directions):
         raise DesignError(
             f"name = {spec.name!r}: the stored study optimises other directions; use a new name"
         )
-    if FINGERPRINT_ATTR not in attrs:
-        study.set_user_attr(SPEC_ATTR, spec.to_json())
-        study.set_user_attr(FINGERPRINT_ATTR, fp)
-        study.set_user_attr(MODEL_ATTR, MODEL_VERSION)
-    return study
 
 
 def load_existing(location, name: str | None = None):
