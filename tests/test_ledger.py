@@ -113,3 +113,28 @@ def test_an_unknown_study_name_is_a_key_error(tmp_path):
     optuna.create_study(study_name="s", storage=_storage(path))
     with pytest.raises(KeyError):
         JournalLedger(path, "t")
+
+
+def test_the_trials_table_from_the_journal_equals_the_one_from_optuna(tmp_path):
+    """The table ``study status``/``front`` read from the journal's records (the ledger's
+    index) is the one built from optuna's own trials of the same file, cell for cell."""
+    from optim.cli import main
+    from optim.morning.front import trials_table
+    from optim.study.columns import open_readout
+    from optim.study.storage import load_existing
+    from tests.test_study import QUICK, _study_file
+
+    path = _study_file(tmp_path, "tbl", QUICK)
+    folder = tmp_path / "tbl"
+    assert main(["study", "run", str(path), "--trials", "12", "--out", str(folder)]) == 0
+    readout = open_readout(folder)
+    assert type(readout.source).__name__ == "JournalLedger"
+    study, spec_json, _ = load_existing(folder)
+    lean = trials_table(readout, spec_json)
+    full = trials_table(study, spec_json)
+    assert list(lean.columns) == list(full.columns)
+    assert len(lean) == 12 and lean["on_front"].any()
+    import pandas as pd
+
+    pd.testing.assert_frame_equal(lean, full)
+    assert readout.trial(5).params == study.trials[5].params

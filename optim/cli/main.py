@@ -133,9 +133,9 @@ def _cmd_demo(args) -> int:
     from optim.cli.study import check_budget
     from optim.demo import SCENARIOS
     from optim.morning.outputs import export_trial, write_front
+    from optim.study.columns import open_readout
     from optim.study.run import run_study
     from optim.study.spec import load_study_spec
-    from optim.study.storage import load_existing
 
     demo_study = SCENARIOS[args.scenario]
     spec = load_study_spec(demo_study)
@@ -157,7 +157,8 @@ def _cmd_demo(args) -> int:
         print(f"eddypull: error: {line}", file=sys.stderr)
     if summary["errors"]:
         return 1
-    study, spec_json, where = load_existing(folder)
+    study = open_readout(folder)
+    spec_json, where = study.spec_json, study.where
     out = write_front(
         study, spec_json, where, folder, pick_maps=False if args.no_pick_maps else None
     )

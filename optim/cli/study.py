@@ -92,9 +92,11 @@ def _why_none_feasible(location, name: str) -> list[str]:
     """Which constraint rejected how many trials, and the best margin reached: the reason a run
     found no feasible design."""
     from optim.morning.front import constraint_lines, status_summary
-    from optim.study.storage import load_existing, release
+    from optim.study.columns import open_readout
+    from optim.study.storage import release
 
-    study, spec_json, _ = load_existing(location, name)
+    study = open_readout(location, name)
+    spec_json = study.spec_json
     try:
         lines = constraint_lines(status_summary(study, spec_json))
     finally:
@@ -103,9 +105,11 @@ def _why_none_feasible(location, name: str) -> list[str]:
 
 
 def _open(args):
-    from optim.study.storage import load_existing
+    """The study to read: (readout, its definition, where it is) (optim.study.columns)."""
+    from optim.study.columns import open_readout
 
-    return load_existing(args.location, args.name)
+    readout = open_readout(args.location, args.name)
+    return readout, readout.spec_json, readout.where
 
 
 def _cmd_status(args) -> int:

@@ -271,13 +271,14 @@ def _budget_text(run: dict) -> str:
 
 def pick_trial(study, spec_json: dict, trial: int | None, best: str | None):
     """The stored trial to export: by number, or the front's best in one objective."""
-    trials = study.get_trials(deepcopy=False)
+    from optim.study.columns import StudyReadout
+
+    readout = study if isinstance(study, StudyReadout) else StudyReadout(study, spec_json, "")
     if trial is not None:
-        if not 0 <= trial < len(trials):
-            raise DesignError(
-                f"--trial {trial}: must be a trial number from 0 to {len(trials) - 1}"
-            )
-        t = trials[trial]
+        n = readout.n_trials
+        if not 0 <= trial < n:
+            raise DesignError(f"--trial {trial}: must be a trial number from 0 to {n - 1}")
+        t = readout.trial(trial)
         if t.state.name != "COMPLETE":
             reason = t.user_attrs.get("eddypull", {}).get("reason", "")
             raise DesignError(
@@ -290,19 +291,19 @@ def pick_trial(study, spec_json: dict, trial: int | None, best: str | None):
         raise DesignError(
             f"--best {best!r}: must be one of the objectives: {', '.join(objectives)}"
         )
-    df = trials_table(study, spec_json)
+    df = trials_table(readout, spec_json)
     front = df[df["on_front"]] if not df.empty else df
     if front.empty:
         from optim.morning.front import constraint_lines, status_summary
 
-        why = [x.strip() for x in constraint_lines(status_summary(study, spec_json, df))]
+        why = [x.strip() for x in constraint_lines(status_summary(readout, spec_json, df))]
         raise DesignError(
             f"--best {best}: the study has no feasible design yet"
             + (f" ({'; '.join(why)})" if why else "")
         )
     col = front[best].astype(float)
     idx = col.idxmax() if objectives[best] == "maximize" else col.idxmin()
-    return trials[int(front.loc[idx, "trial"])]
+    return readout.trial(int(front.loc[idx, "trial"]))
 
 
 def handoff_folder(folder, trial_number: int, out=None) -> Path:

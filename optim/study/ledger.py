@@ -211,11 +211,11 @@ class JournalIndex:
 class JournalLedger:
     """One worker's line to a study in a journal file (module docstring)."""
 
-    def __init__(self, path, name: str):
+    def __init__(self, path, name: str, index: JournalIndex | None = None):
         from optuna.storages.journal import JournalFileBackend, JournalFileOpenLock
 
         self.path = str(path)
-        self.index = JournalIndex(path)
+        self.index = index or JournalIndex(path)
         self.index.update()
         self.study_id = self.index.study_id(name)
         self.user_attrs = self.index.studies[self.study_id]["user_attrs"]
@@ -241,6 +241,26 @@ class JournalLedger:
         out = self._read(self.read_to, end)
         self.read_to = end
         return out
+
+    def trial(self, number: int):
+        """The study's trial ``number`` (0 <= number < n_trials)."""
+        return self._read(number, number + 1)[0]
+
+    def records(self):
+        """Every trial record of the study in order: (number, the record as stored, a dict),
+        as far as the index has read."""
+        end = self.n_trials
+        if not end:
+            return
+        with open(self.path, "rb") as fh:
+            fh.seek(self.index.offsets[self.study_id][0])
+            number = 0
+            for line in fh:
+                if number >= end:
+                    break
+                if line.startswith(_TRIAL_PREFIX) and _is_study(line, self.study_id):
+                    yield number, json.loads(line)
+                    number += 1
 
     def _read(self, first: int, end: int) -> list:
         offsets = self.index.offsets[self.study_id]

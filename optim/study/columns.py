@@ -1,0 +1,227 @@
+"""A study's trials read straight into columns, for ``study status``, ``front`` and ``export`` on
+studies of 10^5-10^6 trials.
+
+optuna's readers make one trial object per trial (~4 kB each, a minute per 10^6 trials just to
+make them), and a table built row by row makes one dict per trial on top. Here each stored
+record is decoded once and its numbers go into preallocated arrays, its texts (reasons,
+warnings, workers: a few distinct values) into arrays of shared strings. A journal study is read
+from its file through the ledger's index (optim.study.ledger); any other storage through
+optuna's trials, into the same columns.
+
+The columns are those of ``optim.morning.front.trials_table`` before the design dimensions and
+the front are added.
+"""
+
+from __future__ import annotations
+
+import math
+from dataclasses import dataclass, field
+
+import numpy as np
+
+__all__ = ["TrialColumns", "StudyReadout", "open_readout"]
+
+_STATES = ("RUNNING", "COMPLETE", "PRUNED", "FAIL", "WAITING")  # optuna TrialState values 0-4
+
+
+@dataclass
+class TrialColumns:
+    """Column name -> array (numbers as float64 or int64, texts as object arrays), in trial order."""
+
+    n: int
+    data: dict = field(default_factory=dict)
+
+
+class _Filler:
+    """Fills the columns of ``n`` trials one stored trial at a time."""
+
+    def __init__(self, n: int, names: list[str], params: list, constraints: list[str], k: int):
+        self.n, self.names, self.constraints, self.k = n, names, constraints, k
+        self.i = 0
+        self.texts: dict = {}
+        obj = lambda: np.full(n, "", dtype=object)  # noqa: E731
+        nan = lambda: np.full(n, np.nan)  # noqa: E731
+        self.number = np.zeros(n, np.int64)
+        self.state = np.zeros(n, np.int8)
+        self.completed = nan()
+        self.eval_s = nan()
+        self.reason, self.binding, self.worker, self.warnings = obj(), obj(), obj(), obj()
+        self.warning_count = np.zeros(n, np.int64)
+        self.feasible = np.zeros(n, bool)
+        self.params = {p.name: (obj() if p.categorical else nan()) for p in params}
+        self.results = np.full((n, len(names)), np.nan)
+        self.margins = np.full((n, len(constraints)), np.nan)
+        self.values = np.full((n, k), np.nan)
+
+    def _text(self, s) -> str:
+        s = str(s)
+        return self.texts.setdefault(s, s)
+
+    def add(self, number, state, values, params, user_attrs, system_attrs, completed_s):
+        i = self.i
+        self.i += 1
+        self.number[i] = number
+        self.state[i] = state
+        self.completed[i] = completed_s
+        if values is not None:
+            self.values[i, : len(values)] = values
+        for name, v in params.items():
+            column = self.params.get(name)
+            if column is not None:
+                column[i] = self._text(v) if column.dtype == object else v
+        rec = user_attrs.get("eddypull")
+        rec = rec if isinstance(rec, dict) else {}
+        self.eval_s[i] = rec.get("eval_s", math.nan)
+        self.reason[i] = self._text(rec.get("reason", ""))
+        self.binding[i] = self._text(rec.get("binding_limit", ""))
+        self.worker[i] = self._text(rec.get("worker", ""))
+        warnings = [str(w) for w in rec.get("warnings") or []]
+        self.warning_count[i] = len(warnings)
+        self.warnings[i] = self._text(" | ".join(warnings))
+        results = rec.get("results") or []
+        m = min(len(results), len(self.names))
+        if m:
+            self.results[i, :m] = [math.nan if r is None else r for r in results[:m]]
+        margins = rec.get("margins") or {}
+        for j, c in enumerate(self.constraints):
+            v = margins.get(c)
+            if v is not None:
+                self.margins[i, j] = v
+        violations = [v for k_, v in system_attrs.items() if k_.startswith("constraints:")]
+        self.feasible[i] = state == 1 and all(v <= 0 for v in violations)
+
+    def columns(self) -> TrialColumns:
+        n = self.i
+        data = {
+            "trial": self.number[:n],
+            "state": np.array(_STATES, dtype=object)[self.state[:n]],
+            "completed_at": self.completed[:n],
+            "eval_s": self.eval_s[:n],
+            "reason": self.reason[:n],
+            "binding_limit": self.binding[:n],
+            "worker": self.worker[:n],
+            "feasible": self.feasible[:n],
+        }
+        data.update({k: v[:n] for k, v in self.params.items()})
+        for j, name in enumerate(self.names):
+            data[name] = self.results[:n, j]
+        for j, c in enumerate(self.constraints):
+            data[f"constraint_margin.{c}"] = self.margins[:n, j]
+        data["warning_count"] = self.warning_count[:n]
+        data["warnings"] = self.warnings[:n]
+        data["_values"] = self.values[:n]
+        return TrialColumns(n, data)
+
+
+def _epoch(text) -> float:
+    if text is None:
+        return math.nan
+    from datetime import datetime
+
+    return datetime.fromisoformat(text).timestamp()
+
+
+class StudyReadout:
+    """One stored study as ``study status``, ``front`` and ``export`` read it: its attributes,
+    its columns, and one trial by number. ``source`` is a ``JournalLedger`` or an optuna Study."""
+
+    def __init__(self, source, spec_json: dict, where: str):
+        self.source = source
+        self.spec_json = spec_json
+        self.where = where
+        self.user_attrs = source.user_attrs
+        self._storage = getattr(source, "_storage", None)
+
+    @property
+    def n_trials(self) -> int:
+        if hasattr(self.source, "n_trials"):
+            return self.source.n_trials
+        return len(self.source.get_trials(deepcopy=False))
+
+    def trial(self, number: int):
+        """The stored trial ``number`` (a FrozenTrial)."""
+        if hasattr(self.source, "trial"):
+            return self.source.trial(number)
+        return self.source.get_trials(deepcopy=False)[number]
+
+    def get_trials(self, deepcopy: bool = False):
+        """Every trial as a FrozenTrial (small studies, tests)."""
+        if hasattr(self.source, "recent"):
+            return self.source.recent(self.source.n_trials)
+        return self.source.get_trials(deepcopy=deepcopy)
+
+    def columns(self) -> TrialColumns:
+        from optim.study.engine import RESULT_NAMES_ATTR
+        from optim.study.space import parse_search
+
+        spec = self.spec_json
+        filler = _Filler(
+            self.n_trials,
+            list(self.user_attrs.get(RESULT_NAMES_ATTR, [])),
+            parse_search(spec["search"], []),
+            list(spec.get("constraints", {})),
+            len(spec["objectives"]),
+        )
+        if hasattr(self.source, "records"):
+            for number, log in self.source.records():
+                dists = self.source.dists
+                ds = {k: dists(v) for k, v in log.get("distributions", {}).items()}
+                params = {k: ds[k].to_external_repr(p) for k, p in log.get("params", {}).items()}
+                values = log.get("values")
+                if values is None and log.get("value") is not None:
+                    values = [log["value"]]
+                filler.add(
+                    number,
+                    log.get("state", 0),
+                    values,
+                    params,
+                    log.get("user_attrs", {}),
+                    log.get("system_attrs", {}),
+                    _epoch(log.get("datetime_complete")),
+                )
+        else:
+            for t in self.source.get_trials(deepcopy=False):
+                done = t.datetime_complete
+                filler.add(
+                    t.number,
+                    int(t.state),
+                    t.values,
+                    t.params,
+                    t.user_attrs,
+                    t.system_attrs,
+                    done.timestamp() if done is not None else math.nan,
+                )
+        return filler.columns()
+
+
+def open_readout(location, name: str | None = None) -> StudyReadout:
+    """The study at ``location`` (folder or URL; ``name`` picks one of several) for reading: a
+    journal through the ledger's index when it can follow it, else optuna's storage."""
+    from pathlib import Path
+
+    from models.errors import DesignError
+    from optim.study.ledger import JournalIndex, JournalLedger, LedgerUnfit
+    from optim.study.storage import JOURNAL, SPEC_ATTR, is_url, load_existing
+
+    if not is_url(str(location)):
+        path = Path(location) / JOURNAL
+        if path.exists():
+            try:
+                index = JournalIndex(path)
+                index.update()
+                names = [s["name"] for s in index.studies.values()]
+                if name is None and len(names) == 1:
+                    name = names[0]
+                if name in names:
+                    ledger = JournalLedger(path, name, index=index)
+                    spec = ledger.user_attrs.get(SPEC_ATTR)
+                    if spec is None:
+                        raise DesignError(
+                            f"study {name!r} in {str(path)!r}: not an eddypull study "
+                            "(no definition)"
+                        )
+                    return StudyReadout(ledger, spec, str(path))
+            except LedgerUnfit:
+                pass
+    study, spec, where = load_existing(location, name)
+    return StudyReadout(study, spec, where)
