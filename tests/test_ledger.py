@@ -138,3 +138,34 @@ def test_the_trials_table_from_the_journal_equals_the_one_from_optuna(tmp_path):
 
     pd.testing.assert_frame_equal(lean, full)
     assert readout.trial(5).params == study.trials[5].params
+
+
+def test_a_database_ledger_writes_and_reads_as_optuna_does(tmp_path):
+    """The same on a database (SQLite through optuna's RDBStorage, the class PostgreSQL uses):
+    trials added by the ledger are read back by optuna as add_trial's; recent and fresh read
+    only what they should."""
+    from optim.study.ledger import DatabaseLedger
+
+    url = f"sqlite:///{tmp_path / 'db.sqlite'}"
+    storage = optuna.storages.RDBStorage(url)
+    optuna.create_study(study_name="s", storage=storage, directions=["maximize", "minimize"])
+    ledger = DatabaseLedger(optuna.storages.RDBStorage(url), "s")
+    assert ledger.directions == ["maximize", "minimize"]
+    for i in range(6):
+        ledger.add(_trial(i), "w")
+    reference = optuna.load_study(study_name="s", storage=optuna.storages.RDBStorage(url))
+    stored = reference.trials
+    assert [t.number for t in ledger.recent(2)] == [4, 5]
+    assert ledger.fresh() == []
+    reference.add_trial(_trial(6))
+    fresh = ledger.fresh()
+    assert [t.number for t in fresh] == [6]
+    for a, b in zip(stored, [_trial(i) for i in range(6)], strict=True):
+        assert (a.params, a.values, a.user_attrs, a.system_attrs) == (
+            b.params,
+            b.values,
+            b.user_attrs,
+            b.system_attrs,
+        )
+    ledger.set_user_attr("k", 3)
+    assert reference._storage.get_study_user_attrs(reference._study_id)["k"] == 3
