@@ -31,7 +31,7 @@ from optim.study.spec import load_study_spec  # noqa: E402
 def stand_in(spec, values):
     """A model stand-in with the shape of evaluate_trial's outcome (results from the params)."""
     flat = {n: 0.0 for n in spec.result_names}
-    x = [float(v) for v in values.values()]
+    x = [float(v) for v in values.values() if not isinstance(v, str)]  # a material: no number
     s = sum(x)
     flat.update({o.name: math.sin(s + i) for i, o in enumerate(spec.objectives)})
     for c in spec.constraints:
