@@ -43,8 +43,10 @@ __all__ = [
     "Result",
     "evaluate",
     "evaluate_pick_gaps",
+    "part_losses",
     "pick_state",
     "pole_model_key",
+    "steady_state",
 ]
 
 DEFAULT_FINENESS = Fineness()
@@ -150,6 +152,47 @@ def _part_losses(sol: CircuitSolution, face_depth: float | None = None) -> dict:
         out["face"] = float(at[face].sum())
         out["core"] = float(at[~face].sum())
     return out
+
+
+def part_losses(solution: CircuitSolution, face_depth_m: float | None = None) -> dict:
+    """Losses [W] of one circuit solution, by part.
+
+    Parameters
+    ----------
+    solution : models.fast.circuit.CircuitSolution
+        A solved circuit (``models.fast.circuit.solve_system``); rms phasors.
+    face_depth_m : float, optional
+        Depth [m] of the face slab: with it, and a pole with core losses, the core's losses
+        are split into "face" (steel within that depth of the face) and "core" (the rest).
+
+    Returns
+    -------
+    dict of str to float
+        "coil", "ring", "target" [W] (Joule losses |I|^2 R of rms currents, no factor 1/2), and
+        "face", "core" [W] when ``face_depth_m`` is given and the pole has core losses.
+    """
+    return _part_losses(solution, face_depth_m)
+
+
+def steady_state(design: Design, system, isothermal: bool = False):
+    """The magnet's duty-averaged steady state with the part under the pole.
+
+    Parameters
+    ----------
+    design : models.design.Design
+        The design with its part at the holding gap (``at_hold_gap``).
+    system : models.fast.circuit.CircuitSystem
+        Its assembled circuit (``models.fast.circuit.assemble_circuit``).
+    isothermal : bool
+        True: every resistivity at 20 degC (the network's response to those losses).
+
+    Returns
+    -------
+    models.thermal.coupling.ThermalState
+        Temperatures [degC] and losses [W] that agree (``solve_coupled``: rho(T) = rho_20
+        (1 + alpha (T - 20 degC)), Newton on the network), or a runaway's last iterate.
+    """
+    return _steady_state(design, system, isothermal)
 
 
 def pole_mass(design: Design) -> float:
