@@ -23,7 +23,7 @@ from models.checks import (
     thermal_warnings,
 )
 from models.core_loss import face_slab_depth
-from models.design import Design, with_value
+from models.design import Design, with_gap
 from models.errors import DesignError
 from models.fast.circuit import RING, TARGET, CircuitSolution, assemble_circuit, solve_system
 from models.fast.core import radial_flux_fraction
@@ -297,7 +297,7 @@ def evaluate_pick_gaps(
         if abs(g * 1e-3 - design.target.gap) <= 1e-12:
             pulls.append(result.pull_N)
             continue
-        at_gap = with_value(design, "target.gap_mm", g)
+        at_gap = with_gap(design, g)
         system = assemble_circuit(
             at_gap, fineness, pole_model_for(at_gap, fineness), pull_only=True
         )
@@ -315,12 +315,12 @@ def _check_laminated(design: Design) -> None:
 
 
 def at_hold_gap(design: Design) -> Design:
-    """``design`` with its part at the holding gap (``thermal.hold_gap_mm``); the same object
-    when that is the design's own gap (the default)."""
+    """``design`` with its part at the holding gap (``thermal.hold_gap_mm``; ``with_gap``); the
+    same object when that is the design's own gap (the default)."""
     gap = design.thermal.hold_gap
     if gap is None or abs(gap - design.target.gap) <= 1e-12:
         return design
-    return with_value(design, "target.gap_mm", gap * 1e3)
+    return with_gap(design, gap * 1e3)
 
 
 def _steady_state(design: Design, system, isothermal: bool):

@@ -11,7 +11,7 @@ from __future__ import annotations
 
 import math
 
-from models.design import Design, with_value
+from models.design import Design, with_gap
 from models.evaluate import (
     DEFAULT_FINENESS,
     at_hold_gap,
@@ -95,7 +95,7 @@ def part_pulls_under_magnet(
     for gap in gaps_mm:
         at_gap = design
         if abs(gap * 1e-3 - design.target.gap) > 1e-12:
-            at_gap = with_value(design, "target.gap_mm", gap)
+            at_gap = with_gap(design, gap)
         pulls.append(net_pull(solve_system(system_at(at_gap), arrival)))
     hold = math.nan
     if part.hold is not None:

@@ -9,12 +9,13 @@ the physics). No published values.
 from __future__ import annotations
 
 import ast
+import dataclasses
 import math
 from pathlib import Path
 
 import pytest
 
-from models.design import load_design, with_value
+from models.design import load_design, with_gap, with_value
 from models.evaluate import evaluate_pick_gaps
 from models.family import magnet_temperatures, part_pulls_under_magnet
 from tests.conftest import DEMO, ROOT
@@ -51,6 +52,23 @@ def test_magnet_temperatures_are_the_coil_mean_and_the_ring():
     }
     assert all(math.isfinite(v) for v in temps.values())
     assert magnet_temperatures(result, isothermal=True) == {}
+
+
+def test_with_gap_keeps_what_was_set_on_the_validated_design():
+    """A design read from its file moves to another gap as with_value moves it (equal
+    dataclasses); a conductivity set on the validated design stays (as a tolerance table sets
+    it), and the pulls at other gaps follow it."""
+    design = load_design(DEMO)
+    assert with_gap(design, 2.0) == with_value(design, "target.gap_mm", 2.0)
+    ring = dataclasses.replace(design.ring, conductivity=0.5 * design.ring.conductivity)
+    target = dataclasses.replace(design.target, conductivity=0.5 * design.target.conductivity)
+    varied = dataclasses.replace(design, ring=ring, target=target)
+    moved = with_gap(varied, 2.0)
+    assert moved.ring == ring and moved.target.conductivity == target.conductivity
+    assert moved.target.gap == pytest.approx(2e-3, rel=1e-15)
+    _, nominal = evaluate_pick_gaps(design, (2.0,), isothermal=True)
+    _, pulls = evaluate_pick_gaps(varied, (2.0,), isothermal=True)
+    assert pulls[0] != pytest.approx(nominal[0], rel=1e-3)  # half the conductivities shows
 
 
 def test_models_never_import_optim():

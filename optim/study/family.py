@@ -33,6 +33,7 @@ Results added to the model's (``parts.<name>.*`` per part, the rest over the fam
 
 from __future__ import annotations
 
+import dataclasses
 import math
 
 from scipy.constants import g as standard_gravity
@@ -52,11 +53,14 @@ PART_RESULTS = ("worst_pull_N", "best_pull_N", "worst_lift_ratio", "best_lift_ra
 
 def part_design(design: Design, part: Part) -> Design:
     """``design`` with ``part`` in the place of its target (the design's gap kept); ``design``
-    itself when its target is already that part."""
+    itself when its target is already that part. The magnet's pole and ring are ``design``'s own
+    validated ones, so that a property varied on them (a tolerance table's ring conductivity or
+    pole permeability, ``optim.morning.tolerance.MATERIAL_KEYS``) reaches every part."""
     source = part_source(design.source, part)
     if source["target"] == design.source.get("target"):
         return design
-    return design_from_dict(source, name=design.name)
+    built = design_from_dict(source, name=design.name)
+    return dataclasses.replace(built, pole=design.pole, ring=design.ring)
 
 
 def family_results(design: Design, parts, isothermal: bool = False):
