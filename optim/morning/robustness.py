@@ -1,22 +1,31 @@
 """How robust a chosen design is: its tolerance table and pick map in the hand-off folder
-(``eddypull study export --tolerance``) and a coarse pick map of each picked design in the study
-report (``write_front``; ``--no-pick-maps`` leaves them out).
+(``eddypull study export --tolerance``); in the study report (``write_front``) a coarse pick map
+of each picked design (``--no-pick-maps`` leaves them out) and a compact tolerance table of the
+first pick (``--no-tolerance`` leaves it out).
 
-Both wrap ``optim.morning.tolerance`` and ``optim.morning.pickmap``; the maps are the part's
-radius against the gap around the design's own values (``pickmap.around_axes``).
+They wrap ``optim.morning.tolerance`` and ``optim.morning.pickmap``; the maps are the part's
+radius against the gap around the design's own values (``pickmap.around_axes``). The report's
+tolerance table evaluates each sample as the study evaluates a trial (``study_evaluator``: its
+gap range, its family of parts), so that it can say how often each of the study's constraints
+holds.
 """
 
 from __future__ import annotations
 
+import math
 import re
 import time
+from dataclasses import dataclass
 from pathlib import Path
+from types import SimpleNamespace
 
 from models.errors import DesignError
 from optim.morning.pickmap import DEFAULT_POINTS, pick_map_around
 from optim.morning.tolerance import (
     DEFAULT_SAMPLES,
     DEFAULT_SEED,
+    OUTPUTS,
+    ToleranceStudy,
     run_tolerance,
     tolerances_for,
     write_tolerance,
@@ -27,6 +36,13 @@ __all__ = [
     "HANDOFF_SAMPLES",
     "REPORT_PICK_MAPS",
     "REPORT_POINTS",
+    "REPORT_SAMPLES",
+    "REPORT_TOLERANCE",
+    "CONSTRAINT_PREFIX",
+    "ReportTolerance",
+    "constraint_words",
+    "study_evaluator",
+    "report_tolerance",
     "write_robustness",
     "pick_map_figures",
 ]
@@ -40,6 +56,15 @@ REPORT_POINTS = 12
 #: Whether ``write_front`` draws a pick map of each picked design by default (REPORT_POINTS per
 #: axis: 144 evaluations, ~25 s per pick on one core of this 2-core machine).
 REPORT_PICK_MAPS = True
+#: Monte Carlo samples of the report's tolerance table (the first pick only): half the
+#: hand-off's, so that the table costs 1 + 2 x (about 10 tolerances) + 100 evaluations of the
+#: study's own kind (its gaps and parts); 5th and 95th percentiles of 100 samples are rough
+#: (each moves by about one sample's spacing), which the report says beside them.
+REPORT_SAMPLES = 100
+#: Whether ``write_front`` adds the first pick's tolerance table to the report by default.
+REPORT_TOLERANCE = True
+#: How the study's constraints are named among a tolerance table's limits (``study_evaluator``).
+CONSTRAINT_PREFIX = "study constraint: "
 
 
 def write_robustness(design, out_dir, isothermal: bool = False, echo=None) -> dict[str, Path]:
@@ -105,3 +130,71 @@ def pick_map_figures(
         )
         out.append((Path(files["png"]), caption))
     return out
+
+
+def constraint_words(constraint) -> str:
+    """A study constraint in words: ``worst_lift_ratio >= 1``, ``ring_temperature_C <= 180``,
+    ``0 <= x <= 5``."""
+    name, lo, hi = constraint.name, constraint.low, constraint.high
+    if lo is not None and hi is not None:
+        return f"{lo:g} <= {name} <= {hi:g}"
+    return f"{name} >= {lo:g}" if lo is not None else f"{name} <= {hi:g}"
+
+
+def study_evaluator(spec):
+    """An ``evaluator(design, isothermal)`` for ``optim.morning.tolerance.run_tolerance`` that
+    evaluates a design as the study evaluates a trial (``optim.study.objectives.results_of``
+    with its gaps and parts): the table's outputs are the flat results of that name (the first
+    lift part's at the design's gap, as ``evaluate`` gives them), its margins the design's own
+    limits (``Result.margins``) and, named ``CONSTRAINT_PREFIX`` + ``constraint_words``, the
+    margin of each of the study's constraints (positive: it holds; a non-finite result counts
+    as broken)."""
+    from optim.study.objectives import results_of
+
+    def evaluator(design, isothermal: bool):
+        flat, _, _ = results_of(design, spec.gaps_mm, isothermal=isothermal, parts=spec.parts)
+        margins = {k[len("margins.") :]: v for k, v in flat.items() if k.startswith("margins.")}
+        for c in spec.constraints:
+            value = flat.get(c.name, math.nan)
+            margin = c.margin(value) if math.isfinite(value) else -math.inf
+            margins[CONSTRAINT_PREFIX + constraint_words(c)] = margin
+        values = {name: flat.get(name, math.nan) for name, *_ in OUTPUTS}
+        return SimpleNamespace(**values, margins=margins)
+
+    return evaluator
+
+
+@dataclass(frozen=True)
+class ReportTolerance:
+    """The report's tolerance table of one pick: its label (``trial N``), why it was picked,
+    the tolerance study (``run_tolerance`` with ``study_evaluator``) and the sample count of the
+    hand-off's own table (for the report's words)."""
+
+    label: str
+    why: str
+    study: ToleranceStudy
+    handoff_samples: int
+    family: bool = False
+
+
+def report_tolerance(
+    spec, label: str, why: str, design, samples: int | None = None
+) -> ReportTolerance:
+    """The first pick's tolerance table for the report: the default tolerances of ``design``,
+    ``samples`` (default REPORT_SAMPLES) Monte Carlo samples with the default seed, each sample
+    evaluated as the study's trials are (``study_evaluator``; the study's isothermal setting).
+
+    Raises
+    ------
+    DesignError
+        The design itself cannot be evaluated (the report then has no table).
+    """
+    study = run_tolerance(
+        design,
+        tolerances_for(design),
+        samples=REPORT_SAMPLES if samples is None else samples,
+        seed=DEFAULT_SEED,
+        isothermal=bool(spec.run.get("isothermal", False)),
+        evaluator=study_evaluator(spec),
+    )
+    return ReportTolerance(label, why, study, HANDOFF_SAMPLES, family=bool(spec.parts))
