@@ -175,7 +175,9 @@ def write_front(
     maps = []
     if designs and (robustness.REPORT_PICK_MAPS if pick_maps is None else pick_maps):
         isothermal = bool(spec.run.get("isothermal", False))
-        maps = robustness.pick_map_figures(designs, folder / "plots", isothermal=isothermal)
+        maps = robustness.pick_map_figures(
+            designs, folder / "plots", isothermal=isothermal, parts=spec.parts
+        )
     table = None
     if designs and (robustness.REPORT_TOLERANCE if tolerance is None else tolerance):
         table = _report_tolerance(spec, picks[0][0], designs[0])
@@ -417,7 +419,9 @@ def export_trial(
     if tolerance:
         from optim.morning.robustness import write_robustness
 
-        paths.update(write_robustness(design, target, isothermal=isothermal, echo=echo))
+        paths.update(
+            write_robustness(design, target, isothermal=isothermal, echo=echo, parts=spec.parts)
+        )
     if echo is not None:
         echo(("warning: " if rounding["broken_constraints"] else "") + rounding["words"])
     if drift and echo is not None:

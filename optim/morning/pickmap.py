@@ -315,12 +315,14 @@ def _norm(lift: np.ndarray):
     return Normalize(vmin=lo, vmax=hi), lo, hi
 
 
-def plot_map(pmap: PickMap, out_dir, stem: str) -> list[Path]:
+def plot_map(pmap: PickMap, out_dir, stem: str, parts=()) -> list[Path]:
     """Draw the map to ``stem``.png and ``stem``.svg in ``out_dir`` (atomic writes, Agg).
 
     Filled lift ratio; the lift-ratio-1 line (dashed) and the zero-pull line (solid), each
     labelled; the region outside the validated range hatched; refused points as grey crosses;
-    the design's own point as a star. Returns both paths."""
+    the design's own point as a star; on a part radius x gap map, each of ``parts`` (a study's
+    family, ``optim.study.parts.Part``) as a bar over its gap range
+    (``optim.morning.pickmap_parts``). Returns both paths."""
     from matplotlib.figure import Figure
     from matplotlib.lines import Line2D
     from matplotlib.patches import Patch
@@ -365,10 +367,14 @@ def plot_map(pmap: PickMap, out_dir, stem: str) -> list[Path]:
         )
     if pmap.design_point is not None:
         x0, y0 = pmap.design_point
-        ax.plot([x0], [y0], marker="*", ms=15, color="gold", mec="k", ls="")
+        ax.plot([x0], [y0], marker="*", ms=15, color="gold", mec="k", ls="", zorder=7)
         handles.append(
             Line2D([], [], marker="*", ms=12, color="gold", mec="k", ls="", label="this design")
         )
+    from optim.morning.pickmap_parts import draw_parts
+
+    own_gap = pmap.design_point[1] if pmap.design_point is not None else None
+    handles += draw_parts(ax, parts, pmap.x.key, pmap.y.key, own_gap)
     ax.set_xlabel(_axis_words(pmap.x.key))
     ax.set_ylabel(_axis_words(pmap.y.key))
     state = "20 degC (isothermal)" if pmap.isothermal else "thermally coupled"
@@ -410,12 +416,13 @@ def map_csv(pmap: PickMap) -> str:
     return buf.getvalue()
 
 
-def write_map(pmap: PickMap, out_dir, stem: str | None = None) -> dict[str, Path]:
-    """Write the map's PNG, SVG and CSV into ``out_dir``; returns ``{"png", "svg", "csv"}``."""
+def write_map(pmap: PickMap, out_dir, stem: str | None = None, parts=()) -> dict[str, Path]:
+    """Write the map's PNG, SVG and CSV into ``out_dir``; returns ``{"png", "svg", "csv"}``.
+    ``parts`` are marked on the figures only (``plot_map``); the CSV is the grid's."""
     from optim.files import atomic_write_text, safe_child
 
     stem = stem or map_stem(pmap)
-    png, svg = plot_map(pmap, out_dir, stem)
+    png, svg = plot_map(pmap, out_dir, stem, parts)
     path = atomic_write_text(safe_child(Path(out_dir), f"{Path(png).stem}.csv"), map_csv(pmap))
     return {"png": png, "svg": svg, "csv": path}
 
@@ -505,9 +512,11 @@ def pick_map_around(
     points: int = DEFAULT_POINTS,
     isothermal: bool = False,
     stem: str | None = None,
+    parts=(),
 ) -> tuple[PickMap, dict[str, Path]]:
     """The part radius x gap map around ``design``'s own values (``around_axes``), written to
-    ``out_dir`` (PNG, SVG, CSV). Returns the map and the paths."""
+    ``out_dir`` (PNG, SVG, CSV), ``parts`` marked on the figures. Returns the map and the
+    paths."""
     x, y = around_axes(design, points)
     pmap = evaluate_map(design, x, y, isothermal=isothermal)
-    return pmap, write_map(pmap, out_dir, stem)
+    return pmap, write_map(pmap, out_dir, stem, parts)

@@ -67,11 +67,13 @@ REPORT_TOLERANCE = True
 CONSTRAINT_PREFIX = "study constraint: "
 
 
-def write_robustness(design, out_dir, isothermal: bool = False, echo=None) -> dict[str, Path]:
+def write_robustness(
+    design, out_dir, isothermal: bool = False, echo=None, parts=()
+) -> dict[str, Path]:
     """Write the tolerance table (tolerance.txt, tolerance.json, CSVs; default tolerances,
     HANDOFF_SAMPLES samples, the default seed) and the part radius x gap pick map (PNG, SVG,
-    CSV; HANDOFF_POINTS per axis) of ``design`` into ``out_dir``. Returns file name -> path;
-    ``echo`` gets one line per piece with its time."""
+    CSV; HANDOFF_POINTS per axis; a study's family ``parts`` marked) of ``design`` into
+    ``out_dir``. Returns file name -> path; ``echo`` gets one line per piece with its time."""
     t0 = time.perf_counter()
     study = run_tolerance(
         design,
@@ -86,7 +88,9 @@ def write_robustness(design, out_dir, isothermal: bool = False, echo=None) -> di
         for note in study.notes:
             echo(f"note: {note}")
     t1 = time.perf_counter()
-    _, files = pick_map_around(design, out_dir, points=HANDOFF_POINTS, isothermal=isothermal)
+    _, files = pick_map_around(
+        design, out_dir, points=HANDOFF_POINTS, isothermal=isothermal, parts=parts
+    )
     for path in files.values():
         paths[Path(path).name] = Path(path)
     if echo is not None:
@@ -102,12 +106,15 @@ def _slug(text: str) -> str:
 
 
 def pick_map_figures(
-    designs, out_dir, isothermal: bool = False, points: int | None = None
+    designs, out_dir, isothermal: bool = False, points: int | None = None, parts=()
 ) -> list[tuple[Path, str]]:
     """A coarse pick map (``points`` per axis, default REPORT_POINTS) of each ``(label,
-    design)``, written to ``out_dir`` as ``pickmap_<label>.png/.svg/.csv``; returns ``(png,
-    caption)`` per design for the report. A design the model refuses as a whole (a solid pole)
-    gets no map."""
+    design)``, written to ``out_dir`` as ``pickmap_<label>.png/.svg/.csv``, each of a study's
+    family ``parts`` (``optim.study.parts.Part``) marked at its radius over its gap range;
+    returns ``(png, caption)`` per design for the report. A design the model refuses as a whole
+    (a solid pole) gets no map."""
+    from optim.morning.pickmap_parts import parts_caption
+
     points = REPORT_POINTS if points is None else points
     out = []
     for label, design in designs:
@@ -118,6 +125,7 @@ def pick_map_figures(
                 points=points,
                 isothermal=isothermal,
                 stem=f"pickmap_{_slug(label)}",
+                parts=parts,
             )
         except DesignError:
             continue
@@ -126,7 +134,7 @@ def pick_map_figures(
             f"Pick map of {label}: the lift ratio (pull / part weight) over the part's radius and "
             f"the gap around its own {r:.3g} mm and {g:.3g} mm (star); dashed: lift ratio 1, "
             "solid: zero pull (push beyond it), hatched: outside the range the model was "
-            f"checked on; {points} x {points} points."
+            f"checked on; {points} x {points} points.{parts_caption(parts, design)}"
         )
         out.append((Path(files["png"]), caption))
     return out
