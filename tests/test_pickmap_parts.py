@@ -87,3 +87,20 @@ def test_the_caption_names_the_bars_and_warns_when_a_part_differs():
     assert "solid green: lifted" in same and "thickness" not in same
     thin = Part("thin", "leave", {"radius_mm": 8.0, "thickness_mm": 0.6, "material": "copper"})
     assert "another thickness or metal" in parts_caption((*PARTS[:1], thin), design)
+
+
+def test_line_labels_keep_away_from_the_star_the_bars_and_each_other():
+    """The spot where a line's name is written is farther from the star, the parts' bars and
+    the other line than a tenth of the map (the made-up map's lines run a quarter of it apart)."""
+    from optim.morning.pickmap import _label_spot, map_contours
+    from optim.morning.pickmap_parts import part_points
+
+    pmap = _map()
+    lines = map_contours(pmap)
+    bars = part_points(PARTS, pmap.x.key, pmap.y.key, 3.0)
+    span = np.array([10.0, 3.75])
+    for name, other in (("lift_ratio_1", "zero_pull"), ("zero_pull", "lift_ratio_1")):
+        avoid = [pmap.design_point, *bars, *(tuple(p) for ln in lines[other] for p in ln)]
+        spot = np.array(_label_spot(lines[name], avoid, pmap))
+        nearest = min(np.hypot(*((np.array(a) - spot) / span)) for a in avoid)
+        assert nearest > 0.1, (name, spot)

@@ -11,7 +11,9 @@ the map only as the design's own part would at that size (``parts_caption`` says
 
 from __future__ import annotations
 
-__all__ = ["STYLES", "draw_parts", "parts_caption"]
+import numpy as np
+
+__all__ = ["STYLES", "draw_parts", "part_points", "parts_caption"]
 
 #: Line style, colour and end marker by role.
 STYLES = {
@@ -26,6 +28,20 @@ def _gap_range(part, own_gap_mm: float | None) -> tuple[float, float] | None:
     if part.gaps_mm:
         return float(min(part.gaps_mm)), float(max(part.gaps_mm))
     return None if own_gap_mm is None else (own_gap_mm, own_gap_mm)
+
+
+def part_points(parts, x_key: str, y_key: str, own_gap_mm: float | None = None, per_bar=8):
+    """Points along the bars ``draw_parts`` draws (``per_bar`` each; [] on other axes): where a
+    line's label should not go."""
+    if not parts or (x_key, y_key) != _AXES:
+        return []
+    out = []
+    for part in parts:
+        gaps = _gap_range(part, own_gap_mm)
+        if gaps is not None:
+            r = float(part.target["radius_mm"])
+            out += [(r, g) for g in np.linspace(gaps[0], gaps[1], per_bar)]
+    return out
 
 
 def draw_parts(ax, parts, x_key: str, y_key: str, own_gap_mm: float | None = None) -> list:

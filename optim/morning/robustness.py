@@ -12,6 +12,7 @@ holds.
 
 from __future__ import annotations
 
+import dataclasses
 import math
 import re
 import time
@@ -118,9 +119,10 @@ def pick_map_figures(
     points = REPORT_POINTS if points is None else points
     out = []
     for label, design in designs:
+        titled = dataclasses.replace(design, name=f"{design.name}, {label}")  # the figure's title
         try:
             pmap, files = pick_map_around(
-                design,
+                titled,
                 out_dir,
                 points=points,
                 isothermal=isothermal,
