@@ -59,8 +59,10 @@ REPORT_POINTS = 12
 REPORT_PICK_MAPS = True
 #: Monte Carlo samples of the report's tolerance table (the first pick only): half the
 #: hand-off's, so that the table costs 1 + 2 x (about 10 tolerances) + 100 evaluations of the
-#: study's own kind (its gaps and parts); 5th and 95th percentiles of 100 samples are rough
-#: (each moves by about one sample's spacing), which the report says beside them.
+#: study's own kind (its gaps and parts): 15 s for the lifter demo (3 gaps, thermally coupled)
+#: and 28-33 s for the sorting demo (2 parts x 3 gaps), one core of this 2-core machine,
+#: 2026-12. 5th and 95th percentiles of 100 samples are rough (each moves by about one
+#: sample's spacing), which the report says beside them.
 REPORT_SAMPLES = 100
 #: Whether ``write_front`` adds the first pick's tolerance table to the report by default.
 REPORT_TOLERANCE = True
