@@ -12,7 +12,7 @@ from __future__ import annotations
 
 import math
 import tomllib
-from dataclasses import dataclass, field
+from dataclasses import dataclass, field, replace
 from pathlib import Path
 
 from models.core_loss import lamination_permeability
@@ -32,6 +32,7 @@ __all__ = [
     "read_toml",
     "design_from_dict",
     "with_value",
+    "with_gap",
     "resolve_key",
     "DESIGN_KEYS",
     "MIN_WALL_MM",
@@ -1088,3 +1089,22 @@ def with_value(design: Design, key: str, value) -> Design:
     data = _deep_copy(design.source)
     data.setdefault(table, {})[k] = value
     return design_from_dict(data, name=design.name)
+
+
+def with_gap(design: Design, gap_mm: float) -> Design:
+    """``design`` with its part at another gap [mm].
+
+    Checked as ``with_value(design, "target.gap_mm", gap_mm)`` checks it, with every validated
+    part but the gap kept as ``design`` has it: a property set on the validated design rather
+    than in its file (a tolerance table's ring or part conductivity, the pole's permeability)
+    stays when the part moves to another gap.
+    """
+    moved = with_value(design, "target.gap_mm", gap_mm)
+    return replace(
+        moved,
+        pole=design.pole,
+        coil=design.coil,
+        drive=design.drive,
+        ring=design.ring,
+        target=replace(design.target, gap=moved.target.gap),
+    )

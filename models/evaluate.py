@@ -23,7 +23,7 @@ from models.checks import (
     thermal_warnings,
 )
 from models.core_loss import face_slab_depth
-from models.design import Design, with_value
+from models.design import Design, with_gap
 from models.errors import DesignError
 from models.fast.circuit import RING, TARGET, CircuitSolution, assemble_circuit, solve_system
 from models.fast.core import radial_flux_fraction
@@ -43,8 +43,10 @@ __all__ = [
     "Result",
     "evaluate",
     "evaluate_pick_gaps",
+    "part_losses",
     "pick_state",
     "pole_model_key",
+    "steady_state",
 ]
 
 DEFAULT_FINENESS = Fineness()
@@ -152,6 +154,47 @@ def _part_losses(sol: CircuitSolution, face_depth: float | None = None) -> dict:
     return out
 
 
+def part_losses(solution: CircuitSolution, face_depth_m: float | None = None) -> dict:
+    """Losses [W] of one circuit solution, by part.
+
+    Parameters
+    ----------
+    solution : models.fast.circuit.CircuitSolution
+        A solved circuit (``models.fast.circuit.solve_system``); rms phasors.
+    face_depth_m : float, optional
+        Depth [m] of the face slab: with it, and a pole with core losses, the core's losses
+        are split into "face" (steel within that depth of the face) and "core" (the rest).
+
+    Returns
+    -------
+    dict of str to float
+        "coil", "ring", "target" [W] (Joule losses |I|^2 R of rms currents, no factor 1/2), and
+        "face", "core" [W] when ``face_depth_m`` is given and the pole has core losses.
+    """
+    return _part_losses(solution, face_depth_m)
+
+
+def steady_state(design: Design, system, isothermal: bool = False):
+    """The magnet's duty-averaged steady state with the part under the pole.
+
+    Parameters
+    ----------
+    design : models.design.Design
+        The design with its part at the holding gap (``at_hold_gap``).
+    system : models.fast.circuit.CircuitSystem
+        Its assembled circuit (``models.fast.circuit.assemble_circuit``).
+    isothermal : bool
+        True: every resistivity at 20 degC (the network's response to those losses).
+
+    Returns
+    -------
+    models.thermal.coupling.ThermalState
+        Temperatures [degC] and losses [W] that agree (``solve_coupled``: rho(T) = rho_20
+        (1 + alpha (T - 20 degC)), Newton on the network), or a runaway's last iterate.
+    """
+    return _steady_state(design, system, isothermal)
+
+
 def pole_mass(design: Design) -> float:
     """Mass of the pole's steel with the ring's groove removed [kg]."""
     p, g = design.pole, design.ring
@@ -254,7 +297,7 @@ def evaluate_pick_gaps(
         if abs(g * 1e-3 - design.target.gap) <= 1e-12:
             pulls.append(result.pull_N)
             continue
-        at_gap = with_value(design, "target.gap_mm", g)
+        at_gap = with_gap(design, g)
         system = assemble_circuit(
             at_gap, fineness, pole_model_for(at_gap, fineness), pull_only=True
         )
@@ -272,12 +315,12 @@ def _check_laminated(design: Design) -> None:
 
 
 def at_hold_gap(design: Design) -> Design:
-    """``design`` with its part at the holding gap (``thermal.hold_gap_mm``); the same object
-    when that is the design's own gap (the default)."""
+    """``design`` with its part at the holding gap (``thermal.hold_gap_mm``; ``with_gap``); the
+    same object when that is the design's own gap (the default)."""
     gap = design.thermal.hold_gap
     if gap is None or abs(gap - design.target.gap) <= 1e-12:
         return design
-    return with_value(design, "target.gap_mm", gap * 1e3)
+    return with_gap(design, gap * 1e3)
 
 
 def _steady_state(design: Design, system, isothermal: bool):

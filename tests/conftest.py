@@ -64,12 +64,14 @@ def demo():
 
 @pytest.fixture(autouse=True)
 def _reports_without_pick_maps(monkeypatch):
-    """Study reports leave out the picks' pick maps (about 12 s each) unless a test turns them
-    on (tests/test_robustness.py does): the tests of fronts and reports stay within the default
-    run's budget."""
+    """Study reports leave out the picks' pick maps (about 12 s each) and the first pick's
+    tolerance table (about 10 s to a minute) unless a test turns them on
+    (tests/test_robustness.py and tests/test_report_tolerance.py do): the tests of fronts and
+    reports stay within the default run's budget."""
     from optim.morning import robustness
 
     monkeypatch.setattr(robustness, "REPORT_PICK_MAPS", False)
+    monkeypatch.setattr(robustness, "REPORT_TOLERANCE", False)
 
 
 def write_counts(request, label: str, counts: dict) -> None:

@@ -371,3 +371,24 @@ def test_report_with_an_empty_front(tmp_path):
     assert "The front is empty" in path.read_text(encoding="utf-8")
     with pytest.raises(DesignError, match="cannot be embedded"):
         write_report(tmp_path, {}, pd.DataFrame(), [tmp_path / "report.html"], {}, [])
+
+
+def test_a_log_axis_under_a_decade_has_a_few_plain_ticks():
+    """A frequency searched on a log scale over 1.6-2.9 kHz: round ticks written plainly (2000,
+    2500), no labelled minor ticks (the scatter matrix's log axes)."""
+    from matplotlib.figure import Figure
+
+    from optim.morning.plots import _plain_log_ticks
+
+    ax = Figure().subplots()
+    values = np.array([1641.0, 2100.0, 2901.0])
+    ax.scatter(values, values)
+    ax.set_xscale("log")
+    _plain_log_ticks(ax.xaxis, values)
+    ticks = list(ax.xaxis.get_major_locator()())
+    assert ticks == [2000.0, 2500.0]
+    assert [ax.xaxis.get_major_formatter()(t, 0) for t in ticks] == ["2000", "2500"]
+    assert ax.xaxis.get_minor_formatter()(1800.0, 0) == ""
+    wide = np.array([300.0, 3000.0])  # a decade and more: at most four ticks
+    _plain_log_ticks(ax.xaxis, wide)
+    assert 2 <= len(ax.xaxis.get_major_locator()()) <= 4

@@ -16,7 +16,7 @@ import numpy as np
 
 from models.fast.circuit import COIL, RING, TARGET, CircuitSolution
 
-__all__ = ["pull_by_source"]
+__all__ = ["net_pull", "pull_by_source"]
 
 
 def pull_by_source(sol: CircuitSolution) -> dict[str, float]:
@@ -38,3 +38,9 @@ def pull_by_source(sol: CircuitSolution) -> dict[str, float]:
     else:
         out["pole"] = 0.0
     return out
+
+
+def net_pull(sol: CircuitSolution) -> float:
+    """The net pull [N] on the target: the sum of ``pull_by_source``'s terms (positive toward
+    the face)."""
+    return float(sum(pull_by_source(sol).values()))

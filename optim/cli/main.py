@@ -160,7 +160,12 @@ def _cmd_demo(args) -> int:
     study = open_readout(folder)
     spec_json, where = study.spec_json, study.where
     out = write_front(
-        study, spec_json, where, folder, pick_maps=False if args.no_pick_maps else None
+        study,
+        spec_json,
+        where,
+        folder,
+        pick_maps=False if args.no_pick_maps else None,
+        tolerance=False if args.no_tolerance else None,
     )
     for line in out["lines"]:
         print(line)
@@ -280,6 +285,11 @@ def _parser() -> argparse.ArgumentParser:
         "--no-pick-maps",
         action="store_true",
         help="leave the picked designs' pick maps out of the report (~25 s each)",
+    )
+    d.add_argument(
+        "--no-tolerance",
+        action="store_true",
+        help="leave the first pick's tolerance table out of the report (~10 s to 1 min)",
     )
     d.set_defaults(func=_cmd_demo)
 

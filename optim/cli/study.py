@@ -141,6 +141,7 @@ def _cmd_front(args) -> int:
         where,
         _folder_for(args.location, spec_json, args.out),
         pick_maps=False if args.no_pick_maps else None,
+        tolerance=False if args.no_tolerance else None,
     )
     for line in out["lines"]:
         print(line)
@@ -236,6 +237,11 @@ def add_study_parser(sub) -> None:
                 "--no-pick-maps",
                 action="store_true",
                 help="leave the picked designs' pick maps out of the report (~25 s each)",
+            )
+            p.add_argument(
+                "--no-tolerance",
+                action="store_true",
+                help="leave the first pick's tolerance table out of the report (~10 s to 1 min)",
             )
         if cmd == "export":
             p.add_argument("--trial", type=int, help="trial number")

@@ -140,11 +140,19 @@ def _state_note(design, isothermal: bool) -> str:
 
 
 def write_front(
-    study, spec_json: dict, where: str, folder: Path, echo=print, pick_maps: bool | None = None
+    study,
+    spec_json: dict,
+    where: str,
+    folder: Path,
+    echo=print,
+    pick_maps: bool | None = None,
+    tolerance: bool | None = None,
 ) -> dict:
     """Write the front table, plots and report of a study into ``folder``; returns the paths and
     the lines to print. ``pick_maps``: a coarse pick map of each picked design in the report
-    (None: ``optim.morning.robustness.REPORT_PICK_MAPS``, on)."""
+    (None: ``optim.morning.robustness.REPORT_PICK_MAPS``, on). ``tolerance``: the first pick's
+    tolerance table in the report (None: ``optim.morning.robustness.REPORT_TOLERANCE``, on;
+    ``REPORT_SAMPLES`` samples)."""
     folder = Path(folder)
     folder.mkdir(parents=True, exist_ok=True)
     spec = _spec(spec_json)
@@ -167,9 +175,14 @@ def write_front(
     maps = []
     if designs and (robustness.REPORT_PICK_MAPS if pick_maps is None else pick_maps):
         isothermal = bool(spec.run.get("isothermal", False))
-        maps = robustness.pick_map_figures(designs, folder / "plots", isothermal=isothermal)
+        maps = robustness.pick_map_figures(
+            designs, folder / "plots", isothermal=isothermal, parts=spec.parts
+        )
+    table = None
+    if designs and (robustness.REPORT_TOLERANCE if tolerance is None else tolerance):
+        table = _report_tolerance(spec, picks[0][0], designs[0])
     paths["report.html"] = _write_study_report(
-        folder, study, spec_json, spec, where, df, front, images, picks, designs, maps
+        folder, study, spec_json, spec, where, df, front, images, picks, designs, maps, table
     )
     lines = [
         f"study {spec.name}: {len(df)} trials, {int(df['feasible'].sum()) if len(df) else 0} "
@@ -179,7 +192,25 @@ def write_front(
         f"plots         {folder / 'plots'} ({len(images)} files)",
         f"report        {paths['report.html']}",
     ]
+    if table is not None:
+        t = table.study
+        lines.append(
+            f"tolerances    {table.label}: {t.n_samples} samples in {t.run_time_s:.0f} s (in the "
+            "report)"
+        )
     return {"paths": paths, "lines": lines, "picked": picked, "front": front}
+
+
+def _report_tolerance(spec, why: str, labelled):
+    """The report's tolerance table of the first pick ``(label, design)``; None when the model
+    refuses the design as a whole (as the pick maps leave such a design out)."""
+    from optim.morning import robustness
+
+    label, design = labelled
+    try:
+        return robustness.report_tolerance(spec, label, why, design)
+    except DesignError:
+        return None
 
 
 def _write_tables(folder: Path, df, front) -> dict[str, Path]:
@@ -221,10 +252,11 @@ def _write_plots(plot_dir: Path, spec, objectives: dict, df, front, designs) -> 
 
 
 def _write_study_report(
-    folder, study, spec_json, spec, where, df, front, images, picks, designs, maps=()
+    folder, study, spec_json, spec, where, df, front, images, picks, designs, maps=(), table=None
 ) -> Path:
-    """report.html: the picks, the summary (with what the constraints rejected), the front,
-    the plots with their captions and the model's notes."""
+    """report.html: the picks, their pick maps, the first pick's tolerance table, the summary
+    (with what the constraints rejected), the front, the plots with their captions and the
+    model's notes."""
     from optim.morning import plots
     from optim.morning.report import binding_counts, write_report
 
@@ -255,6 +287,7 @@ def _write_study_report(
         params=[p.name for p in spec.params],
         picks=picks,
         pick_maps=maps,
+        tolerance=table,
     )
     return Path(report)
 
@@ -387,7 +420,9 @@ def export_trial(
     if tolerance:
         from optim.morning.robustness import write_robustness
 
-        paths.update(write_robustness(design, target, isothermal=isothermal, echo=echo))
+        paths.update(
+            write_robustness(design, target, isothermal=isothermal, echo=echo, parts=spec.parts)
+        )
     if echo is not None:
         echo(("warning: " if rounding["broken_constraints"] else "") + rounding["words"])
     if drift and echo is not None:

@@ -315,12 +315,37 @@ def _norm(lift: np.ndarray):
     return Normalize(vmin=lo, vmax=hi), lo, hi
 
 
-def plot_map(pmap: PickMap, out_dir, stem: str) -> list[Path]:
+def _label_spot(lines, avoid, pmap: PickMap):
+    """Where to write a line's name: the point of the polylines ``lines`` (file units) farthest
+    from every point of ``avoid`` (the design's star, the parts' bars, the other line) and from
+    the map's edges, distances in shares of each axis' span; away from the lines' ends. None
+    when there is no line."""
+    span = np.array([np.ptp(pmap.x.values), np.ptp(pmap.y.values)], float)
+    origin = np.array([pmap.x.values.min(), pmap.y.values.min()], float)
+    far = np.asarray(avoid, float).reshape(-1, 2)
+    best, best_distance = None, -np.inf
+    for line in lines:
+        pts = np.asarray(line, float)
+        trim = len(pts) // 10
+        candidates = pts[trim : len(pts) - trim] if len(pts) > 2 * trim else pts
+        for c in candidates:
+            u = (c - origin) / span
+            edge = min(u[0], 1 - u[0], u[1], 1 - u[1])
+            near = np.min(np.hypot(*((far - c) / span).T)) if len(far) else np.inf
+            distance = min(near, 2.0 * edge)
+            if distance > best_distance:
+                best, best_distance = (float(c[0]), float(c[1])), distance
+    return best
+
+
+def plot_map(pmap: PickMap, out_dir, stem: str, parts=()) -> list[Path]:
     """Draw the map to ``stem``.png and ``stem``.svg in ``out_dir`` (atomic writes, Agg).
 
     Filled lift ratio; the lift-ratio-1 line (dashed) and the zero-pull line (solid), each
     labelled; the region outside the validated range hatched; refused points as grey crosses;
-    the design's own point as a star. Returns both paths."""
+    the design's own point as a star; on a part radius x gap map, each of ``parts`` (a study's
+    family, ``optim.study.parts.Part``) as a bar over its gap range
+    (``optim.morning.pickmap_parts``). Returns both paths."""
     from matplotlib.figure import Figure
     from matplotlib.lines import Line2D
     from matplotlib.patches import Patch
@@ -338,14 +363,27 @@ def plot_map(pmap: PickMap, out_dir, stem: str) -> list[Path]:
     levels = np.unique(np.r_[levels, [v for v in (0.0, 1.0) if lo < v < hi]])  # edges at 0, 1
     filled = ax.contourf(X, Y, lift, levels=levels, cmap="RdBu", norm=norm, extend="both")
     fig.colorbar(filled, ax=ax, label="lift ratio: pull / part weight [-] (negative: push)")
+    from optim.morning.pickmap_parts import draw_parts, part_points
+
+    own_gap = pmap.design_point[1] if pmap.design_point is not None else None
     handles = []
+    lines = map_contours(pmap)
+    marks = [pmap.design_point] if pmap.design_point is not None else []
+    marks += part_points(parts, pmap.x.key, pmap.y.key, own_gap)
     for name, (what, level) in LINES.items():
         z = np.ma.masked_invalid(getattr(pmap, what))
         if not z.count() or not z.min() < level < z.max():
             continue
         style = "--" if name == "lift_ratio_1" else "-"
         cs = ax.contour(X, Y, z, levels=[level], colors="k", linewidths=1.6, linestyles=style)
-        ax.clabel(cs, fmt={level: _LINE_WORDS[name]}, fontsize=8, inline=True)
+        others = [tuple(p) for n, ls in lines.items() if n != name for line in ls for p in line]
+        spot = _label_spot(lines[name], [*marks, *others], pmap)
+        manual = [spot] if spot is not None else False
+        texts = ax.clabel(
+            cs, fmt={level: _LINE_WORDS[name]}, fontsize=8, inline=True, manual=manual
+        )
+        for text in texts:  # readable over the hatching too
+            text.set_bbox({"boxstyle": "round,pad=0.1", "fc": "white", "ec": "none", "alpha": 0.7})
         handles.append(Line2D([], [], color="k", ls=style, lw=1.6, label=_LINE_WORDS[name]))
     outside = (~pmap.in_range) & np.isfinite(pmap.pull_N)
     if outside.any():
@@ -365,10 +403,11 @@ def plot_map(pmap: PickMap, out_dir, stem: str) -> list[Path]:
         )
     if pmap.design_point is not None:
         x0, y0 = pmap.design_point
-        ax.plot([x0], [y0], marker="*", ms=15, color="gold", mec="k", ls="")
+        ax.plot([x0], [y0], marker="*", ms=15, color="gold", mec="k", ls="", zorder=7)
         handles.append(
             Line2D([], [], marker="*", ms=12, color="gold", mec="k", ls="", label="this design")
         )
+    handles += draw_parts(ax, parts, pmap.x.key, pmap.y.key, own_gap)
     ax.set_xlabel(_axis_words(pmap.x.key))
     ax.set_ylabel(_axis_words(pmap.y.key))
     state = "20 degC (isothermal)" if pmap.isothermal else "thermally coupled"
@@ -410,12 +449,13 @@ def map_csv(pmap: PickMap) -> str:
     return buf.getvalue()
 
 
-def write_map(pmap: PickMap, out_dir, stem: str | None = None) -> dict[str, Path]:
-    """Write the map's PNG, SVG and CSV into ``out_dir``; returns ``{"png", "svg", "csv"}``."""
+def write_map(pmap: PickMap, out_dir, stem: str | None = None, parts=()) -> dict[str, Path]:
+    """Write the map's PNG, SVG and CSV into ``out_dir``; returns ``{"png", "svg", "csv"}``.
+    ``parts`` are marked on the figures only (``plot_map``); the CSV is the grid's."""
     from optim.files import atomic_write_text, safe_child
 
     stem = stem or map_stem(pmap)
-    png, svg = plot_map(pmap, out_dir, stem)
+    png, svg = plot_map(pmap, out_dir, stem, parts)
     path = atomic_write_text(safe_child(Path(out_dir), f"{Path(png).stem}.csv"), map_csv(pmap))
     return {"png": png, "svg": svg, "csv": path}
 
@@ -505,9 +545,11 @@ def pick_map_around(
     points: int = DEFAULT_POINTS,
     isothermal: bool = False,
     stem: str | None = None,
+    parts=(),
 ) -> tuple[PickMap, dict[str, Path]]:
     """The part radius x gap map around ``design``'s own values (``around_axes``), written to
-    ``out_dir`` (PNG, SVG, CSV). Returns the map and the paths."""
+    ``out_dir`` (PNG, SVG, CSV), ``parts`` marked on the figures. Returns the map and the
+    paths."""
     x, y = around_axes(design, points)
     pmap = evaluate_map(design, x, y, isothermal=isothermal)
-    return pmap, write_map(pmap, out_dir, stem)
+    return pmap, write_map(pmap, out_dir, stem, parts)

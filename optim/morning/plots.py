@@ -385,10 +385,12 @@ def _scatter_matrix(params, data, axis, is_log, colours, cats=None) -> Figure:
                 )
                 if is_log[i]:
                     a.set_yscale("log")
+                    _plain_log_ticks(a.yaxis, data[finite[:, i], i])
                 if i in cats:
                     _category_axis(a.yaxis, a.set_ylim, cats[i], j == 0)
             if is_log[j]:
                 a.set_xscale("log")
+                _plain_log_ticks(a.xaxis, data[finite[:, j], j])
             if j in cats:
                 _category_axis(a.xaxis, a.set_xlim, cats[j], i == n - 1)
             if i == n - 1:
@@ -396,6 +398,33 @@ def _scatter_matrix(params, data, axis, is_log, colours, cats=None) -> Figure:
             if j == 0 and i > 0:
                 a.set_ylabel(_stem_words(params[i]) if i in cats else words(params[i]), fontsize=8)
     return fig
+
+
+#: Mantissas of the ticks a log axis may take (1, 1.2, 1.5 ... 8 times a power of ten).
+_LOG_MANTISSAS = (1.0, 1.2, 1.5, 2.0, 2.5, 3.0, 4.0, 5.0, 6.0, 8.0)
+
+
+def _plain_log_ticks(axis, values, most: int = 4) -> None:
+    """At most ``most`` ticks on a log axis over ``values``, at round numbers written plainly
+    (``2000``, not ``2 x 10^3``), and no labels on the minor ticks: a range of less than a
+    decade otherwise gets crowded labels in powers of ten."""
+    from matplotlib.ticker import FixedLocator, FuncFormatter, NullFormatter
+
+    values = np.asarray(values, float)
+    values = values[np.isfinite(values) & (values > 0)]
+    if not len(values):
+        return
+    lo, hi = float(values.min()), float(values.max())
+    decades = range(int(np.floor(np.log10(lo))), int(np.floor(np.log10(hi))) + 1)
+    ticks = [m * 10.0**k for k in decades for m in _LOG_MANTISSAS if lo <= m * 10.0**k <= hi]
+    if len(ticks) > most:
+        step = int(np.ceil(len(ticks) / most))
+        ticks = ticks[::step]
+    if not ticks:
+        ticks = [lo, hi]
+    axis.set_major_locator(FixedLocator(ticks))
+    axis.set_major_formatter(FuncFormatter(lambda v, _: f"{v:.4g}"))
+    axis.set_minor_formatter(NullFormatter())
 
 
 def _category_axis(axis, set_limits, names, labelled: bool) -> None:

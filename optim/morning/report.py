@@ -2,7 +2,8 @@
 
 ``report.html`` holds, in order: the picks (the best design in each objective and the knee of the
 front, each a short card of its dimensions, searched materials, drive, pull, lift ratio, power,
-temperatures and binding limit), the study summary (budget, trials, feasible share, rate), the
+temperatures and binding limit), their pick maps, the first pick's tolerance table
+(``optim.morning.report_tolerance``), the study summary (budget, trials, feasible share, rate), the
 front table (objectives and searched parameters first, a units row, bookkeeping columns last and
 collapsed; sortable by any column with a few lines of inline JavaScript, numbers and dates as
 such, text such as a searched material alphabetically), the
@@ -370,6 +371,15 @@ def _pick_maps_section(pick_maps) -> list[str]:
     ]
 
 
+def _tolerance_section(tolerance) -> list[str]:
+    """The first pick's tolerance table (`optim.morning.report_tolerance`), after the maps."""
+    if tolerance is None:
+        return []
+    from optim.morning.report_tolerance import tolerance_section
+
+    return tolerance_section(tolerance)
+
+
 def render_report(
     summary: dict,
     front,
@@ -381,6 +391,7 @@ def render_report(
     params=(),
     picks=(),
     pick_maps=(),
+    tolerance=None,
 ) -> str:
     """The report page as a string (see `write_report`)."""
     from importlib.metadata import PackageNotFoundError, version
@@ -402,6 +413,7 @@ def render_report(
         f'<p class="caution">{_e(CAUTIONS[0][1])}</p>',
         *_picks_section(front, picks),
         *_pick_maps_section(pick_maps),
+        *_tolerance_section(tolerance),
         "<h2>Summary</h2>",
         _kv_table(_summary(summary)),
         f"<h2>Front ({len(front)} designs)</h2>",
@@ -442,6 +454,7 @@ def write_report(
     params=(),
     picks=(),
     pick_maps=(),
+    tolerance=None,
 ) -> Path:
     """Write ``report.html`` into ``out_dir``: one self-contained page.
 
@@ -471,6 +484,9 @@ def write_report(
     pick_maps : list of Path or (Path, str), optional
         Pick maps of the picked designs (`optim.morning.robustness.pick_map_figures`), shown
         after the cards.
+    tolerance : optim.morning.robustness.ReportTolerance, optional
+        The first pick's tolerance table (`optim.morning.robustness.report_tolerance`), shown
+        after the pick maps.
 
     Returns
     -------
@@ -489,5 +505,6 @@ def write_report(
         params=list(params),
         picks=list(picks),
         pick_maps=list(pick_maps),
+        tolerance=tolerance,
     )
     return atomic_write_text(safe_child(out_dir, "report.html"), text)

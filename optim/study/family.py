@@ -7,14 +7,15 @@ flat field of ``models.result.Result`` (``pull_N``, ``lift_ratio``, the losses, 
 temperatures, the margins), exactly as a study with a ``[target]`` of that part does; its pulls
 at its gaps are ``models.evaluate.evaluate_pick_gaps``'s.
 
-Every other part is put under the same magnet: the fixed parts (coil, ring, core, face) stay at
-that evaluation's duty-averaged steady state, since the magnet does not change with the part in
-front of it. A part's pull at arrival at each of its gaps is one circuit assembly and solve with
-the coil and the ring at those temperatures and the part at its arrival temperature (as
-``evaluate_pick_gaps`` takes further gaps); its end of the hold is one more solve at the holding
-gap with the part warmed for ``thermal.hold_time_s``, the warming taken from the part's own node
-of the thermal network (its neighbours within a fraction of a kelvin of the first lift part's
-steady state: the part's own loss is small next to the magnet's).
+Every other part is put under the same magnet (``models.family.part_pulls_under_magnet``): the
+fixed parts (coil, ring, core, face) stay at that evaluation's duty-averaged steady state, since
+the magnet does not change with the part in front of it. A part's pull at arrival at each of its
+gaps is one circuit assembly and solve with the coil and the ring at those temperatures and the
+part at its arrival temperature (as ``evaluate_pick_gaps`` takes further gaps); its end of the
+hold is one more solve at the holding gap with the part warmed for ``thermal.hold_time_s``, the
+warming taken from the part's own node of the thermal network (its neighbours within a fraction
+of a kelvin of the first lift part's steady state: the part's own loss is small next to the
+magnet's).
 
 Results added to the model's (``parts.<name>.*`` per part, the rest over the family):
 
@@ -32,14 +33,14 @@ Results added to the model's (``parts.<name>.*`` per part, the rest over the fam
 
 from __future__ import annotations
 
+import dataclasses
 import math
 
 from scipy.constants import g as standard_gravity
 
-from models.design import Design, design_from_dict, with_value
-from models.evaluate import DEFAULT_FINENESS, evaluate_pick_gaps, pick_state, pole_model_for
-from models.fast.circuit import assemble_circuit, solve_system
-from models.fast.pull import pull_by_source
+from models.design import Design, design_from_dict
+from models.evaluate import evaluate_pick_gaps
+from models.family import part_pulls_under_magnet
 from optim.study.parts import Part, part_source
 
 __all__ = ["family_results", "part_design", "pulls_under_magnet", "FAMILY_RESULTS"]
@@ -52,11 +53,14 @@ PART_RESULTS = ("worst_pull_N", "best_pull_N", "worst_lift_ratio", "best_lift_ra
 
 def part_design(design: Design, part: Part) -> Design:
     """``design`` with ``part`` in the place of its target (the design's gap kept); ``design``
-    itself when its target is already that part."""
+    itself when its target is already that part. The magnet's pole and ring are ``design``'s own
+    validated ones, so that a property varied on them (a tolerance table's ring conductivity or
+    pole permeability, ``optim.morning.tolerance.MATERIAL_KEYS``) reaches every part."""
     source = part_source(design.source, part)
     if source["target"] == design.source.get("target"):
         return design
-    return design_from_dict(source, name=design.name)
+    built = design_from_dict(source, name=design.name)
+    return dataclasses.replace(built, pole=design.pole, ring=design.ring)
 
 
 def family_results(design: Design, parts, isothermal: bool = False):
@@ -90,7 +94,7 @@ def family_results(design: Design, parts, isothermal: bool = False):
         if part.name in per_part:
             continue
         other = part_design(design, part)
-        arrival, hold = pulls_under_magnet(result, other, _gaps(other, part), isothermal)
+        arrival, hold = part_pulls_under_magnet(other, result, _gaps(other, part), isothermal)
         per_part[part.name] = ([*arrival, hold], _weight(other))
     lift_pulls, lift_ratios, leave_ratios = [], [], []
     for part in parts:
@@ -133,83 +137,9 @@ def _worst_and_best(states) -> tuple[float, float]:
 
 
 def pulls_under_magnet(own, design: Design, gaps_mm, isothermal: bool = False):
-    """A part's pulls [N] under the magnet of another evaluation, at its steady state.
-
-    Parameters
-    ----------
-    own : models.result.Result
-        The design's own evaluation (the first lift part's): its coil and ring temperatures
-        (``temperatures_C["coil_mean"]``, ``["ring"]``) are the magnet's.
-    design : models.design.Design
-        The same magnet with the part in the place of the target, at the design's gap.
-    gaps_mm : sequence of float
-        The part's pick gaps [mm].
-    isothermal : bool
-        As ``models.evaluate.evaluate`` (every part at 20 degC).
-
-    Returns
-    -------
-    (list of float, float)
-        The pull at arrival at each gap [N], and at the end of the hold at the holding gap [N]
-        (nan when the part's hold has no temperature: a runaway).
-
-    Notes
-    -----
-    The same steps as ``models.evaluate.evaluate_pick_gaps`` with the fixed parts' circuit
-    temperatures taken from ``own``: for the first lift part itself it gives that function's
-    pulls and ``pull_hold_N`` (tests/test_study_parts.py). The part's arrival and hold
-    temperatures come from ``models.evaluate.pick_state`` on the part's own steady state
-    (one network solve, its electrical solves each a few ms less than an assembly); the pull is
-    -sum Re(I_i conj(I_j)) dM_ij/dz_i (models.fast.pull). Uses two private helpers of
-    models.evaluate (``_steady_state``, ``_part_losses``), for want of a public way to put a
-    second part under an evaluated magnet.
-    """
-    from models.evaluate import _part_losses, _steady_state, at_hold_gap
-
-    fineness = DEFAULT_FINENESS
-    systems: dict = {}
-
-    def system_at(d: Design):
-        key = round(d.target.gap, 15)
-        if key not in systems:
-            systems[key] = assemble_circuit(d, fineness, pole_model_for(d, fineness))
-        return systems[key]
-
-    held = at_hold_gap(design)
-    held_system = system_at(held)
-    state = _steady_state(held, held_system, isothermal)
-
-    def loss_at_arrival(temps):
-        return _part_losses(solve_system(held_system, temps))["target"]
-
-    part = pick_state(design, state, isothermal, loss_at_arrival)
-    fixed = _magnet_temperatures(own, isothermal)
-    arrival = {**part.arrival, **fixed}
-    pulls = []
-    for gap in gaps_mm:
-        at_gap = design
-        if abs(gap * 1e-3 - design.target.gap) > 1e-12:
-            at_gap = with_value(design, "target.gap_mm", gap)
-        pulls.append(_pull(solve_system(system_at(at_gap), arrival)))
-    hold = math.nan
-    if part.hold is not None:
-        hold = _pull(solve_system(held_system, {**part.hold, **fixed}))
-    return pulls, hold
-
-
-def _magnet_temperatures(own, isothermal: bool) -> dict:
-    """The circuit temperatures [degC] of the magnet's coil (its mean) and ring in ``own``;
-    empty when isothermal (20 degC, as the part's own pick state has them) or after a runaway
-    (no steady state: the part's own last iterate stands)."""
-    if isothermal:
-        return {}
-    temps = own.temperatures_C
-    out = {"coil": float(temps["coil_mean"])}
-    if "ring" in temps and temps["ring"] is not None:
-        out["ring"] = float(temps["ring"])
-    return out if all(math.isfinite(v) for v in out.values()) else {}
-
-
-def _pull(solution) -> float:
-    """The net pull of a solution [N]: the sum of its terms by source."""
-    return float(sum(pull_by_source(solution).values()))
+    """A part's pulls [N] under the magnet of another evaluation: (the pull at arrival at each
+    gap of ``gaps_mm`` [mm], the pull at the end of the hold), with ``own`` (the first lift
+    part's ``Result``) giving the magnet's coil and ring temperatures and ``design`` the same
+    magnet with the part in the place of the target. The model's
+    ``models.family.part_pulls_under_magnet`` at the default fineness."""
+    return part_pulls_under_magnet(design, own, gaps_mm, isothermal)
