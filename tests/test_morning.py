@@ -9,6 +9,7 @@ import math
 from html.parser import HTMLParser
 
 import ezdxf
+import numpy as np
 import pandas as pd
 import pytest
 
@@ -149,3 +150,28 @@ def test_demo_command_runs_the_main_job(tmp_path, capsys):
         (dxf,) = tmp_path.glob("handoff-trial-*/profile.dxf")
         assert f"{dxf.parent}" in out
     assert "licensed professional" in out
+
+
+def test_a_large_trials_table_is_written_by_arrow_and_reads_back_the_same(tmp_path, monkeypatch):
+    """trials.csv above LARGE_TABLE rows goes through pyarrow's CSV writer: pandas reads it
+    back as it reads the pandas-written file (times compared as times: Arrow writes a "Z")."""
+    import optim.morning.outputs as outputs
+
+    rng = np.random.default_rng(4)
+    n = 500
+    df = pd.DataFrame({f"r{i}": rng.random(n) for i in range(4)})
+    df.loc[::7, "r1"] = np.nan
+    df["state"] = np.where(rng.random(n) < 0.5, "done", "failed")
+    df["feasible"] = rng.random(n) < 0.5
+    df["completed_at"] = pd.to_datetime(rng.random(n) * 1e9, unit="s", utc=True)
+    df["turns"] = pd.array(rng.integers(1, 500, n), dtype="Int64")
+    df.loc[5, "turns"] = pd.NA
+    df["warnings"] = np.where(rng.random(n) < 0.2, 'below range, "cold" | pull small', "")
+    monkeypatch.setattr(outputs, "LARGE_TABLE", 10)
+    outputs._write_trials_csv(tmp_path / "arrow.csv", df)
+    monkeypatch.setattr(outputs, "LARGE_TABLE", 10**9)
+    outputs._write_trials_csv(tmp_path / "pandas.csv", df)
+    a, b = pd.read_csv(tmp_path / "arrow.csv"), pd.read_csv(tmp_path / "pandas.csv")
+    for frame in (a, b):
+        frame["completed_at"] = pd.to_datetime(frame["completed_at"], utc=True)
+    pd.testing.assert_frame_equal(a, b)

@@ -219,13 +219,30 @@ def _write_tables(folder: Path, df, front) -> dict[str, Path]:
     csv = io.StringIO()
     for_people(front).to_csv(csv, index=False)
     paths["front.csv"] = atomic_write_text(folder / "front.csv", csv.getvalue())
-    all_csv = io.StringIO()
-    for_people(df).to_csv(all_csv, index=False)
-    paths["trials.csv"] = atomic_write_text(folder / "trials.csv", all_csv.getvalue())
+    paths["trials.csv"] = _write_trials_csv(folder / "trials.csv", for_people(df))
     with atomic_path(folder / "front.parquet") as tmp:
         front.reset_index(drop=True).to_parquet(tmp, index=False)
     paths["front.parquet"] = folder / "front.parquet"
     return paths
+
+
+#: Above this many trials trials.csv is written by Arrow's CSV writer (pyarrow, compiled: ~10x
+#: faster than pandas' on 10^6 rows); the same columns and values, read back alike by
+#: ``pandas.read_csv``; Arrow writes true/false and times with a "Z".
+LARGE_TABLE = 100_000
+
+
+def _write_trials_csv(path: Path, df) -> Path:
+    if len(df) <= LARGE_TABLE:
+        out = io.StringIO()
+        df.to_csv(out, index=False)
+        return atomic_write_text(path, out.getvalue())
+    import pyarrow as pa
+    import pyarrow.csv as pacsv
+
+    with atomic_path(path) as tmp:
+        pacsv.write_csv(pa.Table.from_pandas(df, preserve_index=False), str(tmp))
+    return path
 
 
 def _write_plots(plot_dir: Path, spec, objectives: dict, df, front, designs) -> list[Path]:

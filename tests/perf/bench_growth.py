@@ -135,6 +135,9 @@ def main():
         help="trials the resumed run adds (one per worker: its wall time is the restart time)",
     )
     ap.add_argument("--keep", type=Path, help="study folder to keep (default: temporary)")
+    ap.add_argument(
+        "--reuse", action="store_true", help="use the study already in --keep (no bulk fill)"
+    )
     args = ap.parse_args()
     spec = load_study_spec(DEMO_STUDY)
     spec.run.pop("minutes", None)
@@ -142,9 +145,12 @@ def main():
     with tempfile.TemporaryDirectory() as tmp:
         folder = args.keep or Path(tmp) / "growth"
         folder.mkdir(parents=True, exist_ok=True)
-        fill_s = bulk_fill(spec, folder, args.trials)
+        if not args.reuse:
+            fill_s = bulk_fill(spec, folder, args.trials)
+            print(f"bulk fill: {args.trials} trials in {fill_s:.0f} s")
         size_mb = (folder / JOURNAL).stat().st_size / 1e6
-        print(f"bulk fill: {args.trials} trials in {fill_s:.0f} s, journal {size_mb:.0f} MB")
+        n = JournalLedger(folder / JOURNAL, spec.name).n_trials
+        print(f"study: {n} trials, journal {size_mb:.0f} MB")
         rows = []
         t0 = time.perf_counter()
         run_study(
