@@ -392,3 +392,18 @@ def test_a_log_axis_under_a_decade_has_a_few_plain_ticks():
     wide = np.array([300.0, 3000.0])  # a decade and more: at most four ticks
     _plain_log_ticks(ax.xaxis, wide)
     assert 2 <= len(ax.xaxis.get_major_locator()()) <= 4
+
+
+def test_front_history_at_counts_equals_the_trial_by_trial_history_there():
+    """The thinned history of a large study (values at evenly spaced counts) is the
+    trial-by-trial history read at those counts (an internal identity)."""
+    three = [*OBJECTIVES, ("ring_temperature_C", "minimize")]
+    for objectives in (OBJECTIVES, three, OBJECTIVES[:1]):
+        trials = make_trials(objectives=objectives)
+        full = front_history(trials, objectives).set_index("finished")
+        thin = front_history(trials, objectives, points=7)
+        assert len(thin) == 7 and thin["finished"].iloc[-1] == full.index[-1]
+        at = full.loc[thin["finished"]]
+        assert thin["front_size"].tolist() == at["front_size"].tolist()
+        assert np.allclose(thin["hypervolume"], at["hypervolume"], rtol=1e-12, atol=0)
+        assert thin["trial"].tolist() == at["trial"].tolist()
