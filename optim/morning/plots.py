@@ -39,6 +39,9 @@ __all__ = [
     "duration_words",
 ]
 
+#: A scatter of more points than this is drawn as an image inside the SVG (and the PDF).
+RASTER_ABOVE = 5000
+
 _FAINT = {"infeasible": "0.55", "dominated": "tab:blue", "front": "tab:red"}
 
 
@@ -162,6 +165,7 @@ def plot_front_pairs(trials: pd.DataFrame, objectives, out_dir) -> list[Path]:
                     alpha=alpha,
                     label=f"{what} ({int(m.sum())})",
                     zorder=3 if what == "front" else 2,
+                    rasterized=bool(m.sum() > RASTER_ABOVE),  # SVG: one image, not 1e6 marks
                 )
             m = front & np.isfinite(xa) & np.isfinite(yb)
             if len(objectives) == 2 and m.sum() > 1:

@@ -164,15 +164,15 @@ def main():
         )
         wall = time.perf_counter() - t0
         rows.append(("resume, 2 workers", wall, _child_peak_mb(), f"{args.resume} trials added"))
+        print(f"{'step':22s} {'wall_s':>8s} {'peak_MB':>8s}  note")
+        print(f"{rows[0][0]:22s} {rows[0][1]:8.1f} {rows[0][2]:8.0f}  {rows[0][3]}", flush=True)
         for name, cmd in (
             ("study status", ["study", "status", str(folder)]),
             ("study front", ["study", "front", str(folder), "--no-pick-maps"]),
         ):
             s, mb, code = timed_command(cmd)
             rows.append((name, s, mb, f"exit {code}"))
-        print(f"{'step':22s} {'wall_s':>8s} {'peak_MB':>8s}  note")
-        for r in rows:
-            print(f"{r[0]:22s} {r[1]:8.1f} {r[2]:8.0f}  {r[3]}")
+            print(f"{name:22s} {s:8.1f} {mb:8.0f}  exit {code}", flush=True)
         print("(resume: the parent reading the study, two workers started, each reading its")
         print(" window and recording one trial; peak MB of resume: the larger worker's)")
 
