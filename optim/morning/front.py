@@ -135,10 +135,11 @@ def _front_of_sorted_pairs(v: np.ndarray) -> np.ndarray:
     return ~(by_smaller_first | by_same_first)
 
 
-def trials_table(study, spec_json: dict) -> pd.DataFrame:
+def trials_table(study, spec_json: dict, dimensions: bool = True) -> pd.DataFrame:
     """Every trial of ``study`` (an optuna Study or an ``optim.study.columns.StudyReadout``) as
     one row (see the module docstring for the columns). Built column by column from the stored
-    records (optim.study.columns): 10^6 trials in well under a minute."""
+    records (optim.study.columns). ``dimensions=False`` leaves out the design dimensions (each
+    trial's design, ~10 us a trial: ``study status`` does without them)."""
     from optim.study.columns import StudyReadout
 
     readout = study if isinstance(study, StudyReadout) else StudyReadout(study, spec_json, "")
@@ -155,7 +156,8 @@ def trials_table(study, spec_json: dict) -> pd.DataFrame:
     for p in names:
         if p in data:
             ordered[p] = data.pop(p)
-    ordered.update(_dimensions(spec_json, {p: ordered[p] for p in names if p in ordered}))
+    if dimensions:
+        ordered.update(_dimensions(spec_json, {p: ordered[p] for p in names if p in ordered}))
     ordered.update(data)  # results, constraint margins, warnings (in the columns' order)
     df = pd.DataFrame(ordered)
     df["completed_at"] = pd.to_datetime(df["completed_at"], unit="s", utc=True)
@@ -186,12 +188,11 @@ def _dimensions(spec_json: dict, params: dict) -> dict:
         return {}
     base = spec_json["base"]
     columns = [params[p.name] for p in search]
-    for i in range(n):
+    valid = np.ones(n, bool)
+    for c in columns:
+        valid &= (c != "") if c.dtype == object else np.isfinite(c)
+    for i in np.flatnonzero(valid):
         row = {p.name: c[i] for p, c in zip(search, columns, strict=True)}
-        if any(
-            v is None or (isinstance(v, float) and math.isnan(v)) or v == "" for v in row.values()
-        ):
-            continue
         try:
             src = design_source(base, search, row)
         except Exception:  # a geometry that cannot even be assembled: params only
@@ -210,7 +211,7 @@ def status_summary(study, spec_json: dict, table: pd.DataFrame | None = None) ->
     """Counts, rate, feasible share, best value per objective (``best``) and the trial that
     reached it with its searched parameters (``best_trials``: objective -> ``trial``,
     ``parameters``; a material as its text), front size, failures and constraints of a study."""
-    df = trials_table(study, spec_json) if table is None else table
+    df = trials_table(study, spec_json, dimensions=False) if table is None else table
     objectives = spec_json["objectives"]
     n = len(df)
     done = df[df["state"].isin(["COMPLETE", "FAIL"])] if n else df

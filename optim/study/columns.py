@@ -14,10 +14,14 @@ the front are added.
 
 from __future__ import annotations
 
+import json
 import math
+import os
 from dataclasses import dataclass, field
 
 import numpy as np
+
+from optim.study.ledger import _Distributions
 
 __all__ = ["TrialColumns", "StudyReadout", "open_readout"]
 
@@ -152,46 +156,97 @@ class StudyReadout:
 
     def columns(self) -> TrialColumns:
         from optim.study.engine import RESULT_NAMES_ATTR
-        from optim.study.space import parse_search
 
         spec = self.spec_json
-        filler = _Filler(
-            self.n_trials,
+        shape = (
             list(self.user_attrs.get(RESULT_NAMES_ATTR, [])),
-            parse_search(spec["search"], []),
+            spec["search"],
             list(spec.get("constraints", {})),
             len(spec["objectives"]),
         )
         if hasattr(self.source, "records"):
-            for number, log in self.source.records():
-                dists = self.source.dists
-                ds = {k: dists(v) for k, v in log.get("distributions", {}).items()}
-                params = {k: ds[k].to_external_repr(p) for k, p in log.get("params", {}).items()}
-                values = log.get("values")
-                if values is None and log.get("value") is not None:
-                    values = [log["value"]]
-                filler.add(
-                    number,
-                    log.get("state", 0),
-                    values,
-                    params,
-                    log.get("user_attrs", {}),
-                    log.get("system_attrs", {}),
-                    _epoch(log.get("datetime_complete")),
-                )
-        else:
-            for t in self.source.get_trials(deepcopy=False):
-                done = t.datetime_complete
-                filler.add(
-                    t.number,
-                    int(t.state),
-                    t.values,
-                    t.params,
-                    t.user_attrs,
-                    t.system_attrs,
-                    done.timestamp() if done is not None else math.nan,
-                )
+            return _journal_columns(self.source, shape)
+        filler = _filler(self.n_trials, shape)
+        for t in self.source.get_trials(deepcopy=False):
+            done = t.datetime_complete
+            filler.add(
+                t.number,
+                int(t.state),
+                t.values,
+                t.params,
+                t.user_attrs,
+                t.system_attrs,
+                done.timestamp() if done is not None else math.nan,
+            )
         return filler.columns()
+
+
+def _filler(n: int, shape) -> _Filler:
+    from optim.study.space import parse_search
+
+    names, search, constraints, k = shape
+    return _Filler(n, names, parse_search(search, []), constraints, k)
+
+
+#: Journal studies of more trials than this are decoded by several processes at once.
+PARALLEL_ABOVE = 50_000
+
+
+def _journal_columns(ledger, shape) -> TrialColumns:
+    """The columns of a journal study: its records decoded in contiguous ranges, one process
+    per core for a large study (the decoding of 10^6 records is most of the time)."""
+    n = ledger.n_trials
+    offsets = ledger.index.offsets[ledger.study_id]
+    jobs = min(os.cpu_count() or 1, 8) if n > PARALLEL_ABOVE else 1
+    bounds = np.linspace(0, n, jobs + 1).astype(int)
+    ranges = [
+        (ledger.path, ledger.study_id, int(offsets[a]), int(a), int(b), shape)
+        for a, b in zip(bounds[:-1], bounds[1:], strict=True)
+        if b > a
+    ]
+    if len(ranges) <= 1:
+        parts = [_decode_range(*r) for r in ranges]
+    else:
+        from joblib import Parallel, delayed
+
+        parts = Parallel(n_jobs=len(ranges))(delayed(_decode_range)(*r) for r in ranges)
+    if not parts:
+        return _filler(0, shape).columns()
+    data = {k: np.concatenate([p.data[k] for p in parts]) for k in parts[0].data}
+    return TrialColumns(sum(p.n for p in parts), data)
+
+
+def _decode_range(path, study_id: int, offset: int, first: int, end: int, shape) -> TrialColumns:
+    """Decode the study's trial records ``first`` to ``end`` - 1, the first at byte ``offset``."""
+    from optim.study.ledger import is_trial_of
+
+    filler = _filler(end - first, shape)
+    dists = _Distributions()
+    number = first
+    with open(path, "rb") as fh:
+        fh.seek(offset)
+        for line in fh:
+            if number >= end:
+                break
+            if not is_trial_of(line, study_id):
+                continue
+            log = json.loads(line)
+            ds = {k: dists(v) for k, v in log.get("distributions", {}).items()}
+            params = {k: ds[k].to_external_repr(p) for k, p in log.get("params", {}).items()}
+            values = log.get("values")
+            if values is None and log.get("value") is not None:
+                values = [log["value"]]
+            filler.add(
+                number,
+                log.get("state", 0),
+                values,
+                params,
+                log.get("user_attrs", {}),
+                log.get("system_attrs", {}),
+                _epoch(log.get("datetime_complete")),
+            )
+            number += 1
+    return filler.columns()
 
 
 def open_readout(location, name: str | None = None) -> StudyReadout:

@@ -292,6 +292,11 @@ def _direction_names(directions) -> list[str]:
     return ["minimize" if int(d) == 1 else "maximize" for d in directions]
 
 
+def is_trial_of(line: bytes, study_id: int) -> bool:
+    """Whether a journal line is a trial record of study ``study_id``."""
+    return line.startswith(_TRIAL_PREFIX) and _is_study(line, study_id)
+
+
 def _is_study(line: bytes, study_id: int) -> bool:
     m = _STUDY_ID.search(line, 0, 400)
     return m is not None and int(m.group(1)) == study_id
