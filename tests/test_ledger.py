@@ -169,3 +169,23 @@ def test_a_database_ledger_writes_and_reads_as_optuna_does(tmp_path):
         )
     ledger.set_user_attr("k", 3)
     assert reference._storage.get_study_user_attrs(reference._study_id)["k"] == 3
+
+
+def test_columns_decoded_in_parallel_ranges_equal_the_serial_ones(tmp_path, monkeypatch):
+    """A large journal study is decoded in ranges by several processes: the same table."""
+    import pandas as pd
+
+    import optim.study.columns as columns
+    from optim.cli import main
+    from optim.morning.front import trials_table
+    from tests.test_study import QUICK, _study_file
+
+    path = _study_file(tmp_path, "par", QUICK)
+    folder = tmp_path / "par"
+    assert main(["study", "run", str(path), "--trials", "9", "--out", str(folder)]) == 0
+    readout = columns.open_readout(folder)
+    serial = trials_table(readout, readout.spec_json)
+    monkeypatch.setattr(columns, "PARALLEL_ABOVE", 2)
+    monkeypatch.setattr(columns.os, "cpu_count", lambda: 3)
+    parallel = trials_table(readout, readout.spec_json)
+    pd.testing.assert_frame_equal(serial, parallel)
