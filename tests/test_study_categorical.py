@@ -290,8 +290,8 @@ def test_a_migrant_with_a_categorical_parameter_joins_another_worker(tmp_path):
 
 @pytest.mark.parametrize("sampler", ["tpe", "nsga2", "auto"])
 def test_every_sampler_draws_the_choices_across_a_window_rollover(tmp_path, sampler):
-    """60 stand-in trials through a window of 30: "auto" moves from TPE to NSGA-II at the
-    rollover, carrying the categorical trials over; every choice is drawn."""
+    """60 stand-in trials through a window of 30, rolled over: every sampler carries the
+    categorical trials over and draws every choice ("auto" is TPE for these windows)."""
     body = BODY.replace("seed = 5", f'seed = 5\nsampler = "{sampler}"\npopulation = 8')
     spec = load_study_spec(_study_file(tmp_path, f"s-{sampler}", body))
     folder = tmp_path / sampler

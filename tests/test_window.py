@@ -70,3 +70,18 @@ def test_window_rolls_over_and_keeps_searching(tmp_path):
     cfg2 = dict(cfg, trials=50, seed=2)
     assert run_worker(cfg2, None, None, counter2) == 50
     assert len(load_existing(folder)[0].get_trials(deepcopy=False)) == 750
+
+
+def test_auto_is_tpe_for_its_first_windows_then_nsga2():
+    """The default from the search-quality table (DEVELOPERS.md): TPE for AUTO_TPE_WINDOWS
+    windows (~3,000 trials of a worker), then NSGA-II; a named sampler throughout."""
+    from types import SimpleNamespace
+
+    from optim.study.sampler import AUTO_TPE_WINDOWS, choose
+
+    auto = SimpleNamespace(run={})
+    kinds = [choose(auto, k)[0] for k in range(AUTO_TPE_WINDOWS + 3)]
+    assert kinds == ["tpe"] * AUTO_TPE_WINDOWS + ["nsga2"] * 3
+    assert choose(auto, AUTO_TPE_WINDOWS) == ("nsga2", 40)
+    named = SimpleNamespace(run={"sampler": "random", "population": 12})
+    assert {choose(named, k) for k in range(8)} == {("random", 12)}

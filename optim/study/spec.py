@@ -28,7 +28,7 @@ A study file::
     trials = 2000                     # trials in one run (a resumed run adds as many again)
     minutes = 30                      # or hours; at least one of trials, minutes, hours
     workers = 2
-    sampler = "nsga2"                 # "auto" (default: TPE, then NSGA-II), "nsga2", "tpe", "random"
+    sampler = "nsga2"                 # "auto" (default: TPE for ~3,000 trials a worker, then NSGA-II), "nsga2", "tpe", "random"
     population = 40                   # NSGA-II's (default 40)
     seed = 1
     storage = "postgresql+psycopg://user@host/db"   # default: a journal file in the study folder
