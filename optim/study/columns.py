@@ -21,7 +21,7 @@ from dataclasses import dataclass, field
 
 import numpy as np
 
-from optim.study.ledger import _Distributions
+from optim.study.ledger import JournalLedger, _Distributions, params_of
 
 __all__ = ["TrialColumns", "StudyReadout", "open_readout"]
 
@@ -164,7 +164,7 @@ class StudyReadout:
             list(spec.get("constraints", {})),
             len(spec["objectives"]),
         )
-        if hasattr(self.source, "records"):
+        if isinstance(self.source, JournalLedger):
             return _journal_columns(self.source, shape)
         filler = _filler(self.n_trials, shape)
         for t in self.source.get_trials(deepcopy=False):
@@ -231,8 +231,7 @@ def _decode_range(path, study_id: int, offset: int, first: int, end: int, shape)
             if not is_trial_of(line, study_id):
                 continue
             log = json.loads(line)
-            ds = {k: dists(v) for k, v in log.get("distributions", {}).items()}
-            params = {k: ds[k].to_external_repr(p) for k, p in log.get("params", {}).items()}
+            _, params = params_of(log, dists)
             values = log.get("values")
             if values is None and log.get("value") is not None:
                 values = [log["value"]]

@@ -107,14 +107,19 @@ class _Distributions:
         return d
 
 
+def params_of(log: dict, dists: _Distributions) -> tuple[dict, dict]:
+    """(distributions, parameter values as the trial sees them) of a CREATE_TRIAL record."""
+    distributions = {k: dists(v) for k, v in log.get("distributions", {}).items()}
+    params = {k: distributions[k].to_external_repr(p) for k, p in log.get("params", {}).items()}
+    return distributions, params
+
+
 def trial_from_log(log: dict, number: int, dists=None):
     """The FrozenTrial optuna's journal replay makes of a CREATE_TRIAL record (trial id = the
     study's trial number: a ledger holds one study)."""
     from optuna.trial import FrozenTrial, TrialState
 
-    dists = dists or _Distributions()
-    distributions = {k: dists(v) for k, v in log.get("distributions", {}).items()}
-    params = {k: distributions[k].to_external_repr(p) for k, p in log.get("params", {}).items()}
+    distributions, params = params_of(log, dists or _Distributions())
     return FrozenTrial(
         number=number,
         trial_id=number,
@@ -245,22 +250,6 @@ class JournalLedger:
     def trial(self, number: int):
         """The study's trial ``number`` (0 <= number < n_trials)."""
         return self._read(number, number + 1)[0]
-
-    def records(self):
-        """Every trial record of the study in order: (number, the record as stored, a dict),
-        as far as the index has read."""
-        end = self.n_trials
-        if not end:
-            return
-        with open(self.path, "rb") as fh:
-            fh.seek(self.index.offsets[self.study_id][0])
-            number = 0
-            for line in fh:
-                if number >= end:
-                    break
-                if line.startswith(_TRIAL_PREFIX) and _is_study(line, self.study_id):
-                    yield number, json.loads(line)
-                    number += 1
 
     def _read(self, first: int, end: int) -> list:
         offsets = self.index.offsets[self.study_id]

@@ -51,7 +51,6 @@ def bulk_fill(spec, folder: Path, n: int, batch: int = 20000, seed: int = 5) -> 
     import optuna
 
     ledger, _ = prepare(spec, folder)
-    ledger = JournalLedger(folder / JOURNAL, spec.name)
     names = ledger.user_attrs["eddypull_result_names"]
     dists = {p.name: p.distribution() for p in spec.params}
     rng = np.random.default_rng(seed)
