@@ -22,6 +22,8 @@ import math
 import numpy as np
 import pandas as pd
 
+from optim.study.pareto import pareto_mask
+
 __all__ = [
     "DIMENSIONS",
     "STATE_WORDS",
@@ -69,70 +71,6 @@ DIMENSIONS = {
     "target_thickness_mm": ("target", "thickness_mm"),
     "gap_mm": ("target", "gap_mm"),
 }
-
-
-def pareto_mask(values: np.ndarray, directions) -> np.ndarray:
-    """Boolean mask of the non-dominated rows of ``values`` (n x k) for the given directions.
-
-    A row is dominated when another is at least as good in every objective and better in one;
-    equal rows are all kept. Rows are sorted lexicographically, so that a row can only be
-    dominated by one before it. Two objectives: one pass over the sorted rows with the running
-    minimum of the second objective, O(n log n) (5e5 rows in well under a second). More
-    objectives: blocks of sorted rows are first compared with the whole front found so far at
-    once, and only a block's survivors are then checked one by one.
-    """
-    values = np.asarray(values, float)
-    n = values.shape[0]
-    if n == 0:
-        return np.zeros(0, bool)
-    signs = np.array([1.0 if d == "minimize" else -1.0 for d in directions])
-    v = values * signs
-    order = np.lexsort(v.T[::-1])
-    keep = np.zeros(n, bool)
-    if v.shape[1] == 1:
-        keep[v[:, 0] == v[order[0], 0]] = True
-        return keep
-    if v.shape[1] == 2:
-        keep[order] = _front_of_sorted_pairs(v[order])
-        return keep
-    front = np.empty((n, v.shape[1]))
-    size = 0
-    for block in np.array_split(order, max(1, n // _BLOCK)):
-        x = v[block]
-        f = front[:size]
-        if size:
-            le = np.all(f[None, :, :] <= x[:, None, :], axis=2)
-            lt = np.any(f[None, :, :] < x[:, None, :], axis=2)
-            alive = ~np.any(le & lt, axis=1)
-        else:
-            alive = np.ones(len(block), bool)
-        for i, row in zip(block[alive], x[alive], strict=True):
-            f = front[:size]
-            if size and np.any(np.all(f <= row, axis=1) & np.any(f < row, axis=1)):
-                continue
-            keep[i] = True
-            front[size] = row
-            size += 1
-    return keep
-
-
-#: Rows compared with the front at once by ``pareto_mask`` (three or more objectives).
-_BLOCK = 256
-
-
-def _front_of_sorted_pairs(v: np.ndarray) -> np.ndarray:
-    """Non-dominated mask of two-objective rows sorted lexicographically (minimisation).
-
-    A row is dominated by an earlier row with a smaller first objective and a second objective
-    no larger, or by an earlier row of the same first objective with a smaller second one (the
-    first of its group, the group being sorted)."""
-    a, b = v[:, 0], v[:, 1]
-    starts = np.flatnonzero(np.r_[True, a[1:] != a[:-1]])
-    group = np.repeat(starts, np.diff(np.r_[starts, len(a)]))
-    before = np.r_[np.inf, np.minimum.accumulate(b)[:-1]]  # min of b over the rows before i
-    by_smaller_first = before[group] <= b
-    by_same_first = b[group] < b
-    return ~(by_smaller_first | by_same_first)
 
 
 def trials_table(study, spec_json: dict, dimensions: bool = True) -> pd.DataFrame:

@@ -13,6 +13,7 @@ import numpy as np
 import pandas as pd
 
 from models.errors import DesignError
+from optim.study.pareto import pareto_mask, with_row
 
 __all__ = ["front_history", "check_objectives", "as_min", "trial_flags", "column"]
 
@@ -141,22 +142,23 @@ def front_history(
         points = HISTORY_POINTS
     if points is not None:
         return _history_at_counts(t, objectives, lo, span, ref, box, points)
-    front: list[np.ndarray] = []
+    front = np.zeros((0, k))
     rows = []
     for count, (_, row) in enumerate(t.iterrows(), start=1):
         v = np.asarray(row["_v"], float)
         if row["_feas"] and np.all(np.isfinite(v)):
             u = (v - lo) / span
-            if not any(np.all(q <= u) and np.any(q < u) for q in front):
-                front = [q for q in front if not (np.all(u <= q) and np.any(u < q))] + [u]
+            grown = with_row(front, u)
+            if grown is not front:  # u is on the front now
+                front = grown
                 if k >= 3:
                     covered |= np.all(box >= u, axis=1)
-        if not front:
+        if not len(front):
             hv = 0.0
         elif k == 1:
-            hv = (ref - min(q[0] for q in front)) / ref
+            hv = (ref - front[:, 0].min()) / ref
         elif k == 2:
-            hv = _hv2(np.array(front), ref) / ref**2
+            hv = _hv2(front, ref) / ref**2
         else:
             hv = float(covered.mean())
         out = {
@@ -168,7 +170,7 @@ def front_history(
         }
         if k == 1:
             sign = -1.0 if objectives[0][1] == "maximize" else 1.0
-            out["best"] = sign * (min(q[0] for q in front) * span[0] + lo[0]) if front else math.nan
+            out["best"] = sign * (front[:, 0].min() * span[0] + lo[0]) if len(front) else math.nan
         rows.append(out)
     cols = ["finished", "trial", "completed_at", "front_size", "hypervolume"]
     return pd.DataFrame(rows, columns=cols + (["best"] if k == 1 else []))
@@ -177,9 +179,7 @@ def front_history(
 def _history_at_counts(t, objectives, lo, span, ref, box, points: int) -> pd.DataFrame:
     """``front_history`` at ``points`` evenly spaced counts of finished trials: the front is
     carried from one count to the next as the non-dominated set of itself and the block of
-    trials between them (optim.morning.front.pareto_mask: equal points kept, as above)."""
-    from optim.morning.front import pareto_mask
-
+    trials between them (``pareto_mask``: equal points kept, as above)."""
     k = len(objectives)
     n = len(t)
     v = np.vstack(t["_v"].to_numpy()).reshape(n, k) if n else np.zeros((0, k))

@@ -25,6 +25,7 @@ import numpy as np
 from models.errors import DesignError
 from optim.files import redact_text, redact_url
 from optim.study.engine import RESULT_NAMES_ATTR, run_worker
+from optim.study.pareto import minimisation_signs, with_row
 from optim.study.sampler import derive_seed
 from optim.study.storage import (
     FINGERPRINT_ATTR,
@@ -67,7 +68,7 @@ class Progress:
         self.done = self.failed = self.feasible = 0
         self.first_finish = self.last_finish = None
         self.best = [None] * len(spec.objectives)
-        self.signs = np.array([1.0 if d == "minimize" else -1.0 for d in spec.directions])
+        self.signs = minimisation_signs(spec.directions)
         self.front = np.empty((0, len(spec.objectives)))
 
     def add(self, state, feasible, values):
@@ -86,11 +87,7 @@ class Progress:
         for i, x in enumerate(v):
             if self.best[i] is None or x < self.best[i]:
                 self.best[i] = float(x)
-        f = self.front
-        if len(f) and np.any(np.all(f <= v, axis=1) & np.any(f < v, axis=1)):
-            return
-        keep = ~(np.all(v <= f, axis=1) & np.any(v < f, axis=1))
-        self.front = np.vstack([f[keep], v[None, :]])
+        self.front = with_row(self.front, v)
 
     def rate(self) -> float | None:
         """Trials finished per second between this run's first and last finish (the rate
