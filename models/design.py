@@ -1044,6 +1044,15 @@ def load_design(path) -> Design:
     ------
     DesignError
         The file is missing, not TOML, or breaks a rule (one line per violation).
+
+    Examples
+    --------
+    The demo design that ships with the package:
+
+    >>> from optim.demo import DEMO_DESIGN
+    >>> design = load_design(DEMO_DESIGN)
+    >>> design.name, design.source["target"]["gap_mm"]
+    ('harrowgate-cap-lifter', 3.0)
     """
     path = Path(path)
     data = read_toml(path, "design file")
@@ -1084,6 +1093,13 @@ def with_value(design: Design, key: str, value) -> Design:
     """A copy of ``design`` with one file key changed (``"gap_mm"`` or ``"target.gap_mm"``).
 
     A bare key must name exactly one key of the design's tables (``resolve_key``).
+
+    Examples
+    --------
+    >>> from optim.demo import DEMO_DESIGN
+    >>> closer = with_value(load_design(DEMO_DESIGN), "gap_mm", 1.0)
+    >>> closer.source["target"]["gap_mm"]
+    1.0
     """
     table, k = resolve_key(design, key)
     data = _deep_copy(design.source)

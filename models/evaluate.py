@@ -239,6 +239,16 @@ def evaluate(
     ------
     DesignError
         For a conductive (solid) pole: the fast model covers laminated poles only.
+
+    Examples
+    --------
+    >>> from models import load_design
+    >>> from optim.demo import DEMO_DESIGN
+    >>> result = evaluate(load_design(DEMO_DESIGN))
+    >>> print(f"pull {result.pull_N * 1e3:.1f} mN, lift ratio {result.lift_ratio:.2f}")
+    pull 3.4 mN, lift ratio 1.63
+    >>> print(f"{result.input_power_W:.0f} W")
+    48 W
     """
     return evaluate_pick_gaps(design, (), isothermal, fineness, pole_model)[0]
 

@@ -232,6 +232,21 @@ def evaluate_map(design, x: MapAxis, y: MapAxis, isothermal: bool = False) -> Pi
     DesignError
         The two keys are the same, or every point of the grid is refused (with the first
         reason); a design the fast model refuses as a whole (a solid pole).
+
+    Examples
+    --------
+    The demo cap lifter's lift ratio over 3 gaps (columns) by 3 cap radii (rows), each part at
+    20 degC (``eddypull map`` does the same from the command line):
+
+    >>> from models import load_design
+    >>> from optim.demo import DEMO_DESIGN
+    >>> design = load_design(DEMO_DESIGN)
+    >>> x = parse_axis(design, "target.gap_mm=0.5..2", points=3)
+    >>> y = parse_axis(design, "target.radius_mm=4..8", points=3, flag="--y")
+    >>> evaluate_map(design, x, y, isothermal=True).lift_ratio.round(1)
+    array([[2.4, 2.1, 1.6],
+           [7.3, 5.1, 3.5],
+           [8.7, 5.7, 3.6]])
     """
     if x.key == y.key:
         raise DesignError(f"--y {y.key}: must differ from --x {x.key}")
