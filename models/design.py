@@ -12,7 +12,7 @@ from __future__ import annotations
 
 import math
 import tomllib
-from dataclasses import dataclass, field, replace
+from dataclasses import dataclass, field, fields, replace
 from pathlib import Path
 
 from models.core_loss import lamination_permeability
@@ -270,6 +270,10 @@ class Design:
     supply: Supply | None = None
     #: What the reader took on the user's behalf (each becomes a warning of every result).
     notes: tuple = field(default=(), compare=False)
+    #: Properties set on the validated parts by ``edit`` (((part, attribute), SI value), ...):
+    #: with ``source`` they say everything the parts hold; ``edit`` sets them again on a part it
+    #: rebuilds from the file.
+    properties: tuple = field(default=(), compare=False, repr=False)
 
 
 # ----------------------------------------------------------------------------------------------
@@ -1089,8 +1093,84 @@ def resolve_key(design: Design, key: str) -> tuple[str, str]:
     return tables[0], key
 
 
+def edit(design: Design, changes=None, *, properties=None) -> Design:
+    """A copy of ``design`` with ``changes`` made: the one way every caller changes a design.
+
+    Parameters
+    ----------
+    design : Design
+    changes : mapping of str to value, optional
+        Design-file keys in file units (``{"target.gap_mm": 2.0}``, or a bare key that names
+        one key of the design's tables, ``"gap_mm"``), checked as the file would be; ``None``
+        removes the key from the file.
+    properties : mapping of str to float, optional
+        Properties of the validated parts in SI, by ``part.attribute``
+        (``{"ring.conductivity": 5.0e7, "pole.relative_permeability": 800.0}``): values the
+        file need not give directly (a conductivity that comes from a material's name).
+
+    Returns
+    -------
+    Design
+        Whatever was set before is kept: a part whose file table no change touches is kept as
+        ``design`` has it (however it was set), and a part rebuilt from the changed file gets
+        the properties ``edit`` set on it before, unless this edit sets them anew or makes it
+        another part: a change of any of its keys but a dimension (``*_mm``), or a removal,
+        drops the properties set on that part (a tolerance sample's part conductivity is not
+        carried to another metal).
+
+    Raises
+    ------
+    DesignError
+        A key that is not a file key (with the nearest one), a property of no part the design
+        has, a non-finite property, or a changed file that breaks a design rule.
+
+    Examples
+    --------
+    >>> from optim.demo import DEMO_DESIGN
+    >>> design = edit(load_design(DEMO_DESIGN), properties={"ring.conductivity": 5.0e7})
+    >>> closer = edit(design, {"gap_mm": 1.0})
+    >>> closer.target.gap, closer.ring.conductivity
+    (0.001, 50000000.0)
+    """
+    file_changes = {resolve_key(design, key): value for key, value in (changes or {}).items()}
+    redefined = {t for (t, k), v in file_changes.items() if v is None or not k.endswith("_mm")}
+    props = {key: v for key, v in design.properties if key[0] not in redefined}
+    for key, value in (properties or {}).items():
+        part, _, attr = key.partition(".")
+        if attr not in _property_names(design, part):
+            raise DesignError(
+                f"{key}: not a property of a part of this design; allowed: part.attribute of "
+                f"{', '.join(t for t in DESIGN_KEYS if _property_names(design, t))}"
+            )
+        if not _is_finite(value):
+            raise DesignError(f"{key} = {value!r}: must be a finite number")
+        props[(part, attr)] = float(value)
+    edited = design
+    if file_changes:
+        data = _deep_copy(design.source)
+        for (table, k), value in file_changes.items():
+            if value is None:
+                data.get(table, {}).pop(k, None)
+            else:
+                data.setdefault(table, {})[k] = value
+        built = design_from_dict(data, name=design.name)
+        touched = {table for table, _ in file_changes}
+        edited = replace(built, **{t: getattr(design, t) for t in DESIGN_KEYS if t not in touched})
+    for (part, attr), value in props.items():
+        obj = getattr(edited, part)
+        if obj is not None:
+            edited = replace(edited, **{part: replace(obj, **{attr: value})})
+    return replace(edited, properties=tuple(props.items()))
+
+
+def _property_names(design: Design, part: str) -> tuple[str, ...]:
+    """The attribute names of the design's part ``part`` (empty: no such part)."""
+    obj = getattr(design, part, None) if part in DESIGN_KEYS else None
+    return tuple(f.name for f in fields(obj)) if obj is not None else ()
+
+
 def with_value(design: Design, key: str, value) -> Design:
-    """A copy of ``design`` with one file key changed (``"gap_mm"`` or ``"target.gap_mm"``).
+    """``edit(design, {key: value})`` for one file key (``"gap_mm"`` or ``"target.gap_mm"``).
 
     A bare key must name exactly one key of the design's tables (``resolve_key``).
 
@@ -1101,26 +1181,13 @@ def with_value(design: Design, key: str, value) -> Design:
     >>> closer.source["target"]["gap_mm"]
     1.0
     """
-    table, k = resolve_key(design, key)
-    data = _deep_copy(design.source)
-    data.setdefault(table, {})[k] = value
-    return design_from_dict(data, name=design.name)
+    return edit(design, {key: value})
 
 
 def with_gap(design: Design, gap_mm: float) -> Design:
-    """``design`` with its part at another gap [mm].
+    """``design`` with its part at another gap [mm]: ``edit(design, {"target.gap_mm": gap_mm})``.
 
-    Checked as ``with_value(design, "target.gap_mm", gap_mm)`` checks it, with every validated
-    part but the gap kept as ``design`` has it: a property set on the validated design rather
-    than in its file (a tolerance table's ring or part conductivity, the pole's permeability)
-    stays when the part moves to another gap.
+    Every validated part but the target is kept as ``design`` has it, and the target keeps the
+    properties set on it by ``edit`` (a tolerance table's part conductivity).
     """
-    moved = with_value(design, "target.gap_mm", gap_mm)
-    return replace(
-        moved,
-        pole=design.pole,
-        coil=design.coil,
-        drive=design.drive,
-        ring=design.ring,
-        target=replace(design.target, gap=moved.target.gap),
-    )
+    return edit(design, {"target.gap_mm": gap_mm})

@@ -14,7 +14,7 @@ import pytest
 
 #: module -> the public entry points whose examples are run.
 ENTRY_POINTS = {
-    "models.design": ["load_design", "with_value"],
+    "models.design": ["load_design", "edit", "with_value"],
     "models.evaluate": ["evaluate"],
     "optim.morning.pickmap": ["evaluate_map"],
 }

@@ -9,13 +9,12 @@ the physics). No published values.
 from __future__ import annotations
 
 import ast
-import dataclasses
 import math
 from pathlib import Path
 
 import pytest
 
-from models.design import load_design, with_gap, with_value
+from models.design import edit, load_design, with_gap, with_value
 from models.evaluate import evaluate_pick_gaps
 from models.family import magnet_temperatures, part_pulls_under_magnet
 from tests.conftest import DEMO, ROOT
@@ -56,13 +55,16 @@ def test_magnet_temperatures_are_the_coil_mean_and_the_ring():
 
 def test_with_gap_keeps_what_was_set_on_the_validated_design():
     """A design read from its file moves to another gap as with_value moves it (equal
-    dataclasses); a conductivity set on the validated design stays (as a tolerance table sets
-    it), and the pulls at other gaps follow it."""
+    dataclasses); a conductivity set on the validated design by ``edit`` stays (as a tolerance
+    table sets it), and the pulls at other gaps follow it."""
     design = load_design(DEMO)
     assert with_gap(design, 2.0) == with_value(design, "target.gap_mm", 2.0)
-    ring = dataclasses.replace(design.ring, conductivity=0.5 * design.ring.conductivity)
-    target = dataclasses.replace(design.target, conductivity=0.5 * design.target.conductivity)
-    varied = dataclasses.replace(design, ring=ring, target=target)
+    half = {
+        "ring.conductivity": 0.5 * design.ring.conductivity,
+        "target.conductivity": 0.5 * design.target.conductivity,
+    }
+    varied = edit(design, properties=half)
+    ring, target = varied.ring, varied.target
     moved = with_gap(varied, 2.0)
     assert moved.ring == ring and moved.target.conductivity == target.conductivity
     assert moved.target.gap == pytest.approx(2e-3, rel=1e-15)

@@ -32,7 +32,7 @@ from pathlib import Path
 
 import numpy as np
 
-from models.design import DESIGN_KEYS, resolve_key, with_value
+from models.design import DESIGN_KEYS, edit, resolve_key
 from models.errors import DesignError
 from optim.morning.sweep import DEFAULT_POINTS, outside_checked_range
 
@@ -170,7 +170,7 @@ def _value(key: str, v: float):
 
 def _point_design(design, x: MapAxis, xv: float, y: MapAxis, yv: float):
     """The design at one grid point (both keys in one validation)."""
-    return with_value(with_value(design, x.key, _value(x.key, xv)), y.key, _value(y.key, yv))
+    return edit(design, {x.key: _value(x.key, xv), y.key: _value(y.key, yv)})
 
 
 def _evaluate_points(design, x: MapAxis, y: MapAxis, cells, isothermal: bool) -> list:

@@ -41,7 +41,7 @@ Conductivities and the pole's permeability are properties of a material the desi
 file gives either ``material`` or ``conductivity_S_per_m``), and writing the conductivity in its
 place would lose what the name also carries: the metal's heat capacity and melting point (the
 network takes an unnamed conductor as aluminium), and a steel's sheets and loss law. So those
-three keys (``MATERIAL_KEYS``) are varied on the validated design itself (``dataclasses.replace``
+three keys (``MATERIAL_KEYS``) are varied on the validated design itself (``models.design.edit``
 of the ring's or target's ``conductivity``, the pole's ``relative_permeability``), after the file
 keys have been written into ``design.source`` and validated (``varied_design``).
 """
@@ -49,7 +49,6 @@ keys have been written into ``design.source`` and validated (``varied_design``).
 from __future__ import annotations
 
 import csv
-import dataclasses
 import io
 import math
 import time
@@ -58,7 +57,7 @@ from pathlib import Path
 
 import numpy as np
 
-from models.design import DESIGN_KEYS, design_from_dict, read_toml, resolve_key
+from models.design import DESIGN_KEYS, edit, read_toml, resolve_key
 from models.errors import DesignError, nearest
 
 __all__ = [
@@ -330,32 +329,30 @@ def tolerances_for(design, spec: dict | None = None) -> list[Tolerance]:
 
 
 def varied_design(design, deltas: dict):
-    """``design`` with each key of ``deltas`` moved by its value (file units): the file keys in
-    ``design.source`` and validated once, then the ``MATERIAL_KEYS`` on the validated design.
+    """``design`` with each key of ``deltas`` moved by its value (file units), through
+    ``models.design.edit``: the file keys as file changes, the ``MATERIAL_KEYS`` as properties
+    of the validated parts (so that a conductivity that comes from a material's name moves too).
 
     Raises
     ------
     DesignError
-        The moved design breaks a design rule.
+        The moved design breaks a design rule, or a property leaves its physical range.
     """
-    file_deltas = {k: v for k, v in deltas.items() if k not in MATERIAL_KEYS and v != 0}
-    if file_deltas:
-        data = {k: (dict(v) if isinstance(v, dict) else v) for k, v in design.source.items()}
-        for key, delta in file_deltas.items():
-            table, k = key.split(".", 1)
-            data.setdefault(table, {})[k] = float(data[table][k]) + float(delta)
-        design = design_from_dict(data, name=design.name)
+    changes, properties = {}, {}
     for key, delta in deltas.items():
-        if key not in MATERIAL_KEYS or delta == 0:
+        if delta == 0:
+            continue
+        if key not in MATERIAL_KEYS:
+            table, k = key.split(".", 1)
+            changes[key] = float(design.source[table][k]) + float(delta)
             continue
         part, attr = MATERIAL_KEYS[key]
-        obj = getattr(design, part)
-        value = getattr(obj, attr) + float(delta)
+        value = getattr(getattr(design, part), attr) + float(delta)
         least = 1.0 if attr == "relative_permeability" else 0.0
         if not value > least:
             raise DesignError(f"{key} = {value:.4g}: must be > {least:g}")
-        design = dataclasses.replace(design, **{part: dataclasses.replace(obj, **{attr: value})})
-    return design
+        properties[f"{part}.{attr}"] = value
+    return edit(design, changes, properties=properties)
 
 
 # ----------------------------------------------------------------------------- the evaluations

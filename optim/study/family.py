@@ -33,12 +33,11 @@ Results added to the model's (``parts.<name>.*`` per part, the rest over the fam
 
 from __future__ import annotations
 
-import dataclasses
 import math
 
 from scipy.constants import g as standard_gravity
 
-from models.design import Design, design_from_dict
+from models.design import Design, edit
 from models.evaluate import evaluate_pick_gaps
 from models.family import part_pulls_under_magnet
 from optim.study.parts import Part, part_source
@@ -56,11 +55,11 @@ def part_design(design: Design, part: Part) -> Design:
     itself when its target is already that part. The magnet's pole and ring are ``design``'s own
     validated ones, so that a property varied on them (a tolerance table's ring conductivity or
     pole permeability, ``optim.morning.tolerance.MATERIAL_KEYS``) reaches every part."""
-    source = part_source(design.source, part)
-    if source["target"] == design.source.get("target"):
+    target = part_source(design.source, part)["target"]
+    if target == design.source.get("target"):
         return design
-    built = design_from_dict(source, name=design.name)
-    return dataclasses.replace(built, pole=design.pole, ring=design.ring)
+    changes = {f"target.{k}": None for k in design.source.get("target", {}) if k not in target}
+    return edit(design, changes | {f"target.{k}": v for k, v in target.items()})
 
 
 def family_results(design: Design, parts, isothermal: bool = False):
