@@ -97,16 +97,6 @@ def build_cells(design, fineness: Fineness) -> Cells:
     return Cells.concat(*parts)
 
 
-def _near_pairs(cells: Cells, reach=1.01):
-    """Index pairs (i < j) of cells whose rectangles are within one cell size of each other."""
-    rc, zc, dr, dz = cells.rc, cells.zc, cells.dr, cells.dz
-    gap_r = np.abs(rc[:, None] - rc[None, :]) - 0.5 * (dr[:, None] + dr[None, :])
-    gap_z = np.abs(zc[:, None] - zc[None, :]) - 0.5 * (dz[:, None] + dz[None, :])
-    size = np.maximum(np.maximum(dr[:, None], dr[None, :]), np.maximum(dz[:, None], dz[None, :]))
-    near = (np.maximum(gap_r, gap_z) < reach * size) & np.triu(np.ones_like(gap_r, bool), 1)
-    return np.nonzero(near)
-
-
 def _gauss_nodes(cells: Cells, idx):
     """2 x 2 Gauss nodes of the cells ``idx``: (len(idx), 4) arrays of r and z."""
     gr = cells.rc[idx, None] + cells.dr[idx, None] * np.repeat(_G2, 2)[None, :]

@@ -230,7 +230,7 @@ FIELD, SOURCE = 0, 1
 #: Nodes per block of the panel integration (the block's arrays stay in cache), and the most
 #: nodes one pair's rule can have (two sides of max_levels + 1 intervals of up to 5 points).
 _BLOCK_NODES = 4096
-_PAIR_NODES_MAX = 2 * (q._MAX_LEVELS + 1) * 5
+_PAIR_NODES_MAX = 2 * (q.MAX_LEVELS + 1) * 5
 
 
 @njit(cache=True, error_model="numpy")
@@ -435,9 +435,9 @@ def panel_pair_sums(mode, panels, pidx, pr, pz, rho, eps, n_gauss):
     ``rho``, the point's distance from the panel's midpoint in panel lengths; graded rules with
     innermost interval ``eps`` and ``n_gauss`` points per interval)."""
     (r0, z0), (r1, z1) = panels.start, panels.end
-    x2, w2 = q._gauss01(2)
-    x4, w4 = q._gauss01(4)
-    xg, wg = q._gauss01(n_gauss)
+    x2, w2 = q.gauss01(2)
+    x4, w4 = q.gauss01(4)
+    xg, wg = q.gauss01(n_gauss)
     c = _f
     out = np.zeros((2 if mode == FIELD else 3, len(pidx)))
     _panel_pair_sums(
@@ -450,10 +450,10 @@ def panel_pair_sums(mode, panels, pidx, pr, pz, rho, eps, n_gauss):
         c(z0, dtype=float),
         c(r1, dtype=float),
         c(z1, dtype=float),
-        c(q._moment_radius(panels), dtype=float),
+        c(q.moment_radius(panels), dtype=float),
         c(panels.tr, dtype=float),
         c(panels.tz, dtype=float),
-        c(panels.mid_r < q._AXIS * panels.length, dtype=np.bool_),
+        c(panels.mid_r < q.AXIS * panels.length, dtype=np.bool_),
         c(x2),
         c(x4),
         c(w2),
@@ -461,11 +461,11 @@ def panel_pair_sums(mode, panels, pidx, pr, pz, rho, eps, n_gauss):
         c(xg),
         c(wg),
         float(eps),
-        q._FAR,
-        q._MID2,
-        q._NEAR,
-        q._GRADE,
-        q._MAX_LEVELS,
+        q.FAR,
+        q.MID2,
+        q.NEAR,
+        q.GRADE,
+        q.MAX_LEVELS,
         out,
     )
     return out
@@ -555,7 +555,7 @@ def cell_panel_sums(panels, rc, zc, dr, dz, order, reach):
         c(panels.length, dtype=float),
     )
     pidx, pr, pz, rho, scale, target = pairs
-    sums = panel_pair_sums(SOURCE, panels, pidx, pr, pz, rho, q._EPS_FIELD, q._GAUSS_GRADED)
+    sums = panel_pair_sums(SOURCE, panels, pidx, pr, pz, rho, q.EPS_FIELD, q.GAUSS_GRADED)
     out = np.zeros((3, rc.size * panels.n))
     _scatter(sums, scale, target, out)
     return out.reshape(3, rc.size, panels.n)

@@ -15,7 +15,7 @@ import numpy as np
 
 from models.errors import DesignError
 from models.fast.kernels import FIELD, SOURCE, panel_pair_sums
-from models.fast.quadrature import _EPS_FIELD, _GAUSS_GRADED
+from models.fast.quadrature import EPS_FIELD, GAUSS_GRADED
 
 #: Results of (panels, points) recently computed, by their content, least recently used dropped
 #: first (the name is the one benchmarks clear to time a stage from cold).
@@ -49,8 +49,8 @@ def _all_pairs(panels, r, z, mode):
             np.repeat(r, n_p),
             np.repeat(z, n_p),
             rho.ravel(),
-            _EPS_FIELD,
-            _GAUSS_GRADED,
+            EPS_FIELD,
+            GAUSS_GRADED,
         )
         hit = sums.reshape(sums.shape[0], n_pts, n_p)
         hit.setflags(write=False)

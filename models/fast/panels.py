@@ -8,7 +8,7 @@ from dataclasses import dataclass
 import numpy as np
 
 from models.errors import DesignError
-from models.fast.quadrature import _gauss01, _read_only
+from models.fast.quadrature import gauss01, read_only
 
 #: Panel size at the pole face [m] recommended for design searches (measured in tests/test_pole.py).
 DEFAULT_PANEL_SIZE = 0.25e-3
@@ -82,7 +82,7 @@ def _panels_from_nodes(node_r, node_z, q):
     length = np.hypot(r1 - r0, z1 - z0)
     tr = (r1 - r0) / length
     tz = (z1 - z0) / length
-    s, w = _gauss01(q)
+    s, w = gauss01(q)
     r = r0[:, None] + (r1 - r0)[:, None] * s[None, :]
     z = z0[:, None] + (z1 - z0)[:, None] * s[None, :]
     return PanelSet(
@@ -101,7 +101,7 @@ def _panels_from_nodes(node_r, node_z, q):
 def _edge_parameter():
     """Parameter values along an edge at which the size function is sampled (cached, read-only)."""
     g = np.geomspace(1e-9, 1.0, 400)
-    return _read_only(np.unique(np.concatenate([np.linspace(0.0, 1.0, 2001), g, 1.0 - g])))[0]
+    return read_only(np.unique(np.concatenate([np.linspace(0.0, 1.0, 2001), g, 1.0 - g])))[0]
 
 
 def _split_edge(a, b, size_fn):

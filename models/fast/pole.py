@@ -70,14 +70,14 @@ from models.fast.panels import (
     pole_contour as pole_contour,
 )
 from models.fast.quadrature import (
-    _AXIS,
-    _FAR,
-    _GAUSS_GRADED,
-    _MID2,
-    _TEST_NODES,
-    _gauss01,
-    _graded01,
-    _moment_radius,
+    AXIS,
+    FAR,
+    GAUSS_GRADED,
+    MID2,
+    TEST_NODES,
+    gauss01,
+    graded01,
+    moment_radius,
 )
 
 __all__ = [
@@ -125,7 +125,7 @@ class MagnetisedPole:
     Notes
     -----
     Galerkin form of mu0 K = -2 lambda B_t,avg (module docstring); panel-panel terms further than
-    ``_FAR`` panel lengths apart use the midpoints, nearer ones a 4-point test rule on the field
+    ``FAR`` panel lengths apart use the midpoints, nearer ones a 4-point test rule on the field
     panel and graded rules on the source panel.
     """
 
@@ -153,12 +153,12 @@ class MagnetisedPole:
         sep = np.hypot(p.mid_r[:, None] - p.mid_r[None, :], p.mid_z[:, None] - p.mid_z[None, :])
         ratio_test = sep / p.length[:, None]
         ratio_test = np.where(
-            (ratio_test >= _FAR) & (p.mid_r < _AXIS * p.length)[:, None], _FAR * 0.999, ratio_test
+            (ratio_test >= FAR) & (p.mid_r < AXIS * p.length)[:, None], FAR * 0.999, ratio_test
         )
         near = (
-            (ratio_test < _FAR)
-            | (sep < _FAR * p.length[None, :])
-            | (p.mid_r < _AXIS * p.length)[None, :]
+            (ratio_test < FAR)
+            | (sep < FAR * p.length[None, :])
+            | (p.mid_r < AXIS * p.length)[None, :]
         )
         np.fill_diagonal(near, False)
         kink = np.abs(p.tr[:-1] * p.tz[1:] - p.tz[:-1] * p.tr[1:]) > 1e-9
@@ -172,23 +172,23 @@ class MagnetisedPole:
         far[k, k + 1] = False
         far[k + 1, k] = False
         fi, fp = np.nonzero(far)
-        br, bz = loop_field(_moment_radius(p)[fp], p.mid_z[fp], p.mid_r[fi], p.mid_z[fi])
+        br, bz = loop_field(moment_radius(p)[fp], p.mid_z[fp], p.mid_r[fi], p.mid_z[fi])
         with np.errstate(invalid="ignore"):
             g[fi, fp] = br * p.tr[fi] + bz * p.tz[fi]
         # Self terms: a horizontal panel has no tangential (radial) field in its own plane
         # (B_r = 0 at zeta = 0); the others carry only the log singularity of the curved sheet
         # (the 2-D part is normal to the panel), a few per cent of mu0 / length: a light rule.
         slanted = np.flatnonzero(np.abs(p.tz) > 1e-12)
-        groups = [(slanted, slanted, *_gauss01(2), 1e-4, 3)]
+        groups = [(slanted, slanted, *gauss01(2), 1e-4, 3)]
         # Test rule by the distance in lengths of the averaged panel: 1, 2 or 4 Gauss points.
-        for lo, hi, n_test in ((_FAR, np.inf, 1), (_MID2, _FAR, 2), (0.0, _MID2, _TEST_NODES)):
+        for lo, hi, n_test in ((FAR, np.inf, 1), (MID2, FAR, 2), (0.0, MID2, TEST_NODES)):
             ii, pp = np.nonzero(near & (ratio_test >= lo) & (ratio_test < hi))
-            groups.append((ii, pp, *_gauss01(n_test), 1e-5, _GAUSS_GRADED))
+            groups.append((ii, pp, *gauss01(n_test), 1e-5, GAUSS_GRADED))
         # Neighbours meeting at an angle: the field of one has a log singularity at the shared end
         # of the other; their average uses a rule graded toward that end.
-        xg, wg = _graded01()
-        groups.append((k, k + 1, xg[::-1] * -1.0 + 1.0, wg[::-1], 1e-5, _GAUSS_GRADED))
-        groups.append((k + 1, k, xg, wg, 1e-5, _GAUSS_GRADED))
+        xg, wg = graded01()
+        groups.append((k, k + 1, xg[::-1] * -1.0 + 1.0, wg[::-1], 1e-5, GAUSS_GRADED))
+        groups.append((k + 1, k, xg, wg, 1e-5, GAUSS_GRADED))
         self._average_groups(g, groups)
         return g
 
