@@ -67,18 +67,20 @@ class PullCurve:
 
     def __post_init__(self):
         g = np.asarray(self.gaps_m, float)
-        if g.size < 1 or np.any(np.diff(g) <= 0):
-            raise ValueError("PullCurve needs increasing gaps")
+        f = np.asarray(self.pulls_N, float)
+        if g.size < 1 or g.size != f.size or np.any(np.diff(g) <= 0):
+            raise ValueError("PullCurve needs increasing gaps, one pull each")
+        positive = bool(np.all(f > 0))
+        if g.size == 1:
+            poly = Polynomial([np.log(f[0]) if positive else f[0]])
+        else:
+            poly = Polynomial.fit(g, np.log(f) if positive else f, g.size - 1)
+        object.__setattr__(self, "_poly", poly)
+        object.__setattr__(self, "_positive", positive)
 
     def __call__(self, gap_m):
-        g = np.asarray(self.gaps_m, float)
-        f = np.asarray(self.pulls_N, float)
-        if g.size == 1:
-            return np.full_like(np.asarray(gap_m, float), f[0])
-        positive = bool(np.all(f > 0))
-        poly = Polynomial.fit(g, np.log(f) if positive else f, g.size - 1)
-        out = poly(np.asarray(gap_m, float))
-        return np.exp(out) if positive else out
+        out = self._poly(np.asarray(gap_m, float))
+        return np.exp(out) if self._positive else out
 
 
 @dataclass(frozen=True)
