@@ -333,7 +333,7 @@ def lift_warnings(design: Design, electrical, lift) -> list[str]:
             f"mm to the holding gap {hold:.3g} mm: the pull falls below its weight on the way "
             "(pick_time_ms null)"
         ]
-    if not math.isfinite(lift.pick_time_s):
+    if not lift.travel_m > 0:  # no lift
         return []
     r, x = electrical.coil_impedance_ohm
     omega = 2.0 * math.pi * design.drive.frequency

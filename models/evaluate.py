@@ -588,7 +588,7 @@ def _with_lift(electrical: Electrical, design: Design, held_design: Design, pull
         against = weight_against_pull(electrical.target_weight_N, design.thermal.orientation)
         lift = lift_in_time(curve, mass, against, pick, hold_gap)
     else:
-        lift = Lift(math.nan, math.nan, math.nan, pick - hold_gap)
+        lift = Lift(0.0, 0.0, math.nan, pick - hold_gap)  # held where it is picked
     out = dataclasses.replace(
         electrical,
         pick_time_ms=lift.pick_time_s * 1e3,

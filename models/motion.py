@@ -87,10 +87,10 @@ class PullCurve:
 class Lift:
     """The part's lift from the pick gap to contact.
 
-    pick_time_s : time from rest to contact [s] (inf: it stalls; nan: no lift, the holding gap
-        is not below the pick gap); contact_speed_m_per_s : its speed at contact [m/s] (nan
-        where it does not get there by a lift); stall_gap_m : where it stops and falls back [m]
-        (nan if it arrives); travel_m : pick gap minus holding gap [m]
+    pick_time_s : time from rest to contact [s] (inf: it stalls; 0: no lift, the holding gap
+        is not below the pick gap, the part is held where it is picked); contact_speed_m_per_s :
+        its speed at contact [m/s] (nan where it stalls, 0 without a lift); stall_gap_m : where
+        it stops and falls back [m] (nan if it arrives); travel_m : pick gap minus holding gap [m]
     """
 
     pick_time_s: float
@@ -123,8 +123,8 @@ def lift_in_time(
         stalls (inf time).
     """
     d = pick_gap_m - hold_gap_m
-    if not d > 0:
-        return Lift(math.nan, math.nan, math.nan, float(d))
+    if not d > 0:  # held where it is picked: no lift
+        return Lift(0.0, 0.0, math.nan, float(d))
     m = mass_kg
     net0 = float(curve(pick_gap_m)) - weight_against_N
     if not net0 > 0:

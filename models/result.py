@@ -90,9 +90,10 @@ class Electrical:
         component against the pull [N], the worse of arrival and end of the hold (negative: the
         held part lifts off the face every half cycle); nan after a thermal runaway
     pick_time_ms : time from rest at the pick gap to contact at the holding gap [ms]
-        (models.motion, quasi-static); inf where the part stalls on the way, nan where there is
-        no lift (the holding gap not below the pick gap); contact_speed_m_per_s : its speed at
-        contact [m/s] (nan in both cases)
+        (models.motion, quasi-static); inf where the part stalls on the way, 0 where there is
+        no lift (the holding gap not below the pick gap: the part is held where it is picked);
+        contact_speed_m_per_s : its speed at contact [m/s] (nan where it stalls, 0 without a
+        lift)
     """
 
     pull_N: float

@@ -17,10 +17,7 @@ _WHY = {
     ("_temperature_C", "inf"): "thermal runaway: no steady state below the materials' limits",
     ("pull_cancellation", "inf"): "the net pull is zero",
     ("pick_time_ms", "inf"): "never: the part stalls on its way to the holding gap (see warnings)",
-    ("pick_time_ms", "nan"): "no lift: the holding gap (thermal.hold_gap_mm, default "
-    "target.gap_mm) is not below the pick gap (target.gap_mm)",
-    ("contact_speed_m_per_s", "nan"): "no contact by a lift: the part stalls on the way, or the "
-    "holding gap is not below the pick gap",
+    ("contact_speed_m_per_s", "nan"): "never reaches contact: the part stalls on the way",
     ("hold_chatter_margin_N", "nan"): "thermal runaway: the hold has no end state",
 }
 

@@ -60,7 +60,7 @@ def _pick_dynamics_lines(design, r) -> list:
         else f"{margin * 1e3:+.4g} mN "
         + ("(stays on the face)" if margin >= 0 else "(lifts off every half cycle: chatters)")
     )
-    if math.isnan(r.pick_time_ms):
+    if r.pick_time_ms == 0.0:
         lift = "no lift (the holding gap is not below the pick gap: thermal.hold_gap_mm)"
     elif math.isinf(r.pick_time_ms):
         lift = "never reaches the face: it stalls (see the warnings)"
