@@ -277,6 +277,8 @@ def evaluate_pick_gaps(
     t_start = time.perf_counter()
     fineness = fineness or DEFAULT_FINENESS
     _check_laminated(design)
+    if lift_points < 2:
+        raise ValueError(f"lift_points = {lift_points}: must be at least 2 (the two ends)")
     if pole_model is None:
         pole_model = pole_model_for(design, fineness)
     pick_system = assemble_circuit(design, fineness, pole_model)

@@ -176,3 +176,33 @@ def test_json_nulls_carry_their_reason(tmp_path, capsys):
     assert out["pick_time_ms"] is None and out["pick_time_ms_why"].startswith("never")
     assert out["contact_speed_m_per_s_why"].startswith("never reaches contact")
     assert any("does not leave the pick gap" in w for w in out["warnings"])
+
+
+def test_quasi_static_warnings_name_their_numbers():
+    # A thin cap lifted fast at 2 kHz: the motion's own eddy currents and the field's rise
+    # under a resonant drive are no longer small (models.checks.LIFT_WARNING_*).
+    d = demo_dict()
+    d["drive"] = {"frequency_Hz": 2000.0, "current_A": 8.0}
+    d["target"].update(thickness_mm=0.6, gap_mm=2.5)
+    d["thermal"]["hold_gap_mm"] = 0.5
+    r = evaluate(design_from_dict(copy.deepcopy(d)), isothermal=True)
+    assert math.isfinite(r.pick_time_ms)
+    words = " | ".join(r.warnings)
+    assert "magnetic Reynolds number" in words and "2Q/omega" in words
+    # The Reynolds number the warning states is mu0 sigma v r_part at the contact speed.
+    conductivity = design_from_dict(copy.deepcopy(d)).target.conductivity
+    rm = 4e-7 * math.pi * conductivity * r.contact_speed_m_per_s * 5e-3
+    assert f"magnetic Reynolds number {rm:.2g}" in words
+
+
+def test_text_shows_ripple_chatter_and_lift(tmp_path, capsys):
+    from optim.tomlwrite import dumps_toml
+
+    d = demo_dict()
+    d["thermal"]["hold_gap_mm"] = 1.0
+    src = tmp_path / "d.toml"
+    src.write_text(dumps_toml(d))
+    assert main(["evaluate", str(src), "--isothermal"]) == 0
+    text = capsys.readouterr().out
+    assert "ripple at 2f" in text and "chatter margin" in text
+    assert "ms from 3 to 1 mm, contact at" in text
