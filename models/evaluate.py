@@ -33,7 +33,7 @@ from models.fast.flux import core_peak_flux_density, pole_flux_density
 from models.fast.pull import pull_by_source
 from models.fast.ripple import pull_ripple
 from models.fast.uncertainty import COARSE_FACTOR, pull_uncertainty
-from models.motion import PullCurve, lift_in_time, weight_against_pull
+from models.motion import Lift, PullCurve, lift_in_time, weight_against_pull
 from models.result import MODEL_VERSION, Electrical, Result, Thermal, ring_phase
 from models.thermal.coupling import solve_coupled
 from models.thermal.limits import hold_temperature
@@ -47,6 +47,7 @@ __all__ = [
     "Result",
     "evaluate",
     "evaluate_pick_gaps",
+    "lift_gaps",
     "part_losses",
     "pick_state",
     "pole_model_key",
@@ -301,7 +302,7 @@ def evaluate_pick_gaps(
     electrical = _with_error_bar(electrical, design, fineness, part.arrival)
     arrival_held = solve(held_system, part.arrival)  # solved already, except with target_stays
     electrical = _with_ripple(electrical, design, arrival, arrival_held, hold)
-    pull_at = _arrival_pulls(design, fineness, part.arrival, {held_design.target.gap: arrival_held})
+    pull_at = _ArrivalPulls(design, fineness, part.arrival, {held_design.target.gap: arrival_held})
     pull_at[design.target.gap] = electrical.pull_N
     electrical, lift = _with_lift(electrical, design, held_design, pull_at, lift_points)
     thermal = _thermal(design, state, part, electrical)
@@ -323,7 +324,8 @@ def evaluate_pick_gaps(
 
 class _ArrivalPulls(dict):
     """The pull at arrival [N] by gap [m], the magnet at one steady state: each gap solved once
-    (one circuit assembly and solve, ``pull_only``); gaps within 1e-12 m are one gap."""
+    (one circuit assembly and solve, ``pull_only``), the circuits already ``solved`` at those
+    temperatures ({gap [m]: CircuitSolution}) taken as they are; gaps within 1e-12 m are one."""
 
     def __init__(self, design, fineness, temperatures, solved):
         super().__init__()
@@ -348,12 +350,6 @@ class _ArrivalPulls(dict):
         pull = float(sum(pull_by_source(solve_system(system, self._temps)).values()))
         self[key] = pull
         return pull
-
-
-def _arrival_pulls(design, fineness, temperatures, solved) -> _ArrivalPulls:
-    """The pull at arrival by gap [m] (``_ArrivalPulls``), with the circuits already ``solved``
-    at those temperatures ({gap [m]: CircuitSolution}) taken as they are."""
-    return _ArrivalPulls(design, fineness, temperatures, solved)
 
 
 def _check_laminated(design: Design) -> None:
@@ -579,8 +575,6 @@ def _with_lift(electrical: Electrical, design: Design, held_design: Design, pull
     """``electrical`` with the lift in time from the pick gap to the holding gap (models.motion:
     ``pick_time_ms``, ``contact_speed_m_per_s``), the pull-against-gap curve through the pulls
     at arrival at ``lift_gaps`` (``pull_at``: the two ends are solved already); and the Lift."""
-    from models.motion import Lift
-
     pick, hold_gap = design.target.gap, held_design.target.gap
     t = design.target
     mass = t.density * t.volume
