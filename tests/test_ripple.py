@@ -130,3 +130,15 @@ def test_chatter_margin_takes_the_worse_state_at_the_holding_gap():
     # temperatures' own solve: 1e-9).
     assert r.hold_chatter_margin_N == pytest.approx(min(margins), rel=1e-9)
     assert r.hold_chatter_margin_N <= margins[0] and r.hold_chatter_margin_N <= margins[1]
+
+
+def test_result_fields_against_the_waveform():
+    # Isothermal: the pick state is every part at 20 degC, the circuit solved here by hand; the
+    # waveform's mean is the result's pull_N and its 2f line pull_ripple_N (rounding, 1e-10).
+    design = _design()
+    r = evaluate(design, isothermal=True)
+    sol, _ = _solution(design)
+    _, force = pull_waveform(sol, samples=64)
+    line = np.fft.rfft(force) / force.size
+    assert line[0].real == pytest.approx(r.pull_N, rel=1e-10)
+    assert 2.0 * abs(line[2]) == pytest.approx(r.pull_ripple_N, rel=1e-10)
