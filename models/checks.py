@@ -16,9 +16,13 @@ from models.thermal.limits import time_to_limits
 
 __all__ = [
     "FLUX_WARNING_FRACTION",
+    "LIFT_WARNING_REYNOLDS",
+    "LIFT_WARNING_RISE",
+    "LIFT_WARNING_TRAVEL",
     "SWING_WARNING_K",
     "TYPICAL_SATURATION_T",
     "VALIDATED_RANGE",
+    "lift_warnings",
     "limits_and_margins",
     "range_warnings",
     "thermal_assumptions",
@@ -298,4 +302,68 @@ def thermal_assumptions(design: Design, network) -> dict:
         out[f"{part}_limit_C"] = float(limit)
         out[f"{part}_limit_source"] = why
     out["defaults"] = sorted(k for k in values if k not in given)
+    return out
+
+
+#: Where the quasi-static lift (models.motion) stops holding, each a warning above it (common
+#: practice, no source: a tenth is where a neglected effect starts to move a result by more than
+#: the pull's own error bar): the magnetic Reynolds number mu0 sigma v L at the contact speed
+#: (the low-Rm approximation needs Rm << 1), the travel in one drive period against the pole's
+#: radius (the cycle-averaged pull assumes the part stands still over a period), and the field's
+#: rise time under a resonant drive, 2 Q / omega, against the pick time.
+LIFT_WARNING_REYNOLDS = 0.1
+LIFT_WARNING_TRAVEL = 0.1
+LIFT_WARNING_RISE = 0.1
+
+
+def lift_warnings(design: Design, electrical, lift) -> list[str]:
+    """Warnings on the lift in time (``lift``: models.motion.Lift): where it stalls, and where the
+    quasi-static assumption fails (``LIFT_WARNING_*``; models.motion.quasi_static_numbers)."""
+    from models.motion import quasi_static_numbers
+
+    if math.isinf(lift.pick_time_s):
+        pick, hold = design.target.gap * 1e3, (design.target.gap - lift.travel_m) * 1e3
+        if lift.stall_gap_m >= design.target.gap:
+            return [
+                f"the part does not leave the pick gap {pick:.3g} mm: its pull there does not "
+                "exceed its weight (pick_time_ms null)"
+            ]
+        return [
+            f"the part stalls at gap {lift.stall_gap_m * 1e3:.3g} mm on its way from {pick:.3g} "
+            f"mm to the holding gap {hold:.3g} mm: the pull falls below its weight on the way "
+            "(pick_time_ms null)"
+        ]
+    if not lift.travel_m > 0:  # no lift
+        return []
+    r, x = electrical.coil_impedance_ohm
+    omega = 2.0 * math.pi * design.drive.frequency
+    q = quasi_static_numbers(
+        lift.contact_speed_m_per_s,
+        lift.pick_time_s,
+        design.target.conductivity,
+        design.target.radius,
+        design.pole.radius,
+        omega,
+        x / r if r > 0 else math.inf,
+    )
+    out = []
+    if q["magnetic_reynolds"] > LIFT_WARNING_REYNOLDS:
+        out.append(
+            f"magnetic Reynolds number {q['magnetic_reynolds']:.2g} at the contact speed "
+            f"{lift.contact_speed_m_per_s:.3g} m/s (mu0 sigma v r_part): the motion's own "
+            "eddy currents (a drag) are not in the quasi-static pick time"
+        )
+    travel = 2.0 * math.pi * q["speed_ratio"]
+    if travel > LIFT_WARNING_TRAVEL:
+        out.append(
+            f"at contact the part moves {100 * travel:.2g} % of the pole's radius in one drive "
+            "period: the cycle-averaged pull behind pick_time_ms assumes it stands still"
+        )
+    if q["rise_fraction"] > LIFT_WARNING_RISE:
+        out.append(
+            f"switched on for the pick, the field builds up over about 2Q/omega = "
+            f"{q['rise_time_s'] * 1e3:.3g} ms under a resonant drive, {100 * q['rise_fraction']:.2g} "
+            "% of the pick time: the lift starts later than pick_time_ms says (and a switch-on "
+            "transient may jolt the part)"
+        )
     return out

@@ -17,6 +17,7 @@ import numpy as np
 from scipy.constants import g as standard_gravity
 
 from models.checks import (
+    lift_warnings,
     limits_and_margins,
     range_warnings,
     thermal_assumptions,
@@ -30,7 +31,9 @@ from models.fast.core import radial_flux_fraction
 from models.fast.discretize import Fineness
 from models.fast.flux import core_peak_flux_density, pole_flux_density
 from models.fast.pull import pull_by_source
+from models.fast.ripple import pull_ripple
 from models.fast.uncertainty import COARSE_FACTOR, pull_uncertainty
+from models.motion import Lift, PullCurve, lift_in_time, weight_against_pull
 from models.result import MODEL_VERSION, Electrical, Result, Thermal, ring_phase
 from models.thermal.coupling import solve_coupled
 from models.thermal.limits import hold_temperature
@@ -38,11 +41,13 @@ from models.thermal.network import build_network, face_slab_thickness
 
 __all__ = [
     "DEFAULT_FINENESS",
+    "LIFT_POINTS",
     "MODEL_VERSION",
     "PickState",
     "Result",
     "evaluate",
     "evaluate_pick_gaps",
+    "lift_gaps",
     "part_losses",
     "pick_state",
     "pole_model_key",
@@ -50,6 +55,11 @@ __all__ = [
 ]
 
 DEFAULT_FINENESS = Fineness()
+
+#: Pulls on the lift's pull-against-gap curve by default (models.motion): the pick gap's and the
+#: holding gap's, both already solved by an evaluation, so the lift costs no circuit assembly.
+#: Each further point costs one (about half an evaluation): ``evaluate(..., lift_points=n)``.
+LIFT_POINTS = 2
 
 
 def _panel_size(design: Design, fineness: Fineness) -> float:
@@ -205,7 +215,11 @@ def pole_mass(design: Design) -> float:
 
 
 def evaluate(
-    design: Design, isothermal: bool = False, fineness: Fineness | None = None, pole_model=None
+    design: Design,
+    isothermal: bool = False,
+    fineness: Fineness | None = None,
+    pole_model=None,
+    lift_points: int = LIFT_POINTS,
 ) -> Result:
     """Evaluate one design with the fast multi-loop model and its thermal network.
 
@@ -224,6 +238,10 @@ def evaluate(
         Discretisation; DEFAULT_FINENESS converges the pull to about 1 %.
     pole_model : optional
         A prebuilt magnetised-pole model (reuse across designs that share the pole geometry).
+    lift_points : int
+        Pulls on the curve of the lift in time (``pick_time_ms``; ``_with_lift``): 2 (default)
+        the pick gap's and the holding gap's, which cost nothing more; each one above 2 one
+        circuit assembly and solve at a gap between them (Chebyshev-Lobatto points).
 
     Returns
     -------
@@ -250,7 +268,7 @@ def evaluate(
     >>> print(f"{result.input_power_W:.0f} W")
     48 W
     """
-    return evaluate_pick_gaps(design, (), isothermal, fineness, pole_model)[0]
+    return evaluate_pick_gaps(design, (), isothermal, fineness, pole_model, lift_points)[0]
 
 
 def evaluate_pick_gaps(
@@ -259,6 +277,7 @@ def evaluate_pick_gaps(
     isothermal: bool = False,
     fineness: Fineness | None = None,
     pole_model=None,
+    lift_points: int = LIFT_POINTS,
 ) -> tuple[Result, list]:
     """``evaluate(design)`` and the pull at arrival [N] at each gap of ``gaps_mm`` [mm].
 
@@ -269,6 +288,8 @@ def evaluate_pick_gaps(
     t_start = time.perf_counter()
     fineness = fineness or DEFAULT_FINENESS
     _check_laminated(design)
+    if lift_points < 2:
+        raise ValueError(f"lift_points = {lift_points}: must be at least 2 (the two ends)")
     if pole_model is None:
         pole_model = pole_model_for(design, fineness)
     pick_system = assemble_circuit(design, fineness, pole_model)
@@ -289,11 +310,17 @@ def evaluate_pick_gaps(
     hold = solve(held_system, part.hold) if part.hold is not None else None
     electrical = _electrical(design, arrival, hold, state.temperature("core"))
     electrical = _with_error_bar(electrical, design, fineness, part.arrival)
+    arrival_held = solve(held_system, part.arrival)  # solved already, except with target_stays
+    electrical = _with_ripple(electrical, design, arrival, arrival_held, hold)
+    pull_at = _ArrivalPulls(design, fineness, part.arrival, {held_design.target.gap: arrival_held})
+    pull_at[design.target.gap] = electrical.pull_N
+    electrical, lift = _with_lift(electrical, design, held_design, pull_at, lift_points)
     thermal = _thermal(design, state, part, electrical)
     flat = _flat_for_checks(electrical, thermal)
     warnings = [f"design: {note}" for note in design.notes]
     warnings += range_warnings(design, arrival, fineness, electrical)
     warnings += thermal_warnings(design, state, flat, part.hold_time_constant_s)
+    warnings += lift_warnings(design, electrical, lift)
     result = Result(
         electrical=electrical,
         thermal=thermal,
@@ -302,17 +329,37 @@ def evaluate_pick_gaps(
         n_panels=0 if arrival.panels is None else int(arrival.panels.n),
         run_time_s=time.perf_counter() - t_start,
     )
-    pulls = []
-    for g in gaps_mm:
-        if abs(g * 1e-3 - design.target.gap) <= 1e-12:
-            pulls.append(result.pull_N)
-            continue
-        at_gap = with_gap(design, g)
+    return result, [pull_at[g * 1e-3] for g in gaps_mm]
+
+
+class _ArrivalPulls(dict):
+    """The pull at arrival [N] by gap [m], the magnet at one steady state: each gap solved once
+    (one circuit assembly and solve, ``pull_only``), the circuits already ``solved`` at those
+    temperatures ({gap [m]: CircuitSolution}) taken as they are; gaps within 1e-12 m are one."""
+
+    def __init__(self, design, fineness, temperatures, solved):
+        super().__init__()
+        self._design, self._fineness, self._temps = design, fineness, temperatures
+        for gap, sol in solved.items():
+            self[gap] = float(sum(pull_by_source(sol).values()))
+
+    def _key(self, gap):
+        return next((k for k in self.keys() if abs(k - gap) <= 1e-12), gap)
+
+    def __setitem__(self, gap, pull):
+        super().__setitem__(self._key(gap), pull)
+
+    def __missing__(self, gap):
+        key = self._key(gap)
+        if key in self.keys():
+            return dict.__getitem__(self, key)
+        at_gap = with_gap(self._design, key * 1e3)
         system = assemble_circuit(
-            at_gap, fineness, pole_model_for(at_gap, fineness), pull_only=True
+            at_gap, self._fineness, pole_model_for(at_gap, self._fineness), pull_only=True
         )
-        pulls.append(float(sum(pull_by_source(solve_system(system, part.arrival)).values())))
-    return result, pulls
+        pull = float(sum(pull_by_source(solve_system(system, self._temps)).values()))
+        self[key] = pull
+        return pull
 
 
 def _check_laminated(design: Design) -> None:
@@ -480,6 +527,10 @@ def _electrical(
             if sol.core_grid is None
             else radial_flux_fraction(sol.core_grid, sol.cell_current, face_slab_depth(design))
         ),
+        pull_ripple_N=math.nan,
+        hold_chatter_margin_N=math.nan,
+        pick_time_ms=math.nan,
+        contact_speed_m_per_s=math.nan,
     )
 
 
@@ -497,6 +548,59 @@ def _with_error_bar(electrical: Electrical, design: Design, fineness, temperatur
         pull_uncertainty_N=u,
         pull_uncertainty_relative=u / pull if pull > 0 else math.inf,
     )
+
+
+def _with_ripple(electrical: Electrical, design: Design, arrival, arrival_held, hold):
+    """``electrical`` with the pull's ripple at twice the drive frequency at the pick
+    (``pull_ripple_N``, models.fast.ripple) and the held part's chatter margin
+    (``hold_chatter_margin_N``): mean pull minus ripple minus the weight's component against the
+    pull (models.motion.weight_against_pull), at the holding gap, the worse of the part as it
+    arrives (``arrival_held``) and at the end of the hold (``hold``; None after a runaway: nan)."""
+    against = weight_against_pull(electrical.target_weight_N, design.thermal.orientation)
+    margins = [
+        float(sum(pull_by_source(sol).values())) - pull_ripple(sol) - against
+        for sol in (arrival_held, hold)
+        if sol is not None
+    ]
+    return dataclasses.replace(
+        electrical,
+        pull_ripple_N=pull_ripple(arrival),
+        hold_chatter_margin_N=min(margins) if hold is not None else math.nan,
+    )
+
+
+def lift_gaps(pick_gap: float, hold_gap: float, points: int) -> np.ndarray:
+    """The gaps [m] of the lift's pull curve: ``points`` Chebyshev-Lobatto points from the
+    holding gap to the pick gap, both ends exact."""
+    if points < 2:
+        raise ValueError(f"lift_points = {points}: must be at least 2 (the two ends)")
+    k = np.arange(points)
+    mid, half = 0.5 * (pick_gap + hold_gap), 0.5 * (pick_gap - hold_gap)
+    gaps = mid - half * np.cos(np.pi * k / (points - 1))
+    gaps[0], gaps[-1] = hold_gap, pick_gap
+    return gaps
+
+
+def _with_lift(electrical: Electrical, design: Design, held_design: Design, pull_at, points):
+    """``electrical`` with the lift in time from the pick gap to the holding gap (models.motion:
+    ``pick_time_ms``, ``contact_speed_m_per_s``), the pull-against-gap curve through the pulls
+    at arrival at ``lift_gaps`` (``pull_at``: the two ends are solved already); and the Lift."""
+    pick, hold_gap = design.target.gap, held_design.target.gap
+    t = design.target
+    mass = t.density * t.volume
+    if hold_gap < pick:
+        gaps = lift_gaps(pick, hold_gap, points)
+        curve = PullCurve(tuple(gaps), tuple(pull_at[g] for g in gaps))
+        against = weight_against_pull(electrical.target_weight_N, design.thermal.orientation)
+        lift = lift_in_time(curve, mass, against, pick, hold_gap)
+    else:
+        lift = Lift(0.0, 0.0, math.nan, pick - hold_gap)  # held where it is picked
+    out = dataclasses.replace(
+        electrical,
+        pick_time_ms=lift.pick_time_s * 1e3,
+        contact_speed_m_per_s=lift.contact_speed_m_per_s,
+    )
+    return out, lift
 
 
 def pull_cancellation(split: dict) -> float:

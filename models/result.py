@@ -84,6 +84,16 @@ class Electrical:
     core_radial_flux_fraction : share of the steel's |B|^2 dV that runs radially in the face
         slab [-]: there the flux crosses the sheets of a real stack, which the homogenised
         permeability (flux along the sheets) does not describe
+    pull_ripple_N : amplitude of the pull's component at twice the drive frequency at the pick
+        [N] (models.fast.ripple): the pull swings between pull_N -/+ pull_ripple_N
+    hold_chatter_margin_N : at the holding gap, mean pull minus ripple minus the weight's
+        component against the pull [N], the worse of arrival and end of the hold (negative: the
+        held part lifts off the face every half cycle); nan after a thermal runaway
+    pick_time_ms : time from rest at the pick gap to contact at the holding gap [ms]
+        (models.motion, quasi-static); inf where the part stalls on the way, 0 where there is
+        no lift (the holding gap not below the pick gap: the part is held where it is picked);
+        contact_speed_m_per_s : its speed at contact [m/s] (nan where it stalls, 0 without a
+        lift)
     """
 
     pull_N: float
@@ -116,6 +126,10 @@ class Electrical:
     core_hysteresis_loss_W: float
     core_excess_loss_W: float
     core_radial_flux_fraction: float
+    pull_ripple_N: float
+    hold_chatter_margin_N: float
+    pick_time_ms: float
+    contact_speed_m_per_s: float
 
 
 @dataclass(frozen=True)
@@ -249,6 +263,10 @@ FLAT_FIELDS = (
     ("electrical", "core_excess_loss_W"),
     ("electrical", "core_saturation_T"),
     ("electrical", "core_radial_flux_fraction"),
+    ("electrical", "pull_ripple_N"),
+    ("electrical", "hold_chatter_margin_N"),
+    ("electrical", "pick_time_ms"),
+    ("electrical", "contact_speed_m_per_s"),
 )
 _GROUP_OF = {name: group for group, name in FLAT_FIELDS if group}
 

@@ -16,6 +16,9 @@ _WHY = {
     ("temperatures_C", "inf"): "thermal runaway: no steady state below the materials' limits",
     ("_temperature_C", "inf"): "thermal runaway: no steady state below the materials' limits",
     ("pull_cancellation", "inf"): "the net pull is zero",
+    ("pick_time_ms", "inf"): "never: the part stalls on its way to the holding gap (see warnings)",
+    ("contact_speed_m_per_s", "nan"): "never reaches contact: the part stalls on the way",
+    ("hold_chatter_margin_N", "nan"): "thermal runaway: the hold has no end state",
 }
 
 

@@ -48,6 +48,34 @@ def _pick_state(r) -> str:
     )
 
 
+def _pick_dynamics_lines(design, r) -> list:
+    """The pull's ripple at twice the frequency, the held part's chatter margin and the lift."""
+    import math
+
+    hold_mm = r.thermal_assumptions["hold_gap_mm"]
+    margin = r.hold_chatter_margin_N
+    held = (
+        "n/a (thermal runaway)"
+        if not math.isfinite(margin)
+        else f"{margin * 1e3:+.4g} mN "
+        + ("(stays on the face)" if margin >= 0 else "(lifts off every half cycle: chatters)")
+    )
+    if r.pick_time_ms == 0.0:
+        lift = "no lift (the holding gap is not below the pick gap: thermal.hold_gap_mm)"
+    elif math.isinf(r.pick_time_ms):
+        lift = "never reaches the face: it stalls (see the warnings)"
+    else:
+        lift = (
+            f"{r.pick_time_ms:.3g} ms from {design.target.gap * 1e3:g} to {hold_mm:g} mm, "
+            f"contact at {r.contact_speed_m_per_s:.3g} m/s"
+        )
+    return [
+        f"  ripple at 2f       +-{r.pull_ripple_N * 1e3:.4g} mN about the pull; held at "
+        f"{hold_mm:g} mm: chatter margin {held}",
+        f"  lift               {lift}",
+    ]
+
+
 def limits_used_text(a: dict) -> list:
     """Each part's temperature limit and where it comes from, in words."""
     out = []
@@ -101,6 +129,7 @@ def format_result(design, result) -> str:
         f"  after the hold     pull {r.pull_hold_N * 1e3:+.4g} mN, lift ratio "
         f"{r.lift_ratio_hold:+.3g} (part at {r.target_hold_temperature_C:.4g} degC, "
         f"gap {a['hold_gap_mm']:g} mm)",
+        *_pick_dynamics_lines(design, r),
         f"  losses             target {_w(r.target_loss_W)} W, ring {_w(r.ring_loss_W)} W, "
         f"coil {_w(r.coil_loss_W)} W, core {_w(r.core_loss_W)} W (input {_w(r.input_power_W)} W)",
         f"  core loss          sheets' eddy currents {_w(r.core_eddy_loss_W)} W, hysteresis "

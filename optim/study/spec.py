@@ -98,6 +98,8 @@ RUN_MAX = {
 _WORST = ("worst_pull_N", "worst_lift_ratio")
 #: Results of a family with a leave part (optim.study.family).
 _LEAVE_RESULTS = ("best_leave_lift_ratio", "selectivity_margin")
+#: Results of the lift in time, 0 where the holding gap is not below the pick gap (no lift).
+_LIFT_RESULTS = ("pick_time_ms", "contact_speed_m_per_s")
 GAP_LIMITS_MM = PLAUSIBLE_LIMITS["_mm"]
 
 
@@ -472,6 +474,11 @@ def _model_results(
                 problems.append(
                     f"{what}.{item.name}: the base design cannot have this result ({why}); "
                     "remove it or add the part"
+                )
+            elif item.name in _LIFT_RESULTS and flat.get(item.name) == 0.0:
+                problems.append(
+                    f"{what}.{item.name}: the base design has no lift (thermal.hold_gap_mm, the "
+                    "gap at contact, must be below target.gap_mm, the pick gap)"
                 )
             elif item.name in _LEAVE_RESULTS and item.name not in flat:
                 problems.append(
