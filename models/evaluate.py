@@ -17,6 +17,7 @@ import numpy as np
 from scipy.constants import g as standard_gravity
 
 from models.checks import (
+    gap_warnings,
     limits_and_margins,
     range_warnings,
     thermal_assumptions,
@@ -27,7 +28,7 @@ from models.design import Design, with_gap
 from models.errors import DesignError
 from models.fast.circuit import RING, TARGET, CircuitSolution, assemble_circuit, solve_system
 from models.fast.core import radial_flux_fraction
-from models.fast.discretize import Fineness
+from models.fast.discretize import Fineness, resolved_gap
 from models.fast.flux import core_peak_flux_density, pole_flux_density
 from models.fast.pull import pull_by_source
 from models.fast.uncertainty import COARSE_FACTOR, pull_uncertainty
@@ -54,7 +55,8 @@ DEFAULT_FINENESS = Fineness()
 
 def _panel_size(design: Design, fineness: Fineness) -> float:
     """Iron panel size at the face [m]: a fraction of the smallest feature near it."""
-    features = [design.pole.radius, 2.0 * design.target.gap, design.target.radius]
+    gap = resolved_gap(design.target.gap, design.pole.radius, fineness)
+    features = [design.pole.radius, 2.0 * gap, design.target.radius]
     if design.ring is not None:
         features += [design.ring.width, design.ring.depth, design.ring.inner_radius]
     return fineness.panel_size * min(features)
@@ -283,6 +285,7 @@ def evaluate_pick_gaps(
     flat = _flat_for_checks(electrical, thermal)
     warnings = [f"design: {note}" for note in design.notes]
     warnings += range_warnings(design, arrival, fineness, electrical)
+    warnings += gap_warnings(design, gaps_mm, "pick gap")
     warnings += thermal_warnings(design, state, flat, part.hold_time_constant_s)
     result = Result(
         electrical=electrical,
