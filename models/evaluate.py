@@ -25,6 +25,7 @@ from models.checks import (
 )
 from models.core_loss import face_slab_depth
 from models.design import Design, with_gap
+from models.envelope import envelope
 from models.errors import DesignError
 from models.fast.circuit import RING, TARGET, CircuitSolution, assemble_circuit, solve_system
 from models.fast.core import radial_flux_fraction
@@ -294,6 +295,7 @@ def evaluate_pick_gaps(
         n_cells=int(arrival.cells.n),
         n_panels=0 if arrival.panels is None else int(arrival.panels.n),
         run_time_s=time.perf_counter() - t_start,
+        envelope=envelope(design, electrical.pole_mass_kg),
     )
     pulls = []
     for g in gaps_mm:
