@@ -10,6 +10,7 @@ A study file::
     ring_outer_fraction = { low = 0.4, high = 0.95 }
     frequency_Hz = { low = 50, high = 5000, scale = "log" }
     pole_material = { choices = ["electrical-steel-m400", "ferrite-mnzn"] }   # a text key
+    "coil.wire_diameter_mm" = { choices = [0.56, 0.63, 0.71] }   # a number over choices
     [objectives]                      # result = "maximize" | "minimize", in order
     worst_pull_N = "maximize"
     input_power_W = "minimize"
@@ -161,8 +162,8 @@ class StudySpec:
 
 
 def _search_json(p: Parameter) -> dict:
-    """One ``[search]`` entry as the study file gives it: a range, or a text key's choices."""
-    if p.categorical:
+    """One ``[search]`` entry as the study file gives it: a range, or its choices."""
+    if p.choices:
         return {"choices": list(p.choices)}
     return (
         {"low": p.low, "high": p.high}
@@ -531,8 +532,8 @@ def _check_choices(base, params, mid, study_name) -> None:
 
 
 def _mid(p: Parameter):
-    """The middle of a parameter's range (its first choice for a text key)."""
-    if p.categorical:
+    """The middle of a parameter's range (its first choice for a key searched over choices)."""
+    if p.choices:
         return p.choices[0]
     if p.log:
         v = math.sqrt(p.low * p.high)
