@@ -255,3 +255,62 @@ def test_coupling_rules_name_the_wire_rules():
     assert any("a diameter no one may sell" in r for r in coupling_rules(bare, params))
     params, _ = _parse({"frequency_Hz": {"low": 100, "high": 1000}})
     assert coupling_rules(demo_dict(), params) == ["none: every searched key moves alone"]
+
+
+def test_a_study_gives_the_coil_by_wire_and_fill_over_a_design_with_turns(tmp_path):
+    # the study's [coil] override naming fill_factor replaces the file's turns (a coil is given
+    # one way); a searched fill factor replaces them too
+    from optim.study.space import build_design
+    from tests.conftest import DEMO
+
+    data = {
+        "name": "wire",
+        "design": str(DEMO),
+        "coil": {"fill_factor": 0.5},
+        "search": {"coil.wire_diameter_mm": {"choices": WIRES}},
+        "objectives": {"pull_N": "maximize"},
+        "run": {"trials": 2, "isothermal": True},
+    }
+    spec = spec_from_dict(data, name="wire")
+    assert "turns" not in spec.base["coil"]
+    design = build_design(spec.base, spec.params, {"coil.wire_diameter_mm": 0.71}, "t")
+    assert (
+        design.coil.turns == turns_in_window(345.0, 0.71, 0.5) == 435
+    )  # 0.5 x 345 / (pi 0.71^2 / 4) = 435.7
+    params, _ = _parse({"coil.fill_factor": {"low": 0.3, "high": 0.6}})
+    src = design_source(demo_dict(), params, {"coil.fill_factor": 0.4})
+    assert "turns" not in src["coil"]
+    assert design_from_dict(src).coil.turns == 274  # 0.4 x 345 / (pi 0.8^2 / 4) = 274.5
+
+
+@pytest.mark.slow
+def test_a_study_searches_standard_wires_end_to_end(tmp_path):
+    # a seeded study over wire sizes and pole radius: every trial's wire is one of the choices,
+    # its turns the window's, the envelope bounded as a constraint; the front keeps the wire as
+    # a number
+    import pandas as pd
+
+    from tests.conftest import DEMO
+
+    (tmp_path / "demo_design.toml").write_text(DEMO.read_text())
+    (tmp_path / "wire.toml").write_text(
+        'name = "wire"\ndesign = "demo_design.toml"\n[coil]\nfill_factor = 0.5\n[search]\n'
+        f'"coil.wire_diameter_mm" = {{ choices = {WIRES} }}\n'
+        "pole_radius_mm = { low = 8.0, high = 12.0 }\n"
+        '[objectives]\npull_N = "maximize"\nmagnet_mass_kg = "minimize"\n'
+        "[constraints]\nmagnet_diameter_mm = { max = 46.0 }\n"
+        "[run]\ntrials = 6\nworkers = 1\nseed = 3\nisothermal = true\n"
+    )
+    assert main(["study", "run", str(tmp_path / "wire.toml")]) == 0
+    folder = tmp_path / "studies" / "wire"
+    assert main(["study", "front", str(folder), "--no-pick-maps", "--no-tolerance"]) == 0
+    trials = pd.read_csv(folder / "trials.csv")
+    assert len(trials) == 6 and trials["coil.wire_diameter_mm"].dtype == float
+    assert set(trials["coil.wire_diameter_mm"]) <= set(WIRES)
+    for _, row in trials.iterrows():
+        build = 22.0 - 10.5  # the coil follows the pole: its build and length are the base's
+        turns = turns_in_window(build * 30.0, row["coil.wire_diameter_mm"], 0.5)
+        copper = turns * 2 * math.pi * (row["pole_radius_mm"] + 6.25) * 1e-3
+        copper *= math.pi * (row["coil.wire_diameter_mm"] * 1e-3) ** 2 / 4 * 8890.0  # IEC 60028
+        assert row["coil_copper_mass_kg"] == pytest.approx(copper, rel=1e-9)
+        assert row["feasible"] == (row["magnet_diameter_mm"] <= 46.0)

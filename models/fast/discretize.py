@@ -40,8 +40,9 @@ class Fineness:
         washer at 1 mm: pole term 4.98 mN at 1.5, 4.76 at 3, 4.73 at 6 and beyond)
     gap_floor : the sizes set by the gap (``gap_cell`` x gap, the face's panels) stop shrinking
         below this fraction of the pole radius (``resolved_gap``): a part held at 0.05 mm cost
-        5x the cells and panels of one at 0.2 mm for a pull that moved 0.1 % (measured on the
-        cross-model cases g01, g02 and g05 against the FEM: tests/perf/bench_thin_gap.py)
+        twice the cells and panels and three times the time of one at 0.2 mm, and the floor
+        left its error against the FEM where it was (within 0.7 % on the cross-model cases
+        g01, g02 and g05: tests/perf/bench_thin_gap.py, DEVELOPERS.md)
     """
 
     surface_cell: float = 0.5

@@ -40,7 +40,9 @@ Coupled dimensions follow the searched ones, so that a trial stays a buildable m
   the window (models.design.turns_in_window): a searched wire diameter or fill factor changes
   the turns, never the other way round; a searched turn count keeps the base design's wire as it
   is (a size one can buy: it is no longer rescaled to keep the fill), and a trial whose turns do
-  not fit that wire in the window is refused by the design rules;
+  not fit that wire in the window is refused by the design rules; a searched ``fill_factor``
+  replaces the base design's ``turns`` and a searched ``turns`` its ``fill_factor`` (as a study
+  file's ``[coil]`` override giving one of them does);
 * when a material is searched, the properties it brings are dropped from the base design
   (``SET_BY_MATERIAL``: a pole given by ``relative_permeability`` and ``conductivity_S_per_m``
   becomes a pole of the chosen steel; a ring or part given by its conductivity one of the chosen
@@ -507,6 +509,9 @@ def design_source(base: dict, params: list[Parameter], values: dict) -> dict:
         for k in ("inner_radius_mm", "outer_radius_mm"):
             if f"coil.{k}" not in by_key:
                 coil[k] = base["coil"][k] + (pole - pole0)
+    for mine, other in (("fill_factor", "turns"), ("turns", "fill_factor")):  # the coil one way
+        if f"coil.{mine}" in by_key and f"coil.{other}" not in by_key:
+            data["coil"].pop(other, None)
     for drive in ("current_A", "voltage_V"):  # a searched drive replaces the base's other one
         if f"drive.{drive}" in by_key:
             other = "voltage_V" if drive == "current_A" else "current_A"
@@ -567,6 +572,10 @@ def coupling_rules(base: dict, params: list[Parameter]) -> list[str]:
                 "default copper fill (0.6) of the window, a diameter no one may sell; give "
                 "coil.wire_diameter_mm (or search it over standard sizes) to build it"
             )
+    if "coil.fill_factor" in keys and "turns" in coil:
+        out.append("a searched coil.fill_factor replaces the base design's coil.turns")
+    if "coil.turns" in keys and "fill_factor" in coil:
+        out.append("a searched coil.turns replaces the base design's coil.fill_factor")
     if names & set(FRACTIONS):
         out.append(
             "the ring follows the pole: ring outer radius = ring_outer_fraction x pole radius, "

@@ -233,6 +233,12 @@ def _base_design(data: dict, folder: Path, problems: list[str]) -> dict | None:
             if not isinstance(base[table], dict):
                 base[table] = {}
             base[table].update(data[table])
+            if table == "coil":  # a coil given one way in the study replaces the file's other way
+                given = data["coil"]
+                if "fill_factor" in given and "turns" not in given:
+                    base["coil"].pop("turns", None)
+                elif "turns" in given and "fill_factor" not in given:
+                    base["coil"].pop("fill_factor", None)
     if not base:
         problems.append('design: missing; give design = "file.toml" or the design\'s tables inline')
         return None
