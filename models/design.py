@@ -39,6 +39,7 @@ __all__ = [
     "DEFAULT_FILL_FACTOR",
     "MAX_FILL_FACTOR",
     "turns_in_window",
+    "coil_turns",
     "INSULATION_CLASSES",
 ]
 
@@ -162,6 +163,16 @@ def turns_in_window(window_mm2: float, wire_diameter_mm: float, fill_factor: flo
     """Whole turns of a round wire of ``wire_diameter_mm`` [mm] whose copper fills at most
     ``fill_factor`` of a window of ``window_mm2`` [mm^2]: floor(fill x window / (pi d^2 / 4))."""
     return math.floor(fill_factor * window_mm2 / (math.pi * wire_diameter_mm**2 / 4.0) + 1e-9)
+
+
+def coil_turns(coil: dict) -> int:
+    """The turns of a ``[coil]`` table (file units): its ``turns``, else those of its wire in
+    its window at its ``fill_factor`` (default DEFAULT_FILL_FACTOR), ``turns_in_window``."""
+    if "turns" in coil:
+        return int(coil["turns"])
+    window = (coil["outer_radius_mm"] - coil["inner_radius_mm"]) * coil["length_mm"]
+    fill = coil.get("fill_factor", DEFAULT_FILL_FACTOR)
+    return turns_in_window(window, coil["wire_diameter_mm"], fill)
 
 
 @dataclass(frozen=True)
@@ -1029,11 +1040,9 @@ def _build(data: dict, name: str, vals: dict[str, _Values], parsed: dict[str, di
     and the parsed tables."""
     p, c, g, r = vals["pole"], vals["coil"], vals["target"], vals.get("ring")
     pole = Pole(radius=p["radius_mm"] * MM, length=p["length_mm"] * MM, **parsed["pole"])
-    turns, fill = c.get("turns"), None
-    if turns is None:  # a wire and a fill factor: the turns follow from the window
-        fill = c.get("fill_factor", DEFAULT_FILL_FACTOR)
-        window = (c["outer_radius_mm"] - c["inner_radius_mm"]) * c["length_mm"]
-        turns = turns_in_window(window, c["wire_diameter_mm"], fill)
+    # a wire and a fill factor without turns: the turns follow from the window
+    fill = None if "turns" in c else c.get("fill_factor", DEFAULT_FILL_FACTOR)
+    turns = coil_turns(c)
     coil = Coil(
         inner_radius=c["inner_radius_mm"] * MM,
         outer_radius=c["outer_radius_mm"] * MM,

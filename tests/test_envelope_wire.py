@@ -310,6 +310,7 @@ def test_a_study_searches_standard_wires_end_to_end(tmp_path):
     for _, row in trials.iterrows():
         build = 22.0 - 10.5  # the coil follows the pole: its build and length are the base's
         turns = turns_in_window(build * 30.0, row["coil.wire_diameter_mm"], 0.5)
+        assert row["turns"] == turns  # the front's turns column: the window's, not blank
         copper = turns * 2 * math.pi * (row["pole_radius_mm"] + 6.25) * 1e-3
         copper *= math.pi * (row["coil.wire_diameter_mm"] * 1e-3) ** 2 / 4 * 8890.0  # IEC 60028
         assert row["coil_copper_mass_kg"] == pytest.approx(copper, rel=1e-9)

@@ -63,7 +63,7 @@ AROUND_RADIUS = (0.4, 2.4)
 AROUND_GAP = (0.25, 1.5)
 
 #: Kinds of design keys (models.design.DESIGN_KEYS) that hold a number.
-_NUMERIC = ("pos", "nonneg", "num", "int", "frac", "unit")
+_NUMERIC = ("pos", "nonneg", "num", "int", "frac", "unit", "fill")
 #: The two lines drawn and returned: name -> (field, level).
 LINES = {"lift_ratio_1": ("lift_ratio", 1.0), "zero_pull": ("pull_N", 0.0)}
 _LINE_WORDS = {"lift_ratio_1": "lift ratio 1", "zero_pull": "zero pull"}
