@@ -482,7 +482,11 @@ def _with_error_bar(electrical: Electrical, design: Design, fineness, temperatur
     """``electrical`` with the pull's error estimate (models.fast.uncertainty): the pull again
     with coarser cells and the same pole model, in the same state (one circuit assembly and
     solve, no thermal solve, no new pole geometry)."""
-    coarse = dataclasses.replace(fineness.scaled(COARSE_FACTOR), panel_size=fineness.panel_size)
+    coarse = dataclasses.replace(
+        fineness.scaled(COARSE_FACTOR),
+        panel_size=fineness.panel_size,
+        gap_floor=fineness.gap_floor,  # the panels' sizes as the fine level's: its pole model
+    )
     system = assemble_circuit(design, coarse, pole_model_for(design, coarse), pull_only=True)
     pull_coarse = float(sum(pull_by_source(solve_system(system, temperatures)).values()))
     u = pull_uncertainty(electrical.pull_N, pull_coarse, electrical.pull_by_source_N)
