@@ -121,3 +121,14 @@ def test_the_pick_map_gap_axis_takes_in_the_judged_gaps():
     plain = design_from_dict(_demo())
     _, y = around_axes(plain, 7, gaps_mm=())
     assert (y.values[0], y.values[-1]) == pytest.approx((0.75, 4.5))  # 0.25 and 1.5 x 3 mm
+
+
+def test_the_error_bar_keeps_the_pole_model_at_a_thin_gap():
+    # the error bar's coarser level keeps the fine level's panels (and so its pole model) below
+    # the gap floor too: one pole model for the whole evaluation
+    import sys
+
+    module = sys.modules["models.evaluate"]
+    module.clear_pole_cache()
+    evaluate(case_design("g01-400Hz-held-0.05mm"), isothermal=True)
+    assert module._cached_pole_model.cache_info().misses == 1
