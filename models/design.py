@@ -37,6 +37,9 @@ __all__ = [
     "DESIGN_KEYS",
     "MIN_WALL_MM",
     "DEFAULT_FILL_FACTOR",
+    "MAX_FILL_FACTOR",
+    "turns_in_window",
+    "coil_turns",
     "INSULATION_CLASSES",
 ]
 
@@ -44,8 +47,15 @@ MM = 1e-3
 #: Steel left on each side of the groove [mm] (common practice, no source: a thinner wall is not
 #: machinable and does not hold the ring).
 MIN_WALL_MM = 0.2
-#: Copper fill of the coil window when no wire diameter is given (common practice, no source).
+#: Copper fill of the coil window (copper area over the window's (outer - inner radius) x length)
+#: when a coil gives its turns without a wire diameter, or its wire without turns or a fill
+#: factor: 0.6, what a random winding of round enamelled wire reaches on a plain bobbin (common
+#: practice, no source: 0.5-0.6 random wound, up to about 0.75 wound layer by layer).
 DEFAULT_FILL_FACTOR = 0.6
+#: Highest copper fill a file may give (``coil.fill_factor``): round wires packed hexagonally
+#: cover pi / (2 sqrt 3) = 0.907 of a plane (the densest circle packing, Lagrange/Thue, from
+#: memory), before enamel and the bobbin take their share.
+MAX_FILL_FACTOR = 0.9
 
 
 @dataclass(frozen=True)
@@ -99,7 +109,9 @@ class Pole:
 @dataclass(frozen=True)
 class Coil:
     """Stranded coil; lengths [m]; conductivity of the wire [S/m] at 20 degC; temperature coefficient
-    [1/K]; wire_diameter [m] (None: derived from DEFAULT_FILL_FACTOR)."""
+    [1/K]; wire_diameter [m] (None: derived from DEFAULT_FILL_FACTOR); fill_factor: the copper
+    fill the file gave (``coil.fill_factor``, or DEFAULT_FILL_FACTOR for a wire given without
+    turns) from which ``turns`` followed, None when the file gave the turns."""
 
     inner_radius: float
     outer_radius: float
@@ -110,6 +122,7 @@ class Coil:
     conductivity: float
     temperature_coefficient: float
     material: str = "copper"
+    fill_factor: float | None = None
 
     @property
     def z_front(self) -> float:
@@ -138,6 +151,28 @@ class Coil:
         """DC resistance of the winding [Ohm] at ``temperature_C``: rho(T) N 2 pi r_mean / A_wire."""
         rho = (1.0 + self.temperature_coefficient * (temperature_C - 20.0)) / self.conductivity
         return rho * self.turns * 2.0 * math.pi * self.mean_radius / self.wire_area
+
+    @property
+    def conductor_volume(self) -> float:
+        """Volume of the winding's conductor [m^3]: turns x 2 pi r_mean x wire area (the
+        enamel and the leads left out)."""
+        return self.turns * 2.0 * math.pi * self.mean_radius * self.wire_area
+
+
+def turns_in_window(window_mm2: float, wire_diameter_mm: float, fill_factor: float) -> int:
+    """Whole turns of a round wire of ``wire_diameter_mm`` [mm] whose copper fills at most
+    ``fill_factor`` of a window of ``window_mm2`` [mm^2]: floor(fill x window / (pi d^2 / 4))."""
+    return math.floor(fill_factor * window_mm2 / (math.pi * wire_diameter_mm**2 / 4.0) + 1e-9)
+
+
+def coil_turns(coil: dict) -> int:
+    """The turns of a ``[coil]`` table (file units): its ``turns``, else those of its wire in
+    its window at its ``fill_factor`` (default DEFAULT_FILL_FACTOR), ``turns_in_window``."""
+    if "turns" in coil:
+        return int(coil["turns"])
+    window = (coil["outer_radius_mm"] - coil["inner_radius_mm"]) * coil["length_mm"]
+    fill = coil.get("fill_factor", DEFAULT_FILL_FACTOR)
+    return turns_in_window(window, coil["wire_diameter_mm"], fill)
 
 
 @dataclass(frozen=True)
@@ -295,9 +330,10 @@ DESIGN_KEYS: dict[str, dict[str, tuple[str, bool]]] = {
         "outer_radius_mm": ("pos", True),
         "setback_mm": ("nonneg", True),
         "length_mm": ("pos", True),
-        "turns": ("int", True),
+        "turns": ("int", False),
         "wire_diameter_mm": ("pos", False),
         "material": ("str", False),
+        "fill_factor": ("fill", False),
     },
     "drive": {
         "frequency_Hz": ("pos", True),
@@ -357,6 +393,7 @@ _ALLOWED = {
     "str": "a string",
     "num": "a number",
     "frac": "a number > 0 and <= 1",
+    "fill": f"a number > 0 and <= {MAX_FILL_FACTOR:g} (copper area over the coil window's area)",
     "unit": "a number from 0 to 1",
     "bool": "true or false",
     "class": "an IEC 60085 class letter (" + ", ".join(INSULATION_CLASSES) + ") or a temperature "
@@ -434,6 +471,7 @@ def _check_value(where: str, value, kind: str, problems: list[str]):
             or (kind == "nonneg" and value >= 0)
             or kind == "num"
             or (kind == "frac" and 0 < value <= 1)
+            or (kind == "fill" and 0 < value <= MAX_FILL_FACTOR)
             or (kind == "unit" and 0 <= value <= 1)
         ):
             return _plausible(where, float(value), kind, problems)
@@ -704,6 +742,13 @@ def design_notes(vals: dict) -> tuple[str, ...]:
     """What the reader took on the user's behalf: a conductor given by its conductivity alone
     gets the temperature coefficient (and a ring its density) of the nearest library metal."""
     notes = []
+    c = vals.get("coil", _NO_VALUES)
+    if "wire_diameter_mm" in c and "turns" not in c and "fill_factor" not in c:
+        notes.append(
+            f"coil.wire_diameter_mm given without coil.turns or coil.fill_factor: the default "
+            f"copper fill {DEFAULT_FILL_FACTOR:g} taken (common practice), the turns follow "
+            "from the window"
+        )
     for table in ("ring", "target"):
         t = vals.get(table)
         if t is None or "conductivity_S_per_m" not in t:
@@ -887,6 +932,7 @@ def _check_coil_fits(p: _Values, c: _Values, problems: list[str]) -> None:
                 f"coil.length_mm = {c['length_mm']!r}: setback_mm + length_mm must be <= "
                 f"pole.length_mm (= {p['length_mm']!r}); the coil sits along the pole"
             )
+    _check_winding(c, problems)
     if radii and c.has("wire_diameter_mm", "turns", "length_mm"):
         wire_area = math.pi * c["wire_diameter_mm"] ** 2 / 4
         window = (c["outer_radius_mm"] - c["inner_radius_mm"]) * c["length_mm"]
@@ -896,6 +942,52 @@ def _check_coil_fits(p: _Values, c: _Values, problems: list[str]) -> None:
                 f"fit the {window:.4g} mm^2 window; must be <= "
                 f"{math.sqrt(window / c['turns']):.4g} mm"
             )
+    if radii and c.has("wire_diameter_mm", "length_mm") and "turns" not in c and c.usable("turns"):
+        _check_wire_fills(c, problems)
+
+
+def _check_winding(c: _Values, problems: list[str]) -> None:
+    """The coil's turns given one way: ``turns``, or ``wire_diameter_mm`` with an optional
+    ``fill_factor`` (the turns then follow from the window), not both."""
+    if not c.usable("turns", "fill_factor", "wire_diameter_mm"):
+        return
+    if "turns" in c and "fill_factor" in c:
+        problems.append(
+            f"coil.fill_factor = {c['fill_factor']!r}: give coil.turns or coil.fill_factor "
+            "(with coil.wire_diameter_mm; the turns then follow from the window), not both"
+        )
+    elif "fill_factor" in c and "wire_diameter_mm" not in c:
+        problems.append(
+            f"coil.fill_factor = {c['fill_factor']!r}: needs coil.wire_diameter_mm (the turns "
+            "follow from the wire and the window)"
+        )
+    elif "turns" not in c and "wire_diameter_mm" not in c:
+        problems.append(
+            "coil.turns: missing; give coil.turns, or coil.wire_diameter_mm and coil.fill_factor "
+            f"(default {DEFAULT_FILL_FACTOR:g}) and the turns follow from the window"
+        )
+
+
+def _check_wire_fills(c: _Values, problems: list[str]) -> None:
+    """A wire given without turns: one turn of it must fit the window's build and length, and
+    its fill factor must give at least one whole turn."""
+    d = c["wire_diameter_mm"]
+    build = c["outer_radius_mm"] - c["inner_radius_mm"]
+    if build <= 0:
+        return  # reported by the radii's own rule
+    if d > min(build, c["length_mm"]):
+        problems.append(
+            f"coil.wire_diameter_mm = {d!r}: one turn does not fit the window ({build:.4g} mm "
+            f"build x {c['length_mm']:.4g} mm long); must be <= {min(build, c['length_mm']):.4g} mm"
+        )
+        return
+    fill = c.get("fill_factor", DEFAULT_FILL_FACTOR)
+    if c.usable("fill_factor") and turns_in_window(build * c["length_mm"], d, fill) < 1:
+        largest = math.sqrt(4.0 * fill * build * c["length_mm"] / math.pi)
+        problems.append(
+            f"coil.wire_diameter_mm = {d!r}: at a fill factor of {fill:g} not one turn fits "
+            f"the {build * c['length_mm']:.4g} mm^2 window; must be <= {largest:.4g} mm"
+        )
 
 
 def _check_ring_fits(p: _Values, r: _Values, problems: list[str]) -> None:
@@ -952,13 +1044,17 @@ def _build(data: dict, name: str, vals: dict[str, _Values], parsed: dict[str, di
     and the parsed tables."""
     p, c, g, r = vals["pole"], vals["coil"], vals["target"], vals.get("ring")
     pole = Pole(radius=p["radius_mm"] * MM, length=p["length_mm"] * MM, **parsed["pole"])
+    # a wire and a fill factor without turns: the turns follow from the window
+    fill = None if "turns" in c else c.get("fill_factor", DEFAULT_FILL_FACTOR)
+    turns = coil_turns(c)
     coil = Coil(
         inner_radius=c["inner_radius_mm"] * MM,
         outer_radius=c["outer_radius_mm"] * MM,
         setback=c["setback_mm"] * MM,
         length=c["length_mm"] * MM,
-        turns=c["turns"],
+        turns=turns,
         wire_diameter=c["wire_diameter_mm"] * MM if "wire_diameter_mm" in c else None,
+        fill_factor=fill,
         **parsed["coil"],
     )
     ring = None

@@ -17,6 +17,7 @@ import numpy as np
 from scipy.constants import g as standard_gravity
 
 from models.checks import (
+    gap_warnings,
     lift_warnings,
     limits_and_margins,
     range_warnings,
@@ -25,10 +26,11 @@ from models.checks import (
 )
 from models.core_loss import face_slab_depth
 from models.design import Design, with_gap
+from models.envelope import envelope
 from models.errors import DesignError
 from models.fast.circuit import RING, TARGET, CircuitSolution, assemble_circuit, solve_system
 from models.fast.core import radial_flux_fraction
-from models.fast.discretize import Fineness
+from models.fast.discretize import Fineness, resolved_gap
 from models.fast.flux import core_peak_flux_density, pole_flux_density
 from models.fast.pull import pull_by_source
 from models.fast.ripple import pull_ripple
@@ -64,7 +66,8 @@ LIFT_POINTS = 2
 
 def _panel_size(design: Design, fineness: Fineness) -> float:
     """Iron panel size at the face [m]: a fraction of the smallest feature near it."""
-    features = [design.pole.radius, 2.0 * design.target.gap, design.target.radius]
+    gap = resolved_gap(design.target.gap, design.pole.radius, fineness)
+    features = [design.pole.radius, 2.0 * gap, design.target.radius]
     if design.ring is not None:
         features += [design.ring.width, design.ring.depth, design.ring.inner_radius]
     return fineness.panel_size * min(features)
@@ -319,6 +322,7 @@ def evaluate_pick_gaps(
     flat = _flat_for_checks(electrical, thermal)
     warnings = [f"design: {note}" for note in design.notes]
     warnings += range_warnings(design, arrival, fineness, electrical)
+    warnings += gap_warnings(design, gaps_mm, "pick gap")
     warnings += thermal_warnings(design, state, flat, part.hold_time_constant_s)
     warnings += lift_warnings(design, electrical, lift)
     result = Result(
@@ -328,6 +332,7 @@ def evaluate_pick_gaps(
         n_cells=int(arrival.cells.n),
         n_panels=0 if arrival.panels is None else int(arrival.panels.n),
         run_time_s=time.perf_counter() - t_start,
+        envelope=envelope(design, electrical.pole_mass_kg),
     )
     return result, [pull_at[g * 1e-3] for g in gaps_mm]
 
@@ -538,7 +543,11 @@ def _with_error_bar(electrical: Electrical, design: Design, fineness, temperatur
     """``electrical`` with the pull's error estimate (models.fast.uncertainty): the pull again
     with coarser cells and the same pole model, in the same state (one circuit assembly and
     solve, no thermal solve, no new pole geometry)."""
-    coarse = dataclasses.replace(fineness.scaled(COARSE_FACTOR), panel_size=fineness.panel_size)
+    coarse = dataclasses.replace(
+        fineness.scaled(COARSE_FACTOR),
+        panel_size=fineness.panel_size,
+        gap_floor=fineness.gap_floor,  # the panels' sizes as the fine level's: its pole model
+    )
     system = assemble_circuit(design, coarse, pole_model_for(design, coarse), pull_only=True)
     pull_coarse = float(sum(pull_by_source(solve_system(system, temperatures)).values()))
     u = pull_uncertainty(electrical.pull_N, pull_coarse, electrical.pull_by_source_N)

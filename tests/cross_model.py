@@ -3,11 +3,13 @@
 ``python -m tests.cross_model`` re-runs every case and rewrites tests/data/cross_model.csv (the table
 kept in the repository); tests/test_cross_model.py runs the same cases live.
 
-The set spans frequency 50 Hz - 5 kHz, target radius 0.3 - 1.5 x pole radius, gap 0.2 - 3 mm,
+The set spans frequency 50 Hz - 5 kHz, target radius 0.3 - 1.5 x pole radius, gap 0.05 - 6 mm,
 target thickness 0.5 - 5 mm, with and without ring, ring width and depth, mu_r 200 - 5000, aluminium
 and copper targets. The base machine is the demo's pole and coil. The c cases' poles are given by
 mu_r alone (lossless); the k cases (1 - 5 kHz) name a library grade, whose sheets' eddy currents,
-hysteresis and excess losses both models carry (``core_*`` columns).
+hysteresis and excess losses both models carry (``core_*`` columns). The g cases are the gaps of
+a job: a part held at contact through a wear plate (0.05 and 0.1 mm: g01, g02, g05, the last
+with its edge beyond the pole's corner) and picks from far below (4 and 6 mm: g03, g04).
 """
 
 from __future__ import annotations
@@ -89,6 +91,16 @@ CASES = {
         (4.0, 1.0, 0.6, "aluminium-1350"),
         (4.0, 7.0, 3.0),
     ),
+    "g01-400Hz-held-0.05mm": (400.0, 2000.0, (5.0, 1.0, 0.05, "aluminium-1350"), (4.0, 7.0, 3.0)),
+    "g02-1kHz-m400-0.1mm-cu": (
+        1000.0,
+        "electrical-steel-m400",
+        (8.0, 0.5, 0.1, "copper"),
+        (3.0, 5.0, 2.0),
+    ),
+    "g03-400Hz-pick-4mm": (400.0, 2000.0, (6.0, 1.0, 4.0, "aluminium-1350"), (4.0, 7.0, 3.0)),
+    "g04-200Hz-m400-pick-6mm-cu": (200.0, "electrical-steel-m400", (8.0, 2.0, 6.0, "copper"), None),
+    "g05-1kHz-wide-0.05mm": (1000.0, 1000.0, (12.0, 1.0, 0.05, "aluminium-1350"), None),
 }
 
 

@@ -33,12 +33,16 @@ def test_file_change_equals_the_changed_file(design):
 
 def test_properties_survive_dimension_changes_and_are_recorded(design):
     sigma = 0.8 * design.ring.conductivity
-    varied = edit(design, properties={"ring.conductivity": sigma, "pole.relative_permeability": 900})
+    varied = edit(
+        design, properties={"ring.conductivity": sigma, "pole.relative_permeability": 900}
+    )
     moved = edit(edit(varied, {"ring.depth_mm": 1.5}), {"target.gap_mm": 2.5})
     assert moved.ring.conductivity == sigma and moved.ring.depth == pytest.approx(1.5e-3)
     assert moved.pole.relative_permeability == 900.0
-    assert dict(moved.properties) == {("ring", "conductivity"): sigma,
-                                      ("pole", "relative_permeability"): 900.0}
+    assert dict(moved.properties) == {
+        ("ring", "conductivity"): sigma,
+        ("pole", "relative_permeability"): 900.0,
+    }
     assert with_gap(varied, 2.5) == edit(varied, {"gap_mm": 2.5})
 
 
@@ -58,9 +62,13 @@ def test_another_metal_drops_the_properties_of_the_part(design):
 
 def test_edit_changes_the_result_as_the_file_would(design):
     a = evaluate(edit(design, {"target.gap_mm": 1.0}), isothermal=True)
-    b = evaluate(design_from_dict(
-        {**design.source, "target": {**design.source["target"], "gap_mm": 1.0}}, name=design.name
-    ), isothermal=True)
+    b = evaluate(
+        design_from_dict(
+            {**design.source, "target": {**design.source["target"], "gap_mm": 1.0}},
+            name=design.name,
+        ),
+        isothermal=True,
+    )
     assert a.pull_N == b.pull_N
 
 

@@ -67,8 +67,10 @@ def test_zero_pull_line_at_the_design_gap_matches_a_root_search(demo_map):
 def test_map_marks_the_design_and_the_range_checked_against_the_fem(demo_map):
     design, pmap = demo_map
     assert pmap.design_point == (5.0, 3.0)  # the demo file's target radius and gap
-    # gaps above 3 mm are outside models.checks.VALIDATED_RANGE (0.2-3 mm)
-    assert not pmap.in_range[pmap.y.values > 3.0 + 1e-9].any()
+    # parts under 0.3 pole radii (3 mm) are outside models.checks.VALIDATED_RANGE, and every
+    # gap of the grid (1-4 mm) is inside its 0.05-6 mm: the 4.8 mm column is in range throughout
+    assert not pmap.in_range[:, pmap.x.values < 3.0].any()
+    assert pmap.x.values[1] == pytest.approx(4.8) and pmap.in_range[:, 1].all()
     # lift ratio = pull / the disc's weight rho pi r^2 t g (g: scipy.constants, CODATA)
     t = design.target
     radius = pmap.x.values[None, :] * 1e-3

@@ -11,7 +11,7 @@ import pickle
 import pytest
 
 from models import evaluate, load_design
-from models.result import FLAT_FIELDS, Electrical, Result, Thermal
+from models.result import FLAT_FIELDS, Electrical, Envelope, Result, Thermal
 from optim.demo import DEMO_DESIGN
 
 DEMO = DEMO_DESIGN
@@ -31,9 +31,9 @@ def _public(cls) -> set:
 def test_every_group_field_is_flattened_once():
     names = [n for _, n in FLAT_FIELDS]
     assert len(names) == len(set(names))
-    for group, cls in (("electrical", Electrical), ("thermal", Thermal)):
+    for group, cls in (("electrical", Electrical), ("thermal", Thermal), ("envelope", Envelope)):
         assert {n for g, n in FLAT_FIELDS if g == group} == _public(cls)
-    own = {f.name for f in dataclasses.fields(Result)} - {"electrical", "thermal"}
+    own = {f.name for f in dataclasses.fields(Result)} - {"electrical", "thermal", "envelope"}
     assert {n for g, n in FLAT_FIELDS if g == ""} == own
 
 

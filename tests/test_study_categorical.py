@@ -201,7 +201,8 @@ _MATERIAL = "pole_material = {{ choices = {} }}\n"
         ),
         (
             'pole_radius_mm = { choices = ["12"] }\n',
-            r"search\.pole_radius_mm\.choices: pole\.radius_mm is a number; give a range",
+            # a number's choices are numbers (optim.study.space: numeric keys over choices)
+            r"search\.pole_radius_mm\.choices\[0\] = '12': must be a finite number",
         ),
         (
             '"thermal.orientation" = { choices = ["face-down", "upside"] }\n',

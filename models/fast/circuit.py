@@ -25,7 +25,13 @@ import numpy as np
 
 from models.core_loss import coil_current_with_core_loss, peak_flux_density
 from models.fast.core import CoreGrid, CoreLosses, core_grid, core_losses, hysteresis_excess_at
-from models.fast.discretize import Cells, Fineness, coil_filaments, conductor_cells
+from models.fast.discretize import (
+    Cells,
+    Fineness,
+    coil_filaments,
+    conductor_cells,
+    resolved_gap,
+)
 from models.fast.filaments import self_inductance_rect
 from models.fast.kernels import cell_mutual, cell_panel_sums, real_matmul
 
@@ -61,7 +67,7 @@ def build_cells(design, fineness: Fineness) -> Cells:
                 f,
                 RING,
                 fineness,
-                gap=design.target.gap,
+                gap=resolved_gap(design.target.gap, design.pole.radius, fineness),
             )
         )
     t = design.target
@@ -79,7 +85,7 @@ def build_cells(design, fineness: Fineness) -> Cells:
             TARGET,
             fineness,
             graded_r=(t.inner_radius > 0, True),
-            gap=t.gap,
+            gap=resolved_gap(t.gap, design.pole.radius, fineness),
             corners_r=corners,
         )
     )

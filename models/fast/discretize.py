@@ -14,7 +14,7 @@ import numpy as np
 
 from models.materials import skin_depth
 
-__all__ = ["Cells", "graded_edges", "conductor_cells", "coil_filaments", "Fineness"]
+__all__ = ["Cells", "graded_edges", "conductor_cells", "coil_filaments", "Fineness", "resolved_gap"]
 
 
 @dataclass(frozen=True)
@@ -38,6 +38,11 @@ class Fineness:
         iron_nodes x iron_nodes Gauss nodes, farther ones through their centre. 1.5 left a part's
         edge facing the pole's corner 5-10 % off in the iron's pull term (measured on an 8 mm
         washer at 1 mm: pole term 4.98 mN at 1.5, 4.76 at 3, 4.73 at 6 and beyond)
+    gap_floor : the sizes set by the gap (``gap_cell`` x gap, the face's panels) stop shrinking
+        below this fraction of the pole radius (``resolved_gap``): a part held at 0.05 mm cost
+        twice the cells and panels and three times the time of one at 0.2 mm, and the floor
+        left its error against the FEM where it was (within 0.7 % on the cross-model cases
+        g01, g02 and g05: tests/perf/bench_thin_gap.py, DEVELOPERS.md)
     """
 
     surface_cell: float = 0.5
@@ -52,6 +57,7 @@ class Fineness:
     iron_nodes: int = 2
     gap_cell: float = 0.3
     iron_reach: float = 6.0
+    gap_floor: float = 0.02
 
     def scaled(self, factor: float) -> Fineness:
         """A finer (factor > 1) or coarser (factor < 1) version of these settings."""
@@ -68,7 +74,16 @@ class Fineness:
             iron_nodes=self.iron_nodes,
             gap_cell=self.gap_cell / factor,
             iron_reach=self.iron_reach,
+            gap_floor=self.gap_floor / factor,
         )
+
+
+def resolved_gap(gap: float, pole_radius: float, fineness: Fineness) -> float:
+    """The gap [m] the discretisation resolves: ``gap``, but no less than ``fineness.gap_floor``
+    x ``pole_radius`` [m]. Below that the field between a part and the face is nearly the
+    uniform one of a closed gap, and cells and panels on the gap's scale cost more than they
+    return (Fineness.gap_floor)."""
+    return max(gap, fineness.gap_floor * pole_radius)
 
 
 def graded_edges(a, b, h_a, h_b, h_max, growth, min_cells=1, max_cells=10_000, focus=()):

@@ -128,6 +128,11 @@ def _cmd_results(args) -> int:
     print("results a study can optimise or constrain (units in the names):")
     for name in spec.result_names:
         print(f"  {name}")
+    from optim.study.space import coupling_rules
+
+    print("what follows the searched parameters (coupling rules):")
+    for rule in coupling_rules(spec.base, spec.params):
+        print(f"  {rule}")
     return 0
 
 

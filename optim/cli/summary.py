@@ -148,6 +148,8 @@ def format_result(design, result) -> str:
         + ", ".join(f"{k} {v:.4g}" for k, v in r.temperatures_C.items())
         + " degC",
         f"  coil limit         {r.coil_temperature_limit_C:g} degC (insulation class, hot spot)",
+        f"  magnet envelope    {r.magnet_diameter_mm:.4g} mm diameter x {r.magnet_height_mm:.4g} mm "
+        f"(pole and coil), {r.magnet_mass_kg * 1e3:.4g} g (copper {r.coil_copper_mass_kg * 1e3:.4g} g)",
         "  limits used        " + "; ".join(limits_used_text(a)),
         "  thermal assumed    " + assumptions_text(a),
         "  margins            "

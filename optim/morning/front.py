@@ -116,6 +116,7 @@ def trials_table(study, spec_json: dict, dimensions: bool = True) -> pd.DataFram
 def _dimensions(spec_json: dict, params: dict) -> dict:
     """The DIMENSIONS columns of every trial whose searched parameters are all set (the design
     each one is: ``design_source``, ~10 us a trial); a column no trial has is left out."""
+    from models.design import coil_turns
     from optim.study.space import design_source, parse_search
 
     search = parse_search(spec_json["search"], [])
@@ -139,6 +140,9 @@ def _dimensions(spec_json: dict, params: dict) -> dict:
             if table in src and key in src[table]:
                 out[col][i] = src[table][key]
                 seen.add(col)
+        if "turns" not in src["coil"] and "wire_diameter_mm" in src["coil"]:
+            out["turns"][i] = coil_turns(src["coil"])  # from the wire, fill factor and window
+            seen.add("turns")
     out = {col: out[col] for col in DIMENSIONS if col in seen}
     if "turns" in out:  # a count, as the design file has it
         out["turns"] = pd.array(np.round(out["turns"]), dtype="Int64")

@@ -176,7 +176,7 @@ def write_front(
     if designs and (robustness.REPORT_PICK_MAPS if pick_maps is None else pick_maps):
         isothermal = bool(spec.run.get("isothermal", False))
         maps = robustness.pick_map_figures(
-            designs, folder / "plots", isothermal=isothermal, parts=spec.parts
+            designs, folder / "plots", isothermal=isothermal, parts=spec.parts, gaps_mm=spec.gaps_mm
         )
     table = None
     if designs and (robustness.REPORT_TOLERANCE if tolerance is None else tolerance):
@@ -438,7 +438,14 @@ def export_trial(
         from optim.morning.robustness import write_robustness
 
         paths.update(
-            write_robustness(design, target, isothermal=isothermal, echo=echo, parts=spec.parts)
+            write_robustness(
+                design,
+                target,
+                isothermal=isothermal,
+                echo=echo,
+                parts=spec.parts,
+                gaps_mm=spec.gaps_mm,
+            )
         )
     if echo is not None:
         echo(("warning: " if rounding["broken_constraints"] else "") + rounding["words"])

@@ -63,7 +63,7 @@ AROUND_RADIUS = (0.4, 2.4)
 AROUND_GAP = (0.25, 1.5)
 
 #: Kinds of design keys (models.design.DESIGN_KEYS) that hold a number.
-_NUMERIC = ("pos", "nonneg", "num", "int", "frac", "unit")
+_NUMERIC = ("pos", "nonneg", "num", "int", "frac", "unit", "fill")
 #: The two lines drawn and returned: name -> (field, level).
 LINES = {"lift_ratio_1": ("lift_ratio", 1.0), "zero_pull": ("pull_N", 0.0)}
 _LINE_WORDS = {"lift_ratio_1": "lift ratio 1", "zero_pull": "zero pull"}
@@ -543,14 +543,21 @@ def format_map(pmap: PickMap, files: dict | None = None) -> str:
     return "\n".join(lines)
 
 
-def around_axes(design, points: int = DEFAULT_POINTS) -> tuple[MapAxis, MapAxis]:
+def around_axes(design, points: int = DEFAULT_POINTS, gaps_mm=()) -> tuple[MapAxis, MapAxis]:
     """Part radius x gap around the design's own values: radius AROUND_RADIUS times its own
-    (above the part's inner radius), gap AROUND_GAP times its own."""
+    (above the part's inner radius), gap AROUND_GAP times its own, widened to take in every gap
+    of ``gaps_mm`` [mm] (a study's pick gaps) and the design's holding gap
+    (``thermal.hold_gap_mm``), so that the map shows every gap the design is judged at."""
     r = design.target.radius * 1e3
     g = design.target.gap * 1e3
+    judged = [float(x) for x in gaps_mm]
+    if design.thermal.hold_gap is not None:
+        judged.append(design.thermal.hold_gap * 1e3)
+    g_lo = min([AROUND_GAP[0] * g, *judged])
+    g_hi = max([AROUND_GAP[1] * g, *judged])
     r_lo = max(AROUND_RADIUS[0] * r, 1.05 * design.target.inner_radius * 1e3)
     x = MapAxis("target.radius_mm", np.linspace(r_lo, AROUND_RADIUS[1] * r, points))
-    y = MapAxis("target.gap_mm", np.linspace(AROUND_GAP[0] * g, AROUND_GAP[1] * g, points))
+    y = MapAxis("target.gap_mm", np.linspace(g_lo, g_hi, points))
     return x, y
 
 
@@ -561,10 +568,12 @@ def pick_map_around(
     isothermal: bool = False,
     stem: str | None = None,
     parts=(),
+    gaps_mm=(),
 ) -> tuple[PickMap, dict[str, Path]]:
-    """The part radius x gap map around ``design``'s own values (``around_axes``), written to
-    ``out_dir`` (PNG, SVG, CSV), ``parts`` marked on the figures. Returns the map and the
-    paths."""
-    x, y = around_axes(design, points)
+    """The part radius x gap map around ``design``'s own values (``around_axes``; its gap axis
+    takes in ``gaps_mm`` [mm], every part's gaps and the holding gap), written to ``out_dir``
+    (PNG, SVG, CSV), ``parts`` marked on the figures. Returns the map and the paths."""
+    judged = [*gaps_mm, *(g for part in parts for g in part.gaps_mm)]
+    x, y = around_axes(design, points, judged)
     pmap = evaluate_map(design, x, y, isothermal=isothermal)
     return pmap, write_map(pmap, out_dir, stem, parts)

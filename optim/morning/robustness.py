@@ -71,11 +71,12 @@ CONSTRAINT_PREFIX = "study constraint: "
 
 
 def write_robustness(
-    design, out_dir, isothermal: bool = False, echo=None, parts=()
+    design, out_dir, isothermal: bool = False, echo=None, parts=(), gaps_mm=()
 ) -> dict[str, Path]:
     """Write the tolerance table (tolerance.txt, tolerance.json, CSVs; default tolerances,
     HANDOFF_SAMPLES samples, the default seed) and the part radius x gap pick map (PNG, SVG,
-    CSV; HANDOFF_POINTS per axis; a study's family ``parts`` marked) of ``design`` into
+    CSV; HANDOFF_POINTS per axis; a study's family ``parts`` marked; its gap axis takes in the
+    study's pick gaps ``gaps_mm`` [mm] and the parts') of ``design`` into
     ``out_dir``. Returns file name -> path; ``echo`` gets one line per piece with its time."""
     t0 = time.perf_counter()
     study = run_tolerance(
@@ -92,7 +93,12 @@ def write_robustness(
             echo(f"note: {note}")
     t1 = time.perf_counter()
     _, files = pick_map_around(
-        design, out_dir, points=HANDOFF_POINTS, isothermal=isothermal, parts=parts
+        design,
+        out_dir,
+        points=HANDOFF_POINTS,
+        isothermal=isothermal,
+        parts=parts,
+        gaps_mm=gaps_mm,
     )
     for path in files.values():
         paths[Path(path).name] = Path(path)
@@ -109,11 +115,12 @@ def _slug(text: str) -> str:
 
 
 def pick_map_figures(
-    designs, out_dir, isothermal: bool = False, points: int | None = None, parts=()
+    designs, out_dir, isothermal: bool = False, points: int | None = None, parts=(), gaps_mm=()
 ) -> list[tuple[Path, str]]:
     """A coarse pick map (``points`` per axis, default REPORT_POINTS) of each ``(label,
     design)``, written to ``out_dir`` as ``pickmap_<label>.png/.svg/.csv``, each of a study's
-    family ``parts`` (``optim.study.parts.Part``) marked at its radius over its gap range;
+    family ``parts`` (``optim.study.parts.Part``) marked at its radius over its gap range, the
+    gap axis taking in the study's pick gaps ``gaps_mm`` [mm] and the parts';
     returns ``(png, caption)`` per design for the report. A design the model refuses as a whole
     (a solid pole) gets no map."""
     from optim.morning.pickmap_parts import parts_caption
@@ -130,6 +137,7 @@ def pick_map_figures(
                 isothermal=isothermal,
                 stem=f"pickmap_{_slug(label)}",
                 parts=parts,
+                gaps_mm=gaps_mm,
             )
         except DesignError:
             continue

@@ -37,6 +37,7 @@ import math
 
 from scipy.constants import g as standard_gravity
 
+from models.checks import gap_warnings
 from models.design import Design, edit
 from models.evaluate import evaluate_pick_gaps
 from models.family import part_pulls_under_magnet
@@ -89,10 +90,12 @@ def family_results(design: Design, parts, isothermal: bool = False):
     flat = flatten(result.to_dict())
     flat.pop("run_time_s", None)
     per_part = {own_part.name: ([*pulls, result.pull_hold_N], result.target_weight_N)}
+    warnings = list(result.warnings)
     for part in parts:
         if part.name in per_part:
             continue
         other = part_design(design, part)
+        warnings += gap_warnings(other, _gaps(other, part), f"part {part.name}: pick gap")
         arrival, hold = part_pulls_under_magnet(other, result, _gaps(other, part), isothermal)
         per_part[part.name] = ([*arrival, hold], _weight(other))
     lift_pulls, lift_ratios, leave_ratios = [], [], []
@@ -112,7 +115,7 @@ def family_results(design: Design, parts, isothermal: bool = False):
     if leave_ratios:
         flat["best_leave_lift_ratio"] = max(leave_ratios)
         flat["selectivity_margin"] = flat["worst_lift_ratio"] - flat["best_leave_lift_ratio"]
-    return flat, list(result.warnings), str(getattr(result, "binding_limit", "") or "")
+    return flat, warnings, str(getattr(result, "binding_limit", "") or "")
 
 
 def _gaps(design: Design, part: Part) -> tuple:

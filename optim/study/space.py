@@ -11,10 +11,17 @@ Parameter names (the ``[search]`` keys of a study file):
   radius / ring outer radius. Both in (0, 1), so the ring always lies inside the pole and its inner
   radius below its outer one, whatever the pole radius the trial draws.
 
-A numeric key takes a range, a text key (a material, ``thermal.orientation``) a list of choices::
+A numeric key takes a range or a list of choices, a text key (a material,
+``thermal.orientation``) a list of choices::
 
     pole_radius_mm = { low = 6, high = 12 }                 # scale = "log", step = ... optional
+    "coil.wire_diameter_mm" = { choices = [0.5, 0.56, 0.63, 0.71, 0.8] }   # sizes one can buy
     pole_material = { choices = ["electrical-steel-m400", "ferrite-mnzn"] }
+
+A numeric key's choices are numbers of the key's kind (whole numbers for ``coil.turns``) inside
+its plausible range; they are sampled as categories, in the file's order, and the front keeps
+them as numbers. ``coil.wire_diameter_mm``'s choices are usually the standard bare diameters
+(``optim.morning.winding.STANDARD_BARE_DIAMETERS_MM``, IEC 60317-0-1's nominal series).
 
 A material's choices must be library materials (``models.materials.MATERIALS``; kept as the
 library names them, whatever the letter case in the file): magnetic ones for the pole
@@ -23,12 +30,19 @@ coil, ring and target. Choices are sampled as categories
 (``optuna.distributions.CategoricalDistribution``), in the order the file gives them (the order
 is part of the study's definition).
 
-Coupled dimensions follow the searched ones, so that a trial stays a buildable machine:
+Coupled dimensions follow the searched ones, so that a trial stays a buildable machine
+(``coupling_rules`` words them for a study's own parameters, as ``study results`` prints them):
 
 * when the pole radius changes, the coil's inner and outer radii move by the same amount (the
-  radial clearance and the winding depth of the base design are kept);
-* when the turns change and the base design names a wire diameter, the wire diameter scales as
-  sqrt(N_base / N) (the copper fill of the window is kept);
+  radial clearance and the winding depth of the base design are kept), so its window keeps its
+  area;
+* a coil given by ``wire_diameter_mm`` and ``fill_factor`` (no ``turns``) gets its turns from
+  the window (models.design.turns_in_window): a searched wire diameter or fill factor changes
+  the turns, never the other way round; a searched turn count keeps the base design's wire as it
+  is (a size one can buy: it is no longer rescaled to keep the fill), and a trial whose turns do
+  not fit that wire in the window is refused by the design rules; a searched ``fill_factor``
+  replaces the base design's ``turns`` and a searched ``turns`` its ``fill_factor`` (as a study
+  file's ``[coil]`` override giving one of them does);
 * when a material is searched, the properties it brings are dropped from the base design
   (``SET_BY_MATERIAL``: a pole given by ``relative_permeability`` and ``conductivity_S_per_m``
   becomes a pole of the chosen steel; a ring or part given by its conductivity one of the chosen
@@ -43,7 +57,13 @@ from __future__ import annotations
 import math
 from dataclasses import dataclass
 
-from models.design import DESIGN_KEYS, PLAUSIBLE_LIMITS, Design, design_from_dict
+from models.design import (
+    DESIGN_KEYS,
+    MAX_FILL_FACTOR,
+    PLAUSIBLE_LIMITS,
+    Design,
+    design_from_dict,
+)
 from models.errors import DesignError, nearest
 from models.materials import CORE_MATERIALS, MATERIALS
 
@@ -54,6 +74,7 @@ __all__ = [
     "parse_search",
     "design_source",
     "build_design",
+    "coupling_rules",
 ]
 
 #: Short names of the commonly searched design keys.
@@ -77,7 +98,7 @@ ALIASES = {
     "target_material": "target.material",
 }
 FRACTIONS = ("ring_outer_fraction", "ring_inner_fraction")
-_NUMERIC = ("pos", "nonneg", "int", "num", "frac", "unit")
+_NUMERIC = ("pos", "nonneg", "int", "num", "frac", "unit", "fill")
 #: Kinds of design keys searched over a list of choices (models.design.DESIGN_KEYS).
 _TEXT = ("str",)
 _RANGE_KEYS = ("low", "high", "scale", "step")
@@ -106,8 +127,8 @@ SET_BY_MATERIAL = {
 @dataclass(frozen=True)
 class Parameter:
     """One free parameter: name as in the study file, the design key it sets (None for the ring
-    fractions), and either its range (bounds, log scale, integer, step) or, for a text key, its
-    choices (``low`` and ``high`` are then None)."""
+    fractions), and either its range (bounds, log scale, integer, step) or its choices (text, or
+    numbers of a numeric key; ``low`` and ``high`` are then None)."""
 
     name: str
     key: str | None
@@ -116,12 +137,13 @@ class Parameter:
     log: bool = False
     integer: bool = False
     step: float | None = None
-    choices: tuple[str, ...] = ()
+    choices: tuple = ()
 
     @property
     def categorical(self) -> bool:
-        """True for a parameter drawn from a list of choices (a text key)."""
-        return bool(self.choices)
+        """True for a parameter drawn from a list of text choices (a material, a word); a
+        numeric key's choices are drawn as categories too but read as numbers."""
+        return bool(self.choices) and isinstance(self.choices[0], str)
 
     def distribution(self):
         """The optuna distribution of the parameter: categorical, integer or float."""
@@ -229,13 +251,14 @@ def _parameter(name: str, spec, key: str | None, kind: str, problems: list[str])
     if not isinstance(spec, dict):
         problems.append(f"{where} = {spec!r}: must be a table {{ low = ..., high = ... }}")
         return None
-    if "choices" in spec:
-        what = key or f"{name} (a fraction)"
+    if "choices" in spec and key is None:
         problems.append(
-            f"{where}.choices: {what} is a number; give a range {{ low = ..., high = ... }} "
-            "(choices are for text keys such as pole_material)"
+            f"{where}.choices: {name} is a fraction; give a range {{ low = ..., high = ... }} "
+            "(choices are for design keys)"
         )
         return None
+    if "choices" in spec:
+        return _numeric_choices(name, spec, key, kind, problems)
     for extra in set(spec) - {"low", "high", "scale", "step"}:
         problems.append(
             f"{where}.{extra}: unknown key; allowed: low, high, scale, step"
@@ -275,6 +298,8 @@ def _range_problem(where, key, kind, low, high, scale, step) -> str | None:
         return f"{where}.low = {low:g}: must be >= 0"
     if kind == "frac" and not (0.0 < low and high <= 1.0):
         return f"{where}: bounds {low:g}..{high:g} must lie in (0, 1]"
+    if kind == "fill" and not (0.0 < low and high <= MAX_FILL_FACTOR):
+        return f"{where}: bounds {low:g}..{high:g} must lie in (0, {MAX_FILL_FACTOR:g}]"
     if kind == "unit" and not (0.0 <= low and high <= 1.0):
         return f"{where}: bounds {low:g}..{high:g} must lie in [0, 1]"
     limits = _limits(key)
@@ -330,6 +355,61 @@ def _categorical(name: str, spec, key: str, problems: list[str]):
     if len(spec) > 1 or choices is None:
         return None
     return Parameter(name, key, choices=choices)
+
+
+def _numeric_choices(name: str, spec: dict, key: str, kind: str, problems: list[str]):
+    """One ``[search]`` entry ``{ choices = [numbers] }`` of a numeric key -> a Parameter, or
+    None (with one problem per bad choice): each a finite number of the key's kind (whole for
+    ``int``) inside its plausible range, none repeated, no range keys beside them."""
+    where = f"search.{name}"
+    for extra in [k for k in spec if k != "choices"]:
+        if extra in _RANGE_KEYS:
+            problems.append(
+                f"{where}.{extra}: choices cannot be combined with a range, scale or step"
+            )
+        else:
+            problems.append(
+                f"{where}.{extra}: unknown key; allowed: choices, or low, high, scale, step"
+            )
+    choices = spec["choices"]
+    if not isinstance(choices, list) or not choices:
+        problems.append(f"{where}.choices = {choices!r}: must be a non-empty list of numbers")
+        return None
+    out, bad = [], len(spec) > 1
+    for i, value in enumerate(choices):
+        at = f"{where}.choices[{i}]"
+        number = _number(at, value, problems)
+        if number is None:
+            bad = True
+            continue
+        problem = _choice_problem(key, kind, number)
+        if problem is None and number in out:
+            problem = f"repeats choices[{out.index(number)}]"
+        if problem is not None:
+            problems.append(f"{at} = {value!r}: {problem}")
+            bad = True
+        out.append(int(number) if kind == "int" and number == int(number) else number)
+    return None if bad else Parameter(name, key, choices=tuple(out), integer=kind == "int")
+
+
+def _choice_problem(key: str, kind: str, value: float) -> str | None:
+    """What is wrong with one numeric choice of a ``kind`` key (None: nothing)."""
+    if kind == "int" and (value != int(value) or value < 1):
+        return "must be a whole number >= 1"
+    if kind in ("pos", "int") and value <= 0:
+        return "must be > 0"
+    if kind == "nonneg" and value < 0:
+        return "must be >= 0"
+    if kind == "frac" and not 0 < value <= 1:
+        return "must lie in (0, 1]"
+    if kind == "unit" and not 0 <= value <= 1:
+        return "must lie in [0, 1]"
+    if kind == "fill" and not 0 < value <= MAX_FILL_FACTOR:
+        return f"must lie in (0, {MAX_FILL_FACTOR:g}]"
+    limits = _limits(key)
+    if limits and value != 0 and not limits[0] <= value <= limits[1]:
+        return f"must lie between {limits[0]:g} and {limits[1]:g} (the plausible range of {key})"
+    return None
 
 
 def _choices(where: str, key: str, choices, problems: list[str]) -> tuple[str, ...] | None:
@@ -429,14 +509,13 @@ def design_source(base: dict, params: list[Parameter], values: dict) -> dict:
         for k in ("inner_radius_mm", "outer_radius_mm"):
             if f"coil.{k}" not in by_key:
                 coil[k] = base["coil"][k] + (pole - pole0)
+    for mine, other in (("fill_factor", "turns"), ("turns", "fill_factor")):  # the coil one way
+        if f"coil.{mine}" in by_key and f"coil.{other}" not in by_key:
+            data["coil"].pop(other, None)
     for drive in ("current_A", "voltage_V"):  # a searched drive replaces the base's other one
         if f"drive.{drive}" in by_key:
             other = "voltage_V" if drive == "current_A" else "current_A"
             data["drive"].pop(other, None)
-    if "coil.turns" in by_key and "wire_diameter_mm" in base["coil"]:
-        if "coil.wire_diameter_mm" not in by_key:
-            n0, n = base["coil"]["turns"], data["coil"]["turns"]
-            data["coil"]["wire_diameter_mm"] = base["coil"]["wire_diameter_mm"] * math.sqrt(n0 / n)
     if "ring_outer_fraction" in values or "ring_inner_fraction" in values:
         ring = data.get("ring")
         if ring is None:
@@ -455,3 +534,60 @@ def design_source(base: dict, params: list[Parameter], values: dict) -> dict:
 def build_design(base: dict, params: list[Parameter], values: dict, name: str) -> Design:
     """Validated design of one trial (DesignError with the reason if it cannot be built)."""
     return design_from_dict(design_source(base, params, values), name=name)
+
+
+def coupling_rules(base: dict, params: list[Parameter]) -> list[str]:
+    """The coupling rules (module docstring) that apply to a study's own parameters and base
+    design, one sentence each: what follows a searched key so that a trial stays buildable."""
+    keys = {p.key for p in params if p.key is not None}
+    names = {p.name for p in params}
+    coil = base.get("coil", {})
+    out = []
+    if "pole.radius_mm" in keys:
+        follow = [k for k in ("inner_radius_mm", "outer_radius_mm") if f"coil.{k}" not in keys]
+        if follow:
+            out.append(
+                "the coil follows the pole: a searched pole radius moves coil."
+                + " and coil.".join(follow)
+                + " by the same amount as the pole radius (the base design's clearance and "
+                "winding depth kept, so the coil's window keeps its area)"
+            )
+    if "turns" not in coil and "wire_diameter_mm" in coil:
+        fill = coil.get("fill_factor")
+        out.append(
+            "the coil is given by its wire and fill factor: its turns are the whole turns of "
+            "coil.wire_diameter_mm that fill at most coil.fill_factor "
+            + (f"({fill:g})" if fill is not None else "(default 0.6)")
+            + " of the window, so a searched wire, fill factor or coil size sets the turns"
+        )
+    if "coil.turns" in keys:
+        if "wire_diameter_mm" in coil or "coil.wire_diameter_mm" in keys:
+            out.append(
+                "a searched turn count keeps the wire as the study gives it (a size one can buy, "
+                "not rescaled); a trial whose turns do not fit the window is refused"
+            )
+        else:
+            out.append(
+                "a searched turn count without coil.wire_diameter_mm: the wire is the model's "
+                "default copper fill (0.6) of the window, a diameter no one may sell; give "
+                "coil.wire_diameter_mm (or search it over standard sizes) to build it"
+            )
+    if "coil.fill_factor" in keys and "turns" in coil:
+        out.append("a searched coil.fill_factor replaces the base design's coil.turns")
+    if "coil.turns" in keys and "fill_factor" in coil:
+        out.append("a searched coil.turns replaces the base design's coil.fill_factor")
+    if names & set(FRACTIONS):
+        out.append(
+            "the ring follows the pole: ring outer radius = ring_outer_fraction x pole radius, "
+            "inner radius = ring_inner_fraction x outer radius"
+        )
+    for table in SET_BY_MATERIAL:
+        if f"{table}.material" in keys:
+            out.append(
+                f"a searched {table}.material replaces what the base design says of the "
+                f"{table}'s material ({', '.join(k for g in SET_BY_MATERIAL[table] for k in g)})"
+            )
+    for drive, other in (("current_A", "voltage_V"), ("voltage_V", "current_A")):
+        if f"drive.{drive}" in keys:
+            out.append(f"a searched drive.{drive} replaces the base design's drive.{other}")
+    return out or ["none: every searched key moves alone"]

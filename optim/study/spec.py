@@ -10,6 +10,7 @@ A study file::
     ring_outer_fraction = { low = 0.4, high = 0.95 }
     frequency_Hz = { low = 50, high = 5000, scale = "log" }
     pole_material = { choices = ["electrical-steel-m400", "ferrite-mnzn"] }   # a text key
+    "coil.wire_diameter_mm" = { choices = [0.56, 0.63, 0.71] }   # a number over choices
     [objectives]                      # result = "maximize" | "minimize", in order
     worst_pull_N = "maximize"
     input_power_W = "minimize"
@@ -163,8 +164,8 @@ class StudySpec:
 
 
 def _search_json(p: Parameter) -> dict:
-    """One ``[search]`` entry as the study file gives it: a range, or a text key's choices."""
-    if p.categorical:
+    """One ``[search]`` entry as the study file gives it: a range, or its choices."""
+    if p.choices:
         return {"choices": list(p.choices)}
     return (
         {"low": p.low, "high": p.high}
@@ -234,6 +235,12 @@ def _base_design(data: dict, folder: Path, problems: list[str]) -> dict | None:
             if not isinstance(base[table], dict):
                 base[table] = {}
             base[table].update(data[table])
+            if table == "coil":  # a coil given one way in the study replaces the file's other way
+                given = data["coil"]
+                if "fill_factor" in given and "turns" not in given:
+                    base["coil"].pop("turns", None)
+                elif "turns" in given and "fill_factor" not in given:
+                    base["coil"].pop("fill_factor", None)
     if not base:
         problems.append('design: missing; give design = "file.toml" or the design\'s tables inline')
         return None
@@ -538,8 +545,8 @@ def _check_choices(base, params, mid, study_name) -> None:
 
 
 def _mid(p: Parameter):
-    """The middle of a parameter's range (its first choice for a text key)."""
-    if p.categorical:
+    """The middle of a parameter's range (its first choice for a key searched over choices)."""
+    if p.choices:
         return p.choices[0]
     if p.log:
         v = math.sqrt(p.low * p.high)
