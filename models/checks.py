@@ -181,9 +181,10 @@ def limits_and_margins(design: Design, state, result: dict):
     sup = design.supply
     if sup is not None:
         for name, limit, value in (
-            ("supply_voltage_V", sup.max_voltage, result["coil_voltage_V"]),
-            ("supply_current_A", sup.max_current, result["coil_current_A"]),
+            ("supply_voltage_V", sup.max_voltage, result["supply_voltage_V"]),
+            ("supply_current_A", sup.max_current, result["supply_current_A"]),
             ("supply_VA", sup.max_apparent_power, result["supply_VA"]),
+            ("capacitor_rating_V", sup.max_capacitor_voltage, result["capacitor_rating_V"]),
         ):
             if limit is not None:
                 add(name, limit - value, limit)
@@ -235,13 +236,21 @@ def thermal_warnings(design: Design, state, result: dict, hold_tau: float) -> li
                 )
     sup = design.supply
     if sup is not None:
-        for limit, key, value, unit in (
-            (sup.max_voltage, "max_voltage_V", result["coil_voltage_V"], "V rms"),
-            (sup.max_current, "max_current_A", result["coil_current_A"], "A rms"),
-            (sup.max_apparent_power, "max_VA", result["supply_VA"], "VA"),
+        for limit, key, value, unit, who in (
+            (sup.max_voltage, "max_voltage_V", result["supply_voltage_V"], "V rms", "supply"),
+            (sup.max_current, "max_current_A", result["supply_current_A"], "A rms", "supply"),
+            (sup.max_apparent_power, "max_VA", result["supply_VA"], "VA", "supply"),
+            (
+                sup.max_capacitor_voltage,
+                "max_capacitor_voltage_V",
+                result["capacitor_rating_V"],
+                "V rms",
+                "capacitor",
+            ),
         ):
             if limit is not None and value > limit:
-                out.append(f"the coil needs {value:.4g} {unit}, above supply.{key} = {limit:g}")
+                needs = "the coil needs" if who == "supply" else "the capacitor sees up to"
+                out.append(f"{needs} {value:.4g} {unit}, above supply.{key} = {limit:g}")
     out.extend(f"thermal: {n}" for n in state.network.notes)
     return out
 

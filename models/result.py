@@ -63,8 +63,9 @@ class Electrical:
         warmed for thermal.hold_time_s at the holding gap (thermal.hold_gap_mm); nan after a
         thermal runaway
     target_loss_W, ring_loss_W, coil_loss_W : Joule losses [W]
-    input_power_W : Re(V conj(I)) at the coil terminals [W]
-    coil_current_A, coil_voltage_V : rms magnitudes [A], [V]; supply_VA : |V||I| [VA]
+    input_power_W : Re(V conj(I)) at the coil terminals [W] (the supply's real power too)
+    coil_current_A, coil_voltage_V : rms magnitudes [A], [V]; supply_VA : |V||I| of the supply
+        [VA]
     coil_impedance_ohm : (resistance, reactance) at the terminals [Ohm]
     ring_current_A : rms magnitude of the ring's total current [A]; ring_phase_deg : its phase
         relative to the coil current [deg], in [-270, 90) so that a ring's lag (90 to a little
@@ -73,7 +74,7 @@ class Electrical:
     pole_flux_density_T : peak in time of the section-averaged axial flux density of the pole, the
         largest along its length [T] (the FEM reports the same quantity)
     target_weight_N, lift_ratio : weight of the target [N] and pull / weight [-]
-    power_factor : input_power_W / supply_VA; pole_mass_kg : the pole's steel, groove removed;
+    power_factor : input_power_W / supply_VA (the supply's); pole_mass_kg : the pole's steel, groove removed;
     core_flux_fraction : core_peak_flux_density_T / the steel's saturation flux density at the
         core's temperature (0 if unknown); core_saturation_T : that saturation flux density [T]
         (nan if unknown)
@@ -84,6 +85,16 @@ class Electrical:
     core_radial_flux_fraction : share of the steel's |B|^2 dV that runs radially in the face
         slab [-]: there the flux crosses the sheets of a real stack, which the homogenised
         permeability (flux along the sheets) does not describe
+    supply_voltage_V, supply_current_A : rms magnitudes at the supply's terminals [V], [A]: the
+        capacitor's other side (models.supply; drive.compensation); the coil's own without one.
+        supply_VA and power_factor are the supply's, input_power_W its real power (an ideal
+        capacitor takes none); coil_voltage_V, coil_current_A stay the coil's
+    capacitor_uF : the capacitance [uF] (the file's, or tuned for unity power factor at the
+        design point); 0 without a capacitor. capacitor_voltage_V, capacitor_current_A : its rms
+        voltage [V] and current [A] at the design point
+    capacitor_rating_V, capacitor_reactive_VA : its rms voltage [V] and reactive power [var] in
+        its worst state (the highest voltage) over the gaps evaluated at the steady state and
+        cold, and with no part present, hot and cold: what it must be bought for
     """
 
     pull_N: float
@@ -116,6 +127,13 @@ class Electrical:
     core_hysteresis_loss_W: float
     core_excess_loss_W: float
     core_radial_flux_fraction: float
+    supply_voltage_V: float
+    supply_current_A: float
+    capacitor_uF: float
+    capacitor_voltage_V: float
+    capacitor_current_A: float
+    capacitor_rating_V: float
+    capacitor_reactive_VA: float
 
 
 @dataclass(frozen=True)
@@ -139,7 +157,8 @@ class Thermal:
     margins : limit name -> margin in the limit's unit, positive = satisfied:
         "coil_temperature_C", "ring_temperature_C" and "target_hold_temperature_C" (when
         [thermal] sets ring_limit_C, target_limit_C), "core_flux_density_T" (saturation minus
-        peak), "supply_voltage_V", "supply_current_A", "supply_VA" (with [supply])
+        peak), "supply_voltage_V", "supply_current_A", "supply_VA" (the supply's),
+        "capacitor_rating_V" (with [supply] limits)
     binding_limit : the margin smallest relative to its limit (a temperature's relative to the
         allowed rise above ambient), "" if none
     time_to_limit_s : part -> seconds from cold to its limit run continuously (inf: never); the
@@ -249,6 +268,13 @@ FLAT_FIELDS = (
     ("electrical", "core_excess_loss_W"),
     ("electrical", "core_saturation_T"),
     ("electrical", "core_radial_flux_fraction"),
+    ("electrical", "supply_voltage_V"),
+    ("electrical", "supply_current_A"),
+    ("electrical", "capacitor_uF"),
+    ("electrical", "capacitor_voltage_V"),
+    ("electrical", "capacitor_current_A"),
+    ("electrical", "capacitor_rating_V"),
+    ("electrical", "capacitor_reactive_VA"),
 )
 _GROUP_OF = {name: group for group, name in FLAT_FIELDS if group}
 
