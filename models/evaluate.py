@@ -295,7 +295,11 @@ def evaluate_pick_gaps(
     rating = None
     if compensated:
         rating = _capacitor_rating(
-            design, fineness, pole_model, part, isothermal,
+            design,
+            fineness,
+            pole_model,
+            part,
+            isothermal,
             [(pick_system, arrival), (held_system, hold), *gap_solutions],
         )
     electrical = _electrical(design, arrival, hold, state.temperature("core"), rating)
