@@ -19,7 +19,9 @@ __all__ = [
     "SWING_WARNING_K",
     "TYPICAL_SATURATION_T",
     "VALIDATED_RANGE",
+    "WIRE_CURRENT_DENSITY_LIMIT",
     "limits_and_margins",
+    "out_of_depth",
     "range_warnings",
     "thermal_assumptions",
     "thermal_warnings",
@@ -147,6 +149,38 @@ def _core_warnings(design: Design, electrical) -> list[str]:
                 f"sheets; {100 * fraction:.1f} % of the flux energy runs radially at the face, "
                 "across them, where the loss is higher than modelled"
             )
+    return out
+
+
+#: Rms current density in the winding's copper [A/m^2] above which no wire carries it: enamelled
+#: copper windings run at 2-6 A/mm^2 continuously and a few times that for seconds; at 40 A/mm^2
+#: a winding heats by tens of kelvin a second adiabatically (rho J^2 / (density c): 1.7e-8 x
+#: 1.6e15 / 3.4e6 ~ 8 K/s) and its insulation fails within a hold or two (common practice, no
+#: source).
+WIRE_CURRENT_DENSITY_LIMIT = 40e6
+
+
+def out_of_depth(design: Design, electrical, thermal_status: str) -> list[str]:
+    """Why the linear model's numbers do not describe this magnet, one sentence a reason (empty:
+    none): the core's flux density above the steel's saturation (a linear pole keeps pulling
+    where real steel stops), a thermal runaway (no steady state exists), a coil current density
+    above ``WIRE_CURRENT_DENSITY_LIMIT`` (the wire would not survive it)."""
+    out = []
+    b, bsat = electrical.core_peak_flux_density_T, electrical.core_saturation_T
+    limit = bsat if math.isfinite(bsat) and bsat > 0 else TYPICAL_SATURATION_T
+    if b > limit:
+        out.append(
+            f"the core's peak flux density {b:.3g} T is above the steel's saturation "
+            f"{limit:.3g} T: real steel stops there, the linear model keeps going"
+        )
+    if thermal_status.startswith("runaway"):
+        out.append(f"thermal {thermal_status}")
+    density = electrical.coil_current_A / design.coil.wire_area
+    if density > WIRE_CURRENT_DENSITY_LIMIT:
+        out.append(
+            f"{electrical.coil_current_A:.4g} A rms is {density * 1e-6:.3g} A/mm^2 in the wire, "
+            f"above the {WIRE_CURRENT_DENSITY_LIMIT * 1e-6:g} A/mm^2 no winding carries"
+        )
     return out
 
 

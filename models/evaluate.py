@@ -18,6 +18,7 @@ from scipy.constants import g as standard_gravity
 
 from models.checks import (
     limits_and_margins,
+    out_of_depth,
     range_warnings,
     thermal_assumptions,
     thermal_warnings,
@@ -313,6 +314,7 @@ def evaluate_pick_gaps(
         electrical=electrical,
         thermal=thermal,
         warnings=warnings,
+        out_of_depth=out_of_depth(design, electrical, state.status),
         n_cells=int(arrival.cells.n),
         n_panels=0 if arrival.panels is None else int(arrival.panels.n),
         run_time_s=time.perf_counter() - t_start,

@@ -275,6 +275,7 @@ FLAT_FIELDS = (
     ("electrical", "capacitor_current_A"),
     ("electrical", "capacitor_rating_V"),
     ("electrical", "capacitor_reactive_VA"),
+    ("", "out_of_depth"),
 )
 _GROUP_OF = {name: group for group, name in FLAT_FIELDS if group}
 
@@ -293,6 +294,9 @@ class Result:
     n_panels: int = 0
     run_time_s: float = 0.0
     model: str = MODEL_VERSION
+    #: Why the linear model is out of its depth here (models.checks.out_of_depth): each reason a
+    #: sentence; empty when its numbers stand for the magnet.
+    out_of_depth: list = field(default_factory=list)
 
     def __getattr__(self, name):
         group = _GROUP_OF.get(name)
