@@ -338,6 +338,13 @@ def handoff_dict(design, result, meta: dict, verify: dict | None = None) -> dict
         "thermal_assumptions": None if predicted is None else predicted.get("thermal_assumptions"),
         "limits": limits,
     }
+    if "feasible" in study:  # a study's trial: whether it meets the study, and what it breaks
+        out = {
+            **{k: out[k] for k in ("schema", "tool", "written_at")},
+            "feasible": bool(study["feasible"]),
+            "broken_constraints": list(study.get("broken_constraints") or []),
+            **out,
+        }
     if rounding is not None:
         out["rounding"] = rounding
     if verify is not None:
@@ -368,7 +375,17 @@ def _dxf_notes(design, content: dict, meta: dict) -> list[str]:
     rounding = content.get("rounding")
     if rounding is not None:
         lines.append(f"dimensions rounded to {rounding['resolution_mm']:g} mm")
-    return lines
+    infeasible = _infeasible_words(meta)
+    return ([infeasible] if infeasible else []) + lines
+
+
+def _infeasible_words(meta: dict) -> str:
+    """One line for a hand-off of a trial that does not meet its study ("" otherwise)."""
+    if meta.get("feasible", True):
+        return ""
+    broken = meta.get("broken_constraints") or []
+    what = ", ".join(f"{b['name']} (margin {b['margin']:+.4g})" for b in broken)
+    return f"NOT FEASIBLE: this design breaks {what or 'the study'}; not a solution of the study"
 
 
 def write_handoff(design, result, out_dir, meta: dict, verify: dict | None = None) -> dict:
@@ -419,6 +436,8 @@ def write_handoff(design, result, out_dir, meta: dict, verify: dict | None = Non
         + (f", trial {meta['trial']}" if "trial" in meta else "")
         + f"\nunits: mm, Hz, A rms, V rms; reproduce with: {_command(meta)}"
     )
+    if _infeasible_words(meta):
+        header = _infeasible_words(meta) + "\n" + header
     text = dumps_toml(source, header=header)
     # Prove the round trip before handing it over: same values, same validated design.
     back = tomllib.loads(text)

@@ -292,6 +292,11 @@ def _write_study_report(
             or "no done trial rejected by a constraint",
         }
     )
+    nearest = summary.pop("nearest", None) or []
+    if nearest:  # nothing feasible: the nearest trials, what they break, bounds worth moving
+        from optim.morning.nearest import nearest_lines
+
+        summary["nearest to feasible"] = "; ".join(x.strip() for x in nearest_lines(nearest)[1:])
     notes = _notes(spec, df, front, designs[0][1] if designs else None)
     report = write_report(
         folder,
@@ -319,11 +324,19 @@ def _budget_text(run: dict) -> str:
     return ", ".join(parts)
 
 
-def pick_trial(study, spec_json: dict, trial: int | None, best: str | None):
-    """The stored trial to export: by number, or the front's best in one objective."""
+def pick_trial(study, spec_json: dict, trial: int | None, best: str | None, nearest=False):
+    """The stored trial to export: by number, the front's best in one objective, or (``nearest``)
+    the completed trial of least total violation (optim.morning.nearest)."""
     from optim.study.columns import StudyReadout
 
     readout = study if isinstance(study, StudyReadout) else StudyReadout(study, spec_json, "")
+    if nearest:
+        from optim.morning.nearest import nearest_trials
+
+        found = nearest_trials(trials_table(readout, spec_json, dimensions=False), spec_json, 1)
+        if not found:
+            raise DesignError("--nearest: the study has no completed trial yet")
+        trial = found[0]["trial"]
     if trial is not None:
         n = readout.n_trials
         if not 0 <= trial < n:
@@ -372,6 +385,7 @@ def export_trial(
     folder: Path,
     trial: int | None = None,
     best: str | None = None,
+    nearest: bool = False,
     out=None,
     verify: bool = False,
     echo=None,
@@ -394,7 +408,7 @@ def export_trial(
     from optim.study.engine import record_of
 
     spec = _spec(spec_json)
-    t = pick_trial(study, spec_json, trial, best)
+    t = pick_trial(study, spec_json, trial, best, nearest)
     design = design_of(spec, t.params)
     isothermal = bool(spec.run.get("isothermal", False))
     result = evaluate(design, isothermal=isothermal)
@@ -421,7 +435,8 @@ def export_trial(
         "objectives": objective_values,
         "constraint_margins": rounding["constraint_margins"],
         "constraint_margins_unrounded": record.get("margins", {}),
-        "feasible": rounding["constraints_met"],
+        "feasible": rounding["constraints_met"] and not rounding["broken"],
+        "broken_constraints": rounding["broken"],
         "feasible_unrounded": all(v <= 0 for v in t.constraints.values()),
         "created_at": datetime.now(UTC).isoformat(timespec="seconds"),
         "isothermal": isothermal,
@@ -440,7 +455,13 @@ def export_trial(
         paths.update(
             write_robustness(design, target, isothermal=isothermal, echo=echo, parts=spec.parts)
         )
-    if echo is not None:
+    if echo is not None and not meta["feasible_unrounded"]:
+        broken = ", ".join(f"{b['name']} (margin {b['margin']:+.4g})" for b in rounding["broken"])
+        echo(
+            f"warning: trial {t.number} is not feasible as the study found it: it breaks "
+            f"{broken or 'a constraint'}; every file of the hand-off says so"
+        )
+    elif echo is not None:
         echo(("warning: " if rounding["broken_constraints"] else "") + rounding["words"])
     if drift and echo is not None:
         echo(
