@@ -93,7 +93,16 @@ def rounded_for_handoff(spec, design, resolution_mm: float, isothermal: bool):
     broken = [name for name, m in margins.items() if not m >= 0]
     from optim.morning.nearest import broken_constraints
 
-    detail = broken_constraints(flat, spec.to_json())
+    detail = broken_constraints(
+        flat,
+        {
+            "constraints": {
+                c.name: {k: v for k, v in (("min", c.low), ("max", c.high)) if v is not None}
+                for c in spec.constraints
+            },
+            "run": dict(getattr(spec, "run", None) or {}),
+        },
+    )
     if broken:
         words = (
             f"rounding to {resolution_mm:g} mm broke the constraint(s) {', '.join(broken)} "
