@@ -241,3 +241,18 @@ def test_supply_state_is_kirchhoff():
     assert p.supply_current == pytest.approx(i + p.capacitor_current)
     assert np.isclose(p.capacitor_current, 1j * OMEGA * c * v)
     assert dataclasses.is_dataclass(s)
+
+
+def test_the_handoff_names_the_capacitor_and_its_rating(tmp_path):
+    from optim.morning.handoff import write_handoff
+
+    design = design_from_dict(_demo(current_A=None, voltage_V=10.0, compensation="series"))
+    r = evaluate(design)
+    paths = write_handoff(design, r, tmp_path / "h", {})
+    import json
+
+    drive = json.loads(paths["handoff.json"].read_text())["design"]["drive"]
+    assert drive["compensation"] == "series"
+    assert drive["capacitance_uF"] == r.capacitor_uF
+    assert drive["capacitor_rating_V"] == r.capacitor_rating_V
+    assert f"capacitor: {r.capacitor_uF:.4g} uF in series" in paths["profile.dxf"].read_text()

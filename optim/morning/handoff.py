@@ -325,6 +325,7 @@ def handoff_dict(design, result, meta: dict, verify: dict | None = None) -> dict
                 "current_A": design.drive.current,
                 "voltage_V": design.drive.voltage,
                 "turns": design.coil.turns,
+                **_capacitor(design, predicted),
             },
             "winding": winding_dict(design, predicted),
             "file": design.source,
@@ -352,6 +353,26 @@ def handoff_dict(design, result, meta: dict, verify: dict | None = None) -> dict
     return to_jsonable(out)
 
 
+def _capacitor(design, predicted) -> dict:
+    """The drive's capacitor for handoff.json (models.supply): how it is connected, its
+    capacitance and what it must be rated for; nothing without one."""
+    comp = getattr(design.drive, "compensation", "none")
+    if comp == "none":
+        return {}
+    p = predicted or {}
+    return {
+        "compensation": comp,
+        "capacitance_uF": p.get("capacitor_uF"),
+        "capacitance_source": "design file (drive.capacitance_uF)"
+        if design.drive.capacitance is not None
+        else "tuned for unity power factor at the design point",
+        "capacitor_rating_V": p.get("capacitor_rating_V"),
+        "capacitor_reactive_VA": p.get("capacitor_reactive_VA"),
+        "capacitor_rating_means": "rms voltage and reactive power of its worst state over the "
+        "gaps evaluated, hot and cold, and with no part present",
+    }
+
+
 def _dxf_notes(design, content: dict, meta: dict) -> list[str]:
     """The DXF's text block: design, study and trial, materials, winding and drive."""
     w = content["design"]["winding"]
@@ -372,6 +393,12 @@ def _dxf_notes(design, content: dict, meta: dict) -> list[str]:
     supply = "" if current is None else f", {current:.3g} A rms"
     supply += "" if voltage is None else f" at {voltage:.4g} V rms"
     lines.append(f"drive: {drive['frequency_Hz']:g} Hz{supply}")
+    if drive.get("compensation") and drive.get("capacitance_uF") is not None:
+        rating = drive.get("capacitor_rating_V")
+        lines.append(
+            f"capacitor: {drive['capacitance_uF']:.4g} uF in {drive['compensation']}"
+            + ("" if rating is None else f", rated {rating:.4g} V rms")
+        )
     rounding = content.get("rounding")
     if rounding is not None:
         lines.append(f"dimensions rounded to {rounding['resolution_mm']:g} mm")

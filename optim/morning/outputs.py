@@ -75,6 +75,9 @@ def _notes(spec, df, front, design=None) -> list[str]:
         notes.append(_state_note(design, bool(spec.run.get("isothermal"))))
     if spec.parts:
         notes.append(_family_note(spec))
+    note = _capacitor_note(spec, front)
+    if note:
+        notes.append(note)
     failed = df[df["state"] == "FAIL"] if not df.empty else df
     if len(failed):
         kinds: dict[str, int] = {}
@@ -86,6 +89,30 @@ def _notes(spec, df, front, design=None) -> list[str]:
             + ", ".join(f"{v} {k}" for k, v in sorted(kinds.items(), key=lambda kv: -kv[1]))
         )
     return notes
+
+
+def _capacitor_note(spec, front) -> str:
+    """What a front design's capacitor is rated for (models.supply), when the study has one."""
+    comp = (spec.base.get("drive") or {}).get("compensation", "none")
+    searched = any(p.key == "drive.compensation" for p in spec.params)
+    if comp == "none" and not searched:
+        return ""
+    text = (
+        "Capacitor (drive.compensation): tuned for unity power factor at the design point and "
+        "then fixed; supply_voltage_V, supply_current_A, supply_VA and power_factor are the "
+        "supply's, coil_voltage_V the coil's. It must be rated for capacitor_rating_V and "
+        "capacitor_reactive_VA: its worst state over the gaps evaluated, hot and cold, and with "
+        "no part present (a series capacitor sees about Q times the supply voltage)."
+    )
+    if front is not None and len(front) and "capacitor_rating_V" in front:
+        rating = front["capacitor_rating_V"].astype(float)
+        rated = rating[rating > 0]
+        if len(rated):
+            text += (
+                f" On this front: {len(rated)} of {len(front)} designs have one, rated "
+                f"{rated.min():.4g}-{rated.max():.4g} V rms."
+            )
+    return text
 
 
 def _family_note(spec) -> str:
