@@ -34,6 +34,7 @@ __all__ = [
     "supply_state",
     "tuned_capacitance",
     "with_capacitance",
+    "with_fixed_capacitor",
 ]
 
 #: The ways a capacitor may sit between the supply and the coil ([drive] compensation).
@@ -144,3 +145,13 @@ def with_capacitance(design, capacitance_F: float):
     return dataclasses.replace(
         design, drive=dataclasses.replace(design.drive, capacitance=float(capacitance_F))
     )
+
+
+def with_fixed_capacitor(design, capacitance_F: float):
+    """``design`` with its capacitor fixed at ``capacitance_F`` [F] in the drive and in its file
+    values (``source``: ``drive.capacitance_uF``), so that a design rebuilt from the file (a
+    tolerance sample) keeps the capacitor as built instead of tuning a new one."""
+    source = {k: (dict(v) if isinstance(v, dict) else v) for k, v in design.source.items()}
+    source.setdefault("drive", {})["capacitance_uF"] = float(capacitance_F) * 1e6
+    fixed = with_capacitance(design, capacitance_F)
+    return dataclasses.replace(fixed, source=source)

@@ -256,3 +256,18 @@ def test_the_handoff_names_the_capacitor_and_its_rating(tmp_path):
     assert drive["capacitance_uF"] == r.capacitor_uF
     assert drive["capacitor_rating_V"] == r.capacitor_rating_V
     assert f"capacitor: {r.capacitor_uF:.4g} uF in series" in paths["profile.dxf"].read_text()
+
+
+def test_a_tolerance_sample_keeps_the_capacitor_as_built():
+    # a built magnet's capacitor does not retune to each sample's coil: the samples of a
+    # tolerance table carry the nominal design's tuned capacitance (file value included)
+    from optim.morning.tolerance import _capacitor_as_built, varied_design
+
+    design = design_from_dict(_demo(current_A=None, voltage_V=10.0, compensation="series"))
+    r = evaluate(design)
+    built = _capacitor_as_built(design, False)
+    assert built.drive.capacitance == pytest.approx(r.capacitor_uF * 1e-6, rel=1e-12)
+    sample = varied_design(built, {"coil.length_mm": 0.5})
+    assert sample.drive.capacitance == built.drive.capacitance
+    assert evaluate(sample).capacitor_uF == pytest.approx(r.capacitor_uF, rel=1e-12)
+    assert _capacitor_as_built(design_from_dict(_demo()), False).drive.capacitance is None
