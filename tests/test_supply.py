@@ -114,6 +114,8 @@ def test_tuned_capacitor_gives_unity_power_factor_and_balances_energy(drive, com
     else:
         assert r.coil_current_A == pytest.approx(6.0, rel=1e-12)  # current_A stays the coil's
     assert r.capacitor_rating_V >= r.capacitor_voltage_V * (1 - 1e-12)
+    if compensation == "series" and not drive:  # V_C = I / (omega C) whatever the state
+        assert r.capacitor_rating_V == pytest.approx(r.capacitor_voltage_V, rel=1e-12)
     assert r.capacitor_reactive_VA >= r.capacitor_voltage_V * r.capacitor_current_A * (1 - 1e-9)
 
 
