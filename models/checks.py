@@ -24,7 +24,9 @@ __all__ = [
     "VALIDATED_RANGE",
     "lift_warnings",
     "gap_warnings",
+    "WIRE_CURRENT_DENSITY_LIMIT",
     "limits_and_margins",
+    "out_of_depth",
     "range_warnings",
     "thermal_assumptions",
     "thermal_warnings",
@@ -180,6 +182,38 @@ def _core_warnings(design: Design, electrical) -> list[str]:
     return out
 
 
+#: Rms current density in the winding's copper [A/m^2] above which no wire carries it: enamelled
+#: copper windings run at 2-6 A/mm^2 continuously and a few times that for seconds; at 40 A/mm^2
+#: a winding heats by tens of kelvin a second adiabatically (rho J^2 / (density c): 1.7e-8 x
+#: 1.6e15 / 3.4e6 ~ 8 K/s) and its insulation fails within a hold or two (common practice, no
+#: source).
+WIRE_CURRENT_DENSITY_LIMIT = 40e6
+
+
+def out_of_depth(design: Design, electrical, thermal_status: str) -> list[str]:
+    """Why the linear model's numbers do not describe this magnet, one sentence a reason (empty:
+    none): the core's flux density above the steel's saturation (a linear pole keeps pulling
+    where real steel stops), a thermal runaway (no steady state exists), a coil current density
+    above ``WIRE_CURRENT_DENSITY_LIMIT`` (the wire would not survive it)."""
+    out = []
+    b, bsat = electrical.core_peak_flux_density_T, electrical.core_saturation_T
+    limit = bsat if math.isfinite(bsat) and bsat > 0 else TYPICAL_SATURATION_T
+    if b > limit:
+        out.append(
+            f"the core's peak flux density {b:.3g} T is above the steel's saturation "
+            f"{limit:.3g} T: real steel stops there, the linear model keeps going"
+        )
+    if thermal_status.startswith("runaway"):
+        out.append(f"thermal {thermal_status}")
+    density = electrical.coil_current_A / design.coil.wire_area
+    if density > WIRE_CURRENT_DENSITY_LIMIT:
+        out.append(
+            f"{electrical.coil_current_A:.4g} A rms is {density * 1e-6:.3g} A/mm^2 in the wire, "
+            f"above the {WIRE_CURRENT_DENSITY_LIMIT * 1e-6:g} A/mm^2 no winding carries"
+        )
+    return out
+
+
 def limits_and_margins(design: Design, state, result: dict):
     """(margins, binding limit, time to limits, thermal time constants) of a result (see
     models.result.Thermal); ``result`` holds the flat values the margins are taken of."""
@@ -211,9 +245,10 @@ def limits_and_margins(design: Design, state, result: dict):
     sup = design.supply
     if sup is not None:
         for name, limit, value in (
-            ("supply_voltage_V", sup.max_voltage, result["coil_voltage_V"]),
-            ("supply_current_A", sup.max_current, result["coil_current_A"]),
+            ("supply_voltage_V", sup.max_voltage, result["supply_voltage_V"]),
+            ("supply_current_A", sup.max_current, result["supply_current_A"]),
             ("supply_VA", sup.max_apparent_power, result["supply_VA"]),
+            ("capacitor_rating_V", sup.max_capacitor_voltage, result["capacitor_rating_V"]),
         ):
             if limit is not None:
                 add(name, limit - value, limit)
@@ -265,13 +300,21 @@ def thermal_warnings(design: Design, state, result: dict, hold_tau: float) -> li
                 )
     sup = design.supply
     if sup is not None:
-        for limit, key, value, unit in (
-            (sup.max_voltage, "max_voltage_V", result["coil_voltage_V"], "V rms"),
-            (sup.max_current, "max_current_A", result["coil_current_A"], "A rms"),
-            (sup.max_apparent_power, "max_VA", result["supply_VA"], "VA"),
+        for limit, key, value, unit, who in (
+            (sup.max_voltage, "max_voltage_V", result["supply_voltage_V"], "V rms", "supply"),
+            (sup.max_current, "max_current_A", result["supply_current_A"], "A rms", "supply"),
+            (sup.max_apparent_power, "max_VA", result["supply_VA"], "VA", "supply"),
+            (
+                sup.max_capacitor_voltage,
+                "max_capacitor_voltage_V",
+                result["capacitor_rating_V"],
+                "V rms",
+                "capacitor",
+            ),
         ):
             if limit is not None and value > limit:
-                out.append(f"the coil needs {value:.4g} {unit}, above supply.{key} = {limit:g}")
+                needs = "the coil needs" if who == "supply" else "the capacitor sees up to"
+                out.append(f"{needs} {value:.4g} {unit}, above supply.{key} = {limit:g}")
     out.extend(f"thermal: {n}" for n in state.network.notes)
     return out
 

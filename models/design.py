@@ -18,6 +18,7 @@ from pathlib import Path
 from models.core_loss import lamination_permeability
 from models.errors import DesignError, nearest
 from models.materials import MATERIALS, get_material
+from models.supply import COMPENSATIONS
 
 __all__ = [
     "Pole",
@@ -177,11 +178,15 @@ def coil_turns(coil: dict) -> int:
 
 @dataclass(frozen=True)
 class Drive:
-    """Supply: frequency [Hz]; exactly one of current [A rms] and voltage [V rms]."""
+    """Supply: frequency [Hz]; exactly one of current [A rms] (the coil's) and voltage [V rms]
+    (the supply's); the compensating capacitor ("none", "series" or "parallel", models.supply)
+    and its capacitance [F] (None: tuned for unity power factor at the design point)."""
 
     frequency: float
     current: float | None = None
     voltage: float | None = None
+    compensation: str = "none"
+    capacitance: float | None = None
 
     @property
     def omega(self) -> float:
@@ -283,11 +288,13 @@ class Thermal:
 @dataclass(frozen=True)
 class Supply:
     """Limits of the supply (None: no limit): rms voltage [V], rms current [A], apparent power
-    [VA]."""
+    [VA] at the supply's terminals (the capacitor's other side, models.supply), and the
+    capacitor's rating [V rms] (``capacitor_rating_V``)."""
 
     max_voltage: float | None = None
     max_current: float | None = None
     max_apparent_power: float | None = None
+    max_capacitor_voltage: float | None = None
 
 
 @dataclass(frozen=True)
@@ -339,6 +346,8 @@ DESIGN_KEYS: dict[str, dict[str, tuple[str, bool]]] = {
         "frequency_Hz": ("pos", True),
         "current_A": ("pos", False),
         "voltage_V": ("pos", False),
+        "compensation": ("str", False),
+        "capacitance_uF": ("pos", False),
     },
     "ring": {
         "inner_radius_mm": ("pos", True),
@@ -380,6 +389,7 @@ DESIGN_KEYS: dict[str, dict[str, tuple[str, bool]]] = {
         "max_voltage_V": ("pos", False),
         "max_current_A": ("pos", False),
         "max_VA": ("pos", False),
+        "max_capacitor_voltage_V": ("pos", False),
     },
 }
 #: Tables a design may leave out.
@@ -645,16 +655,34 @@ def _pole_sheets(p: _Values, pole_mat, sigma, problems: list[str]) -> tuple:
 
 
 def _parse_drive(d: _Values, problems: list[str]) -> dict:
-    """[drive]: the frequency and exactly one of current and voltage."""
+    """[drive]: the frequency, exactly one of current and voltage, and the capacitor
+    (``compensation`` one of models.supply.COMPENSATIONS; ``capacitance_uF`` only with one)."""
     if d.usable("current_A", "voltage_V") and ("current_A" in d) == ("voltage_V" in d):
         problems.append(
             "drive: give exactly one of current_A (rms) and voltage_V (rms); "
             f"got {'both' if 'current_A' in d else 'neither'}"
         )
+    word = d.get("compensation", "none")
+    if d.usable("compensation") and isinstance(word, str):
+        word = word.strip().lower()
+        if word not in COMPENSATIONS:
+            problems.append(
+                f"drive.compensation = {d.get('compensation')!r}: allowed: "
+                + ", ".join(f'"{w}"' for w in COMPENSATIONS)
+                + nearest(word, list(COMPENSATIONS))
+            )
+        elif word == "none" and "capacitance_uF" in d and d.usable("capacitance_uF"):
+            problems.append(
+                f"drive.capacitance_uF = {d.get('capacitance_uF'):g}: a capacitance needs "
+                'drive.compensation = "series" or "parallel" (it is "none")'
+            )
+    c = d.get("capacitance_uF")
     return {
         "frequency": d.get("frequency_Hz"),
         "current": d.get("current_A"),
         "voltage": d.get("voltage_V"),
+        "compensation": word,
+        "capacitance": None if c is None else c * 1e-6,
     }
 
 
@@ -868,6 +896,7 @@ def _parse_supply(t: _Values, problems: list[str]) -> dict:
         "max_voltage": t.get("max_voltage_V"),
         "max_current": t.get("max_current_A"),
         "max_apparent_power": t.get("max_VA"),
+        "max_capacitor_voltage": t.get("max_capacitor_voltage_V"),
     }
 
 

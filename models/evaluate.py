@@ -20,6 +20,7 @@ from models.checks import (
     gap_warnings,
     lift_warnings,
     limits_and_margins,
+    out_of_depth,
     range_warnings,
     thermal_assumptions,
     thermal_warnings,
@@ -37,6 +38,7 @@ from models.fast.ripple import pull_ripple
 from models.fast.uncertainty import COARSE_FACTOR, pull_uncertainty
 from models.motion import Lift, PullCurve, lift_in_time, weight_against_pull
 from models.result import MODEL_VERSION, Electrical, Result, Thermal, ring_phase
+from models.supply import supply_state, tuned_capacitance, with_capacitance
 from models.thermal.coupling import solve_coupled
 from models.thermal.limits import hold_temperature
 from models.thermal.network import build_network, face_slab_thickness
@@ -302,7 +304,7 @@ def evaluate_pick_gaps(
         if held_design is design
         else assemble_circuit(held_design, fineness, pole_model_for(held_design, fineness))
     )
-    state = _steady_state(held_design, held_system, isothermal)
+    design, pick_system, held_system, state = _tuned(design, pick_system, held_system, isothermal)
     solve = _solved_once()
 
     def loss_at_arrival(temps):
@@ -311,12 +313,46 @@ def evaluate_pick_gaps(
     part = pick_state(design, state, isothermal, loss_at_arrival)
     arrival = solve(pick_system, part.arrival)
     hold = solve(held_system, part.hold) if part.hold is not None else None
-    electrical = _electrical(design, arrival, hold, state.temperature("core"))
+    drive = design.drive
+    # The capacitor's states to rate it by: a series capacitor on a given coil current has the
+    # same voltage I/(omega C) in every state, so only the design point is needed then.
+    compensated = drive.compensation != "none" and not (
+        drive.current is not None and drive.compensation == "series"
+    )
+    pulls, gap_solutions = [], []
+    for g in gaps_mm:
+        if abs(g * 1e-3 - design.target.gap) <= 1e-12:
+            pulls.append(None)  # the design's own pull, once the result holds it
+            continue
+        at_gap = with_gap(design, g)
+        system = assemble_circuit(
+            at_gap, fineness, pole_model_for(at_gap, fineness), pull_only=not compensated
+        )
+        solution = solve_system(system, part.arrival)
+        pulls.append(float(sum(pull_by_source(solution).values())))
+        if compensated:
+            gap_solutions.append((system, solution))
+    rating = None
+    if drive.compensation == "series" and drive.current is not None:
+        rating = _capacitor_rating_of([arrival], drive)
+    elif compensated:
+        rating = _capacitor_rating(
+            design,
+            fineness,
+            pole_model,
+            part,
+            isothermal,
+            [(pick_system, arrival), (held_system, hold), *gap_solutions],
+        )
+    electrical = _electrical(design, arrival, hold, state.temperature("core"), rating)
     electrical = _with_error_bar(electrical, design, fineness, part.arrival)
     arrival_held = solve(held_system, part.arrival)  # solved already, except with target_stays
     electrical = _with_ripple(electrical, design, arrival, arrival_held, hold)
     pull_at = _ArrivalPulls(design, fineness, part.arrival, {held_design.target.gap: arrival_held})
     pull_at[design.target.gap] = electrical.pull_N
+    for g, p in zip(gaps_mm, pulls, strict=True):
+        if p is not None:
+            pull_at[g * 1e-3] = p
     electrical, lift = _with_lift(electrical, design, held_design, pull_at, lift_points)
     thermal = _thermal(design, state, part, electrical)
     flat = _flat_for_checks(electrical, thermal)
@@ -329,6 +365,7 @@ def evaluate_pick_gaps(
         electrical=electrical,
         thermal=thermal,
         warnings=warnings,
+        out_of_depth=out_of_depth(design, electrical, state.status),
         n_cells=int(arrival.cells.n),
         n_panels=0 if arrival.panels is None else int(arrival.panels.n),
         run_time_s=time.perf_counter() - t_start,
@@ -365,6 +402,107 @@ class _ArrivalPulls(dict):
         pull = float(sum(pull_by_source(solve_system(system, self._temps)).values()))
         self[key] = pull
         return pull
+
+
+#: Passes of the series capacitor's tuning under voltage drive (``_tuned``): the capacitor sets
+#: the current, the current the temperatures, the temperatures the coil's reactance it is tuned
+#: to; the reactance moves little with temperature: 3-4 passes on the demo at 5-20 V (measured).
+TUNING_PASSES = 8
+#: Relative change of the tuned capacitance that ends the passes (common practice, no source:
+#: far below any capacitor's tolerance).
+TUNING_TOLERANCE = 1e-9
+
+
+def _tuned(design: Design, pick_system, held_system, isothermal: bool):
+    """(design, pick system, held system, steady state) with the drive's capacitor fixed.
+
+    A capacitor without a capacitance (``drive.compensation`` "series" or "parallel") is tuned
+    for unity power factor at the design point: the coil's terminal impedance (iron loss
+    included) at the design's gap, the magnet at its steady state, the part arriving
+    (models.supply.tuned_capacitance). Under current drive, and in parallel on a voltage, the
+    coil's current does not depend on the capacitor, nor the steady state: one pass. A series
+    capacitor on a voltage sets the current and so the temperatures: passes until the
+    capacitance the steady state asks for is the one it was computed with."""
+    state = _steady_state(held_system.design, held_system, isothermal)
+    drive = design.drive
+    if drive.compensation == "none" or drive.capacitance is not None:
+        return design, pick_system, held_system, state
+    dependent = drive.voltage is not None and drive.compensation == "series"
+    capacitance = None
+    for _ in range(TUNING_PASSES):
+        new = _tuning_capacitance(design, pick_system, held_system, state, isothermal)
+        if not math.isfinite(new):
+            raise DesignError(
+                f"drive.compensation = {drive.compensation!r}: the coil's reactance at the design "
+                "point is not positive, so there is nothing to tune a capacitor to"
+            )
+        done = capacitance is not None and abs(new - capacitance) <= TUNING_TOLERANCE * new
+        capacitance = new
+        tuned = with_capacitance(design, capacitance)
+        pick_system = dataclasses.replace(pick_system, design=tuned)
+        held_system = dataclasses.replace(
+            held_system, design=with_capacitance(held_system.design, capacitance)
+        )
+        if not dependent or done:
+            break
+        state = _steady_state(held_system.design, held_system, isothermal)
+    return tuned, pick_system, held_system, state
+
+
+def _tuning_capacitance(design: Design, pick_system, held_system, state, isothermal) -> float:
+    """The capacitance [F] for unity power factor at the design point of ``state``."""
+
+    def loss_at_arrival(temps):
+        return _part_losses(solve_system(held_system, temps))["target"]
+
+    part = pick_state(design, state, isothermal, loss_at_arrival)
+    sol = solve_system(pick_system, part.arrival)
+    z = complex(sol.coil_voltage / sol.coil_current)
+    return tuned_capacitance(design.drive.compensation, design.drive.omega, z)
+
+
+def no_part(design: Design) -> Design:
+    """``design`` with its part made a non-conductor (``NO_PART_CONDUCTIVITY``): the magnet
+    with nothing in front of it, for the capacitor's rating."""
+    return dataclasses.replace(
+        design, target=dataclasses.replace(design.target, conductivity=NO_PART_CONDUCTIVITY)
+    )
+
+
+#: A part's conductivity [S/m] that stands for no part: its cells' resistances (~1e17 Ohm) leave
+#: currents 1e-20 of a metal's, far below rounding of the terminal quantities.
+NO_PART_CONDUCTIVITY = 1e-12
+
+
+def _capacitor_rating(design, fineness, pole_model, part: PickState, isothermal, solved):
+    """The capacitor's worst state: (rms voltage [V], reactive power [var]) of the state with the
+    highest capacitor voltage among the solved ones (``solved``: (system, solution) pairs, a
+    solution None is skipped: the design point, the hold, the other gaps, all at the steady
+    state), the same with the magnet and the part cold (the ambient; 20 degC when isothermal),
+    and no part present, hot and cold."""
+    cold_C = 20.0 if isothermal else design.thermal.ambient_C
+    cold = {"coil": cold_C, "ring": cold_C, "target": cold_C}
+    empty = no_part(design)
+    empty_system = assemble_circuit(empty, fineness, pole_model)
+    states = [sol for _, sol in solved if sol is not None]
+    states += [solve_system(system, cold) for system, sol in solved if sol is not None]
+    states += [solve_system(empty_system, part.arrival), solve_system(empty_system, cold)]
+    return _capacitor_rating_of(states, design.drive)
+
+
+def _capacitor_rating_of(states, drive) -> tuple:
+    """(rms voltage [V], reactive power [var]) of the capacitor in the state of ``states``
+    (circuit solutions) where its voltage is highest."""
+    worst = max(
+        (
+            supply_state(
+                drive.compensation, drive.capacitance, drive.omega, s.coil_voltage, s.coil_current
+            )
+            for s in states
+        ),
+        key=lambda st: abs(st.capacitor_voltage),
+    )
+    return abs(worst.capacitor_voltage), worst.capacitor_reactive_VA
 
 
 def _check_laminated(design: Design) -> None:
@@ -479,11 +617,17 @@ def pick_state(design: Design, state, isothermal: bool, loss_at_arrival=None) ->
 
 
 def _electrical(
-    design: Design, sol: CircuitSolution, hold: CircuitSolution | None, core_C: float
+    design: Design,
+    sol: CircuitSolution,
+    hold: CircuitSolution | None,
+    core_C: float,
+    rating: tuple | None = None,
 ) -> Electrical:
     """Pull, losses, terminal quantities and flux densities of the solution at the moment of
     pick (``sol``), and the pull of the solution at the end of the hold (``hold``, None: nan);
-    the steel's saturation at its temperature ``core_C`` [degC]."""
+    the steel's saturation at its temperature ``core_C`` [degC]; the supply's side of the
+    capacitor (models.supply) and its rating ``rating`` ((V rms, var) of its worst state; None:
+    no capacitor)."""
     split = pull_by_source(sol)
     pull = sum(split.values())
     losses = _part_losses(sol)
@@ -494,7 +638,12 @@ def _electrical(
     b_peak = core_peak_flux_density(design, sol)
     weight = design.target.density * design.target.volume * standard_gravity
     input_power = float(np.real(sol.coil_voltage * np.conj(sol.coil_current)))
-    va = abs(sol.coil_voltage) * abs(sol.coil_current)
+    drive = design.drive
+    supply = supply_state(
+        drive.compensation, drive.capacitance, drive.omega, sol.coil_voltage, sol.coil_current
+    )
+    va = supply.supply_VA
+    rating_V, rating_var = (0.0, 0.0) if rating is None else rating
     bsat = design.pole.saturation_at(core_C if math.isfinite(core_C) else 20.0)
     core = sol.core
     return Electrical(
@@ -536,6 +685,13 @@ def _electrical(
         hold_chatter_margin_N=math.nan,
         pick_time_ms=math.nan,
         contact_speed_m_per_s=math.nan,
+        supply_voltage_V=abs(supply.supply_voltage),
+        supply_current_A=abs(supply.supply_current),
+        capacitor_uF=0.0 if drive.capacitance is None else drive.capacitance * 1e6,
+        capacitor_voltage_V=abs(supply.capacitor_voltage),
+        capacitor_current_A=abs(supply.capacitor_current),
+        capacitor_rating_V=float(rating_V),
+        capacitor_reactive_VA=float(rating_var),
     )
 
 
@@ -670,7 +826,10 @@ def _flat_for_checks(electrical: Electrical, thermal: Thermal) -> dict:
         "core_saturation_T": electrical.core_saturation_T,
         "coil_voltage_V": electrical.coil_voltage_V,
         "coil_current_A": electrical.coil_current_A,
+        "supply_voltage_V": electrical.supply_voltage_V,
+        "supply_current_A": electrical.supply_current_A,
         "supply_VA": electrical.supply_VA,
+        "capacitor_rating_V": electrical.capacitor_rating_V,
         "pull_uncertainty_relative": electrical.pull_uncertainty_relative,
         "pull_cancellation": electrical.pull_cancellation,
     }

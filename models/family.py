@@ -24,6 +24,7 @@ from models.fast.circuit import assemble_circuit, solve_system
 from models.fast.discretize import Fineness
 from models.fast.pull import net_pull
 from models.result import Result
+from models.supply import with_capacitance
 
 __all__ = ["part_pulls_under_magnet", "magnet_temperatures"]
 
@@ -73,6 +74,9 @@ def part_pulls_under_magnet(
     and ``pull_hold_N`` to rounding (tests/test_family.py).
     """
     fineness = fineness or DEFAULT_FINENESS
+    if design.drive.compensation != "none" and design.drive.capacitance is None:
+        # the magnet's capacitor, tuned at its own design point, stays as it is (models.supply)
+        design = with_capacitance(design, own_result.capacitor_uF * 1e-6)
     systems: dict = {}
 
     def system_at(d: Design):

@@ -68,8 +68,9 @@ class Electrical:
         warmed for thermal.hold_time_s at the holding gap (thermal.hold_gap_mm); nan after a
         thermal runaway
     target_loss_W, ring_loss_W, coil_loss_W : Joule losses [W]
-    input_power_W : Re(V conj(I)) at the coil terminals [W]
-    coil_current_A, coil_voltage_V : rms magnitudes [A], [V]; supply_VA : |V||I| [VA]
+    input_power_W : Re(V conj(I)) at the coil terminals [W] (the supply's real power too)
+    coil_current_A, coil_voltage_V : rms magnitudes [A], [V]; supply_VA : |V||I| of the supply
+        [VA]
     coil_impedance_ohm : (resistance, reactance) at the terminals [Ohm]
     ring_current_A : rms magnitude of the ring's total current [A]; ring_phase_deg : its phase
         relative to the coil current [deg], in [-270, 90) so that a ring's lag (90 to a little
@@ -78,7 +79,7 @@ class Electrical:
     pole_flux_density_T : peak in time of the section-averaged axial flux density of the pole, the
         largest along its length [T] (the FEM reports the same quantity)
     target_weight_N, lift_ratio : weight of the target [N] and pull / weight [-]
-    power_factor : input_power_W / supply_VA; pole_mass_kg : the pole's steel, groove removed;
+    power_factor : input_power_W / supply_VA (the supply's); pole_mass_kg : the pole's steel, groove removed;
     core_flux_fraction : core_peak_flux_density_T / the steel's saturation flux density at the
         core's temperature (0 if unknown); core_saturation_T : that saturation flux density [T]
         (nan if unknown)
@@ -99,6 +100,16 @@ class Electrical:
         no lift (the holding gap not below the pick gap: the part is held where it is picked);
         contact_speed_m_per_s : its speed at contact [m/s] (nan where it stalls, 0 without a
         lift)
+    supply_voltage_V, supply_current_A : rms magnitudes at the supply's terminals [V], [A]: the
+        capacitor's other side (models.supply; drive.compensation); the coil's own without one.
+        supply_VA and power_factor are the supply's, input_power_W its real power (an ideal
+        capacitor takes none); coil_voltage_V, coil_current_A stay the coil's
+    capacitor_uF : the capacitance [uF] (the file's, or tuned for unity power factor at the
+        design point); 0 without a capacitor. capacitor_voltage_V, capacitor_current_A : its rms
+        voltage [V] and current [A] at the design point
+    capacitor_rating_V, capacitor_reactive_VA : its rms voltage [V] and reactive power [var] in
+        its worst state (the highest voltage) over the gaps evaluated at the steady state and
+        cold, and with no part present, hot and cold: what it must be bought for
     """
 
     pull_N: float
@@ -135,6 +146,13 @@ class Electrical:
     hold_chatter_margin_N: float
     pick_time_ms: float
     contact_speed_m_per_s: float
+    supply_voltage_V: float
+    supply_current_A: float
+    capacitor_uF: float
+    capacitor_voltage_V: float
+    capacitor_current_A: float
+    capacitor_rating_V: float
+    capacitor_reactive_VA: float
 
 
 @dataclass(frozen=True)
@@ -158,7 +176,8 @@ class Thermal:
     margins : limit name -> margin in the limit's unit, positive = satisfied:
         "coil_temperature_C", "ring_temperature_C" and "target_hold_temperature_C" (when
         [thermal] sets ring_limit_C, target_limit_C), "core_flux_density_T" (saturation minus
-        peak), "supply_voltage_V", "supply_current_A", "supply_VA" (with [supply])
+        peak), "supply_voltage_V", "supply_current_A", "supply_VA" (the supply's),
+        "capacitor_rating_V" (with [supply] limits)
     binding_limit : the margin smallest relative to its limit (a temperature's relative to the
         allowed rise above ambient), "" if none
     time_to_limit_s : part -> seconds from cold to its limit run continuously (inf: never); the
@@ -294,6 +313,14 @@ FLAT_FIELDS = (
     ("envelope", "magnet_height_mm"),
     ("envelope", "magnet_mass_kg"),
     ("envelope", "coil_copper_mass_kg"),
+    ("electrical", "supply_voltage_V"),
+    ("electrical", "supply_current_A"),
+    ("electrical", "capacitor_uF"),
+    ("electrical", "capacitor_voltage_V"),
+    ("electrical", "capacitor_current_A"),
+    ("electrical", "capacitor_rating_V"),
+    ("electrical", "capacitor_reactive_VA"),
+    ("", "out_of_depth"),
 )
 _GROUP_OF = {name: group for group, name in FLAT_FIELDS if group}
 
@@ -313,6 +340,9 @@ class Result:
     run_time_s: float = 0.0
     model: str = MODEL_VERSION
     envelope: Envelope | None = None
+    #: Why the linear model is out of its depth here (models.checks.out_of_depth): each reason a
+    #: sentence; empty when its numbers stand for the magnet.
+    out_of_depth: list = field(default_factory=list)
 
     def __getattr__(self, name):
         group = _GROUP_OF.get(name)

@@ -236,9 +236,17 @@ def test_without_parts_the_study_is_defined_as_before(tmp_path):
     study's fingerprint, a regression value computed with the code before parts existed, at
     model multiloop-3: 24244e19f30f71db; the fingerprint includes the model's version: at
     multiloop-4 16f3c370c262e75e, at multiloop-5 the value below)."""
-    from optim.demo import DEMO_STUDY
+    import shutil
 
-    spec = load_study_spec(DEMO_STUDY)
+    from optim.demo import DEMO_DESIGN, DEMO_STUDY
+
+    # the demo study as it was before issue 28 (no capacitor searched, the limit on the coil)
+    text = DEMO_STUDY.read_text(encoding="utf-8")
+    text = "\n".join(line for line in text.splitlines() if "drive.compensation" not in line)
+    text = text.replace("supply_voltage_V = { max = 230.0 }", "coil_voltage_V = { max = 230.0 }")
+    shutil.copy(DEMO_DESIGN, tmp_path / DEMO_DESIGN.name)
+    (tmp_path / "demo_study.toml").write_text(text, encoding="utf-8")
+    spec = load_study_spec(tmp_path / "demo_study.toml")
     assert "parts" not in spec.to_json() and spec.parts == ()
     assert spec.fingerprint() == "57c148e1841c7d30"
 

@@ -34,6 +34,7 @@ from models.fast.discretize import (
 )
 from models.fast.filaments import self_inductance_rect
 from models.fast.kernels import cell_mutual, cell_panel_sums, real_matmul
+from models.supply import series_impedance
 
 __all__ = [
     "CircuitSolution",
@@ -329,12 +330,15 @@ def solve_system(system: CircuitSystem, temperatures=None) -> CircuitSolution:
     unit[coil] = share
     z_in = complex(Z[n, n] + Z[n, :n] @ unit[solid])
     loss_at = _hysteresis_excess_of(design, system.core_grid, unit)
+    # A series capacitor (models.supply) sits between a voltage supply and the coil.
+    z_series = series_impedance(design.drive)
+    z_drive = z_in + z_series if z_series else z_in
     if design.drive.current is not None:
         i0 = complex(design.drive.current)
     elif loss_at is None:
-        i0 = complex(design.drive.voltage) / z_in
+        i0 = complex(design.drive.voltage) / z_drive
     else:
-        i0 = coil_current_with_core_loss(complex(design.drive.voltage), z_in, loss_at)
+        i0 = coil_current_with_core_loss(complex(design.drive.voltage), z_drive, loss_at)
     r_he = 0.0 if loss_at is None or i0 == 0 else loss_at(abs(i0)) / abs(i0) ** 2
     v0 = (z_in + r_he) * i0
     cell_current = unit * i0

@@ -92,15 +92,17 @@ def _why_none_feasible(location, name: str) -> list[str]:
     """Which constraint rejected how many trials, and the best margin reached: the reason a run
     found no feasible design."""
     from optim.morning.front import constraint_lines, status_summary
+    from optim.morning.nearest import nearest_lines
     from optim.study.columns import open_readout
     from optim.study.storage import release
 
     study = open_readout(location, name)
     spec_json = study.spec_json
     try:
-        lines = constraint_lines(status_summary(study, spec_json))
+        summary = status_summary(study, spec_json)
     finally:
         release(study)
+    lines = constraint_lines(summary) + nearest_lines(summary.get("nearest") or [])
     return ["no feasible design yet:", *lines] if lines else []
 
 
@@ -156,8 +158,8 @@ def _cmd_front(args) -> int:
 def _cmd_export(args) -> int:
     from optim.morning.outputs import export_trial
 
-    if (args.trial is None) == (args.best is None):
-        raise UsageError("export: give exactly one of --trial N and --best OBJECTIVE")
+    if (args.trial is not None) + (args.best is not None) + bool(args.nearest) != 1:
+        raise UsageError("export: give exactly one of --trial N, --best OBJECTIVE and --nearest")
     study, spec_json, where = _open(args)
     folder = _folder_for(args.location, spec_json, None)
     paths = export_trial(
@@ -167,6 +169,7 @@ def _cmd_export(args) -> int:
         folder,
         trial=args.trial,
         best=args.best,
+        nearest=args.nearest,
         out=args.out,
         verify=args.verify,
         echo=print,
@@ -251,6 +254,11 @@ def add_study_parser(sub) -> None:
         if cmd == "export":
             p.add_argument("--trial", type=int, help="trial number")
             p.add_argument("--best", metavar="OBJECTIVE", help="best front design for it")
+            p.add_argument(
+                "--nearest",
+                action="store_true",
+                help="the trial nearest to feasible (least total violation), marked infeasible",
+            )
             p.add_argument(
                 "--out",
                 metavar="FOLDER",

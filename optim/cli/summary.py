@@ -10,6 +10,7 @@ __all__ = [
     "format_materials",
     "format_result",
     "limits_used_text",
+    "out_of_depth_lines",
 ]
 
 CAUTION = (
@@ -107,13 +108,41 @@ def assumptions_text(a: dict) -> str:
     return text
 
 
+def _supply_lines(design, r) -> list[str]:
+    """The supply and its capacitor, where the drive has one (models.supply)."""
+    comp = getattr(design.drive, "compensation", "none")
+    if comp == "none":
+        return []
+    return [
+        f"  supply             {_w(r.supply_current_A)} A rms, {_w(r.supply_voltage_V)} V rms, "
+        f"{_w(r.supply_VA)} VA through a {comp} capacitor",
+        f"  capacitor          {r.capacitor_uF:.4g} uF: {_w(r.capacitor_voltage_V)} V rms, "
+        f"{_w(r.capacitor_current_A)} A rms here; rated for {_w(r.capacitor_rating_V)} V rms, "
+        f"{_w(r.capacitor_reactive_VA)} var (its worst state: every gap, no part, coil cold)",
+    ]
+
+
+def out_of_depth_lines(result) -> list[str]:
+    """The verdict that opens a result's text when the linear model is out of its depth
+    (``Result.out_of_depth``): what it means, then each reason; empty otherwise."""
+    reasons = list(getattr(result, "out_of_depth", None) or [])
+    if not reasons:
+        return []
+    return [
+        "NOT A VALID DESIGN: the linear model is out of its depth here; the numbers below are "
+        "not what this magnet would do:",
+        *(f"  - {why}" for why in reasons),
+        "",
+    ]
+
+
 def format_result(design, result) -> str:
     """A few lines an engineer reads: pull and where it comes from, costs, validity."""
     r = result
     a = r.thermal_assumptions
     split = r.pull_by_source_N
     verdict = "PULL (toward the face)" if r.pull_N > 0 else "PUSH (away from the face)"
-    lines = [
+    lines = out_of_depth_lines(r) + [
         f"design {design.name}: {design.drive.frequency:g} Hz, "
         f"{'ring' if design.ring is not None else 'plain pole (no ring)'}, "
         f"target r = {design.target.radius * 1e3:g} mm at gap {design.target.gap * 1e3:g} mm",
@@ -135,8 +164,9 @@ def format_result(design, result) -> str:
         f"  core loss          sheets' eddy currents {_w(r.core_eddy_loss_W)} W, hysteresis "
         f"{_w(r.core_hysteresis_loss_W)} W, excess {_w(r.core_excess_loss_W)} W",
         f"  coil               {_w(r.coil_current_A)} A rms, {_w(r.coil_voltage_V)} V rms, "
-        f"{_w(r.supply_VA)} VA, Z = {r.coil_impedance_ohm[0]:.4g} + j{r.coil_impedance_ohm[1]:.4g} "
+        f"{_w(r.coil_voltage_V * r.coil_current_A)} VA, Z = {r.coil_impedance_ohm[0]:.4g} + j{r.coil_impedance_ohm[1]:.4g} "
         "Ohm",
+        *_supply_lines(design, r),
         f"  ring current       {_w(r.ring_current_A)} A rms at {r.ring_phase_deg:+.1f} deg to the "
         "coil current",
         f"  core peak flux     {r.core_peak_flux_density_T:.3g} T",

@@ -191,6 +191,9 @@ def status_summary(study, spec_json: dict, table: pd.DataFrame | None = None) ->
         for r in df.loc[df["state"] == "FAIL", "reason"]:
             key = str(r).split(":")[0] or "unknown"
             reasons[key] = reasons.get(key, 0) + 1
+    from optim.morning.nearest import nearest_trials
+
+    nearest = nearest_trials(df, spec_json) if n and not feasible else []
     return {
         "name": spec_json["name"],
         "trials": n,
@@ -208,6 +211,7 @@ def status_summary(study, spec_json: dict, table: pd.DataFrame | None = None) ->
         "failure_reasons": reasons,
         "constraints": rejected,
         "objectives": dict(objectives),
+        "nearest": nearest,
     }
 
 
@@ -244,6 +248,9 @@ def format_status(s: dict, where: str) -> str:
     for reason, count in sorted(s["failure_reasons"].items(), key=lambda kv: -kv[1]):
         lines.append(f"  failed: {reason:20s} {count}")
     lines += constraint_lines(s)
+    from optim.morning.nearest import nearest_lines
+
+    lines += nearest_lines(s.get("nearest") or [])
     return "\n".join(lines)
 
 

@@ -325,6 +325,7 @@ def handoff_dict(design, result, meta: dict, verify: dict | None = None) -> dict
                 "current_A": design.drive.current,
                 "voltage_V": design.drive.voltage,
                 "turns": design.coil.turns,
+                **_capacitor(design, predicted),
             },
             "winding": winding_dict(design, predicted),
             "file": design.source,
@@ -338,11 +339,38 @@ def handoff_dict(design, result, meta: dict, verify: dict | None = None) -> dict
         "thermal_assumptions": None if predicted is None else predicted.get("thermal_assumptions"),
         "limits": limits,
     }
+    if "feasible" in study:  # a study's trial: whether it meets the study, and what it breaks
+        out = {
+            **{k: out[k] for k in ("schema", "tool", "written_at")},
+            "feasible": bool(study["feasible"]),
+            "broken_constraints": list(study.get("broken_constraints") or []),
+            **out,
+        }
     if rounding is not None:
         out["rounding"] = rounding
     if verify is not None:
         out["verify"] = verify.get("json", {k: v for k, v in verify.items() if k != "reference"})
     return to_jsonable(out)
+
+
+def _capacitor(design, predicted) -> dict:
+    """The drive's capacitor for handoff.json (models.supply): how it is connected, its
+    capacitance and what it must be rated for; nothing without one."""
+    comp = getattr(design.drive, "compensation", "none")
+    if comp == "none":
+        return {}
+    p = predicted or {}
+    return {
+        "compensation": comp,
+        "capacitance_uF": p.get("capacitor_uF"),
+        "capacitance_source": "design file (drive.capacitance_uF)"
+        if design.drive.capacitance is not None
+        else "tuned for unity power factor at the design point",
+        "capacitor_rating_V": p.get("capacitor_rating_V"),
+        "capacitor_reactive_VA": p.get("capacitor_reactive_VA"),
+        "capacitor_rating_means": "rms voltage and reactive power of its worst state over the "
+        "gaps evaluated, hot and cold, and with no part present",
+    }
 
 
 def _dxf_notes(design, content: dict, meta: dict) -> list[str]:
@@ -365,10 +393,26 @@ def _dxf_notes(design, content: dict, meta: dict) -> list[str]:
     supply = "" if current is None else f", {current:.3g} A rms"
     supply += "" if voltage is None else f" at {voltage:.4g} V rms"
     lines.append(f"drive: {drive['frequency_Hz']:g} Hz{supply}")
+    if drive.get("compensation") and drive.get("capacitance_uF") is not None:
+        rating = drive.get("capacitor_rating_V")
+        lines.append(
+            f"capacitor: {drive['capacitance_uF']:.4g} uF in {drive['compensation']}"
+            + ("" if rating is None else f", rated {rating:.4g} V rms")
+        )
     rounding = content.get("rounding")
     if rounding is not None:
         lines.append(f"dimensions rounded to {rounding['resolution_mm']:g} mm")
-    return lines
+    infeasible = _infeasible_words(meta)
+    return ([infeasible] if infeasible else []) + lines
+
+
+def _infeasible_words(meta: dict) -> str:
+    """One line for a hand-off of a trial that does not meet its study ("" otherwise)."""
+    if meta.get("feasible", True):
+        return ""
+    broken = meta.get("broken_constraints") or []
+    what = ", ".join(f"{b['name']} (margin {b['margin']:+.4g})" for b in broken)
+    return f"NOT FEASIBLE: this design breaks {what or 'the study'}; not a solution of the study"
 
 
 def write_handoff(design, result, out_dir, meta: dict, verify: dict | None = None) -> dict:
@@ -419,6 +463,8 @@ def write_handoff(design, result, out_dir, meta: dict, verify: dict | None = Non
         + (f", trial {meta['trial']}" if "trial" in meta else "")
         + f"\nunits: mm, Hz, A rms, V rms; reproduce with: {_command(meta)}"
     )
+    if _infeasible_words(meta):
+        header = _infeasible_words(meta) + "\n" + header
     text = dumps_toml(source, header=header)
     # Prove the round trip before handing it over: same values, same validated design.
     back = tomllib.loads(text)

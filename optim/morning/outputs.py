@@ -75,6 +75,9 @@ def _notes(spec, df, front, design=None) -> list[str]:
         notes.append(_state_note(design, bool(spec.run.get("isothermal"))))
     if spec.parts:
         notes.append(_family_note(spec))
+    note = _capacitor_note(spec, front)
+    if note:
+        notes.append(note)
     failed = df[df["state"] == "FAIL"] if not df.empty else df
     if len(failed):
         kinds: dict[str, int] = {}
@@ -86,6 +89,30 @@ def _notes(spec, df, front, design=None) -> list[str]:
             + ", ".join(f"{v} {k}" for k, v in sorted(kinds.items(), key=lambda kv: -kv[1]))
         )
     return notes
+
+
+def _capacitor_note(spec, front) -> str:
+    """What a front design's capacitor is rated for (models.supply), when the study has one."""
+    comp = (spec.base.get("drive") or {}).get("compensation", "none")
+    searched = any(p.key == "drive.compensation" for p in spec.params)
+    if comp == "none" and not searched:
+        return ""
+    text = (
+        "Capacitor (drive.compensation): tuned for unity power factor at the design point and "
+        "then fixed; supply_voltage_V, supply_current_A, supply_VA and power_factor are the "
+        "supply's, coil_voltage_V the coil's. It must be rated for capacitor_rating_V and "
+        "capacitor_reactive_VA: its worst state over the gaps evaluated, hot and cold, and with "
+        "no part present (a series capacitor sees about Q times the supply voltage)."
+    )
+    if front is not None and len(front) and "capacitor_rating_V" in front:
+        rating = front["capacitor_rating_V"].astype(float)
+        rated = rating[rating > 0]
+        if len(rated):
+            text += (
+                f" On this front: {len(rated)} of {len(front)} designs have one, rated "
+                f"{rated.min():.4g}-{rated.max():.4g} V rms."
+            )
+    return text
 
 
 def _family_note(spec) -> str:
@@ -292,6 +319,11 @@ def _write_study_report(
             or "no done trial rejected by a constraint",
         }
     )
+    nearest = summary.pop("nearest", None) or []
+    if nearest:  # nothing feasible: the nearest trials, what they break, bounds worth moving
+        from optim.morning.nearest import nearest_lines
+
+        summary["nearest to feasible"] = "; ".join(x.strip() for x in nearest_lines(nearest)[1:])
     notes = _notes(spec, df, front, designs[0][1] if designs else None)
     report = write_report(
         folder,
@@ -319,11 +351,19 @@ def _budget_text(run: dict) -> str:
     return ", ".join(parts)
 
 
-def pick_trial(study, spec_json: dict, trial: int | None, best: str | None):
-    """The stored trial to export: by number, or the front's best in one objective."""
+def pick_trial(study, spec_json: dict, trial: int | None, best: str | None, nearest=False):
+    """The stored trial to export: by number, the front's best in one objective, or (``nearest``)
+    the completed trial of least total violation (optim.morning.nearest)."""
     from optim.study.columns import StudyReadout
 
     readout = study if isinstance(study, StudyReadout) else StudyReadout(study, spec_json, "")
+    if nearest:
+        from optim.morning.nearest import nearest_trials
+
+        found = nearest_trials(trials_table(readout, spec_json, dimensions=False), spec_json, 1)
+        if not found:
+            raise DesignError("--nearest: the study has no completed trial yet")
+        trial = found[0]["trial"]
     if trial is not None:
         n = readout.n_trials
         if not 0 <= trial < n:
@@ -372,6 +412,7 @@ def export_trial(
     folder: Path,
     trial: int | None = None,
     best: str | None = None,
+    nearest: bool = False,
     out=None,
     verify: bool = False,
     echo=None,
@@ -394,7 +435,7 @@ def export_trial(
     from optim.study.engine import record_of
 
     spec = _spec(spec_json)
-    t = pick_trial(study, spec_json, trial, best)
+    t = pick_trial(study, spec_json, trial, best, nearest)
     design = design_of(spec, t.params)
     isothermal = bool(spec.run.get("isothermal", False))
     result = evaluate(design, isothermal=isothermal)
@@ -421,7 +462,8 @@ def export_trial(
         "objectives": objective_values,
         "constraint_margins": rounding["constraint_margins"],
         "constraint_margins_unrounded": record.get("margins", {}),
-        "feasible": rounding["constraints_met"],
+        "feasible": rounding["constraints_met"] and not rounding["broken"],
+        "broken_constraints": rounding["broken"],
         "feasible_unrounded": all(v <= 0 for v in t.constraints.values()),
         "created_at": datetime.now(UTC).isoformat(timespec="seconds"),
         "isothermal": isothermal,
@@ -447,7 +489,13 @@ def export_trial(
                 gaps_mm=spec.gaps_mm,
             )
         )
-    if echo is not None:
+    if echo is not None and not meta["feasible_unrounded"]:
+        broken = ", ".join(f"{b['name']} (margin {b['margin']:+.4g})" for b in rounding["broken"])
+        echo(
+            f"warning: trial {t.number} is not feasible as the study found it: it breaks "
+            f"{broken or 'a constraint'}; every file of the hand-off says so"
+        )
+    elif echo is not None:
         echo(("warning: " if rounding["broken_constraints"] else "") + rounding["words"])
     if drift and echo is not None:
         echo(

@@ -91,6 +91,18 @@ def rounded_for_handoff(spec, design, resolution_mm: float, isothermal: bool):
     flat, _, _ = results_of(rounded, spec.gaps_mm, isothermal=isothermal, parts=spec.parts)
     margins = {c.name: c.margin(flat[c.name]) for c in spec.constraints if c.name in flat}
     broken = [name for name, m in margins.items() if not m >= 0]
+    from optim.morning.nearest import broken_constraints
+
+    detail = broken_constraints(
+        flat,
+        {
+            "constraints": {
+                c.name: {k: v for k, v in (("min", c.low), ("max", c.high)) if v is not None}
+                for c in spec.constraints
+            },
+            "run": dict(getattr(spec, "run", None) or {}),
+        },
+    )
     if broken:
         words = (
             f"rounding to {resolution_mm:g} mm broke the constraint(s) {', '.join(broken)} "
@@ -109,6 +121,7 @@ def rounded_for_handoff(spec, design, resolution_mm: float, isothermal: bool):
         "constraint_margins": margins,
         "constraints_met": not broken,
         "broken_constraints": broken,
+        "broken": [{k: b[k] for k in ("name", "value", "limit", "margin")} for b in detail],
         "words": words,
     }
     return rounded, result, record

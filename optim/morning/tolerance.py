@@ -439,6 +439,22 @@ def _limit_shares(nominal_margins: dict, rows: list) -> dict:
     return shares
 
 
+def _capacitor_as_built(design, isothermal: bool, evaluator=None):
+    """``design`` with a tuned capacitor fixed at its nominal value (models.supply): a built
+    magnet's capacitor does not retune to each sample's coil."""
+    drive = design.drive
+    if getattr(drive, "compensation", "none") == "none" or drive.capacitance is not None:
+        return design
+    from models.evaluate import evaluate
+    from models.supply import with_fixed_capacitor
+
+    nominal = (evaluator or evaluate)(design, isothermal)
+    capacitance_uF = getattr(nominal, "capacitor_uF", 0.0)
+    if not capacitance_uF > 0:
+        return design
+    return with_fixed_capacitor(design, capacitance_uF * 1e-6)
+
+
 def run_tolerance(
     design,
     tolerances: list[Tolerance],
@@ -475,6 +491,7 @@ def run_tolerance(
         The design itself cannot be evaluated.
     """
     t0 = time.perf_counter()
+    design = _capacitor_as_built(design, isothermal, evaluator)
     keys = [t.key for t in tolerances]
     half = np.array([t.half_width for t in tolerances], float)
     rng = np.random.default_rng(seed)

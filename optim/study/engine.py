@@ -66,7 +66,7 @@ def record_of(trial) -> dict:
 def evaluate_trial(spec, values: dict):
     """Evaluate one set of parameter values. Returns a dict with state ("COMPLETE" or "FAIL"),
     objective values, constraint violations, margins, flat results, warnings and the reason."""
-    from optim.study.objectives import objective_values, results_of
+    from optim.study.objectives import design_rule_violations, objective_values, results_of
     from optim.study.space import build_design
 
     out = {"state": "FAIL", "values": None, "violations": {}, "margins": {}, "flat": {}}
@@ -104,6 +104,7 @@ def evaluate_trial(spec, values: dict):
             return out
         out["violations"][c.name] = c.violation(value)
         out["margins"][c.name] = c.margin(value)
+    out["violations"] |= design_rule_violations(flat, spec.run)
     broken = [k for k, v in out["violations"].items() if v > 0]
     if broken:
         out["reason"] = "infeasible: " + ", ".join(broken)

@@ -82,13 +82,12 @@ def family_results(design: Design, parts, isothermal: bool = False):
         Flat results (the first lift part's model result flattened, and the results of the
         module docstring), that evaluation's warnings and binding limit.
     """
-    from optim.study.objectives import flatten
+    from optim.study.objectives import flat_result
 
     own_part = next(p for p in parts if p.role == "lift")
     own = part_design(design, own_part)
     result, pulls = evaluate_pick_gaps(own, _gaps(own, own_part), isothermal=isothermal)
-    flat = flatten(result.to_dict())
-    flat.pop("run_time_s", None)
+    flat = flat_result(result)
     per_part = {own_part.name: ([*pulls, result.pull_hold_N], result.target_weight_N)}
     warnings = list(result.warnings)
     for part in parts:

@@ -29,7 +29,21 @@ import numpy as np
 from models.design import Design
 from models.evaluate import evaluate_pick_gaps
 
-__all__ = ["Objective", "Constraint", "results_of", "flatten", "objective_values", "margins"]
+__all__ = [
+    "OUT_OF_DEPTH_RULE",
+    "Objective",
+    "Constraint",
+    "design_rule_violations",
+    "flat_result",
+    "results_of",
+    "flatten",
+    "objective_values",
+    "margins",
+]
+
+#: The design rule's name among a trial's constraint violations: a design whose linear model is
+#: out of its depth (``out_of_depth`` > 0) is infeasible unless ``[run] allow_out_of_depth``.
+OUT_OF_DEPTH_RULE = "design_rule.out_of_depth"
 
 
 @dataclass(frozen=True)
@@ -86,6 +100,16 @@ def flatten(d: dict) -> dict[str, float]:
     return out
 
 
+def flat_result(result) -> dict[str, float]:
+    """A model result as a study's flat numbers (``flatten``), without its run time, with
+    ``out_of_depth``: how many reasons the linear model gives for being out of its depth
+    (models.checks.out_of_depth; 0: none), which the study's design rule reads."""
+    flat = flatten(result.to_dict())
+    flat.pop("run_time_s", None)
+    flat["out_of_depth"] = float(len(result.out_of_depth))
+    return flat
+
+
 def results_of(design: Design, gaps_mm=(), isothermal: bool = False, parts=()):
     """Evaluate ``design`` and return (flat results, warnings, binding limit name or "").
 
@@ -100,14 +124,23 @@ def results_of(design: Design, gaps_mm=(), isothermal: bool = False, parts=()):
 
         return family_results(design, parts, isothermal=isothermal)
     result, pulls = evaluate_pick_gaps(design, gaps_mm, isothermal=isothermal)
-    flat = flatten(result.to_dict())
-    flat.pop("run_time_s", None)
+    flat = flat_result(result)
     if len(gaps_mm):
         states = [*pulls, result.pull_hold_N]
         finite = [p for p in states if math.isfinite(p)]
         flat["worst_pull_N"] = float(np.min(finite)) if finite else -math.inf
         flat["worst_lift_ratio"] = flat["worst_pull_N"] / result.target_weight_N
     return flat, list(result.warnings), str(getattr(result, "binding_limit", "") or "")
+
+
+def design_rule_violations(flat: dict, run: dict) -> dict[str, float]:
+    """The design rules a trial breaks, as constraint violations (> 0): ``OUT_OF_DEPTH_RULE``
+    (1.0) when the linear model is out of its depth (core past saturation, thermal runaway, a
+    current the wire cannot carry) and the study file's ``[run] allow_out_of_depth`` is not
+    true. Empty when none is broken: a trial that keeps the rules carries no extra key."""
+    if run.get("allow_out_of_depth", False) or not flat.get("out_of_depth", 0.0) > 0:
+        return {}
+    return {OUT_OF_DEPTH_RULE: 1.0}
 
 
 def objective_values(flat: dict, objectives) -> list[float]:

@@ -66,6 +66,7 @@ from models.design import (
 )
 from models.errors import DesignError, nearest
 from models.materials import CORE_MATERIALS, MATERIALS
+from models.supply import COMPENSATIONS
 
 __all__ = [
     "Parameter",
@@ -426,7 +427,12 @@ def _choices(where: str, key: str, choices, problems: list[str]) -> tuple[str, .
             problems.append(f"{at} = {choice!r}: must be a string")
             bad = True
             continue
-        value = _material_choice(at, key, choice, problems) if key.endswith(".material") else choice
+        if key.endswith(".material"):
+            value = _material_choice(at, key, choice, problems)
+        elif key == "drive.compensation":
+            value = _compensation_choice(at, choice, problems)
+        else:
+            value = choice
         if value is None:
             bad = True
         elif value in out:
@@ -436,6 +442,18 @@ def _choices(where: str, key: str, choices, problems: list[str]) -> tuple[str, .
         else:
             out[value] = i
     return None if bad else tuple(out)
+
+
+def _compensation_choice(at: str, choice: str, problems: list[str]) -> str | None:
+    """A ``drive.compensation`` choice (models.supply.COMPENSATIONS), or None with its problem."""
+    word = choice.strip().lower()
+    if word not in COMPENSATIONS:
+        problems.append(
+            f"{at} = {choice!r}: allowed: {', '.join(COMPENSATIONS)}"
+            f"{nearest(word, list(COMPENSATIONS))}"
+        )
+        return None
+    return word
 
 
 def _material_choice(at: str, key: str, choice: str, problems: list[str]) -> str | None:

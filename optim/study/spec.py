@@ -34,6 +34,9 @@ A study file::
     seed = 1
     storage = "postgresql+psycopg://user@host/db"   # default: a journal file in the study folder
     isothermal = false                # true: every part at 20 degC (no thermal coupling)
+    allow_out_of_depth = false        # true: keep designs whose linear model is out of its depth
+                                      # (core past saturation, thermal runaway, a current the wire
+                                      # cannot carry); default: infeasible by a design rule
 """
 
 from __future__ import annotations
@@ -84,6 +87,7 @@ _RUN_KEYS = {
     "seed": "int0",
     "storage": "url",
     "isothermal": "bool",
+    "allow_out_of_depth": "bool",
 }
 #: Largest sensible value of each [run] number: a year of wall time, the worker limit of one
 #: machine, a NSGA-II population far beyond any useful one (common practice, no source), and the
@@ -153,6 +157,8 @@ class StudySpec:
         if self.parts:
             key["parts"] = d["parts"]
         key["isothermal"] = bool(self.run.get("isothermal", False))
+        if self.run.get("allow_out_of_depth", False):  # a study without it hashes as before
+            key["allow_out_of_depth"] = True
         key["model"] = MODEL_VERSION
         key["objectives"] = [[o.name, o.direction] for o in self.objectives]  # order matters
         text = json.dumps(key, sort_keys=True, separators=(",", ":"))
