@@ -71,14 +71,16 @@ def range_warnings(design: Design, sol: CircuitSolution, fineness: Fineness, ele
             "linear model may be optimistic"
         )
     f = design.drive.frequency
+    out += general_windings_warnings(design)
     values = {
         "frequency_Hz": f,
-        "target radius / pole radius": design.target.radius / design.pole.radius,
         "gap_mm": design.target.gap * 1e3,
-        "gap / pole radius": design.target.gap / design.pole.radius,
         "target thickness_mm": design.target.thickness * 1e3,
-        "pole relative_permeability": design.pole.relative_permeability,
     }
+    if design.pole is not None:
+        values["target radius / pole radius"] = design.target.radius / design.pole.radius
+        values["gap / pole radius"] = design.target.gap / design.pole.radius
+        values["pole relative_permeability"] = design.pole.relative_permeability
     for key, value in values.items():
         lo, hi = VALIDATED_RANGE[key]
         if not lo * (1 - 1e-9) <= value <= hi * (1 + 1e-9):
@@ -86,7 +88,8 @@ def range_warnings(design: Design, sol: CircuitSolution, fineness: Fineness, ele
                 f"{key} = {value:.4g} is outside the range checked against the FEM "
                 f"({lo:g} to {hi:g}): confirm with 'eddypull verify'"
             )
-    out += _core_warnings(design, electrical)
+    if design.pole is not None:
+        out += _core_warnings(design, electrical)
     out += _pull_warnings(electrical)
     for name, part, label in (("target", design.target, TARGET), ("ring", design.ring, RING)):
         if part is None:
@@ -101,6 +104,25 @@ def range_warnings(design: Design, sol: CircuitSolution, fineness: Fineness, ele
                 f"({finest * 1e3:.3g} mm): raise the cell limit for a converged answer"
             )
     return out
+
+
+def general_windings_warnings(design: Design) -> list[str]:
+    """Several coils, a coil wound in the -1 sense or an air core: checked against a published
+    measurement and the FEM on one device only (TEAM Workshop Problem 28,
+    tests/validation/test_team28.py), not over a range of designs."""
+    coils = design.windings
+    forms = []
+    if len(coils) > 1 or any(c.sense != 1 for c in coils):
+        forms.append(f"{len(coils)} coils in series" if len(coils) > 1 else "a coil of sense -1")
+    if design.pole is None:
+        forms.append("an air core (no pole)")
+    if not forms:
+        return []
+    return [
+        " and ".join(forms) + ": this form is validated only on TEAM Workshop Problem 28 (an "
+        "air-core levitation device, measured and against the FEM); confirm with 'eddypull "
+        "verify'"
+    ]
 
 
 #: A pull whose error estimate exceeds this fraction of it warns (common practice, no source: a

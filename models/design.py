@@ -110,6 +110,10 @@ class Coil:
     conductivity: float
     temperature_coefficient: float
     material: str = "copper"
+    #: +1 or -1: the direction the turns are wound in ([[coils]]; [coil] is +1)
+    sense: int = 1
+    #: copper area over window area when no wire diameter is given (None: DEFAULT_FILL_FACTOR)
+    fill_factor: float | None = None
 
     @property
     def z_front(self) -> float:
@@ -132,7 +136,8 @@ class Coil:
         """Copper cross-section of one turn [m^2]."""
         if self.wire_diameter is not None:
             return math.pi * self.wire_diameter**2 / 4.0
-        return DEFAULT_FILL_FACTOR * self.window_area / self.turns
+        fill = DEFAULT_FILL_FACTOR if self.fill_factor is None else self.fill_factor
+        return fill * self.window_area / self.turns
 
     def resistance(self, temperature_C: float = 20.0) -> float:
         """DC resistance of the winding [Ohm] at ``temperature_C``: rho(T) N 2 pi r_mean / A_wire."""
@@ -257,9 +262,14 @@ class Supply:
 
 @dataclass(frozen=True)
 class Design:
-    """A complete design. ``source`` keeps the file's own values (mm, Hz, A) for sweeps and hand-off."""
+    """A complete design. ``source`` keeps the file's own values (mm, Hz, A) for sweeps and hand-off.
 
-    pole: Pole
+    ``pole`` is None for an air core (no [pole]: the face is the plane ``setback`` and ``gap`` are
+    measured from). ``coils`` holds the coils of a ``[[coils]]`` file (models.coils), all in
+    series, ``coil`` being the first of them; it is empty for the one-coil form ``[coil]``.
+    ``windings`` is every coil either way."""
+
+    pole: Pole | None
     coil: Coil
     drive: Drive
     target: Target
@@ -270,6 +280,17 @@ class Design:
     supply: Supply | None = None
     #: What the reader took on the user's behalf (each becomes a warning of every result).
     notes: tuple = field(default=(), compare=False)
+    coils: tuple = ()
+
+    @property
+    def windings(self) -> tuple:
+        """Every coil of the design ([coil] or each of [[coils]]), in file order."""
+        return self.coils or (self.coil,)
+
+    @property
+    def air_core(self) -> bool:
+        """True without a pole: the coils alone make the field."""
+        return self.pole is None
 
 
 # ----------------------------------------------------------------------------------------------
@@ -345,7 +366,8 @@ DESIGN_KEYS: dict[str, dict[str, tuple[str, bool]]] = {
 #: Tables a design may leave out.
 _OPTIONAL_TABLES = ("ring", "thermal", "supply")
 _TOP_KEYS = {"name": "str", "description": "str"}
-_REQUIRED_TABLES = ("pole", "coil", "drive", "target")
+#: [pole] may be left out (an air core); [coil] may be replaced by [[coils]] (models.coils).
+_REQUIRED_TABLES = ("drive", "target")
 _ALLOWED = {
     "pos": "a number > 0",
     "nonneg": "a number >= 0",
@@ -473,7 +495,7 @@ def _check_schema(data: dict, problems: list[str]) -> dict[str, _Values]:
     return {
         table: _check_table(table, data[table], problems)
         for table in DESIGN_KEYS
-        if isinstance(data.get(table), dict)
+        if isinstance(data.get(table), dict) and not (table == "coil" and "coils" in data)
     }
 
 
@@ -486,6 +508,8 @@ def _check_top_level(data: dict, problems: list[str]) -> None:
                 problems.append(f"{key} = {value!r}: must be a table [{key}]")
         elif key in _TOP_KEYS:
             _check_value(key, value, _TOP_KEYS[key], problems)
+        elif key == "coils":
+            pass  # [[coils]]: models.coils.check_coils
         else:
             problems.append(
                 f"{key}: unknown table or key; allowed: {', '.join([*DESIGN_KEYS, *_TOP_KEYS])}"
@@ -494,6 +518,8 @@ def _check_top_level(data: dict, problems: list[str]) -> None:
     for table in _REQUIRED_TABLES:
         if table not in data:
             problems.append(f"[{table}]: missing table")
+    if "coil" not in data and "coils" not in data:
+        problems.append("[coil]: missing table (or several coils as [[coils]])")
 
 
 def _check_table(table: str, t: dict, problems: list[str]) -> _Values:
@@ -844,6 +870,11 @@ def _check_geometry(vals: dict[str, _Values], problems: list[str]) -> None:
     p = vals.get("pole", _NO_VALUES)
     r = vals.get("ring")
     _check_coil_fits(p, vals.get("coil", _NO_VALUES), problems)
+    if r is not None and "pole" not in vals:
+        problems.append(
+            "[ring]: needs a [pole]; the ring sits in a groove of the pole's face (an air core "
+            "has no ring)"
+        )
     if r is not None:
         _check_ring_fits(p, r, problems)
     if p.has("radius_mm", "length_mm") and p["length_mm"] > MAX_POLE_ASPECT * p["radius_mm"]:
@@ -946,17 +977,27 @@ def _check_face_features(Rp: float, r: _Values | None, g: _Values, problems: lis
 def _build(data: dict, name: str, vals: dict[str, _Values], parsed: dict[str, dict]) -> Design:
     """Step 4, for a design without problems: the dataclasses in SI from the checked sizes (mm)
     and the parsed tables."""
-    p, c, g, r = vals["pole"], vals["coil"], vals["target"], vals.get("ring")
-    pole = Pole(radius=p["radius_mm"] * MM, length=p["length_mm"] * MM, **parsed["pole"])
-    coil = Coil(
-        inner_radius=c["inner_radius_mm"] * MM,
-        outer_radius=c["outer_radius_mm"] * MM,
-        setback=c["setback_mm"] * MM,
-        length=c["length_mm"] * MM,
-        turns=c["turns"],
-        wire_diameter=c["wire_diameter_mm"] * MM if "wire_diameter_mm" in c else None,
-        **parsed["coil"],
-    )
+    p, g, r = vals.get("pole"), vals["target"], vals.get("ring")
+    pole = None
+    if p is not None:
+        pole = Pole(radius=p["radius_mm"] * MM, length=p["length_mm"] * MM, **parsed["pole"])
+    coils = ()
+    if "coils" in parsed:
+        from models.coils import build_coils
+
+        coils = build_coils(vals["coils"], parsed["coils"])
+        coil = coils[0]
+    else:
+        c = vals["coil"]
+        coil = Coil(
+            inner_radius=c["inner_radius_mm"] * MM,
+            outer_radius=c["outer_radius_mm"] * MM,
+            setback=c["setback_mm"] * MM,
+            length=c["length_mm"] * MM,
+            turns=c["turns"],
+            wire_diameter=c["wire_diameter_mm"] * MM if "wire_diameter_mm" in c else None,
+            **parsed["coil"],
+        )
     ring = None
     if r is not None:
         ring = Ring(
@@ -983,6 +1024,7 @@ def _build(data: dict, name: str, vals: dict[str, _Values], parsed: dict[str, di
         thermal=Thermal(**parsed["thermal"]) if "thermal" in parsed else Thermal(),
         supply=Supply(**parsed["supply"]) if "supply" in parsed else None,
         notes=design_notes(vals),
+        coils=coils,
     )
 
 
@@ -997,9 +1039,17 @@ def design_from_dict(data: dict, name: str = "design") -> Design:
     """
     if not isinstance(data, dict):
         raise DesignError(f"design = {data!r}: must be a table of tables")
+    from models.coils import check_coils, coils_fit_pole, parse_coil_materials
+
     problems: list[str] = []
     vals = _check_schema(data, problems)
     parsed = {t: parse(vals[t], problems) for t, parse in _PARSERS.items() if t in vals}
+    coils = check_coils(data, problems)
+    if coils is not None:
+        vals["coils"] = coils
+        parsed["coils"] = parse_coil_materials(coils, problems)
+        if "pole" in vals:
+            coils_fit_pole(coils, vals["pole"], problems)
     _check_geometry(vals, problems)
     if problems:
         raise DesignError(problems)
@@ -1007,7 +1057,16 @@ def design_from_dict(data: dict, name: str = "design") -> Design:
 
 
 def _deep_copy(data: dict) -> dict:
-    return {k: (_deep_copy(v) if isinstance(v, dict) else v) for k, v in data.items()}
+    return {
+        k: (
+            _deep_copy(v)
+            if isinstance(v, dict)
+            else [_deep_copy(x) if isinstance(x, dict) else x for x in v]
+            if isinstance(v, list)
+            else v
+        )
+        for k, v in data.items()
+    }
 
 
 def read_toml(path, what: str = "file") -> dict:
@@ -1060,6 +1119,19 @@ def resolve_key(design: Design, key: str) -> tuple[str, str]:
         Not a design key (with the nearest name), or a bare key that more than one table has.
     """
     data = design.source
+    from models.coils import COILS_KEYS, coil_table_key
+
+    numbered = coil_table_key(key)
+    if numbered is not None:
+        n, k = numbered
+        count = len(data.get("coils", ()))
+        if k not in COILS_KEYS:
+            raise DesignError(f"{key}: not a key of a coil{nearest(k, COILS_KEYS)}")
+        if n >= count:
+            raise DesignError(
+                f"{key}: the design has {count} [[coils]] table(s); N counts from 0"
+            )
+        return f"coils.{n}", k
     if "." in key:
         table, k = key.split(".", 1)
         if table not in DESIGN_KEYS or k not in DESIGN_KEYS[table]:
@@ -1087,7 +1159,10 @@ def with_value(design: Design, key: str, value) -> Design:
     """
     table, k = resolve_key(design, key)
     data = _deep_copy(design.source)
-    data.setdefault(table, {})[k] = value
+    if table.startswith("coils."):
+        data["coils"][int(table.split(".")[1])][k] = value
+    else:
+        data.setdefault(table, {})[k] = value
     return design_from_dict(data, name=design.name)
 
 
@@ -1104,6 +1179,7 @@ def with_gap(design: Design, gap_mm: float) -> Design:
         moved,
         pole=design.pole,
         coil=design.coil,
+        coils=design.coils,
         drive=design.drive,
         ring=design.ring,
         target=replace(design.target, gap=moved.target.gap),

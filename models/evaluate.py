@@ -81,7 +81,7 @@ def pole_model_key(design: Design, fineness: Fineness | None = None):
     sheet data), groove (ring inner radius, outer radius, depth [m]) or None, panel size [m]);
     None when the pole is not magnetic. Designs with equal keys share one model; callers that
     evaluate many designs can order them by it to reuse the kept ones."""
-    if design.pole.relative_permeability <= 1.0:
+    if design.pole is None or design.pole.relative_permeability <= 1.0:
         return None
     p, g = design.pole, design.ring
     groove = None if g is None else (g.inner_radius, g.outer_radius, g.depth)
@@ -196,8 +196,10 @@ def steady_state(design: Design, system, isothermal: bool = False):
 
 
 def pole_mass(design: Design) -> float:
-    """Mass of the pole's steel with the ring's groove removed [kg]."""
+    """Mass of the pole's steel with the ring's groove removed [kg] (nan for an air core)."""
     p, g = design.pole, design.ring
+    if p is None:
+        return math.nan
     volume = np.pi * p.radius**2 * p.length
     if g is not None:
         volume -= np.pi * (g.outer_radius**2 - g.inner_radius**2) * g.depth
@@ -277,7 +279,8 @@ def evaluate_pick_gaps(
     part = pick_state(design, state, isothermal, loss_at_arrival)
     arrival = solve(pick_system, part.arrival)
     hold = solve(held_system, part.hold) if part.hold is not None else None
-    electrical = _electrical(design, arrival, hold, state.temperature("core"))
+    core_C = state.temperature("core") if design.pole is not None else math.nan
+    electrical = _electrical(design, arrival, hold, core_C)
     electrical = _with_error_bar(electrical, design, fineness, part.arrival)
     thermal = _thermal(design, state, part, electrical)
     flat = _flat_for_checks(electrical, thermal)
@@ -307,7 +310,7 @@ def evaluate_pick_gaps(
 
 def _check_laminated(design: Design) -> None:
     """Refuse a conductive (solid) pole: the fast model covers laminated poles only."""
-    if not design.pole.laminated:
+    if design.pole is not None and not design.pole.laminated:
         raise DesignError(
             f"pole.conductivity_S_per_m = {design.pole.conductivity:.4g}: the fast model covers "
             "laminated poles only (0); check a solid pole with 'eddypull verify'"
@@ -335,7 +338,7 @@ def _steady_state(design: Design, system, isothermal: bool):
         return _part_losses(sol, face_depth), sol
 
     coil_sensitivity = None
-    if design.drive.current is not None:  # P = I^2 R(T) exactly
+    if design.drive.current is not None and len(design.windings) == 1:  # P = I^2 R(T) exactly
         a = design.coil.temperature_coefficient
         coil_sensitivity = lambda t: a / (1.0 + a * (t - 20.0))  # noqa: E731
     return solve_coupled(
@@ -429,13 +432,10 @@ def _electrical(
     ring_current = complex(sol.cell_current[sol.cells.part == RING].sum())
     phase = ring_phase(ring_current, sol.coil_current) if design.ring is not None else 0.0
     pull_hold = math.nan if hold is None else float(sum(pull_by_source(hold).values()))
-    b_peak = core_peak_flux_density(design, sol)
     weight = design.target.density * design.target.volume * standard_gravity
     input_power = float(np.real(sol.coil_voltage * np.conj(sol.coil_current)))
     va = abs(sol.coil_voltage) * abs(sol.coil_current)
-    bsat = design.pole.saturation_at(core_C if math.isfinite(core_C) else 20.0)
-    core = sol.core
-    return Electrical(
+    electrical = Electrical(
         pull_N=pull,
         pull_by_source_N=split,
         target_loss_W=losses["target"],
@@ -448,8 +448,8 @@ def _electrical(
         coil_impedance_ohm=(float(z_coil.real), float(z_coil.imag)),
         ring_current_A=abs(ring_current),
         ring_phase_deg=phase,
-        core_peak_flux_density_T=b_peak,
-        pole_flux_density_T=pole_flux_density(design, sol),
+        core_peak_flux_density_T=math.nan,
+        pole_flux_density_T=math.nan,
         target_weight_N=weight,
         lift_ratio=pull / weight,
         pull_hold_N=pull_hold,
@@ -458,19 +458,72 @@ def _electrical(
         pull_uncertainty_N=math.nan,
         pull_uncertainty_relative=math.nan,
         power_factor=input_power / va if va > 0 else 0.0,
-        pole_mass_kg=pole_mass(design),
-        core_flux_fraction=b_peak / bsat if bsat else 0.0,
-        core_saturation_T=bsat if bsat else math.nan,
-        core_loss_W=0.0 if core is None else core.total,
-        core_eddy_loss_W=0.0 if core is None else core.eddy,
-        core_hysteresis_loss_W=0.0 if core is None else core.hysteresis,
-        core_excess_loss_W=0.0 if core is None else core.excess,
-        core_radial_flux_fraction=(
+        pole_mass_kg=math.nan,
+        core_flux_fraction=math.nan,
+        core_saturation_T=math.nan,
+        core_loss_W=math.nan,
+        core_eddy_loss_W=math.nan,
+        core_hysteresis_loss_W=math.nan,
+        core_excess_loss_W=math.nan,
+        core_radial_flux_fraction=math.nan,
+        **_by_coil(design, sol),
+    )
+    if design.pole is None:  # an air core: what needs the steel stays nan (JSON null)
+        return electrical
+    return dataclasses.replace(electrical, **_steel_results(design, sol, core_C))
+
+
+def _by_coil(design: Design, sol: CircuitSolution) -> dict:
+    """Each coil's loss [W], resistance [Ohm] and signed ampere-turns [A] by its index ("0",
+    "1", ...): R_k at the coil node's temperature (the coils share one node and one temperature
+    coefficient per material: R_k(T) = R(T) R_k(20) / R(20) for coils of one wire material;
+    each coil's own coefficient otherwise)."""
+    coils = design.windings
+    i2 = abs(sol.coil_current) ** 2
+    if len(coils) == 1:
+        r = {"0": float(sol.coil_resistance)}
+    else:
+        t = _coil_temperature(coils, sol.coil_resistance)
+        r = {str(k): float(c.resistance(t)) for k, c in enumerate(coils)}
+    return {
+        "coil_loss_by_coil_W": {k: float(i2 * v) for k, v in r.items()},
+        "coil_resistance_by_coil_ohm": r,
+        "ampere_turns_by_coil_A": {
+            str(k): float(c.sense * c.turns * abs(sol.coil_current)) for k, c in enumerate(coils)
+        },
+    }
+
+
+def _coil_temperature(coils, resistance: float) -> float:
+    """The coils' common temperature [degC] at which their resistances sum to ``resistance``
+    [Ohm] (linear in T: one division)."""
+    r20 = sum(c.resistance(20.0) for c in coils)
+    slope = sum(c.resistance(21.0) for c in coils) - r20
+    return 20.0 + (resistance - r20) / slope
+
+
+def _steel_results(design: Design, sol: CircuitSolution, core_C: float) -> dict:
+    """The results that need the pole's steel: its flux densities and their fraction of
+    saturation, its mass, its losses."""
+    b_peak = core_peak_flux_density(design, sol)
+    bsat = design.pole.saturation_at(core_C if math.isfinite(core_C) else 20.0)
+    core = sol.core
+    return {
+        "core_peak_flux_density_T": b_peak,
+        "pole_flux_density_T": pole_flux_density(design, sol),
+        "pole_mass_kg": pole_mass(design),
+        "core_flux_fraction": b_peak / bsat if bsat else 0.0,
+        "core_saturation_T": bsat if bsat else math.nan,
+        "core_loss_W": 0.0 if core is None else core.total,
+        "core_eddy_loss_W": 0.0 if core is None else core.eddy,
+        "core_hysteresis_loss_W": 0.0 if core is None else core.hysteresis,
+        "core_excess_loss_W": 0.0 if core is None else core.excess,
+        "core_radial_flux_fraction": (
             0.0
             if sol.core_grid is None
             else radial_flux_fraction(sol.core_grid, sol.cell_current, face_slab_depth(design))
         ),
-    )
+    }
 
 
 def _with_error_bar(electrical: Electrical, design: Design, fineness, temperatures) -> Electrical:
@@ -501,12 +554,10 @@ def pull_cancellation(split: dict) -> float:
 def _thermal(design: Design, state, part: PickState, electrical: Electrical) -> Thermal:
     """The temperatures of the steady state and of the part (arriving, held), the thermal
     assumptions behind them, the margins to every limit and the time to them."""
-    temps = {
-        "coil": state.coil_hot_spot_C,
-        "coil_mean": state.temperature("coil"),
-        "core": state.temperature("core"),
-        "face": state.temperature("face"),
-    }
+    temps = {"coil": state.coil_hot_spot_C, "coil_mean": state.temperature("coil")}
+    if design.pole is not None:  # an air core has neither
+        temps["core"] = state.temperature("core")
+        temps["face"] = state.temperature("face")
     if design.ring is not None:
         temps["ring"] = state.temperature("ring")
     temps["target"] = state.temperature("target")

@@ -84,6 +84,15 @@ class Electrical:
     core_radial_flux_fraction : share of the steel's |B|^2 dV that runs radially in the face
         slab [-]: there the flux crosses the sheets of a real stack, which the homogenised
         permeability (flux along the sheets) does not describe
+    coil_loss_by_coil_W : Joule loss of each coil [W], by its index in the file ("0" for
+        [coil]; "0", "1", ... for [[coils]]); they sum to coil_loss_W
+    coil_resistance_by_coil_ohm : each coil's winding resistance at the coil node's mean
+        temperature [Ohm] (the thermal network lumps several coils into one node)
+    ampere_turns_by_coil_A : sense x turns x coil_current_A of each coil [A rms]
+
+    An air core (no [pole]) has no steel: pole_flux_density_T, core_peak_flux_density_T,
+    core_flux_fraction, core_saturation_T, pole_mass_kg, the core losses and
+    core_radial_flux_fraction are nan (JSON null with ``<key>_why``).
     """
 
     pull_N: float
@@ -116,6 +125,9 @@ class Electrical:
     core_hysteresis_loss_W: float
     core_excess_loss_W: float
     core_radial_flux_fraction: float
+    coil_loss_by_coil_W: dict = field(default_factory=dict)
+    coil_resistance_by_coil_ohm: dict = field(default_factory=dict)
+    ampere_turns_by_coil_A: dict = field(default_factory=dict)
 
 
 @dataclass(frozen=True)
@@ -123,7 +135,8 @@ class Thermal:
     """The thermal network's outputs (models.thermal; steady state at the duty-averaged losses).
 
     temperatures_C : [degC] "coil" (its hot spot), "coil_mean" (its mean, which sets its
-        resistance), "core", "face", "ring" (with a ring): the fixed parts at their duty-averaged
+        resistance; with several coils, their one lumped node: the hot spot is that of the coil
+        whose own rise is largest), "core", "face" (not for an air core), "ring" (with a ring): the fixed parts at their duty-averaged
         steady state; "target" (the part's steady state, were it to stay under the pole),
         "target_arrival" (as it arrives: the state of pull_N), "target_hold" (after the hold: the
         state of pull_hold_N), "ambient". Each temperature is stored here once; the
@@ -163,7 +176,8 @@ class Thermal:
 
     @property
     def core_temperature_C(self) -> float:
-        return self.temperatures_C["core"]
+        """The core's temperature [degC] (nan for an air core: no steel)."""
+        return self.temperatures_C.get("core", math.nan)
 
     @property
     def ring_temperature_C(self) -> float | None:
@@ -173,8 +187,8 @@ class Thermal:
 
     @property
     def face_temperature_C(self) -> float:
-        """The pole face's temperature [degC]."""
-        return self.temperatures_C["face"]
+        """The pole face's temperature [degC] (nan for an air core: no steel)."""
+        return self.temperatures_C.get("face", math.nan)
 
     @property
     def target_temperature_C(self) -> float:
@@ -249,6 +263,9 @@ FLAT_FIELDS = (
     ("electrical", "core_excess_loss_W"),
     ("electrical", "core_saturation_T"),
     ("electrical", "core_radial_flux_fraction"),
+    ("electrical", "coil_loss_by_coil_W"),
+    ("electrical", "coil_resistance_by_coil_ohm"),
+    ("electrical", "ampere_turns_by_coil_A"),
 )
 _GROUP_OF = {name: group for group, name in FLAT_FIELDS if group}
 

@@ -16,6 +16,23 @@ _WHY = {
     ("temperatures_C", "inf"): "thermal runaway: no steady state below the materials' limits",
     ("_temperature_C", "inf"): "thermal runaway: no steady state below the materials' limits",
     ("pull_cancellation", "inf"): "the net pull is zero",
+    # an air core (no [pole]): what needs the steel is not a number (models.result.Electrical)
+    **{
+        (name, "nan"): "air core: the design has no pole (no steel)"
+        for name in (
+            "pole_flux_density_T",
+            "core_peak_flux_density_T",
+            "core_flux_fraction",
+            "pole_mass_kg",
+            "core_loss_W",
+            "core_eddy_loss_W",
+            "core_hysteresis_loss_W",
+            "core_excess_loss_W",
+            "core_radial_flux_fraction",
+            "core_temperature_C",
+            "face_temperature_C",
+        )
+    },
 }
 
 

@@ -23,6 +23,7 @@ from dataclasses import dataclass
 
 import numpy as np
 
+from models.coils import coils_resistance
 from models.core_loss import coil_current_with_core_loss, peak_flux_density
 from models.fast.core import CoreGrid, CoreLosses, core_grid, core_losses, hysteresis_excess_at
 from models.fast.discretize import Cells, Fineness, coil_filaments, conductor_cells
@@ -34,6 +35,7 @@ __all__ = [
     "CircuitSystem",
     "assemble_circuit",
     "build_cells",
+    "coil_shares",
     "cell_mutual_matrix",
     "solve_circuit",
     "solve_system",
@@ -65,7 +67,7 @@ def build_cells(design, fineness: Fineness) -> Cells:
             )
         )
     t = design.target
-    corners = [design.pole.radius]
+    corners = [] if design.pole is None else [design.pole.radius]
     if design.ring is not None:
         corners += [design.ring.inner_radius, design.ring.outer_radius]
     parts.append(
@@ -83,18 +85,30 @@ def build_cells(design, fineness: Fineness) -> Cells:
             corners_r=corners,
         )
     )
-    rc, zc, dr, dz = coil_filaments(design.coil, fineness)
-    parts.append(
-        Cells(
-            r0=rc - dr / 2,
-            r1=rc + dr / 2,
-            z0=zc - dz / 2,
-            z1=zc + dz / 2,
-            conductivity=np.ones_like(rc),
-            part=np.full(rc.size, COIL),
+    for coil in design.windings:
+        rc, zc, dr, dz = coil_filaments(coil, fineness)
+        parts.append(
+            Cells(
+                r0=rc - dr / 2,
+                r1=rc + dr / 2,
+                z0=zc - dz / 2,
+                z1=zc + dz / 2,
+                conductivity=np.ones_like(rc),
+                part=np.full(rc.size, COIL),
+            )
         )
-    )
     return Cells.concat(*parts)
+
+
+def coil_shares(design, n_sub: int):
+    """Turns carried by each coil sub-cell (``build_cells`` order): turns / sub-cells of its coil
+    times its sense. One coil wound +1: the scalar turns / n_sub (every sub-cell alike); several
+    coils, or a sense of -1: an array (one entry per sub-cell), the coils in series."""
+    coils = design.windings
+    if len(coils) == 1 and coils[0].sense == 1:
+        return coils[0].turns / n_sub
+    per_coil = n_sub // len(coils)  # every coil has coil_r x coil_z sub-cells
+    return np.concatenate([np.full(per_coil, c.sense * c.turns / per_coil) for c in coils])
 
 
 def _near_pairs(cells: Cells, reach=1.01):
@@ -195,7 +209,7 @@ class CircuitSystem:
     models.evaluate). Treat as read-only.
 
     cells : the cells; solid, coil : indices of solid cells and coil sub-cells; share : turns per
-    coil sub-cell; L_loop : loop inductance matrix (solid cells, then the coil) [H];
+    coil sub-cell (a float, or an array with several coils or a sense of -1: ``coil_shares``); L_loop : loop inductance matrix (solid cells, then the coil) [H];
     cell_resistance_20 : resistance of each cell at 20 degC [Ohm]; P : panels x cells operator
     (None without iron); M, dMdz, panel_M, panel_dMdz, panels as in CircuitSolution;
     iron_loss : cells x cells, -omega Im(M_iron) [Ohm] (None without iron): the sheets' eddy
@@ -272,17 +286,22 @@ def assemble_circuit(
     coil_mask = cells.part == COIL
     solid = np.flatnonzero(~coil_mask)
     n_sub = int(coil_mask.sum())
-    turns = design.coil.turns
     # L_loop = C.T @ M_total @ C for the incidence C (cells x loops): 1 from each solid cell to
-    # its loop, turns / n_sub from each coil sub-cell to the coil; applied by index.
+    # its loop, sense x turns / sub-cells from each coil sub-cell to the coil (all coils in
+    # series: one loop); applied by index.
     coil = np.flatnonzero(coil_mask)
-    share = turns / n_sub
+    share = coil_shares(design, n_sub)
     n = solid.size
     L_loop = np.empty((n + 1, n + 1), dtype=M_total.dtype)
     L_loop[:n, :n] = M_total[np.ix_(solid, solid)]
-    L_loop[:n, n] = M_total[np.ix_(solid, coil)].sum(axis=1) * share
-    L_loop[n, :n] = M_total[np.ix_(coil, solid)].sum(axis=0) * share
-    L_loop[n, n] = M_total[np.ix_(coil, coil)].sum() * share * share
+    if np.ndim(share) == 0:
+        L_loop[:n, n] = M_total[np.ix_(solid, coil)].sum(axis=1) * share
+        L_loop[n, :n] = M_total[np.ix_(coil, solid)].sum(axis=0) * share
+        L_loop[n, n] = M_total[np.ix_(coil, coil)].sum() * share * share
+    else:
+        L_loop[:n, n] = M_total[np.ix_(solid, coil)] @ share
+        L_loop[n, :n] = share @ M_total[np.ix_(coil, solid)]
+        L_loop[n, n] = share @ M_total[np.ix_(coil, coil)] @ share
     return CircuitSystem(
         design=design,
         cells=cells,
@@ -323,7 +342,7 @@ def solve_system(system: CircuitSystem, temperatures=None) -> CircuitSolution:
         alpha[cells.part == RING] = design.ring.temperature_coefficient * (temps["ring"] - 20.0)
     alpha[cells.part == TARGET] = design.target.temperature_coefficient * (temps["target"] - 20.0)
     r_cells = system.cell_resistance_20 * (1.0 + alpha)
-    r_coil = design.coil.resistance(temps["coil"])
+    r_coil = coils_resistance(design, temps["coil"])
 
     Z = 1j * system.omega * system.L_loop
     Z[np.diag_indices_from(Z)] += np.concatenate([r_cells[solid], [r_coil]])
