@@ -1128,9 +1128,7 @@ def resolve_key(design: Design, key: str) -> tuple[str, str]:
         if k not in COILS_KEYS:
             raise DesignError(f"{key}: not a key of a coil{nearest(k, COILS_KEYS)}")
         if n >= count:
-            raise DesignError(
-                f"{key}: the design has {count} [[coils]] table(s); N counts from 0"
-            )
+            raise DesignError(f"{key}: the design has {count} [[coils]] table(s); N counts from 0")
         return f"coils.{n}", k
     if "." in key:
         table, k = key.split(".", 1)
