@@ -79,15 +79,30 @@ def assumptions_text(a: dict) -> str:
     return text
 
 
+def _coil_rows(design, r) -> list[str]:
+    """One line per coil of several (``[[coils]]``): its ampere-turns and loss."""
+    if len(design.windings) < 2:
+        return []
+    return [
+        f"    coils.{k}          {c.turns} turns, sense {c.sense:+d}, "
+        f"{_w(r.ampere_turns_by_coil_A[str(k)])} A-turns, {_w(r.coil_loss_by_coil_W[str(k)])} W"
+        for k, c in enumerate(design.windings)
+    ]
+
+
 def format_result(design, result) -> str:
     """A few lines an engineer reads: pull and where it comes from, costs, validity."""
     r = result
     a = r.thermal_assumptions
     split = r.pull_by_source_N
     verdict = "PULL (toward the face)" if r.pull_N > 0 else "PUSH (away from the face)"
+    form = "ring" if design.ring is not None else "plain pole (no ring)"
+    if design.pole is None:
+        form = "air core (no pole)"
+    if len(design.windings) > 1:
+        form += f", {len(design.windings)} coils in series"
     lines = [
-        f"design {design.name}: {design.drive.frequency:g} Hz, "
-        f"{'ring' if design.ring is not None else 'plain pole (no ring)'}, "
+        f"design {design.name}: {design.drive.frequency:g} Hz, {form}, "
         f"target r = {design.target.radius * 1e3:g} mm at gap {design.target.gap * 1e3:g} mm",
         f"  pull               {r.pull_N * 1e3:+.4g} mN   {verdict}",
         f"    error bar        +-{r.pull_uncertainty_N * 1e3:.2g} mN "
@@ -108,6 +123,7 @@ def format_result(design, result) -> str:
         f"  coil               {_w(r.coil_current_A)} A rms, {_w(r.coil_voltage_V)} V rms, "
         f"{_w(r.supply_VA)} VA, Z = {r.coil_impedance_ohm[0]:.4g} + j{r.coil_impedance_ohm[1]:.4g} "
         "Ohm",
+        *_coil_rows(design, r),
         f"  ring current       {_w(r.ring_current_A)} A rms at {r.ring_phase_deg:+.1f} deg to the "
         "coil current",
         f"  core peak flux     {r.core_peak_flux_density_T:.3g} T",
