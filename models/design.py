@@ -870,11 +870,6 @@ def _check_geometry(vals: dict[str, _Values], problems: list[str]) -> None:
     p = vals.get("pole", _NO_VALUES)
     r = vals.get("ring")
     _check_coil_fits(p, vals.get("coil", _NO_VALUES), problems)
-    if r is not None and "pole" not in vals:
-        problems.append(
-            "[ring]: needs a [pole]; the ring sits in a groove of the pole's face (an air core "
-            "has no ring)"
-        )
     if r is not None:
         _check_ring_fits(p, r, problems)
     if p.has("radius_mm", "length_mm") and p["length_mm"] > MAX_POLE_ASPECT * p["radius_mm"]:
@@ -1050,6 +1045,11 @@ def design_from_dict(data: dict, name: str = "design") -> Design:
         parsed["coils"] = parse_coil_materials(coils, problems)
         if "pole" in vals:
             coils_fit_pole(coils, vals["pole"], problems)
+    if "ring" in data and "pole" not in data:
+        problems.append(
+            "[ring]: needs a [pole]; the ring sits in a groove of the pole's face (an air core "
+            "has no ring)"
+        )
     _check_geometry(vals, problems)
     if problems:
         raise DesignError(problems)

@@ -125,9 +125,9 @@ class Electrical:
     core_hysteresis_loss_W: float
     core_excess_loss_W: float
     core_radial_flux_fraction: float
-    coil_loss_by_coil_W: dict = field(default_factory=dict)
-    coil_resistance_by_coil_ohm: dict = field(default_factory=dict)
-    ampere_turns_by_coil_A: dict = field(default_factory=dict)
+    coil_loss_by_coil_W: dict
+    coil_resistance_by_coil_ohm: dict
+    ampere_turns_by_coil_A: dict
 
 
 @dataclass(frozen=True)
