@@ -192,3 +192,21 @@ def test_a_study_searches_a_coil_key():
     with pytest.raises(DesignError, match=r"search.coils.3.turns: the base design has 2"):
         params = parse_search({"coils.3.turns": {"low": 400, "high": 700}}, [])
         build_design(team28_source(), params, {"coils.3.turns": 500.0}, "t")
+
+
+def test_the_hand_off_refuses_what_it_cannot_draw(tmp_path):
+    from optim.morning.handoff import write_handoff
+
+    design = design_from_dict(team28_source())
+    with pytest.raises(DesignError, match="the hand-off .* draws one coil on a pole"):
+        write_handoff(design, evaluate(design, isothermal=True), tmp_path / "h", {})
+    assert not (tmp_path / "h").exists()
+
+
+def test_a_pick_map_runs_over_a_coil_key(tmp_path):
+    from optim.morning.pickmap import parse_axis
+
+    design = design_from_dict(team28_source())
+    axis = parse_axis(design, "coils.1.turns=400..700", points=3)
+    assert axis.key == "coils.1.turns"
+    assert list(axis.values) == [400.0, 550.0, 700.0]
