@@ -1047,8 +1047,8 @@ def design_from_dict(data: dict, name: str = "design") -> Design:
             coils_fit_pole(coils, vals["pole"], problems)
     if "ring" in data and "pole" not in data:
         problems.append(
-            "[ring]: needs a [pole]; the ring sits in a groove of the pole's face (an air core "
-            "has no ring)"
+            "[pole]: missing table; the [ring] sits in a groove of the pole's face (an air "
+            "core, without [pole], has no [ring])"
         )
     _check_geometry(vals, problems)
     if problems:

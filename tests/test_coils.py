@@ -109,7 +109,7 @@ def test_opposed_halves_cancel_most_of_the_field(demo):
         ),
         (
             lambda d: d.update(ring={"inner_radius_mm": 4, "outer_radius_mm": 7, "depth_mm": 3}),
-            "[ring]: needs a [pole]",
+            "[pole]: missing table; the [ring] sits in a groove",
         ),
         (
             lambda d: d["coils"][0].update(material="unobtainium"),
