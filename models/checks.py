@@ -92,7 +92,7 @@ def range_warnings(design: Design, sol: CircuitSolution, fineness: Fineness, ele
         out += _core_warnings(design, electrical)
     out += _pull_warnings(electrical)
     for name, part, label in (("target", design.target, TARGET), ("ring", design.ring, RING)):
-        if part is None:
+        if part is None or getattr(part, "winding", False):  # a winding's wire is stranded
             continue
         delta = skin_depth(f, part.conductivity)
         cells = sol.cells
@@ -116,13 +116,31 @@ def general_windings_warnings(design: Design) -> list[str]:
         forms.append(f"{len(coils)} coils in series" if len(coils) > 1 else "a coil of sense -1")
     if design.pole is None:
         forms.append("an air core (no pole)")
-    if not forms:
-        return []
-    return [
-        " and ".join(forms) + ": this form is validated only on TEAM Workshop Problem 28 (an "
-        "air-core levitation device, measured and against the FEM); confirm with 'eddypull "
-        "verify'"
-    ]
+    out = []
+    if forms:
+        out.append(
+            " and ".join(forms) + ": this form is validated only on TEAM Workshop Problem 28 (an "
+            "air-core levitation device, measured and against the FEM); confirm with 'eddypull "
+            "verify'"
+        )
+    ring = design.ring
+    if ring is not None and ring.winding:
+        out.append(
+            "a shading winding: checked against a filament loop model and the solid ring's "
+            "low-frequency limit only, not against the FEM (which models a solid ring); its wire "
+            "is taken thin against its skin depth"
+        )
+        from models.shading import wire_area
+
+        wire = math.sqrt(4.0 * wire_area(ring) / math.pi)  # a round wire of the turn's copper
+        delta = skin_depth(design.drive.frequency, ring.conductivity)
+        if wire > delta:
+            out.append(
+                f"the shading winding's wire ({wire * 1e3:.3g} mm) is thicker than its skin "
+                f"depth ({delta * 1e3:.3g} mm): its AC resistance, loss and lag are higher than "
+                "the stranded model's"
+            )
+    return out
 
 
 #: A pull whose error estimate exceeds this fraction of it warns (common practice, no source: a

@@ -169,10 +169,22 @@ class Ring:
     temperature_coefficient: float
     material: str | None = None
     density: float = 8890.0
+    #: A shading winding (models.shading): its turns (None: a solid ring), wire diameter [m]
+    #: (None: the copper fills the groove's section), and what closes it: a capacitance [F]
+    #: and / or a resistance [Ohm] in series (0: shorted).
+    turns: int | None = None
+    wire_diameter: float | None = None
+    capacitance: float | None = None
+    closing_resistance: float | None = None
 
     @property
     def width(self) -> float:
         return self.outer_radius - self.inner_radius
+
+    @property
+    def winding(self) -> bool:
+        """True for a shading winding of ``turns`` turns, False for a solid ring."""
+        return self.turns is not None
 
 
 @dataclass(frozen=True)
@@ -329,6 +341,11 @@ DESIGN_KEYS: dict[str, dict[str, tuple[str, bool]]] = {
         "conductivity_S_per_m": ("pos", False),
         "temperature_coefficient_per_K": ("nonneg", False),
         "density_kg_per_m3": ("pos", False),
+        # a shading winding instead of a solid ring (models.shading)
+        "turns": ("int", False),
+        "wire_diameter_mm": ("pos", False),
+        "capacitance_uF": ("pos", False),
+        "resistance_ohm": ("nonneg", False),
     },
     "target": {
         "radius_mm": ("pos", True),
@@ -405,6 +422,8 @@ PLAUSIBLE_LIMITS = {
     "_W_per_m2K": (1e-3, 1e7),  # boiling water reaches ~1e5 W/(m^2 K) (from memory)
     "_W_per_mK": (1e-3, 1e4),  # diamond, the best solid conductor of heat, ~2200 (from memory)
     "_VA": (1e-6, 1e9),
+    "_uF": (1e-6, 1e6),  # 1 pF to 1 F
+    "_ohm": (1e-9, 1e6),
 }
 #: Finest face feature (2 x gap, target radius, ring width, depth, inner radius) as a fraction
 #: of the pole radius: the pole's face panels are a quarter of the finest feature, so their
@@ -747,10 +766,14 @@ def design_notes(vals: dict) -> tuple[str, ...]:
 
 
 def _parse_ring(r: _Values, problems: list[str]) -> dict | None:
-    """[ring]: its conductor (copper unless named)."""
+    """[ring]: its conductor (copper unless named); a shading winding's keys (models.shading)."""
+    from models.shading import parse_shading
+
     kw = _conductor("ring", r, problems, "copper")
+    shading = parse_shading(r, problems)
     if kw is not None:
         kw["density"] = float(kw["density"])
+        kw.update(shading)
     return kw
 
 
@@ -1140,6 +1163,8 @@ def resolve_key(design: Design, key: str) -> tuple[str, str]:
         t for t in DESIGN_KEYS if key in DESIGN_KEYS[t] and (t in data or t in _OPTIONAL_TABLES)
     ]
     tables = [t for t in tables if t in data] or tables
+    # a key of two tables (turns of [coil] and of a [ring] winding): the one the file gives
+    tables = [t for t in tables if key in (data.get(t) or {})] or tables
     if len(tables) != 1:
         flat = sorted({kk for ks in DESIGN_KEYS.values() for kk in ks})
         if not tables:

@@ -145,6 +145,10 @@ def _part_losses(sol: CircuitSolution, face_depth: float | None = None) -> dict:
         "ring": float(loss[part == RING].sum()),
         "target": float(loss[part == TARGET].sum()),
     }
+    if sol.winding_current is not None:  # a shading winding: its wire heats the ring's node;
+        i2 = abs(sol.winding_current) ** 2  # its closing resistor sits outside the magnet
+        out["ring"] = float(i2 * sol.winding_resistance)
+        out["closing"] = float(i2 * sol.winding_closing.real)
     c = sol.core
     if c is not None and face_depth is not None:
         at = c.eddy * c.eddy_share + c.hysteresis_at + c.excess_at
@@ -430,6 +434,8 @@ def _electrical(
     losses = _part_losses(sol)
     z_coil = sol.coil_voltage / sol.coil_current
     ring_current = complex(sol.cell_current[sol.cells.part == RING].sum())
+    if sol.winding_current is not None:
+        ring_current = sol.winding_current  # the current in the winding's wire
     phase = ring_phase(ring_current, sol.coil_current) if design.ring is not None else 0.0
     pull_hold = math.nan if hold is None else float(sum(pull_by_source(hold).values()))
     weight = design.target.density * design.target.volume * standard_gravity
@@ -467,6 +473,7 @@ def _electrical(
         core_excess_loss_W=math.nan,
         core_radial_flux_fraction=math.nan,
         **_by_coil(design, sol),
+        **_ring_closing(design, sol, ring_current, losses.get("closing", 0.0)),
     )
     if design.pole is None:  # an air core: what needs the steel stays nan (JSON null)
         return electrical
@@ -492,6 +499,26 @@ def _by_coil(design: Design, sol: CircuitSolution) -> dict:
             str(k): float(c.sense * c.turns * abs(sol.coil_current)) for k, c in enumerate(coils)
         },
     }
+
+
+def _ring_closing(design: Design, sol: CircuitSolution, ring_current: complex, loss: float):
+    """A shading winding's ampere-turns [A], the voltage across its closing part [V rms], the
+    capacitor's reactive power [var] (its rating) and the closing resistor's loss [W]; a solid
+    ring is one turn with no closing part (nan), no ring none at all."""
+    ring = design.ring
+    turns = 0 if ring is None else (ring.turns if ring.winding else 1)
+    out = {
+        "ring_ampere_turns_A": float(turns * abs(ring_current)),
+        "ring_closing_voltage_V": math.nan,
+        "ring_capacitor_var": math.nan,
+        "ring_closing_loss_W": float(loss),
+    }
+    if sol.winding_current is not None:
+        i = abs(sol.winding_current)
+        out["ring_closing_voltage_V"] = float(i * abs(sol.winding_closing))
+        if ring.capacitance is not None:
+            out["ring_capacitor_var"] = float(i * i / (sol.omega * ring.capacitance))
+    return out
 
 
 def _coil_temperature(coils, resistance: float) -> float:

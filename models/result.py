@@ -89,6 +89,12 @@ class Electrical:
     coil_resistance_by_coil_ohm : each coil's winding resistance at the coil node's mean
         temperature [Ohm] (the thermal network lumps several coils into one node)
     ampere_turns_by_coil_A : sense x turns x coil_current_A of each coil [A rms]
+    ring_ampere_turns_A : turns x ring_current_A [A rms] (a solid ring: one turn); with a shading
+        winding (``[ring] turns``) ring_current_A is the current in its wire, ring_loss_W its
+        wire's loss, and ring_closing_voltage_V the voltage across what closes it [V rms],
+        ring_capacitor_var the capacitor's reactive power |I|^2 / (omega C) [var] (its rating
+        with the voltage), ring_closing_loss_W the closing resistor's loss [W] (outside the
+        magnet: in input_power_W, not in the ring's heat); nan (JSON null) where there is none
 
     An air core (no [pole]) has no steel: pole_flux_density_T, core_peak_flux_density_T,
     core_flux_fraction, core_saturation_T, pole_mass_kg, the core losses and
@@ -128,6 +134,10 @@ class Electrical:
     coil_loss_by_coil_W: dict
     coil_resistance_by_coil_ohm: dict
     ampere_turns_by_coil_A: dict
+    ring_ampere_turns_A: float
+    ring_closing_voltage_V: float
+    ring_capacitor_var: float
+    ring_closing_loss_W: float
 
 
 @dataclass(frozen=True)
@@ -266,6 +276,10 @@ FLAT_FIELDS = (
     ("electrical", "coil_loss_by_coil_W"),
     ("electrical", "coil_resistance_by_coil_ohm"),
     ("electrical", "ampere_turns_by_coil_A"),
+    ("electrical", "ring_ampere_turns_A"),
+    ("electrical", "ring_closing_voltage_V"),
+    ("electrical", "ring_capacitor_var"),
+    ("electrical", "ring_closing_loss_W"),
 )
 _GROUP_OF = {name: group for group, name in FLAT_FIELDS if group}
 

@@ -33,6 +33,9 @@ _WHY = {
             "face_temperature_C",
         )
     },
+    ("ring_closing_voltage_V", "nan"): "no shading winding: a solid ring (or none) has no "
+    "closing part",
+    ("ring_capacitor_var", "nan"): "no capacitor closes the ring",
 }
 
 

@@ -21,6 +21,7 @@ from __future__ import annotations
 
 import dataclasses
 from dataclasses import dataclass
+from types import SimpleNamespace
 
 import numpy as np
 
@@ -37,22 +38,29 @@ __all__ = [
     "assemble_circuit",
     "build_cells",
     "coil_shares",
+    "WINDING",
     "cell_mutual_matrix",
     "solve_circuit",
     "solve_system",
 ]
 
 RING, TARGET, COIL = 0, 1, 2
+#: Sub-cells of a shading winding (models.shading): stranded as the coil's, one loop closed
+#: through its capacitor / resistor.
+WINDING = 3
 
 # Two-point Gauss-Legendre abscissae on [-1/2, 1/2] (unit weights 1/2 each).
 _G2 = np.array([-0.5, 0.5]) / np.sqrt(3.0)
 
 
 def build_cells(design, fineness: Fineness) -> Cells:
-    """Cells of ring, target and coil window (coil cells carry part = COIL, conductivity 1)."""
+    """Cells of ring, target and coil window (coil cells carry part = COIL, conductivity 1; a
+    shading winding's sub-cells part = WINDING, conductivity 1)."""
     f = design.drive.frequency
     parts = []
-    if design.ring is not None:
+    if design.ring is not None and design.ring.winding:
+        parts.append(_winding_cells(design.ring, fineness))
+    elif design.ring is not None:
         ring = design.ring
         parts.append(
             conductor_cells(
@@ -107,6 +115,26 @@ def build_cells(design, fineness: Fineness) -> Cells:
             )
         )
     return Cells.concat(*parts)
+
+
+def _winding_cells(ring, fineness: Fineness) -> Cells:
+    """Sub-cells of a shading winding's groove section, as a coil window's."""
+    window = SimpleNamespace(
+        inner_radius=ring.inner_radius,
+        outer_radius=ring.outer_radius,
+        z_back=-ring.depth,
+        z_front=0.0,
+        length=ring.depth,
+    )
+    rc, zc, dr, dz = coil_filaments(window, fineness)
+    return Cells(
+        r0=rc - dr / 2,
+        r1=rc + dr / 2,
+        z0=zc - dz / 2,
+        z1=zc + dz / 2,
+        conductivity=np.ones_like(rc),
+        part=np.full(rc.size, WINDING),
+    )
 
 
 def coil_shares(design, n_sub: int):
@@ -189,7 +217,9 @@ class CircuitSolution:
     [A] (a coil sub-cell carries its share of the ampere-turns); coil_current, coil_voltage [A, V];
     panel_current : bound sheet currents of the pole's panels [A] (empty without iron);
     M, dMdz : cell matrices [H], [H/m] (free part; dMdz filled in the target's rows only);
-    panel_M, panel_dMdz : cells x panels [H], [H/m]
+    panel_M, panel_dMdz : cells x panels [H], [H/m]; winding_current : the current in a
+    shading winding's wire [A] (None without one), winding_resistance : its wire's resistance
+    [Ohm] at the ring's temperature, winding_closing : the closing part's impedance [Ohm]
     """
 
     cells: Cells
@@ -207,6 +237,9 @@ class CircuitSolution:
     omega: float
     core: CoreLosses | None = None
     core_grid: CoreGrid | None = None
+    winding_current: complex | None = None
+    winding_resistance: float = 0.0
+    winding_closing: complex = 0.0j
 
 
 @dataclass(frozen=True)
@@ -217,7 +250,9 @@ class CircuitSystem:
     temperatures for the cost of one dense solve (the electro-thermal coupling of
     models.evaluate). Treat as read-only.
 
-    cells : the cells; solid, coil : indices of solid cells and coil sub-cells; share : turns per
+    cells : the cells; solid, coil : indices of solid cells and coil sub-cells; winding :
+    indices of a shading winding's sub-cells (None: a solid ring or none) with
+    winding_share turns each; share : turns per
     coil sub-cell (a float, or an array with several coils or a sense of -1: ``coil_shares``);
     L_loop : loop inductance matrix (solid cells, then the coil) [H];
     cell_resistance_20 : resistance of each cell at 20 degC [Ohm]; P : panels x cells operator
@@ -243,6 +278,8 @@ class CircuitSystem:
     omega: float
     iron_loss: np.ndarray | None = None
     core_grid: CoreGrid | None = None
+    winding: np.ndarray | None = None
+    winding_share: float = 0.0
 
 
 def assemble_circuit(
@@ -294,7 +331,8 @@ def assemble_circuit(
 
     # Incidence: loops = solid cells individually, then the coil.
     coil_mask = cells.part == COIL
-    solid = np.flatnonzero(~coil_mask)
+    wind_mask = cells.part == WINDING
+    solid = np.flatnonzero(~coil_mask & ~wind_mask)
     n_sub = int(coil_mask.sum())
     # L_loop = C.T @ M_total @ C for the incidence C (cells x loops): 1 from each solid cell to
     # its loop, sense x turns / sub-cells from each coil sub-cell to the coil (all coils in
@@ -302,7 +340,9 @@ def assemble_circuit(
     coil = np.flatnonzero(coil_mask)
     share = coil_shares(design, n_sub)
     n = solid.size
-    L_loop = np.empty((n + 1, n + 1), dtype=M_total.dtype)
+    wind = np.flatnonzero(wind_mask)
+    size = n + 1 + (1 if wind.size else 0)  # a shading winding is one more loop, the last
+    L_loop = np.empty((size, size), dtype=M_total.dtype)
     L_loop[:n, :n] = M_total[np.ix_(solid, solid)]
     if np.ndim(share) == 0:
         L_loop[:n, n] = M_total[np.ix_(solid, coil)].sum(axis=1) * share
@@ -312,6 +352,10 @@ def assemble_circuit(
         L_loop[:n, n] = M_total[np.ix_(solid, coil)] @ share
         L_loop[n, :n] = share @ M_total[np.ix_(coil, solid)]
         L_loop[n, n] = share @ M_total[np.ix_(coil, coil)] @ share
+    winding_share = 0.0
+    if wind.size:
+        winding_share = design.ring.turns / wind.size
+        _winding_loop(L_loop, M_total, solid, coil, share, wind, winding_share)
     return CircuitSystem(
         design=design,
         cells=cells,
@@ -329,7 +373,24 @@ def assemble_circuit(
         omega=omega,
         iron_loss=iron_loss,
         core_grid=grid,
+        winding=wind if wind.size else None,
+        winding_share=winding_share,
     )
+
+
+def _winding_loop(L_loop, M_total, solid, coil, share, wind, winding_share) -> None:
+    """Fill the last row and column of ``L_loop``: the winding's loop (``winding_share`` turns
+    per sub-cell) with the solid cells, the coil and itself (M_total is symmetric)."""
+    n = solid.size
+    w = n + 1
+    col = M_total[np.ix_(solid, wind)].sum(axis=1) * winding_share
+    L_loop[:n, w] = col
+    L_loop[w, :n] = col
+    per_coil_cell = M_total[np.ix_(coil, wind)].sum(axis=1) * winding_share
+    L_loop[n, w] = L_loop[w, n] = (
+        per_coil_cell.sum() * share if np.ndim(share) == 0 else share @ per_coil_cell
+    )
+    L_loop[w, w] = M_total[np.ix_(wind, wind)].sum() * winding_share**2
 
 
 def solve_system(system: CircuitSystem, temperatures=None) -> CircuitSolution:
@@ -355,12 +416,17 @@ def solve_system(system: CircuitSystem, temperatures=None) -> CircuitSolution:
     r_coil = coils_resistance(design, temps["coil"])
 
     Z = 1j * system.omega * system.L_loop
-    Z[np.diag_indices_from(Z)] += np.concatenate([r_cells[solid], [r_coil]])
+    loops = np.arange(n + 1)  # the solid cells and the coil (a winding adds its own)
+    Z[loops, loops] += np.concatenate([r_cells[solid], [r_coil]])
     # The cells' currents for 1 A in the coil, and the input impedance without R_he.
     unit = np.empty(cells.n, complex)
-    unit[solid] = np.linalg.solve(Z[:n, :n], -Z[:n, n])
     unit[coil] = share
-    z_in = complex(Z[n, n] + Z[n, :n] @ unit[solid])
+    winding = None
+    if system.winding is None:
+        unit[solid] = np.linalg.solve(Z[:n, :n], -Z[:n, n])
+        z_in = complex(Z[n, n] + Z[n, :n] @ unit[solid])
+    else:
+        unit, z_in, winding = _solve_with_winding(system, Z, unit, temps["ring"])
     loss_at = _hysteresis_excess_of(design, system.core_grid, unit)
     if design.drive.current is not None:
         i0 = complex(design.drive.current)
@@ -384,6 +450,9 @@ def solve_system(system: CircuitSystem, temperatures=None) -> CircuitSolution:
     return CircuitSolution(
         cells=cells,
         cell_current=cell_current,
+        winding_current=None if winding is None else complex(winding[0] * i0),
+        winding_resistance=0.0 if winding is None else winding[1],
+        winding_closing=0.0j if winding is None else winding[2],
         coil_current=i0,
         coil_voltage=v0,
         coil_resistance=r_coil,
@@ -398,6 +467,26 @@ def solve_system(system: CircuitSystem, temperatures=None) -> CircuitSolution:
         core=core,
         core_grid=system.core_grid,
     )
+
+
+def _solve_with_winding(system: CircuitSystem, Z, unit, ring_C: float):
+    """The loop equations with a shading winding (the last loop: its wire's resistance at
+    ``ring_C`` [degC] and its closing part in series, models.shading), for 1 A in the coil.
+    Returns (cell currents, input impedance without R_he, (winding current per coil ampere,
+    wire resistance [Ohm], closing impedance [Ohm]))."""
+    from models.shading import closing_impedance, winding_resistance
+
+    ring = system.design.ring
+    n = system.solid.size
+    r_wire = winding_resistance(ring, ring_C)
+    z_close = closing_impedance(ring, system.omega)
+    Z[n + 1, n + 1] += r_wire + z_close
+    others = np.r_[0:n, n + 1]
+    x = np.linalg.solve(Z[np.ix_(others, others)], -Z[others, n])
+    unit[system.solid] = x[:n]
+    unit[system.winding] = system.winding_share * x[n]
+    z_in = complex(Z[n, n] + Z[n, others] @ x)
+    return unit, z_in, (complex(x[n]), float(r_wire), complex(z_close))
 
 
 def _hysteresis_excess_of(design, grid, unit):

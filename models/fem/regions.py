@@ -138,6 +138,11 @@ def design_regions(design) -> list[Region]:
         mu = p.effective_permeability(design.drive.frequency)
         mu = mu if mu.imag != 0.0 else mu.real  # a real mu_r stays real (the lossless solve)
         regions.append(Region("pole", 0.0, p.radius, -p.length, 0.0, mu, p.conductivity))
+    if design.ring is not None and design.ring.winding:
+        raise DesignError(
+            f"ring.turns = {design.ring.turns}: the FEM reference models a solid ring only; a "
+            "shading winding is checked by the fast model alone"
+        )
     if design.ring is not None:
         ring = design.ring
         regions.append(

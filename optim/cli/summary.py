@@ -90,6 +90,22 @@ def _coil_rows(design, r) -> list[str]:
     ]
 
 
+def _winding_rows(design, r) -> list[str]:
+    """A shading winding's ampere-turns, closing part and capacitor."""
+    if design.ring is None or not design.ring.winding:
+        return []
+    ring = design.ring
+    parts = []
+    if ring.capacitance is not None:
+        parts.append(f"{ring.capacitance * 1e6:.4g} uF ({_w(r.ring_capacitor_var)} var)")
+    if ring.closing_resistance is not None:
+        parts.append(f"{ring.closing_resistance:.4g} Ohm ({_w(r.ring_closing_loss_W)} W)")
+    return [
+        f"  shading winding    {ring.turns} turns, {_w(r.ring_ampere_turns_A)} A-turns, closed "
+        f"by {' + '.join(parts)} at {_w(r.ring_closing_voltage_V)} V rms"
+    ]
+
+
 def format_result(design, result) -> str:
     """A few lines an engineer reads: pull and where it comes from, costs, validity."""
     r = result
@@ -97,6 +113,8 @@ def format_result(design, result) -> str:
     split = r.pull_by_source_N
     verdict = "PULL (toward the face)" if r.pull_N > 0 else "PUSH (away from the face)"
     form = "ring" if design.ring is not None else "plain pole (no ring)"
+    if design.ring is not None and design.ring.winding:
+        form = f"shading winding of {design.ring.turns} turns"
     if design.pole is None:
         form = "air core (no pole)"
     if len(design.windings) > 1:
@@ -124,6 +142,7 @@ def format_result(design, result) -> str:
         f"{_w(r.supply_VA)} VA, Z = {r.coil_impedance_ohm[0]:.4g} + j{r.coil_impedance_ohm[1]:.4g} "
         "Ohm",
         *_coil_rows(design, r),
+        *_winding_rows(design, r),
         f"  ring current       {_w(r.ring_current_A)} A rms at {r.ring_phase_deg:+.1f} deg to the "
         "coil current",
         f"  core peak flux     {r.core_peak_flux_density_T:.3g} T",
