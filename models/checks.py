@@ -80,23 +80,26 @@ def range_warnings(design: Design, sol: CircuitSolution, fineness: Fineness, ele
             "linear model may be optimistic"
         )
     f = design.drive.frequency
+    out += general_windings_warnings(design)
     values = {
         "frequency_Hz": f,
-        "target radius / pole radius": design.target.radius / design.pole.radius,
         "gap_mm": design.target.gap * 1e3,
-        "gap / pole radius": design.target.gap / design.pole.radius,
         "target thickness_mm": design.target.thickness * 1e3,
-        "pole relative_permeability": design.pole.relative_permeability,
     }
+    if design.pole is not None:
+        values["target radius / pole radius"] = design.target.radius / design.pole.radius
+        values["gap / pole radius"] = design.target.gap / design.pole.radius
+        values["pole relative_permeability"] = design.pole.relative_permeability
     for key, value in values.items():
         out += _outside(key, value)
     hold_gap = design.thermal.hold_gap
     if hold_gap is not None and abs(hold_gap - design.target.gap) > 1e-12:
         out += gap_warnings(design, [hold_gap * 1e3], "holding gap (thermal.hold_gap_mm)")
-    out += _core_warnings(design, electrical)
+    if design.pole is not None:
+        out += _core_warnings(design, electrical)
     out += _pull_warnings(electrical)
     for name, part, label in (("target", design.target, TARGET), ("ring", design.ring, RING)):
-        if part is None:
+        if part is None or getattr(part, "winding", False):  # a winding's wire is stranded
             continue
         delta = skin_depth(f, part.conductivity)
         cells = sol.cells
@@ -131,7 +134,45 @@ def gap_warnings(design: Design, gaps_mm, what: str) -> list[str]:
         if abs(g * 1e-3 - design.target.gap) <= 1e-12:
             continue
         out += _outside("gap_mm", g, what)
-        out += _outside("gap / pole radius", g * 1e-3 / design.pole.radius, what)
+        if design.pole is not None:
+            out += _outside("gap / pole radius", g * 1e-3 / design.pole.radius, what)
+    return out
+
+
+def general_windings_warnings(design: Design) -> list[str]:
+    """Several coils, a coil wound in the -1 sense or an air core: checked against a published
+    measurement and the FEM on one device only (TEAM Workshop Problem 28,
+    tests/validation/test_team28.py), not over a range of designs."""
+    coils = design.windings
+    forms = []
+    if len(coils) > 1 or any(c.sense != 1 for c in coils):
+        forms.append(f"{len(coils)} coils in series" if len(coils) > 1 else "a coil of sense -1")
+    if design.pole is None:
+        forms.append("an air core (no pole)")
+    out = []
+    if forms:
+        out.append(
+            " and ".join(forms) + ": this form is validated only on TEAM Workshop Problem 28 (an "
+            "air-core levitation device, measured and against the FEM); confirm with 'eddypull "
+            "verify'"
+        )
+    ring = design.ring
+    if ring is not None and ring.winding:
+        out.append(
+            "a shading winding: checked against a filament loop model and the solid ring's "
+            "low-frequency limit only, not against the FEM (which models a solid ring); its wire "
+            "is taken thin against its skin depth"
+        )
+        from models.shading import wire_area
+
+        wire = math.sqrt(4.0 * wire_area(ring) / math.pi)  # a round wire of the turn's copper
+        delta = skin_depth(design.drive.frequency, ring.conductivity)
+        if wire > delta:
+            out.append(
+                f"the shading winding's wire ({wire * 1e3:.3g} mm) is thicker than its skin "
+                f"depth ({delta * 1e3:.3g} mm): its AC resistance, loss and lag are higher than "
+                "the stranded model's"
+            )
     return out
 
 

@@ -123,6 +123,8 @@ class Coil:
     conductivity: float
     temperature_coefficient: float
     material: str = "copper"
+    #: +1 or -1: the direction the turns are wound in ([[coils]]; [coil] is +1)
+    sense: int = 1
     fill_factor: float | None = None
 
     @property
@@ -146,7 +148,8 @@ class Coil:
         """Copper cross-section of one turn [m^2]."""
         if self.wire_diameter is not None:
             return math.pi * self.wire_diameter**2 / 4.0
-        return DEFAULT_FILL_FACTOR * self.window_area / self.turns
+        fill = DEFAULT_FILL_FACTOR if self.fill_factor is None else self.fill_factor
+        return fill * self.window_area / self.turns
 
     def resistance(self, temperature_C: float = 20.0) -> float:
         """DC resistance of the winding [Ohm] at ``temperature_C``: rho(T) N 2 pi r_mean / A_wire."""
@@ -164,6 +167,12 @@ def turns_in_window(window_mm2: float, wire_diameter_mm: float, fill_factor: flo
     """Whole turns of a round wire of ``wire_diameter_mm`` [mm] whose copper fills at most
     ``fill_factor`` of a window of ``window_mm2`` [mm^2]: floor(fill x window / (pi d^2 / 4))."""
     return math.floor(fill_factor * window_mm2 / (math.pi * wire_diameter_mm**2 / 4.0) + 1e-9)
+
+
+def coil_fill(coil: dict) -> float | None:
+    """The copper fill a coil table (file units) gave its turns by: None when it gives
+    ``turns``, else its ``fill_factor`` (default DEFAULT_FILL_FACTOR)."""
+    return None if "turns" in coil else coil.get("fill_factor", DEFAULT_FILL_FACTOR)
 
 
 def coil_turns(coil: dict) -> int:
@@ -204,10 +213,22 @@ class Ring:
     temperature_coefficient: float
     material: str | None = None
     density: float = 8890.0
+    #: A shading winding (models.shading): its turns (None: a solid ring), wire diameter [m]
+    #: (None: the copper fills the groove's section), and what closes it: a capacitance [F]
+    #: and / or a resistance [Ohm] in series (0: shorted).
+    turns: int | None = None
+    wire_diameter: float | None = None
+    capacitance: float | None = None
+    closing_resistance: float | None = None
 
     @property
     def width(self) -> float:
         return self.outer_radius - self.inner_radius
+
+    @property
+    def winding(self) -> bool:
+        """True for a shading winding of ``turns`` turns, False for a solid ring."""
+        return self.turns is not None
 
 
 @dataclass(frozen=True)
@@ -299,9 +320,14 @@ class Supply:
 
 @dataclass(frozen=True)
 class Design:
-    """A complete design. ``source`` keeps the file's own values (mm, Hz, A) for sweeps and hand-off."""
+    """A complete design. ``source`` keeps the file's own values (mm, Hz, A) for sweeps and hand-off.
 
-    pole: Pole
+    ``pole`` is None for an air core (no [pole]: the face is the plane ``setback`` and ``gap`` are
+    measured from). ``coils`` holds the coils of a ``[[coils]]`` file (models.coils), all in
+    series, ``coil`` being the first of them; it is empty for the one-coil form ``[coil]``.
+    ``windings`` is every coil either way."""
+
+    pole: Pole | None
     coil: Coil
     drive: Drive
     target: Target
@@ -316,6 +342,17 @@ class Design:
     #: with ``source`` they say everything the parts hold; ``edit`` sets them again on a part it
     #: rebuilds from the file.
     properties: tuple = field(default=(), compare=False, repr=False)
+    coils: tuple = ()
+
+    @property
+    def windings(self) -> tuple:
+        """Every coil of the design ([coil] or each of [[coils]]), in file order."""
+        return self.coils or (self.coil,)
+
+    @property
+    def air_core(self) -> bool:
+        """True without a pole: the coils alone make the field."""
+        return self.pole is None
 
 
 # ----------------------------------------------------------------------------------------------
@@ -357,6 +394,11 @@ DESIGN_KEYS: dict[str, dict[str, tuple[str, bool]]] = {
         "conductivity_S_per_m": ("pos", False),
         "temperature_coefficient_per_K": ("nonneg", False),
         "density_kg_per_m3": ("pos", False),
+        # a shading winding instead of a solid ring (models.shading)
+        "turns": ("int", False),
+        "wire_diameter_mm": ("pos", False),
+        "capacitance_uF": ("pos", False),
+        "resistance_ohm": ("nonneg", False),
     },
     "target": {
         "radius_mm": ("pos", True),
@@ -395,7 +437,8 @@ DESIGN_KEYS: dict[str, dict[str, tuple[str, bool]]] = {
 #: Tables a design may leave out.
 _OPTIONAL_TABLES = ("ring", "thermal", "supply")
 _TOP_KEYS = {"name": "str", "description": "str"}
-_REQUIRED_TABLES = ("pole", "coil", "drive", "target")
+#: [pole] may be left out (an air core); [coil] may be replaced by [[coils]] (models.coils).
+_REQUIRED_TABLES = ("drive", "target")
 _ALLOWED = {
     "pos": "a number > 0",
     "nonneg": "a number >= 0",
@@ -434,6 +477,8 @@ PLAUSIBLE_LIMITS = {
     "_W_per_m2K": (1e-3, 1e7),  # boiling water reaches ~1e5 W/(m^2 K) (from memory)
     "_W_per_mK": (1e-3, 1e4),  # diamond, the best solid conductor of heat, ~2200 (from memory)
     "_VA": (1e-6, 1e9),
+    "_uF": (1e-6, 1e6),  # 1 pF to 1 F
+    "_ohm": (1e-9, 1e6),
 }
 #: Finest face feature (2 x gap, target radius, ring width, depth, inner radius) as a fraction
 #: of the pole radius: the pole's face panels are a quarter of the finest feature, so their
@@ -525,7 +570,7 @@ def _check_schema(data: dict, problems: list[str]) -> dict[str, _Values]:
     return {
         table: _check_table(table, data[table], problems)
         for table in DESIGN_KEYS
-        if isinstance(data.get(table), dict)
+        if isinstance(data.get(table), dict) and not (table == "coil" and "coils" in data)
     }
 
 
@@ -538,6 +583,8 @@ def _check_top_level(data: dict, problems: list[str]) -> None:
                 problems.append(f"{key} = {value!r}: must be a table [{key}]")
         elif key in _TOP_KEYS:
             _check_value(key, value, _TOP_KEYS[key], problems)
+        elif key == "coils":
+            pass  # [[coils]]: models.coils.check_coils
         else:
             problems.append(
                 f"{key}: unknown table or key; allowed: {', '.join([*DESIGN_KEYS, *_TOP_KEYS])}"
@@ -546,6 +593,8 @@ def _check_top_level(data: dict, problems: list[str]) -> None:
     for table in _REQUIRED_TABLES:
         if table not in data:
             problems.append(f"[{table}]: missing table")
+    if "coil" not in data and "coils" not in data:
+        problems.append("[coil]: missing table (or several coils as [[coils]])")
 
 
 def _check_table(table: str, t: dict, problems: list[str]) -> _Values:
@@ -798,10 +847,14 @@ def design_notes(vals: dict) -> tuple[str, ...]:
 
 
 def _parse_ring(r: _Values, problems: list[str]) -> dict | None:
-    """[ring]: its conductor (copper unless named)."""
+    """[ring]: its conductor (copper unless named); a shading winding's keys (models.shading)."""
+    from models.shading import parse_shading
+
     kw = _conductor("ring", r, problems, "copper")
+    shading = parse_shading(r, problems)
     if kw is not None:
         kw["density"] = float(kw["density"])
+        kw.update(shading)
     return kw
 
 
@@ -921,7 +974,8 @@ def _check_geometry(vals: dict[str, _Values], problems: list[str]) -> None:
     missing or were refused is skipped."""
     p = vals.get("pole", _NO_VALUES)
     r = vals.get("ring")
-    _check_coil_fits(p, vals.get("coil", _NO_VALUES), problems)
+    if "coil" in vals:  # [[coils]] are checked by models.coils
+        _check_coil_fits(p, vals["coil"], problems)
     if r is not None:
         _check_ring_fits(p, r, problems)
     if p.has("radius_mm", "length_mm") and p["length_mm"] > MAX_POLE_ASPECT * p["radius_mm"]:
@@ -1071,21 +1125,28 @@ def _check_face_features(Rp: float, r: _Values | None, g: _Values, problems: lis
 def _build(data: dict, name: str, vals: dict[str, _Values], parsed: dict[str, dict]) -> Design:
     """Step 4, for a design without problems: the dataclasses in SI from the checked sizes (mm)
     and the parsed tables."""
-    p, c, g, r = vals["pole"], vals["coil"], vals["target"], vals.get("ring")
-    pole = Pole(radius=p["radius_mm"] * MM, length=p["length_mm"] * MM, **parsed["pole"])
-    # a wire and a fill factor without turns: the turns follow from the window
-    fill = None if "turns" in c else c.get("fill_factor", DEFAULT_FILL_FACTOR)
-    turns = coil_turns(c)
-    coil = Coil(
-        inner_radius=c["inner_radius_mm"] * MM,
-        outer_radius=c["outer_radius_mm"] * MM,
-        setback=c["setback_mm"] * MM,
-        length=c["length_mm"] * MM,
-        turns=turns,
-        wire_diameter=c["wire_diameter_mm"] * MM if "wire_diameter_mm" in c else None,
-        fill_factor=fill,
-        **parsed["coil"],
-    )
+    p, g, r = vals.get("pole"), vals["target"], vals.get("ring")
+    pole = None
+    if p is not None:
+        pole = Pole(radius=p["radius_mm"] * MM, length=p["length_mm"] * MM, **parsed["pole"])
+    coils = ()
+    if "coils" in parsed:
+        from models.coils import build_coils
+
+        coils = build_coils(vals["coils"], parsed["coils"])
+        coil = coils[0]
+    else:
+        c = vals["coil"]
+        coil = Coil(
+            inner_radius=c["inner_radius_mm"] * MM,
+            outer_radius=c["outer_radius_mm"] * MM,
+            setback=c["setback_mm"] * MM,
+            length=c["length_mm"] * MM,
+            turns=coil_turns(c),
+            wire_diameter=c["wire_diameter_mm"] * MM if "wire_diameter_mm" in c else None,
+            fill_factor=coil_fill(c),
+            **parsed["coil"],
+        )
     ring = None
     if r is not None:
         ring = Ring(
@@ -1112,6 +1173,7 @@ def _build(data: dict, name: str, vals: dict[str, _Values], parsed: dict[str, di
         thermal=Thermal(**parsed["thermal"]) if "thermal" in parsed else Thermal(),
         supply=Supply(**parsed["supply"]) if "supply" in parsed else None,
         notes=design_notes(vals),
+        coils=coils,
     )
 
 
@@ -1126,9 +1188,22 @@ def design_from_dict(data: dict, name: str = "design") -> Design:
     """
     if not isinstance(data, dict):
         raise DesignError(f"design = {data!r}: must be a table of tables")
+    from models.coils import check_coils, coils_fit_pole, parse_coil_materials
+
     problems: list[str] = []
     vals = _check_schema(data, problems)
     parsed = {t: parse(vals[t], problems) for t, parse in _PARSERS.items() if t in vals}
+    coils = check_coils(data, problems)
+    if coils is not None:
+        vals["coils"] = coils
+        parsed["coils"] = parse_coil_materials(coils, problems)
+        if "pole" in vals:
+            coils_fit_pole(coils, vals["pole"], problems)
+    if "ring" in data and "pole" not in data:
+        problems.append(
+            "[pole]: missing table; the [ring] sits in a groove of the pole's face (an air "
+            "core, without [pole], has no [ring])"
+        )
     _check_geometry(vals, problems)
     if problems:
         raise DesignError(problems)
@@ -1136,7 +1211,16 @@ def design_from_dict(data: dict, name: str = "design") -> Design:
 
 
 def _deep_copy(data: dict) -> dict:
-    return {k: (_deep_copy(v) if isinstance(v, dict) else v) for k, v in data.items()}
+    return {
+        k: (
+            _deep_copy(v)
+            if isinstance(v, dict)
+            else [_deep_copy(x) if isinstance(x, dict) else x for x in v]
+            if isinstance(v, list)
+            else v
+        )
+        for k, v in data.items()
+    }
 
 
 def read_toml(path, what: str = "file") -> dict:
@@ -1198,6 +1282,17 @@ def resolve_key(design: Design, key: str) -> tuple[str, str]:
         Not a design key (with the nearest name), or a bare key that more than one table has.
     """
     data = design.source
+    from models.coils import COILS_KEYS, coil_table_key
+
+    numbered = coil_table_key(key)
+    if numbered is not None:
+        n, k = numbered
+        count = len(data.get("coils", ()))
+        if k not in COILS_KEYS:
+            raise DesignError(f"{key}: not a key of a coil{nearest(k, COILS_KEYS)}")
+        if n >= count:
+            raise DesignError(f"{key}: the design has {count} [[coils]] table(s); N counts from 0")
+        return f"coils.{n}", k
     if "." in key:
         table, k = key.split(".", 1)
         if table not in DESIGN_KEYS or k not in DESIGN_KEYS[table]:
@@ -1208,6 +1303,8 @@ def resolve_key(design: Design, key: str) -> tuple[str, str]:
         t for t in DESIGN_KEYS if key in DESIGN_KEYS[t] and (t in data or t in _OPTIONAL_TABLES)
     ]
     tables = [t for t in tables if t in data] or tables
+    # a key of two tables (turns of [coil] and of a [ring] winding): the one the file gives
+    tables = [t for t in tables if key in (data.get(t) or {})] or tables
     if len(tables) != 1:
         flat = sorted({kk for ks in DESIGN_KEYS.values() for kk in ks})
         if not tables:
@@ -1258,7 +1355,11 @@ def edit(design: Design, changes=None, *, properties=None) -> Design:
     (0.001, 50000000.0)
     """
     file_changes = {resolve_key(design, key): value for key, value in (changes or {}).items()}
-    redefined = {t for (t, k), v in file_changes.items() if v is None or not k.endswith("_mm")}
+    # the part a table builds: "coils.N" the coil(s)
+    part_of = {t: ("coil" if t.startswith("coils.") else t) for t, _ in file_changes}
+    redefined = {
+        part_of[t] for (t, k), v in file_changes.items() if v is None or not k.endswith("_mm")
+    }
     props = {key: v for key, v in design.properties if key[0] not in redefined}
     for key, value in (properties or {}).items():
         part, _, attr = key.partition(".")
@@ -1274,12 +1375,16 @@ def edit(design: Design, changes=None, *, properties=None) -> Design:
     if file_changes:
         data = _deep_copy(design.source)
         for (table, k), value in file_changes.items():
-            if value is None:
-                data.get(table, {}).pop(k, None)
+            if table.startswith("coils."):
+                where = data["coils"][int(table.split(".")[1])]
             else:
-                data.setdefault(table, {})[k] = value
+                where = data.setdefault(table, {})
+            if value is None:
+                where.pop(k, None)
+            else:
+                where[k] = value
         built = design_from_dict(data, name=design.name)
-        touched = {table for table, _ in file_changes}
+        touched = set(part_of.values())
         edited = replace(built, **{t: getattr(design, t) for t in DESIGN_KEYS if t not in touched})
     for (part, attr), value in props.items():
         obj = getattr(edited, part)

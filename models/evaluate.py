@@ -96,7 +96,7 @@ def pole_model_key(design: Design, fineness: Fineness | None = None):
     sheet data), groove (ring inner radius, outer radius, depth [m]) or None, panel size [m]);
     None when the pole is not magnetic. Designs with equal keys share one model; callers that
     evaluate many designs can order them by it to reuse the kept ones."""
-    if design.pole.relative_permeability <= 1.0:
+    if design.pole is None or design.pole.relative_permeability <= 1.0:
         return None
     p, g = design.pole, design.ring
     groove = None if g is None else (g.inner_radius, g.outer_radius, g.depth)
@@ -160,6 +160,10 @@ def _part_losses(sol: CircuitSolution, face_depth: float | None = None) -> dict:
         "ring": float(loss[part == RING].sum()),
         "target": float(loss[part == TARGET].sum()),
     }
+    if sol.winding_current is not None:  # a shading winding: its wire heats the ring's node;
+        i2 = abs(sol.winding_current) ** 2  # its closing resistor sits outside the magnet
+        out["ring"] = float(i2 * sol.winding_resistance)
+        out["closing"] = float(i2 * sol.winding_closing.real)
     c = sol.core
     if c is not None and face_depth is not None:
         at = c.eddy * c.eddy_share + c.hysteresis_at + c.excess_at
@@ -211,8 +215,10 @@ def steady_state(design: Design, system, isothermal: bool = False):
 
 
 def pole_mass(design: Design) -> float:
-    """Mass of the pole's steel with the ring's groove removed [kg]."""
+    """Mass of the pole's steel with the ring's groove removed [kg] (nan for an air core)."""
     p, g = design.pole, design.ring
+    if p is None:
+        return math.nan
     volume = np.pi * p.radius**2 * p.length
     if g is not None:
         volume -= np.pi * (g.outer_radius**2 - g.inner_radius**2) * g.depth
@@ -344,7 +350,8 @@ def evaluate_pick_gaps(
             isothermal,
             [(pick_system, arrival), (held_system, hold), *gap_solutions],
         )
-    electrical = _electrical(design, arrival, hold, state.temperature("core"), rating)
+    core_C = state.temperature("core") if design.pole is not None else math.nan
+    electrical = _electrical(design, arrival, hold, core_C, rating)
     electrical = _with_error_bar(electrical, design, fineness, part.arrival)
     arrival_held = solve(held_system, part.arrival)  # solved already, except with target_stays
     electrical = _with_ripple(electrical, design, arrival, arrival_held, hold)
@@ -507,7 +514,7 @@ def _capacitor_rating_of(states, drive) -> tuple:
 
 def _check_laminated(design: Design) -> None:
     """Refuse a conductive (solid) pole: the fast model covers laminated poles only."""
-    if not design.pole.laminated:
+    if design.pole is not None and not design.pole.laminated:
         raise DesignError(
             f"pole.conductivity_S_per_m = {design.pole.conductivity:.4g}: the fast model covers "
             "laminated poles only (0); check a solid pole with 'eddypull verify'"
@@ -535,7 +542,7 @@ def _steady_state(design: Design, system, isothermal: bool):
         return _part_losses(sol, face_depth), sol
 
     coil_sensitivity = None
-    if design.drive.current is not None:  # P = I^2 R(T) exactly
+    if design.drive.current is not None and len(design.windings) == 1:  # P = I^2 R(T) exactly
         a = design.coil.temperature_coefficient
         coil_sensitivity = lambda t: a / (1.0 + a * (t - 20.0))  # noqa: E731
     return solve_coupled(
@@ -633,9 +640,10 @@ def _electrical(
     losses = _part_losses(sol)
     z_coil = sol.coil_voltage / sol.coil_current
     ring_current = complex(sol.cell_current[sol.cells.part == RING].sum())
+    if sol.winding_current is not None:
+        ring_current = sol.winding_current  # the current in the winding's wire
     phase = ring_phase(ring_current, sol.coil_current) if design.ring is not None else 0.0
     pull_hold = math.nan if hold is None else float(sum(pull_by_source(hold).values()))
-    b_peak = core_peak_flux_density(design, sol)
     weight = design.target.density * design.target.volume * standard_gravity
     input_power = float(np.real(sol.coil_voltage * np.conj(sol.coil_current)))
     drive = design.drive
@@ -644,9 +652,7 @@ def _electrical(
     )
     va = supply.supply_VA
     rating_V, rating_var = (0.0, 0.0) if rating is None else rating
-    bsat = design.pole.saturation_at(core_C if math.isfinite(core_C) else 20.0)
-    core = sol.core
-    return Electrical(
+    electrical = Electrical(
         pull_N=pull,
         pull_by_source_N=split,
         target_loss_W=losses["target"],
@@ -659,8 +665,8 @@ def _electrical(
         coil_impedance_ohm=(float(z_coil.real), float(z_coil.imag)),
         ring_current_A=abs(ring_current),
         ring_phase_deg=phase,
-        core_peak_flux_density_T=b_peak,
-        pole_flux_density_T=pole_flux_density(design, sol),
+        core_peak_flux_density_T=math.nan,
+        pole_flux_density_T=math.nan,
         target_weight_N=weight,
         lift_ratio=pull / weight,
         pull_hold_N=pull_hold,
@@ -669,18 +675,16 @@ def _electrical(
         pull_uncertainty_N=math.nan,
         pull_uncertainty_relative=math.nan,
         power_factor=input_power / va if va > 0 else 0.0,
-        pole_mass_kg=pole_mass(design),
-        core_flux_fraction=b_peak / bsat if bsat else 0.0,
-        core_saturation_T=bsat if bsat else math.nan,
-        core_loss_W=0.0 if core is None else core.total,
-        core_eddy_loss_W=0.0 if core is None else core.eddy,
-        core_hysteresis_loss_W=0.0 if core is None else core.hysteresis,
-        core_excess_loss_W=0.0 if core is None else core.excess,
-        core_radial_flux_fraction=(
-            0.0
-            if sol.core_grid is None
-            else radial_flux_fraction(sol.core_grid, sol.cell_current, face_slab_depth(design))
-        ),
+        pole_mass_kg=math.nan,
+        core_flux_fraction=math.nan,
+        core_saturation_T=math.nan,
+        core_loss_W=math.nan,
+        core_eddy_loss_W=math.nan,
+        core_hysteresis_loss_W=math.nan,
+        core_excess_loss_W=math.nan,
+        core_radial_flux_fraction=math.nan,
+        **_by_coil(design, sol),
+        **_ring_closing(design, sol, ring_current, losses.get("closing", 0.0)),
         pull_ripple_N=math.nan,
         hold_chatter_margin_N=math.nan,
         pick_time_ms=math.nan,
@@ -693,6 +697,82 @@ def _electrical(
         capacitor_rating_V=float(rating_V),
         capacitor_reactive_VA=float(rating_var),
     )
+    if design.pole is None:  # an air core: what needs the steel stays nan (JSON null)
+        return electrical
+    return dataclasses.replace(electrical, **_steel_results(design, sol, core_C))
+
+
+def _by_coil(design: Design, sol: CircuitSolution) -> dict:
+    """Each coil's loss [W], resistance [Ohm] and signed ampere-turns [A] by its index ("0",
+    "1", ...): R_k at the coil node's temperature (the coils share one node and one temperature
+    coefficient per material: R_k(T) = R(T) R_k(20) / R(20) for coils of one wire material;
+    each coil's own coefficient otherwise)."""
+    coils = design.windings
+    i2 = abs(sol.coil_current) ** 2
+    if len(coils) == 1:
+        r = {"0": float(sol.coil_resistance)}
+    else:
+        t = _coil_temperature(coils, sol.coil_resistance)
+        r = {str(k): float(c.resistance(t)) for k, c in enumerate(coils)}
+    return {
+        "coil_loss_by_coil_W": {k: float(i2 * v) for k, v in r.items()},
+        "coil_resistance_by_coil_ohm": r,
+        "ampere_turns_by_coil_A": {
+            str(k): float(c.sense * c.turns * abs(sol.coil_current)) for k, c in enumerate(coils)
+        },
+    }
+
+
+def _ring_closing(design: Design, sol: CircuitSolution, ring_current: complex, loss: float):
+    """A shading winding's ampere-turns [A], the voltage across its closing part [V rms], the
+    capacitor's reactive power [var] (its rating) and the closing resistor's loss [W]; a solid
+    ring is one turn with no closing part (nan), no ring none at all."""
+    ring = design.ring
+    turns = 0 if ring is None else (ring.turns if ring.winding else 1)
+    out = {
+        "ring_ampere_turns_A": float(turns * abs(ring_current)),
+        "ring_closing_voltage_V": math.nan,
+        "ring_capacitor_var": math.nan,
+        "ring_closing_loss_W": float(loss),
+    }
+    if sol.winding_current is not None:
+        i = abs(sol.winding_current)
+        out["ring_closing_voltage_V"] = float(i * abs(sol.winding_closing))
+        if ring.capacitance is not None:
+            out["ring_capacitor_var"] = float(i * i / (sol.omega * ring.capacitance))
+    return out
+
+
+def _coil_temperature(coils, resistance: float) -> float:
+    """The coils' common temperature [degC] at which their resistances sum to ``resistance``
+    [Ohm] (linear in T: one division)."""
+    r20 = sum(c.resistance(20.0) for c in coils)
+    slope = sum(c.resistance(21.0) for c in coils) - r20
+    return 20.0 + (resistance - r20) / slope
+
+
+def _steel_results(design: Design, sol: CircuitSolution, core_C: float) -> dict:
+    """The results that need the pole's steel: its flux densities and their fraction of
+    saturation, its mass, its losses."""
+    b_peak = core_peak_flux_density(design, sol)
+    bsat = design.pole.saturation_at(core_C if math.isfinite(core_C) else 20.0)
+    core = sol.core
+    return {
+        "core_peak_flux_density_T": b_peak,
+        "pole_flux_density_T": pole_flux_density(design, sol),
+        "pole_mass_kg": pole_mass(design),
+        "core_flux_fraction": b_peak / bsat if bsat else 0.0,
+        "core_saturation_T": bsat if bsat else math.nan,
+        "core_loss_W": 0.0 if core is None else core.total,
+        "core_eddy_loss_W": 0.0 if core is None else core.eddy,
+        "core_hysteresis_loss_W": 0.0 if core is None else core.hysteresis,
+        "core_excess_loss_W": 0.0 if core is None else core.excess,
+        "core_radial_flux_fraction": (
+            0.0
+            if sol.core_grid is None
+            else radial_flux_fraction(sol.core_grid, sol.cell_current, face_slab_depth(design))
+        ),
+    }
 
 
 def _with_error_bar(electrical: Electrical, design: Design, fineness, temperatures) -> Electrical:
@@ -780,12 +860,10 @@ def pull_cancellation(split: dict) -> float:
 def _thermal(design: Design, state, part: PickState, electrical: Electrical) -> Thermal:
     """The temperatures of the steady state and of the part (arriving, held), the thermal
     assumptions behind them, the margins to every limit and the time to them."""
-    temps = {
-        "coil": state.coil_hot_spot_C,
-        "coil_mean": state.temperature("coil"),
-        "core": state.temperature("core"),
-        "face": state.temperature("face"),
-    }
+    temps = {"coil": state.coil_hot_spot_C, "coil_mean": state.temperature("coil")}
+    if design.pole is not None:  # an air core has neither
+        temps["core"] = state.temperature("core")
+        temps["face"] = state.temperature("face")
     if design.ring is not None:
         temps["ring"] = state.temperature("ring")
     temps["target"] = state.temperature("target")

@@ -110,6 +110,21 @@ class Electrical:
     capacitor_rating_V, capacitor_reactive_VA : its rms voltage [V] and reactive power [var] in
         its worst state (the highest voltage) over the gaps evaluated at the steady state and
         cold, and with no part present, hot and cold: what it must be bought for
+    coil_loss_by_coil_W : Joule loss of each coil [W], by its index in the file ("0" for
+        [coil]; "0", "1", ... for [[coils]]); they sum to coil_loss_W
+    coil_resistance_by_coil_ohm : each coil's winding resistance at the coil node's mean
+        temperature [Ohm] (the thermal network lumps several coils into one node)
+    ampere_turns_by_coil_A : sense x turns x coil_current_A of each coil [A rms]
+    ring_ampere_turns_A : turns x ring_current_A [A rms] (a solid ring: one turn); with a shading
+        winding (``[ring] turns``) ring_current_A is the current in its wire, ring_loss_W its
+        wire's loss, and ring_closing_voltage_V the voltage across what closes it [V rms],
+        ring_capacitor_var the capacitor's reactive power |I|^2 / (omega C) [var] (its rating
+        with the voltage), ring_closing_loss_W the closing resistor's loss [W] (outside the
+        magnet: in input_power_W, not in the ring's heat); nan (JSON null) where there is none
+
+    An air core (no [pole]) has no steel: pole_flux_density_T, core_peak_flux_density_T,
+    core_flux_fraction, core_saturation_T, pole_mass_kg, the core losses and
+    core_radial_flux_fraction are nan (JSON null with ``<key>_why``).
     """
 
     pull_N: float
@@ -153,6 +168,13 @@ class Electrical:
     capacitor_current_A: float
     capacitor_rating_V: float
     capacitor_reactive_VA: float
+    coil_loss_by_coil_W: dict
+    coil_resistance_by_coil_ohm: dict
+    ampere_turns_by_coil_A: dict
+    ring_ampere_turns_A: float
+    ring_closing_voltage_V: float
+    ring_capacitor_var: float
+    ring_closing_loss_W: float
 
 
 @dataclass(frozen=True)
@@ -160,7 +182,8 @@ class Thermal:
     """The thermal network's outputs (models.thermal; steady state at the duty-averaged losses).
 
     temperatures_C : [degC] "coil" (its hot spot), "coil_mean" (its mean, which sets its
-        resistance), "core", "face", "ring" (with a ring): the fixed parts at their duty-averaged
+        resistance; with several coils, their one lumped node: the hot spot is that of the coil
+        whose own rise is largest), "core", "face" (not for an air core), "ring" (with a ring): the fixed parts at their duty-averaged
         steady state; "target" (the part's steady state, were it to stay under the pole),
         "target_arrival" (as it arrives: the state of pull_N), "target_hold" (after the hold: the
         state of pull_hold_N), "ambient". Each temperature is stored here once; the
@@ -201,7 +224,8 @@ class Thermal:
 
     @property
     def core_temperature_C(self) -> float:
-        return self.temperatures_C["core"]
+        """The core's temperature [degC] (nan for an air core: no steel)."""
+        return self.temperatures_C.get("core", math.nan)
 
     @property
     def ring_temperature_C(self) -> float | None:
@@ -211,8 +235,8 @@ class Thermal:
 
     @property
     def face_temperature_C(self) -> float:
-        """The pole face's temperature [degC]."""
-        return self.temperatures_C["face"]
+        """The pole face's temperature [degC] (nan for an air core: no steel)."""
+        return self.temperatures_C.get("face", math.nan)
 
     @property
     def target_temperature_C(self) -> float:
@@ -321,6 +345,13 @@ FLAT_FIELDS = (
     ("electrical", "capacitor_rating_V"),
     ("electrical", "capacitor_reactive_VA"),
     ("", "out_of_depth"),
+    ("electrical", "coil_loss_by_coil_W"),
+    ("electrical", "coil_resistance_by_coil_ohm"),
+    ("electrical", "ampere_turns_by_coil_A"),
+    ("electrical", "ring_ampere_turns_A"),
+    ("electrical", "ring_closing_voltage_V"),
+    ("electrical", "ring_capacitor_var"),
+    ("electrical", "ring_closing_loss_W"),
 )
 _GROUP_OF = {name: group for group, name in FLAT_FIELDS if group}
 

@@ -19,6 +19,26 @@ _WHY = {
     ("pick_time_ms", "inf"): "never: the part stalls on its way to the holding gap (see warnings)",
     ("contact_speed_m_per_s", "nan"): "never reaches contact: the part stalls on the way",
     ("hold_chatter_margin_N", "nan"): "thermal runaway: the hold has no end state",
+    # an air core (no [pole]): what needs the steel is not a number (models.result.Electrical)
+    **{
+        (name, "nan"): "air core: the design has no pole (no steel)"
+        for name in (
+            "pole_flux_density_T",
+            "core_peak_flux_density_T",
+            "core_flux_fraction",
+            "pole_mass_kg",
+            "core_loss_W",
+            "core_eddy_loss_W",
+            "core_hysteresis_loss_W",
+            "core_excess_loss_W",
+            "core_radial_flux_fraction",
+            "core_temperature_C",
+            "face_temperature_C",
+        )
+    },
+    ("ring_closing_voltage_V", "nan"): "no shading winding: a solid ring (or none) has no "
+    "closing part",
+    ("ring_capacitor_var", "nan"): "no capacitor closes the ring",
 }
 
 

@@ -66,12 +66,17 @@ def _toml_value(value, where: str) -> str:
     )
 
 
+def _array_of_tables(value) -> bool:
+    """A non-empty list of tables (written as ``[[name]]`` sections)."""
+    return isinstance(value, list) and bool(value) and all(isinstance(v, dict) for v in value)
+
+
 def dumps_toml(data: dict, header: str = "") -> str:
     """TOML text of a dict of scalars, strings, lists and nested tables.
 
     Floats are written with ``repr`` (the shortest decimal that reads back to the same IEEE double),
     so ``tomllib.loads(dumps_toml(d)) == d`` for every finite value (TOML v1.0.0: floats,
-    basic strings with escapes, ``[a.b]`` table headers).
+    basic strings with escapes, ``[a.b]`` table headers, ``[[a]]`` arrays of tables of scalars).
 
     Parameters
     ----------
@@ -82,9 +87,11 @@ def dumps_toml(data: dict, header: str = "") -> str:
     lines = [f"# {line}".rstrip() for line in header.splitlines()]
 
     def table(d: dict, prefix: tuple[str, ...]):
+        arrays = [(k, v) for k, v in d.items() if _array_of_tables(v)]
         scalars = [(k, v) for k, v in d.items() if not isinstance(v, dict)]
+        scalars = [(k, v) for k, v in scalars if not _array_of_tables(v)]
         tables = [(k, v) for k, v in d.items() if isinstance(v, dict)]
-        if prefix and (scalars or not tables):
+        if prefix and (scalars or not (tables or arrays)):
             if lines:
                 lines.append("")
             lines.append("[" + ".".join(_toml_key(p) for p in prefix) + "]")
@@ -92,6 +99,15 @@ def dumps_toml(data: dict, header: str = "") -> str:
             lines.append(f"{_toml_key(k)} = {_toml_value(v, '.'.join([*prefix, str(k)]))}")
         for k, v in tables:
             table(v, (*prefix, str(k)))
+        for k, items in arrays:  # [[k]]: an array of tables of scalars ([[coils]])
+            name = ".".join(_toml_key(p) for p in (*prefix, str(k)))
+            for n, item in enumerate(items):
+                if lines:
+                    lines.append("")
+                lines.append(f"[[{name}]]")
+                for kk, vv in item.items():
+                    where = f"{name}.{n}.{kk}"
+                    lines.append(f"{_toml_key(kk)} = {_toml_value(vv, where)}")
 
     table(data, ())
     return "\n".join(lines) + "\n"

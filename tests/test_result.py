@@ -6,6 +6,7 @@ from __future__ import annotations
 import dataclasses
 import inspect
 import json
+import math
 import pickle
 
 import pytest
@@ -42,6 +43,9 @@ def test_flat_attributes_read_the_groups(result):
     assert list(d) == [n for _, n in FLAT_FIELDS]
     for group, name in FLAT_FIELDS:
         value = getattr(result, name)
+        if isinstance(value, float) and math.isnan(value):  # no closing part of a solid ring
+            assert math.isnan(getattr(getattr(result, group), name)) and math.isnan(d[name])
+            continue
         if group:
             assert value == getattr(getattr(result, group), name)
         assert d[name] == (list(value) if isinstance(value, tuple) else value)
@@ -68,6 +72,7 @@ def test_no_measured_looking_defaults():
 
 def test_pickles_and_stays_frozen(result):
     back = pickle.loads(pickle.dumps(result))
-    assert back.to_dict() == result.to_dict()
+    # compared as text: a solid ring's closing voltage is nan, and nan != nan
+    assert json.dumps(back.to_dict()) == json.dumps(result.to_dict())
     with pytest.raises(dataclasses.FrozenInstanceError):
         result.electrical.pull_N = 0.0  # type: ignore[misc]

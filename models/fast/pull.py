@@ -14,7 +14,7 @@ from __future__ import annotations
 
 import numpy as np
 
-from models.fast.circuit import COIL, RING, TARGET, CircuitSolution
+from models.fast.circuit import COIL, RING, TARGET, WINDING, CircuitSolution
 
 __all__ = ["net_pull", "pull_by_source"]
 
@@ -25,8 +25,8 @@ def pull_by_source(sol: CircuitSolution) -> dict[str, float]:
     tgt = part == TARGET
     i_t = sol.cell_current[tgt]
     out = {}
-    for name, label in (("coil", COIL), ("ring", RING)):
-        src = part == label
+    for name, labels in (("coil", (COIL,)), ("ring", (RING, WINDING))):
+        src = np.isin(part, labels)
         if not np.any(src):
             out[name] = 0.0
             continue

@@ -45,6 +45,9 @@ class Region:
     turns : int
         Turns of a stranded coil (> 0 only for role 'coil'); the coil carries the uniform density
         J_s = turns I / window area and no eddy currents (sigma must be 0).
+    sense : int
+        +1 or -1: the direction a coil's turns are wound in (J_s = sense turns I / window area);
+        the coils of one problem are in series, one current I through all.
 
     Regions are painted in order onto the mesh: a later region overrides an earlier one where they
     overlap (a groove is the pole region followed by the ring region). Uncovered space is air.
@@ -58,9 +61,12 @@ class Region:
     relative_permeability: float | complex = 1.0
     conductivity: float = 0.0
     turns: int = 0
+    sense: int = 1
 
     def __post_init__(self):
         problems = []
+        if self.sense not in (1, -1):
+            problems.append(f"region {self.role!r}: sense = {self.sense!r}: must be 1 or -1")
         if not (0.0 <= self.r0 < self.r1):
             problems.append(
                 f"region {self.role!r}: r0 = {self.r0!r}, r1 = {self.r1!r}: must satisfy 0 <= r0 < r1"
@@ -120,17 +126,23 @@ def design_regions(design) -> list[Region]:
     Returns
     -------
     list of Region
-        Roles 'pole', 'ring' (if any), 'coil', 'target'. A laminated pole (conductivity 0) has
+        Roles 'pole' (not for an air core), 'ring' (if any), 'coil' (one region per coil),
+        'target'. A laminated pole (conductivity 0) has
         sigma = 0 and, with sheet data, the complex homogenised permeability of its stack at the
         drive frequency (``design.pole.effective_permeability``; the sheets' eddy loss); without
         sheet data its real mu_r. A solid pole carries eddy currents.
     """
-    p, c, g = design.pole, design.coil, design.target
-    mu = p.effective_permeability(design.drive.frequency)
-    mu = mu if mu.imag != 0.0 else mu.real  # a real mu_r stays real (the lossless solve)
-    regions = [
-        Region("pole", 0.0, p.radius, -p.length, 0.0, mu, p.conductivity),
-    ]
+    p, g = design.pole, design.target
+    regions = []
+    if p is not None:  # an air core has none
+        mu = p.effective_permeability(design.drive.frequency)
+        mu = mu if mu.imag != 0.0 else mu.real  # a real mu_r stays real (the lossless solve)
+        regions.append(Region("pole", 0.0, p.radius, -p.length, 0.0, mu, p.conductivity))
+    if design.ring is not None and design.ring.winding:
+        raise DesignError(
+            f"ring.turns = {design.ring.turns}: the FEM reference models a solid ring only; a "
+            "shading winding is checked by the fast model alone"
+        )
     if design.ring is not None:
         ring = design.ring
         regions.append(
@@ -144,9 +156,18 @@ def design_regions(design) -> list[Region]:
                 ring.conductivity,
             )
         )
-    regions.append(
-        Region("coil", c.inner_radius, c.outer_radius, c.z_back, c.z_front, turns=c.turns)
-    )
+    for c in design.windings:  # every coil in series, each with its sense
+        regions.append(
+            Region(
+                "coil",
+                c.inner_radius,
+                c.outer_radius,
+                c.z_back,
+                c.z_front,
+                turns=c.turns,
+                sense=c.sense,
+            )
+        )
     regions.append(
         Region("target", g.inner_radius, g.radius, g.gap, g.gap + g.thickness, 1.0, g.conductivity)
     )

@@ -24,6 +24,7 @@ import scipy.sparse.linalg as spla
 from scipy.constants import mu_0
 from skfem import Basis, BilinearForm, ElementQuad2, LinearForm, MeshQuad, asm
 
+from models.coils import coils_resistance
 from models.core_loss import coil_current_with_core_loss
 from models.errors import DesignError
 from models.fem.core import (
@@ -109,7 +110,7 @@ def _element_materials(regions, owner):
             nu_e[sel] = 1.0 / (mu_0 * complex(reg.relative_permeability).real)
         sigma_e[sel] = reg.conductivity
         if reg.turns > 0:
-            js_e[sel] = reg.turns / reg.area  # per ampere
+            js_e[sel] = reg.sense * reg.turns / reg.area  # per ampere
     return nu_e, nu_im, sigma_e, js_e
 
 
@@ -188,7 +189,7 @@ def _flux_linkage(regions, coils, owner, av, dv) -> complex:
     for k in coils:
         sel = owner == k
         reg = regions[k]
-        flux_linkage += reg.turns / reg.area * np.sum(av[sel] * dv[sel])
+        flux_linkage += reg.sense * reg.turns / reg.area * np.sum(av[sel] * dv[sel])
     return flux_linkage
 
 
@@ -214,7 +215,7 @@ def _role_integrals(regions, owner, omega, av, br, bz, dv, da):
             continue
         j = -1j * omega * reg.conductivity * av[sel]
         if reg.turns > 0:
-            j = j + reg.turns / reg.area
+            j = j + reg.sense * reg.turns / reg.area
         loss[reg.role] = loss.get(reg.role, 0.0) + float(
             np.sum(omega**2 * reg.conductivity * np.abs(av[sel]) ** 2 * dv[sel])
         )
@@ -348,7 +349,7 @@ def _coil_current(drive, pole, unit, loss_at) -> complex:
     (`models.core_loss.coil_current_with_core_loss`; I = V / Z without a loss law)."""
     if drive.current is not None:
         return complex(drive.current)
-    if pole.core_loss is None:
+    if pole is None or pole.core_loss is None:
         return complex(drive.voltage) / unit.impedance
     return coil_current_with_core_loss(complex(drive.voltage), unit.impedance, loss_at)
 
@@ -387,7 +388,8 @@ def solve(design, refine: float = 1.0, far_factor: float = 1.0, options: MeshOpt
     Notes
     -----
     Materials at 20 degC (the design's conductivities); the winding resistance is
-    ``design.coil.resistance(20.0)``. Pull = -F_z(target) = Re int_target J B_r* dV, the force density
+    ``models.coils.coils_resistance(design, 20.0)`` (every coil in series). An air core (no
+    pole) has no steel: its core losses are 0, its pole flux density nan. Pull = -F_z(target) = Re int_target J B_r* dV, the force density
     being f = Re(J x B*) for rms phasors and e_phi x e_r = -e_z (see `solve_regions`).
 
     A laminated pole with sheet data is a lossy magnet of permeability
@@ -409,12 +411,15 @@ def solve(design, refine: float = 1.0, far_factor: float = 1.0, options: MeshOpt
         design_regions(design),
         drive.frequency,
         current=1.0,
-        coil_resistance=design.coil.resistance(20.0),
+        coil_resistance=coils_resistance(design, 20.0),
         refine=refine,
         far_factor=far_factor,
         options=options,
         keep_field=True,
     )
+    if pole is None:  # an air core: no steel, no core loss
+        i_coil = _coil_current(drive, pole, unit, None)
+        return _air_core_result(design, unit, i_coil, t0, refine, far_factor)
     b_unit, dv = pole_peak_flux_density(unit)  # per ampere of coil current
 
     def loss_at(i_abs: float) -> float:
@@ -443,6 +448,33 @@ def solve(design, refine: float = 1.0, far_factor: float = 1.0, options: MeshOpt
         ring_phase_deg=phase,
         pole_flux_density_T=_pole_mean_flux_density(sol, pole),
         core_radial_flux_fraction=field_crossing_fraction(unit, face_slab_depth(design)),
+        n_dofs=sol.n_dofs,
+        run_time_s=time.perf_counter() - t0,
+        refine=float(refine),
+        far_factor=float(far_factor),
+    )
+
+
+def _air_core_result(design, unit, i_coil: complex, t0: float, refine, far_factor):
+    """The FemResult of an air-core design (no pole): no core losses (0), the pole's flux
+    density and the radial flux fraction nan."""
+    sol = unit.scaled(i_coil)
+    return FemResult(
+        pull_N=-sol.force_z_N.get("target", 0.0),
+        target_loss_W=sol.loss_W.get("target", 0.0),
+        ring_loss_W=0.0,
+        pole_loss_W=0.0,
+        coil_loss_W=abs(i_coil) ** 2 * sol.coil_resistance,
+        core_eddy_loss_W=0.0,
+        core_hysteresis_loss_W=0.0,
+        core_excess_loss_W=0.0,
+        coil_current_A=i_coil,
+        coil_voltage_V=sol.impedance * i_coil,
+        coil_impedance_ohm=sol.impedance,
+        ring_current_A=0.0j,
+        ring_phase_deg=math.nan,
+        pole_flux_density_T=math.nan,
+        core_radial_flux_fraction=math.nan,
         n_dofs=sol.n_dofs,
         run_time_s=time.perf_counter() - t0,
         refine=float(refine),

@@ -212,10 +212,15 @@ def build_network(design) -> ThermalNetwork:
       surfaces to the air. Lumped (its Biot number is small: a metal part of a few mm).
     """
     th = design.thermal
+    if design.pole is None:  # an air core: coil(s) and part only
+        net = _Assembly.start(th.orientation, False, steel=False)
+        hot_spot_factor = _add_coils(net, design, k_fe=None)
+        _add_target(net, design, 0.0, 0.0)
+        return net.finish(hot_spot_factor, design.target.gap, th)
     # a pole given by mu_r only takes the laminated steel's thermal values
     steel = _thermal_props(design.pole.material, _thermal_props("electrical-steel-m400", None))
     net = _Assembly.start(th.orientation, design.ring is not None)
-    hot_spot_factor = _add_coil(net, design, k_fe=steel[2])
+    hot_spot_factor = _add_coils(net, design, k_fe=steel[2])
     _add_pole(net, design, steel)
     covered_steel = _add_face(net, design)
     covered_ring = _add_ring(net, design) if design.ring is not None else 0.0
@@ -252,9 +257,11 @@ class _Assembly:
     notes: list = field(default_factory=list)
 
     @classmethod
-    def start(cls, orientation: str, has_ring: bool) -> _Assembly:
-        """No conductances yet, the nodes of a design with or without a ring."""
-        nodes = ["coil", "core", "face"] + (["ring"] if has_ring else []) + ["target"]
+    def start(cls, orientation: str, has_ring: bool, steel: bool = True) -> _Assembly:
+        """No conductances yet, the nodes of a design with or without a ring (an air core,
+        ``steel`` False: no core and face nodes)."""
+        nodes = ["coil"] + (["core", "face"] if steel else [])
+        nodes += (["ring"] if has_ring else []) + ["target"]
         face_down = orientation == "face-down"
         return cls(
             nodes=nodes,
@@ -301,11 +308,34 @@ class _Assembly:
         )
 
 
-def _add_coil(net: _Assembly, design, k_fe: float) -> float:
+def _add_coils(net: _Assembly, design, k_fe: float | None) -> float:
+    """The coil node of every coil of ``design``: one coil as ``_add_coil`` adds it; several
+    (``[[coils]]``) lumped into the one node (their capacities, links and surfaces side by
+    side: one mean winding temperature), the hot spot that of the coil whose own rise is the
+    largest, each taking its share R_k / R of the loss (one current in series). Returns the
+    hot-spot factor [K/W of the total coil loss]."""
+    coils = design.windings
+    if len(coils) == 1:
+        return _add_coil(net, design, coils[0], k_fe)
+    r_total = sum(c.resistance() for c in coils)
+    factors = [_add_coil(net, design, c, k_fe) * c.resistance() / r_total for c in coils]
+    cap = sum(_coil_capacity(c) for c in coils)
+    net.cap[net.ix("coil")] = cap
+    return max(factors)
+
+
+def _coil_capacity(c) -> float:
+    """Heat capacity of a coil's copper [J/K]."""
+    wire = MATERIALS.get(c.material, MATERIALS["copper"])
+    return c.turns * 2 * math.pi * c.mean_radius * c.wire_area * wire.density * wire.specific_heat
+
+
+def _add_coil(net: _Assembly, design, c, k_fe: float | None) -> float:
     """The coil node: its capacity and insulation limit, its link through bobbin and core to the
-    core node, its side and end surfaces (each behind a third of the winding's conduction
-    resistance). Returns the hot-spot factor [K/W]."""
-    th, p, c = design.thermal, design.pole, design.coil
+    core node (an air core, ``k_fe`` None: its bore to the air instead), its side and end
+    surfaces (each behind a third of the winding's conduction resistance). Returns the hot-spot
+    factor [K/W]."""
+    th, p = design.thermal, design.pole
     horizontal = net.horizontal
     ic = net.ix("coil")
     wire = MATERIALS.get(c.material, MATERIALS["copper"])
@@ -318,7 +348,7 @@ def _add_coil(net: _Assembly, design, k_fe: float) -> float:
     lc = c.length
     net.part(
         "coil",
-        c.turns * 2 * math.pi * r_m * c.wire_area * wire.density * wire.specific_heat,
+        _coil_capacity(c),
         min(COIL_MAX_TEMPERATURE_C, wire.max_temperature_C or math.inf),
         "the winding's insulation decomposes",
     )
@@ -326,14 +356,17 @@ def _add_coil(net: _Assembly, design, k_fe: float) -> float:
     r_out = math.log(c.outer_radius / r_m) / (2 * math.pi * k_w * lc) / 3.0
     a_end = math.pi * (c.outer_radius**2 - c.inner_radius**2)
     r_end = (lc / 2) / (k_w * a_end) / 3.0
-    r_bobbin = (
-        math.log(c.inner_radius / p.radius) / (2 * math.pi * BOBBIN_THERMAL_CONDUCTIVITY * lc)
-        if c.inner_radius > p.radius
-        else 0.0
-    )
-    r_core_side = 1.0 / (8 * math.pi * k_fe * lc)
-    net.links.append((ic, net.ix("core"), 1.0 / (r_in + r_bobbin + r_core_side)))
     side_kind, side_len = (CYLINDER, 2 * c.outer_radius) if horizontal else (VERTICAL, lc)
+    if p is None:  # an air core: the bore is an outer surface (taken as a cylinder's side)
+        net.surfaces.append((ic, 2 * math.pi * c.inner_radius * lc, side_kind, side_len, r_in))
+    else:
+        r_bobbin = (
+            math.log(c.inner_radius / p.radius) / (2 * math.pi * BOBBIN_THERMAL_CONDUCTIVITY * lc)
+            if c.inner_radius > p.radius
+            else 0.0
+        )
+        r_core_side = 1.0 / (8 * math.pi * k_fe * lc)
+        net.links.append((ic, net.ix("core"), 1.0 / (r_in + r_bobbin + r_core_side)))
     net.surfaces.append((ic, 2 * math.pi * c.outer_radius * lc, side_kind, side_len, r_out))
     end_len = build_r / 2  # area / perimeter of an annulus
     for kind in (net.toward_face, net.away):
@@ -343,11 +376,13 @@ def _add_coil(net: _Assembly, design, k_fe: float) -> float:
     return min(build_r, lc) ** 2 / (24 * k_w * volume)
 
 
-def face_slab_thickness(design) -> float:
+def face_slab_thickness(design) -> float | None:
     """Thickness [m] of the pole's face node: at least the groove (whose volume it loses), else a
     tenth to half of the pole; the core node keeps the rest (the groove is shallower than the
-    pole, models.design)."""
+    pole, models.design). None for an air core."""
     p, ring = design.pole, design.ring
+    if p is None:
+        return None  # an air core has no steel
     depth = ring.depth if ring is not None else 0.0
     return max(min(max(depth, 0.1 * p.length), 0.5 * p.length), depth)
 
@@ -355,7 +390,7 @@ def face_slab_thickness(design) -> float:
 def _add_pole(net: _Assembly, design, steel) -> None:
     """The face slab and the core behind it: capacities, their link, the core's back and the
     pole's side beyond the coil (core) and between coil and face (face)."""
-    p, c, ring = design.pole, design.coil, design.ring
+    p, ring = design.pole, design.ring
     horizontal = net.horizontal
     rho_fe, c_fe, k_fe, ceil_fe, why_fe = steel
     area_p = math.pi * p.radius**2
@@ -372,14 +407,15 @@ def _add_pole(net: _Assembly, design, steel) -> None:
     r_back = l_core / (3 * k_fe * area_p)
     k_, length = net.plate(net.away, 2 * p.radius)
     net.surfaces.append((i_core, area_p, k_, length or p.radius / 2, r_back))
-    back_strip = p.length - c.setback - c.length
+    back_strip = min(p.length - c.setback - c.length for c in design.windings)
+    setback = min(c.setback for c in design.windings)
     side_kind = CYLINDER if horizontal else VERTICAL
     if back_strip > 0:
         length = 2 * p.radius if horizontal else back_strip
         net.surfaces.append((i_core, 2 * math.pi * p.radius * back_strip, side_kind, length, 0.0))
-    if c.setback > 0:
-        length = 2 * p.radius if horizontal else c.setback
-        net.surfaces.append((i_face, 2 * math.pi * p.radius * c.setback, side_kind, length, 0.0))
+    if setback > 0:
+        length = 2 * p.radius if horizontal else setback
+        net.surfaces.append((i_face, 2 * math.pi * p.radius * setback, side_kind, length, 0.0))
 
 
 def _add_face(net: _Assembly, design) -> float:

@@ -136,15 +136,48 @@ def out_of_depth_lines(result) -> list[str]:
     ]
 
 
+def _coil_rows(design, r) -> list[str]:
+    """One line per coil of several (``[[coils]]``): its ampere-turns and loss."""
+    if len(design.windings) < 2:
+        return []
+    return [
+        f"    coils.{k}          {c.turns} turns, sense {c.sense:+d}, "
+        f"{_w(r.ampere_turns_by_coil_A[str(k)])} A-turns, {_w(r.coil_loss_by_coil_W[str(k)])} W"
+        for k, c in enumerate(design.windings)
+    ]
+
+
+def _winding_rows(design, r) -> list[str]:
+    """A shading winding's ampere-turns, closing part and capacitor."""
+    if design.ring is None or not design.ring.winding:
+        return []
+    ring = design.ring
+    parts = []
+    if ring.capacitance is not None:
+        parts.append(f"{ring.capacitance * 1e6:.4g} uF ({_w(r.ring_capacitor_var)} var)")
+    if ring.closing_resistance is not None:
+        parts.append(f"{ring.closing_resistance:.4g} Ohm ({_w(r.ring_closing_loss_W)} W)")
+    return [
+        f"  shading winding    {ring.turns} turns, {_w(r.ring_ampere_turns_A)} A-turns, closed "
+        f"by {' + '.join(parts)} at {_w(r.ring_closing_voltage_V)} V rms"
+    ]
+
+
 def format_result(design, result) -> str:
     """A few lines an engineer reads: pull and where it comes from, costs, validity."""
     r = result
     a = r.thermal_assumptions
     split = r.pull_by_source_N
     verdict = "PULL (toward the face)" if r.pull_N > 0 else "PUSH (away from the face)"
+    form = "ring" if design.ring is not None else "plain pole (no ring)"
+    if design.ring is not None and design.ring.winding:
+        form = f"shading winding of {design.ring.turns} turns"
+    if design.pole is None:
+        form = "air core (no pole)"
+    if len(design.windings) > 1:
+        form += f", {len(design.windings)} coils in series"
     lines = out_of_depth_lines(r) + [
-        f"design {design.name}: {design.drive.frequency:g} Hz, "
-        f"{'ring' if design.ring is not None else 'plain pole (no ring)'}, "
+        f"design {design.name}: {design.drive.frequency:g} Hz, {form}, "
         f"target r = {design.target.radius * 1e3:g} mm at gap {design.target.gap * 1e3:g} mm",
         f"  pull               {r.pull_N * 1e3:+.4g} mN   {verdict}",
         f"    error bar        +-{r.pull_uncertainty_N * 1e3:.2g} mN "
@@ -167,6 +200,8 @@ def format_result(design, result) -> str:
         f"{_w(r.coil_voltage_V * r.coil_current_A)} VA, Z = {r.coil_impedance_ohm[0]:.4g} + j{r.coil_impedance_ohm[1]:.4g} "
         "Ohm",
         *_supply_lines(design, r),
+        *_coil_rows(design, r),
+        *_winding_rows(design, r),
         f"  ring current       {_w(r.ring_current_A)} A rms at {r.ring_phase_deg:+.1f} deg to the "
         "coil current",
         f"  core peak flux     {r.core_peak_flux_density_T:.3g} T",

@@ -446,8 +446,15 @@ def write_handoff(design, result, out_dir, meta: dict, verify: dict | None = Non
     Raises
     ------
     DesignError
-        ``out_dir`` is an existing file, or the design cannot be written back exactly.
+        ``out_dir`` is an existing file, or the design cannot be written back exactly, or it
+        has several coils or no pole (the profile and winding table draw one coil on a pole).
     """
+    if design.pole is None or len(design.windings) > 1:
+        raise DesignError(
+            f"design {design.name!r}: the hand-off (DXF profile, winding table) draws one coil "
+            "on a pole; a design with several [[coils]] or without [pole] is not handed off "
+            "(its design file and 'eddypull evaluate --json' carry every value)"
+        )
     out_dir = Path(out_dir)
     if out_dir.exists() and not out_dir.is_dir():
         raise DesignError(f"out_dir = {str(out_dir)!r}: is a file; must be a folder")

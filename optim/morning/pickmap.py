@@ -32,6 +32,7 @@ from pathlib import Path
 
 import numpy as np
 
+from models.coils import COILS_KEYS
 from models.design import DESIGN_KEYS, edit, resolve_key
 from models.errors import DesignError
 from optim.morning.sweep import DEFAULT_POINTS, outside_checked_range
@@ -114,7 +115,7 @@ def _numeric_key(design, key: str, flag: str) -> str:
         table, k = resolve_key(design, key)
     except DesignError as err:
         raise DesignError(f"{flag} {err}") from None
-    kind = DESIGN_KEYS[table][k][0]
+    kind = (COILS_KEYS if table.startswith("coils.") else DESIGN_KEYS[table])[k][0]
     if kind not in _NUMERIC:
         raise DesignError(f"{flag} {table}.{k}: not a numeric design key (it holds {kind})")
     if table == "ring" and design.ring is None:
@@ -159,8 +160,12 @@ def parse_axis(design, text: str, points: int | None = None, flag: str = "--x") 
 
 def _file_value(design, key: str):
     """The design file's value of ``key`` (``table.key``), None when the file leaves it out."""
-    table, k = key.split(".", 1)
-    value = (design.source.get(table) or {}).get(k)
+    table, k = key.rsplit(".", 1)
+    if table.startswith("coils."):  # coils.N.key
+        coils = design.source.get("coils") or []
+        value = coils[int(table.split(".")[1])].get(k)
+    else:
+        value = (design.source.get(table) or {}).get(k)
     return float(value) if isinstance(value, (int, float)) and not isinstance(value, bool) else None
 
 

@@ -205,9 +205,11 @@ def _make(design, key: str, value: float, relative: bool, origin: str) -> Tolera
 
 def default_tolerances(design) -> list[Tolerance]:
     """The default tolerances that apply to ``design`` (a design without a ring has none of the
-    ring's), in ``DEFAULTS`` order with the drive's current or voltage before its frequency."""
+    ring's, an air core none of the pole's), in ``DEFAULTS`` order with the drive's current or voltage before its frequency."""
     items = dict(DEFAULTS)
     items = {k: v for k, v in items.items() if not (k.startswith("ring.") and design.ring is None)}
+    if design.pole is None:  # an air core has none of the pole's
+        items = {k: v for k, v in items.items() if not k.startswith("pole.")}
     freq = items.pop("drive.frequency_Hz")
     items[_drive_key(design)] = (DRIVE_DEFAULT, True)
     items["drive.frequency_Hz"] = freq

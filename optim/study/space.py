@@ -57,6 +57,7 @@ from __future__ import annotations
 import math
 from dataclasses import dataclass
 
+from models.coils import COILS_KEYS, coil_table_key
 from models.design import (
     DESIGN_KEYS,
     MAX_FILL_FACTOR,
@@ -234,6 +235,11 @@ def _key_and_kind(name: str, keys: dict, valid_names: list, problems: list[str])
     if name in FRACTIONS:
         return None, "fraction"
     key = ALIASES.get(name, name)
+    numbered = coil_table_key(key)
+    if numbered is not None and numbered[1] in COILS_KEYS:
+        kind = COILS_KEYS[numbered[1]][0]
+        if kind in _NUMERIC or kind in _TEXT:
+            return key, kind  # "coils.N.key": a key of the base design's coil N (from 0)
     if key not in keys:
         problems.append(
             f"search.{name}: unknown parameter; allowed: {', '.join([*ALIASES, *FRACTIONS])} "
@@ -506,23 +512,30 @@ def design_source(base: dict, params: list[Parameter], values: dict) -> dict:
         steel's saturation flux density), unless the trial sets them itself.
     """
     data = {k: (dict(v) if isinstance(v, dict) else v) for k, v in base.items()}
+    if isinstance(base.get("coils"), list):
+        data["coils"] = [dict(c) if isinstance(c, dict) else c for c in base["coils"]]
     by_key = {p.key: values[p.name] for p in params if p.key is not None}
     text = {p.key for p in params if p.categorical}
-    pole0 = base["pole"]["radius_mm"]
+    pole0 = base.get("pole", {}).get("radius_mm")
     for key, value in by_key.items():
-        table, k = key.split(".", 1)
+        numbered = coil_table_key(key)
+        table, k = key.rsplit(".", 1) if numbered else key.split(".", 1)
         if key in text:
             value = str(value)
         else:
             value = int(round(value)) if k == "turns" else float(value)
-        data.setdefault(table, {})[k] = value
+        if numbered is not None:
+            _coil_table(data, key, numbered[0])[k] = value
+        else:
+            data.setdefault(table, {})[k] = value
+    _coils_follow(base, data, by_key)
     for table, (refused, overrides) in SET_BY_MATERIAL.items():
         if f"{table}.material" in by_key:
             for k in (*refused, *overrides):
                 if f"{table}.{k}" not in by_key:
                     data[table].pop(k, None)
-    pole = data["pole"]["radius_mm"]
-    if pole != pole0:
+    pole = data.get("pole", {}).get("radius_mm")
+    if pole != pole0 and "coil" in data:
         coil = data["coil"]
         for k in ("inner_radius_mm", "outer_radius_mm"):
             if f"coil.{k}" not in by_key:
@@ -547,6 +560,38 @@ def design_source(base: dict, params: list[Parameter], values: dict) -> dict:
         ring["outer_radius_mm"] = float(outer)
         ring["inner_radius_mm"] = float(inner_fraction * outer)
     return data
+
+
+def _coil_table(data: dict, key: str, n: int) -> dict:
+    """Coil ``n`` of a design's ``[[coils]]`` (DesignError when the base has no such coil)."""
+    coils = data.get("coils")
+    if not isinstance(coils, list) or n >= len(coils) or not isinstance(coils[n], dict):
+        count = len(coils) if isinstance(coils, list) else 0
+        raise DesignError(
+            f"search.{key}: the base design has {count} [[coils]] table(s); N counts from 0"
+        )
+    return coils[n]
+
+
+def _coils_follow(base: dict, data: dict, by_key: dict) -> None:
+    """[[coils]] follow a searched pole radius and their own searched turns as [coil] does
+    (radii shifted with the pole unless searched; a given wire scaled to keep the copper)."""
+    coils = data.get("coils")
+    if not isinstance(coils, list):
+        return
+    pole0 = base.get("pole", {}).get("radius_mm")
+    pole = data.get("pole", {}).get("radius_mm")
+    for n, coil in enumerate(coils):
+        b = base["coils"][n]
+        if pole != pole0:
+            for k in ("inner_radius_mm", "outer_radius_mm"):
+                if f"coils.{n}.{k}" not in by_key:
+                    coil[k] = b[k] + (pole - pole0)
+        if f"coils.{n}.turns" in by_key and "wire_diameter_mm" in b:
+            if f"coils.{n}.wire_diameter_mm" not in by_key:
+                coil["wire_diameter_mm"] = b["wire_diameter_mm"] * math.sqrt(
+                    b["turns"] / coil["turns"]
+                )
 
 
 def build_design(base: dict, params: list[Parameter], values: dict, name: str) -> Design:
