@@ -434,7 +434,7 @@ def test_torn_last_journal_line_is_cut_and_kept(tmp_path):
     journal = folder / "journal.log"
     whole = journal.read_bytes()
     journal.write_bytes(whole + b'{"op_code": 5, "worker_id": "x", "trial_id"')  # torn write
-    assert main(["study", "run", str(path), "--trials", "2", "--out", str(folder)]) == 0
+    assert main(["study", "run", str(path), "--more", "2", "--out", str(folder)]) == 0
     kept = list(folder.glob("journal.log.torn-*"))
     assert len(kept) == 1 and kept[0].read_bytes().startswith(b'{"op_code": 5')
     assert _count(folder) == (6, 0)

@@ -448,14 +448,18 @@ def _journal_file_class():
 _JOURNAL_FILE = None
 
 
-def journal_backend(path):
-    """optuna's file backend of the journal at ``path`` with eddypull's rules (its class is made
-    on first use, optuna being imported late): torn records harmless to write after and read
-    past."""
+def journal_file_class():
+    """The class of ``journal_backend`` (made on first use: optuna is imported late)."""
     global _JOURNAL_FILE
     if _JOURNAL_FILE is None:
         _JOURNAL_FILE = _journal_file_class()
-    return _JOURNAL_FILE(str(path))
+    return _JOURNAL_FILE
+
+
+def journal_backend(path):
+    """optuna's file backend of the journal at ``path`` with eddypull's rules: torn records
+    harmless to write after and read past."""
+    return journal_file_class()(str(path))
 
 
 class JournalLedger:

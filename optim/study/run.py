@@ -141,7 +141,13 @@ def prepare(spec, location, note=None):
     journal's existing study is read by one pass over its records' heads). ``note`` (a function
     of one line; default: a warning on stderr) hears what was set aside or skipped."""
     from optim.study.ledger import JournalLedger, LedgerUnfit, open_ledger
-    from optim.study.storage import JOURNAL, check_stored, journal_damage_note, repair_journal
+    from optim.study.storage import (
+        JOURNAL,
+        SPEC_ATTR,
+        check_stored,
+        journal_damage_note,
+        repair_journal,
+    )
 
     note = note or logging.getLogger("eddypull").warning
     if not is_url(str(location)):
@@ -159,6 +165,8 @@ def prepare(spec, location, note=None):
                 note(damaged)
         if ledger is not None and FINGERPRINT_ATTR in ledger.user_attrs:
             check_stored(ledger.user_attrs, ledger.directions, spec)
+            if SPEC_ATTR not in ledger.user_attrs:  # its record was damaged: the same study's
+                ledger.set_user_attr(SPEC_ATTR, spec.to_json())
             _result_names(ledger, spec)
             return ledger, str(path)
     storage, where = open_storage(location)

@@ -227,7 +227,10 @@ class StorageFault(Exception):
 
 #: What to do, by the server's or the driver's own words (first match).
 _HINTS = (
-    (r"refused|could not connect|timed? ?out", "is the server running and listening there?"),
+    (
+        r"refused|could not connect|timed? ?out",
+        "is the server running on that host and accepting TCP/IP connections?",
+    ),
     (
         r"password authentication failed|no password supplied|authentication",
         "check the user name and password (in the URL, EDDYPULL_STORAGE_URL or the password file)",
@@ -304,6 +307,8 @@ def storage_fault(err: BaseException, location, doing: str = "failed") -> Storag
 
     words = redact_text(_server_words(err), location)
     hint = next((h for pattern, h in _HINTS if re.search(pattern, words, re.I)), None)
+    if hint and hint.lower().rstrip("?") in words.lower():  # the driver said it already
+        hint = None
     where = redact_url(str(location)) if is_url(str(location)) else str(location)
     server = f" ({_server_of(str(location))})" if is_url(str(location)) else ""
     return StorageFault(
@@ -338,10 +343,11 @@ def _rdb_storage(location: str, create: bool):
     raise AssertionError("unreachable")
 
 
-def open_storage(location, repair: bool = True, create: bool = True):
+def open_storage(location, repair: bool = True, create: bool = True, notes=None):
     """An optuna storage for a study folder's journal (a Path) or a database URL (a str).
 
-    Returns (storage, description) with the description safe to print.
+    Returns (storage, description) with the description safe to print. What a journal's
+    reading set aside or skipped goes to ``notes`` (a list) when given, else to the warnings.
     """
 
     if is_url(location):
@@ -353,6 +359,11 @@ def open_storage(location, repair: bool = True, create: bool = True):
                     f"storage = {redact_url(location)!r}: not a database URL that can be used "
                     f"({redact_text(_server_words(err), location)[:200]}); write it as "
                     "postgresql://USER@HOST:PORT/DATABASE"
+                ) from None
+            if "unable to open database file" in _server_words(err):  # SQLite: a bad path
+                raise DesignError(
+                    f"storage = {redact_url(location)!r}: the database file cannot be opened "
+                    "(no such folder, or no permission)"
                 ) from None
             raise storage_fault(err, location, "cannot be opened") from None
         return storage, redact_url(location)
@@ -367,7 +378,9 @@ def open_storage(location, repair: bool = True, create: bool = True):
     backend = journal_backend(path)
     storage = JournalStorage(backend)
     for line in (note, journal_damage_note(path, backend.damage.items())):
-        if line:
+        if line and notes is not None:
+            notes.append(line)
+        elif line:
             logging.getLogger("eddypull").warning(line)
     return storage, str(path)
 
@@ -477,7 +490,8 @@ def load_existing(location, name: str | None = None):
             raise DesignError(
                 f"study {str(location)!r}: no {JOURNAL} there; give a study folder or a URL"
             )
-    storage, where = open_storage(location, repair=False, create=False)
+    notes: list[str] = []
+    storage, where = open_storage(location, repair=False, create=False, notes=notes)
     try:
         try:
             summaries = optuna.get_all_study_summaries(storage, include_best_trial=False)
@@ -504,6 +518,8 @@ def load_existing(location, name: str | None = None):
     except BaseException:
         release(storage)
         raise
+    for line in notes:  # said once the study is found (a file of nothing but damage is refused)
+        logging.getLogger("eddypull").warning(line)
     return study, spec, where
 
 
