@@ -22,7 +22,7 @@ import pytest
 
 from optim.study.columns import open_readout
 from optim.study.ledger import JournalLedger, journal_backend, split_line
-from optim.study.storage import load_existing, rewrite_journal
+from optim.study.storage import load_existing
 from tests.conftest import ROOT
 from tests.test_study import QUICK, _study_file
 
