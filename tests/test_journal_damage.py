@@ -280,7 +280,9 @@ def test_the_journal_backend_starts_a_record_on_a_new_line(tmp_path):
     journal = tmp_path / "journal.log"
     journal.write_bytes(b'{"op_code":0,"worker_id":"w","study_name":"x","directions":[1]}\n{"op')
     journal_backend(journal).append_logs([{"op_code": 2, "study_id": 0, "user_attr": {"a": 1}}])
-    assert journal.read_bytes().endswith(b'\n{"op\n{"op_code":2,"study_id":0,"user_attr":{"a":1}}\n')
+    assert journal.read_bytes().endswith(
+        b'\n{"op\n{"op_code":2,"study_id":0,"user_attr":{"a":1}}\n'
+    )
 
 
 @pytest.mark.parametrize("command", ["status", "front", "export"])
@@ -300,3 +302,31 @@ def test_a_server_that_cannot_be_reached_is_named_in_one_line(capsys, command):
     )
     assert "Connection refused" in line and "s3cret" not in line
     assert "An exception is raised during the commit" not in line
+
+
+@pytest.mark.parametrize("code", ["ENOSPC", "EROFS", "EACCES"])
+def test_a_folder_that_takes_no_file_is_named_not_a_temporary_file(
+    clean, tmp_path, code, capsys, monkeypatch
+):
+    """``study front`` on a full, read-only or foreign disk: one line naming the folder and the
+    file; a full or read-only disk is a fault at run time (exit code 1), no permission bad
+    input (2)."""
+    import errno
+    import tempfile
+
+    from optim.cli import main
+
+    _, data, _ = clean
+    folder = tmp_path / "s"
+    _write(folder, data)
+    number = getattr(errno, code)
+
+    def refuse(*args, **kwargs):
+        raise OSError(number, os.strerror(number), str(folder / ".front.csv.x.tmp.csv"))
+
+    monkeypatch.setattr(tempfile, "mkstemp", refuse)
+    rc = main(["study", "front", str(folder), "--no-pick-maps", "--no-tolerance"])
+    (line,) = capsys.readouterr().err.strip().splitlines()
+    assert rc == (2 if code == "EACCES" else 1)
+    assert line.startswith(f"eddypull: error: {folder}: cannot write ") and ".tmp" not in line
+    assert f"there ({os.strerror(number)})" in line

@@ -169,3 +169,36 @@ def test_password_never_reaches_outputs(tmp_path):
             texts.append(path.read_bytes().decode("utf-8", "replace"))
     assert any("***" in t for t in texts)  # the URL is shown, redacted
     assert all(PASSWORD not in t for t in texts)
+
+
+@pytest.mark.slow
+def test_status_and_front_beside_a_live_run_on_two_workers(tmp_path, capsys):
+    """A study watched while two workers write to it: every `study status` and `study front`
+    reads one consistent snapshot (no IndexError from trials that arrived meanwhile) and the
+    counts only grow."""
+    from optim.cli import main
+
+    name = f"pglive-{uuid.uuid4().hex[:8]}"
+    study_file = _study(tmp_path, name)
+    args = ("study", "run", str(study_file), "--storage", URL, "--workers", "2")
+    args += ("--minutes", "0.6", "--out", str(tmp_path / "o"), "--json")
+    seen, reads, fronts = 0, 0, 0
+    with eddypull(*args) as proc:
+        while proc.poll() is None:
+            capsys.readouterr()
+            code = main(["study", "status", URL, "--name", name, "--json"])
+            out, err = capsys.readouterr()
+            if code == 2 and "no study" in err:  # not created yet
+                time.sleep(0.5)
+                continue
+            assert code == 0, err
+            n = json.loads(out)["trials"]
+            assert n >= seen
+            seen, reads = n, reads + 1
+            if fronts < 2 and n > 5:
+                front = ["study", "front", URL, "--name", name, "--out", str(tmp_path / f"f{n}")]
+                assert main([*front, "--no-pick-maps", "--no-tolerance"]) == 0
+                fronts += 1
+        out, err = proc.communicate(timeout=120)
+    assert proc.returncode == 0, err
+    assert reads >= 5 and fronts == 2
