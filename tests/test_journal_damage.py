@@ -330,3 +330,31 @@ def test_a_folder_that_takes_no_file_is_named_not_a_temporary_file(
     assert rc == (2 if code == "EACCES" else 1)
     assert line.startswith(f"eddypull: error: {folder}: cannot write ") and ".tmp" not in line
     assert f"there ({os.strerror(number)})" in line
+
+
+def test_a_database_readout_is_one_snapshot_while_trials_arrive(clean, tmp_path):
+    """A database study read while workers write: each read of its trials finds more (here one
+    more each time, as a live PostgreSQL study did); the count, the columns and every trial by
+    number come from one snapshot (the IndexError of a table sized from an earlier count)."""
+    from optim.study.columns import StudyReadout
+
+    _, data, _ = clean
+    folder = tmp_path / "s"
+    _write(folder, data)
+    ledger = JournalLedger(folder / "journal.log", "dmg")
+    trials = ledger.recent(8)
+
+    class Growing:
+        user_attrs = ledger.user_attrs
+        reads = 4
+
+        def get_trials(self, deepcopy=False):
+            Growing.reads += 1
+            return trials[: min(Growing.reads, 8)]
+
+    readout = StudyReadout(Growing(), ledger.user_attrs["eddypull_spec"], "db")
+    n = readout.n_trials
+    cols = readout.columns()
+    assert cols.n == n == len(readout.get_trials()) == 5
+    assert list(cols.data["trial"]) == [0, 1, 2, 3, 4]
+    assert readout.trial(4).params == trials[4].params

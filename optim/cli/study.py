@@ -154,9 +154,13 @@ def _cmd_repair(args) -> int:
 
 def _cmd_status(args) -> int:
     from optim.morning.front import format_status, status_summary
+    from optim.study.storage import release
 
     study, spec_json, where = _open(args)
-    s = status_summary(study, spec_json)
+    try:
+        s = status_summary(study, spec_json)
+    finally:
+        release(study)  # a database's connections closed
     print(strict_json(s) if args.json else format_status(s, where))
     return 0
 
@@ -173,16 +177,20 @@ def _cmd_results(args) -> int:
 
 def _cmd_front(args) -> int:
     from optim.morning.outputs import write_front
+    from optim.study.storage import release
 
     study, spec_json, where = _open(args)
-    out = write_front(
-        study,
-        spec_json,
-        where,
-        _folder_for(args.location, spec_json, args.out),
-        pick_maps=False if args.no_pick_maps else None,
-        tolerance=False if args.no_tolerance else None,
-    )
+    try:
+        out = write_front(
+            study,
+            spec_json,
+            where,
+            _folder_for(args.location, spec_json, args.out),
+            pick_maps=False if args.no_pick_maps else None,
+            tolerance=False if args.no_tolerance else None,
+        )
+    finally:
+        release(study)
     for line in out["lines"]:
         print(line)
     return 0
@@ -193,21 +201,26 @@ def _cmd_export(args) -> int:
 
     if (args.trial is None) == (args.best is None):
         raise UsageError("export: give exactly one of --trial N and --best OBJECTIVE")
+    from optim.study.storage import release
+
     study, spec_json, where = _open(args)
     folder = _folder_for(args.location, spec_json, None)
-    paths = export_trial(
-        study,
-        spec_json,
-        where,
-        folder,
-        trial=args.trial,
-        best=args.best,
-        out=args.out,
-        verify=args.verify,
-        echo=print,
-        resolution_mm=args.resolution_mm,
-        tolerance=args.tolerance,
-    )
+    try:
+        paths = export_trial(
+            study,
+            spec_json,
+            where,
+            folder,
+            trial=args.trial,
+            best=args.best,
+            out=args.out,
+            verify=args.verify,
+            echo=print,
+            resolution_mm=args.resolution_mm,
+            tolerance=args.tolerance,
+        )
+    finally:
+        release(study)
     for name, path in paths.items():
         print(f"{name:16s} {path}")
     return 0

@@ -17,6 +17,7 @@ from __future__ import annotations
 import json
 import logging
 import os
+import re
 import time
 import uuid
 from pathlib import Path
@@ -303,8 +304,6 @@ def _server_of(location: str) -> str:
 def storage_fault(err: BaseException, location, doing: str = "failed") -> StorageFault:
     """One line for a database error: the URL (password hidden), host and port, database, the
     server's own words and what to do."""
-    import re
-
     words = redact_text(_server_words(err), location)
     hint = next((h for pattern, h in _HINTS if re.search(pattern, words, re.I)), None)
     if hint and hint.lower().rstrip("?") in words.lower():  # the driver said it already
@@ -314,6 +313,17 @@ def storage_fault(err: BaseException, location, doing: str = "failed") -> Storag
     return StorageFault(
         f"storage {where}{server}: {doing}: {words}" + (f"; {hint}" if hint else "")
     )
+
+
+def _dispose_half_made(err: BaseException) -> None:
+    """Close the connections of a database storage whose construction failed (optuna's
+    RDBStorage checks its tables after making its engine; the engine would be left open)."""
+    tb = err.__traceback__
+    while tb is not None:
+        engine = getattr(tb.tb_frame.f_locals.get("self"), "engine", None)
+        if engine is not None and hasattr(engine, "dispose"):
+            engine.dispose()
+        tb = tb.tb_next
 
 
 def _malformed_url(err: BaseException) -> bool:
@@ -354,6 +364,16 @@ def open_storage(location, repair: bool = True, create: bool = True, notes=None)
         try:
             storage = _rdb_storage(location, create)
         except Exception as err:  # sqlalchemy/driver errors: one line, no password
+            _dispose_half_made(err)
+            if re.search(
+                r"(relation|table:?) \W?version_info\W? does not exist|no such table: "
+                r"version_info",
+                _server_words(err),
+            ):
+                raise DesignError(
+                    f"storage = {redact_url(location)!r}: the database holds no study yet "
+                    "(none of optuna's tables)"
+                ) from None
             if _malformed_url(err):
                 raise DesignError(
                     f"storage = {redact_url(location)!r}: not a database URL that can be used "
