@@ -358,3 +358,60 @@ def test_a_database_readout_is_one_snapshot_while_trials_arrive(clean, tmp_path)
     assert cols.n == n == len(readout.get_trials()) == 5
     assert list(cols.data["trial"]) == [0, 1, 2, 3, 4]
     assert readout.trial(4).params == trials[4].params
+
+
+def test_a_budget_is_the_study_total_and_more_adds_to_it(tmp_path, capsys):
+    """[run] trials / --trials: the study's total (a rerun after a stop makes what is missing,
+    nothing once it is reached); --more N: N beyond what is there; the first lines say which."""
+    from optim.cli import main
+
+    path = _study_file(tmp_path, "budget", QUICK.replace("[run]\n", "[run]\ntrials = 3\n"))
+    folder = tmp_path / "b"
+    for argv, total, says in (
+        ([], 3, "budget 3 trials in all (3 to run; --more N adds N beyond)"),
+        ([], 3, "budget 3 trials in all, reached (3 there): nothing to run"),
+        (["--trials", "4"], 4, "budget 4 trials in all (1 to run"),
+        (["--more", "2"], 6, "budget 2 more trials (6 in all)"),
+    ):
+        capsys.readouterr()
+        assert main(["study", "run", str(path), "--out", str(folder), *argv]) == 0
+        out = capsys.readouterr().out
+        assert says in out.splitlines()[1]
+        assert f"the study now {total} trials" in out
+        assert len(load_existing(folder)[0].get_trials(deepcopy=False)) == total
+    assert main(["study", "run", str(path), "--trials", "2", "--more", "2"]) == 2
+    assert "give one" in capsys.readouterr().err
+
+
+def test_status_of_the_study_file_reads_its_study(tmp_path, capsys):
+    from optim.cli import main
+
+    path = _study_file(tmp_path, "byfile", QUICK)
+    assert main(["study", "run", str(path), "--trials", "2"]) == 0  # studies/byfile beside it
+    capsys.readouterr()
+    assert main(["study", "status", str(path), "--json"]) == 0
+    assert json.loads(capsys.readouterr().out)["trials"] == 2
+
+
+def test_version(capsys):
+    from models.result import MODEL_VERSION
+    from optim.cli import main
+
+    with pytest.raises(SystemExit) as done:
+        main(["--version"])
+    assert done.value.code == 0
+    out = capsys.readouterr().out.strip()
+    assert out.startswith("eddypull ") and out.endswith(f"(fast model {MODEL_VERSION})")
+
+
+def test_a_changed_search_is_refused_naming_what_changed(tmp_path, capsys):
+    from optim.cli import main
+
+    path = _study_file(tmp_path, "changed", QUICK)
+    assert main(["study", "run", str(path), "--trials", "1", "--out", str(tmp_path / "c")]) == 0
+    text = path.read_text().replace("high = 6.0", "high = 7.0").replace("max = 60.0", "max = 50")
+    path.write_text(text)
+    capsys.readouterr()
+    assert main(["study", "run", str(path), "--more", "1", "--out", str(tmp_path / "c")]) == 2
+    (line,) = capsys.readouterr().err.strip().splitlines()
+    assert "(max 60.0 -> 50" in line and "[search] ring_depth_mm (high 6.0 -> 7.0)" in line

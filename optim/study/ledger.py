@@ -11,8 +11,8 @@ writes, and it reads what is new. So:
   ``limit`` records of them; afterwards each look reads the bytes appended since the last one. A
   trial is appended as the same record optuna's journal storage writes for a finished trial
   (``Study.add_trial``: one CREATE_TRIAL operation holding state, values, parameters and
-  attributes), through optuna's own file backend and lock, so any optuna reader of the file sees
-  it as its own. Trial numbers are counted as optuna counts them (the order of CREATE_TRIAL
+  attributes), through optuna's own file backend (``journal_backend``), so any optuna reader of
+  the file sees it as its own. Trial numbers are counted as optuna counts them (the order of CREATE_TRIAL
   records of the study).
 * **Database** (``DatabaseLedger``): the storage itself, bypassing the caching wrapper; a trial
   is one ``create_new_trial`` with the finished trial as template, and a look reads the trials
@@ -21,6 +21,17 @@ writes, and it reads what is new. So:
 A journal that holds operations the engine never writes (a trial asked and told step by step by
 another program) cannot be followed this way: ``JournalLedger`` then says so
 (``LedgerUnfit``) and the worker falls back to optuna's storage.
+
+**Damaged records.** POSIX promises no atomic append to a regular file: a writer killed inside
+its write (or a full disk) leaves a torn record, and optuna's lock is released 30 s later to the
+next writer. So every record is written through ``journal_backend``, which, under the lock,
+starts a record on a new line when the file does not end in one; and every reader (the index,
+the ledger, the columns of ``status``/``front``/``export``, optuna's journal storage through the
+same backend) reads records with ``segments``: a line that does not parse is cut before each
+record start (``{"op_code":``, which cannot occur inside a JSON string), a damaged record is
+skipped and listed, and a damaged trial record of a study still counts as that study's trial, read
+as a failed trial (``placeholder_log``) with its reason, so that no later trial changes its
+number and every reader agrees on the numbers.
 """
 
 from __future__ import annotations
@@ -38,9 +49,15 @@ from pathlib import Path
 __all__ = [
     "DatabaseLedger",
     "JournalLedger",
+    "JournalLock",
     "LedgerUnfit",
     "OptunaLedger",
+    "decode_trial",
+    "journal_backend",
     "open_ledger",
+    "placeholder_log",
+    "segments",
+    "split_line",
     "trial_log",
 ]
 
@@ -600,7 +617,7 @@ class OptunaLedger:
 
         from optim.study.storage import open_storage
 
-        storage, _ = open_storage(location, repair=False)
+        storage, _ = open_storage(location, repair=False, notes=[])  # the run's parent says it
         self.study = optuna.load_study(study_name=name, storage=storage)
         self.user_attrs = self.study.user_attrs
         self.directions = [d.name.lower() for d in self.study.directions]

@@ -107,6 +107,8 @@ class Progress:
             f"{o.name} {'-' if b is None else format(s * b, '.4g')}"
             for o, b, s in zip(self.spec.objectives, self.best, self.signs, strict=True)
         )
+        if final and not self.done:
+            return f"this run 0 trials; the study now {self.start_count} trials"
         if final:
             return (
                 f"this run {self.done} trials"
