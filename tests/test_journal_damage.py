@@ -415,3 +415,20 @@ def test_a_changed_search_is_refused_naming_what_changed(tmp_path, capsys):
     assert main(["study", "run", str(path), "--more", "1", "--out", str(tmp_path / "c")]) == 2
     (line,) = capsys.readouterr().err.strip().splitlines()
     assert "(max 60.0 -> 50" in line and "[search] ring_depth_mm (high 6.0 -> 7.0)" in line
+
+
+def test_status_says_a_torn_last_record_is_not_read(clean, tmp_path, capsys):
+    """A torn last record (not yet set aside by a run): status counts the whole trials and says
+    in one line what it did not read, with no advice to restore a copy."""
+    from optim.cli import main
+
+    _, data, _ = clean
+    folder = tmp_path / "s"
+    _write(folder, data + b'{"op_code":4,"worker_id":"w","study_id":0,"st')
+    capsys.readouterr()
+    assert main(["study", "status", str(folder), "--json"]) == 0
+    out, err = capsys.readouterr()
+    assert json.loads(out)["trials"] == 8
+    (line,) = err.strip().splitlines()
+    assert f"its last 45 bytes (from byte {len(data)}) are not a whole record" in line
+    assert "restore" not in line
