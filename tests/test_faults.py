@@ -28,7 +28,7 @@ from tests.test_study import QUICK, _study_file
 
 
 def test_disk_full_mid_write_stops_with_one_line_and_the_study_resumes(tmp_path, monkeypatch):
-    from optim.study.ledger import journal_file_class
+    from optim.study.journal import journal_file_class
 
     JournalFileBackend = journal_file_class()  # noqa: N806 (the class every journal writer uses)
 

@@ -21,7 +21,8 @@ import time
 import pytest
 
 from optim.study.columns import open_readout
-from optim.study.ledger import JournalLedger, journal_backend, split_line
+from optim.study.journal import journal_backend, split_line
+from optim.study.ledger import JournalLedger
 from optim.study.storage import load_existing
 from tests.conftest import ROOT
 from tests.test_study import QUICK, _study_file
@@ -178,7 +179,7 @@ def test_writer_killed_inside_its_write_then_the_next_writer_starts_on_a_new_lin
 
 _HALF_WRITER = """
 import sys, time
-from optim.study.ledger import JournalLock
+from optim.study.journal import JournalLock
 path, half = sys.argv[1], bytes.fromhex(sys.argv[2])
 lock = JournalLock(path)
 lock.acquire()

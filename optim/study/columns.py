@@ -229,7 +229,7 @@ def _journal_columns(ledger, shape) -> TrialColumns:
 
 def _decode_range(path, study_id: int, offset: int, first: int, end: int, shape) -> TrialColumns:
     """Decode the study's trial records ``first`` to ``end`` - 1, the first at byte ``offset``."""
-    from optim.study.ledger import decode_trial, is_trial_of, segments
+    from optim.study.journal import decode_trial, is_trial_of, segments
 
     filler = _filler(end - first, shape)
     dists = _Distributions()

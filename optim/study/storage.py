@@ -14,17 +14,23 @@ resumed run with a changed search is refused. Passwords never leave this module 
 
 from __future__ import annotations
 
-import json
 import logging
-import os
 import re
 import time
-import uuid
 from pathlib import Path
 
 from models.errors import DesignError
 from models.result import MODEL_VERSION
-from optim.files import atomic_write_bytes, redact_text, redact_url, safe_child
+from optim.files import redact_text, redact_url, safe_child
+from optim.study.journal import journal_damage_note, repair_journal, rewrite_journal
+from optim.study.storage_errors import (
+    StorageFault,
+    _dispose_half_made,
+    _malformed_url,
+    _server_words,
+    is_storage_error,
+    storage_fault,
+)
 
 __all__ = [
     "JOURNAL",
@@ -72,263 +78,6 @@ def _database_url(url: str) -> str:
         except ImportError:
             return "postgresql+psycopg://" + url.split("://", 1)[1]
     return url
-
-
-#: How much of the journal's end is checked for a torn record [bytes] (records are ~1-2 kB).
-TAIL_BYTES = 1 << 20
-
-
-def repair_journal(path: Path) -> str | None:
-    """Set a torn last record (no newline at its end: a writer killed mid-write, a full disk)
-    aside from the journal at ``path``.
-
-    Done under the journal's own lock, so that a writer of another process is never cut short;
-    only the last ``TAIL_BYTES`` are read. The cut bytes are kept beside the journal in
-    ``<name>.torn-<time>-<id>``. Returns a one-line description of what was done, or None if the
-    journal ended with a whole line. Damaged whole lines, the last included, are left where they
-    are: every reader skips them and says so (``journal_damage_note``).
-    """
-    from optim.study.ledger import JournalLock
-
-    path = Path(path)
-    if not path.exists() or path.stat().st_size == 0:
-        return None
-    lock = JournalLock(path)
-    lock.acquire()
-    try:
-        with open(path, "rb") as fh:
-            size = fh.seek(0, os.SEEK_END)
-            start = max(0, size - TAIL_BYTES)
-            fh.seek(start)
-            tail = fh.read()
-        if tail.endswith(b"\n"):
-            return None
-        newline = tail.rfind(b"\n")
-        cut = start + newline + 1 if newline >= 0 or start == 0 else start
-        torn = tail[cut - start :]
-        keep = path.with_name(
-            f"{path.name}.torn-{time.strftime('%Y%m%dT%H%M%S')}-{uuid.uuid4().hex[:6]}"
-        )
-        try:
-            keep.write_bytes(torn)
-        except OSError as err:
-            keep.unlink(missing_ok=True)  # no empty or partial copy left behind
-            raise DesignError(
-                f"storage {str(path)!r}: ends in a torn record of {len(torn)} bytes that cannot "
-                f"be set aside ({err.strerror}); free space and run again"
-            ) from None
-        with open(path, "rb+") as fh:
-            fh.truncate(cut)
-            os.fsync(fh.fileno())
-    finally:
-        lock.release()
-    return (
-        f"storage {path.name}: cut {len(torn)} bytes of a torn last record at byte {cut} "
-        f"(kept in {keep.name}); every whole record is kept"
-    )
-
-
-def journal_damage_note(path: Path, damage, advice: bool = True) -> str | None:
-    """One line on the damaged records a reader skipped in the journal at ``path`` (``damage``:
-    (offset, bytes) pairs): how many bytes at which offsets, and where they were saved (once,
-    in ``<name>.damaged-<first offset>``, beside the journal). None when nothing was skipped."""
-    damage = sorted(dict(damage).items())
-    if not damage:
-        return None
-    path = Path(path)
-    total = sum(n for _, n in damage)
-    where = ", ".join(f"{n} at byte {o}" for o, n in damage[:5])
-    if len(damage) > 5:
-        where += f" and {len(damage) - 5} more"
-    keep = path.with_name(f"{path.name}.damaged-{damage[0][0]}-{len(damage)}")
-    try:
-        if not keep.exists():
-            with open(path, "rb") as fh:
-                parts = []
-                for offset, n in damage:
-                    fh.seek(offset)
-                    parts.append(fh.read(n).rstrip(b"\n") + b"\n")
-            atomic_write_bytes(keep, b"".join(parts))
-        saved = f"saved in {keep.name}"
-    except OSError as err:
-        saved = f"not saved: {err.strerror or err}"
-    return (
-        f"storage {path.name}: skipped {len(damage)} damaged record(s), {total} bytes ({where}; "
-        f"{saved}); every whole record is read, a damaged trial is kept as a failed one"
-        + (f"; 'eddypull study repair {path.parent}' writes a clean journal" if advice else "")
-    )
-
-
-def rewrite_journal(folder) -> str:
-    """``eddypull study repair``: write the study folder's journal again without its damaged
-    records, the original kept beside it (``<name>.orig-<time>``). A damaged trial record becomes
-    the failed trial every reader already shows in its place (its number kept); other damaged
-    records and a torn last record are dropped. Done under the journal's lock; runs on the
-    study must be stopped first (their workers hold byte offsets into the file). Returns one
-    line."""
-    import shutil
-
-    from optim.study.ledger import (
-        _STUDY_ID,
-        _TRIAL_PREFIX,
-        JournalLock,
-        placeholder_log,
-        segments,
-    )
-
-    path = Path(folder) / JOURNAL
-    if not path.exists():
-        raise DesignError(f"study {str(folder)!r}: no {JOURNAL} there; give a study folder")
-    lock = JournalLock(path)
-    lock.acquire()
-    try:
-        out, skipped, kept_as_failed, end = [], [], 0, 0
-        with open(path, "rb") as fh:
-            for pos, seg in segments(fh, 0):
-                end = pos + len(seg)
-                try:
-                    ok = isinstance(json.loads(seg), dict)
-                except ValueError:
-                    ok = False
-                if ok:
-                    out.append(seg if seg.endswith(b"\n") else seg + b"\n")
-                    continue
-                skipped.append((pos, len(seg)))
-                m = _STUDY_ID.search(seg, 0, 400) if seg.startswith(_TRIAL_PREFIX) else None
-                if m:
-                    log = placeholder_log(int(m.group(1)), pos, len(seg))
-                    out.append(json.dumps(log, separators=(",", ":")).encode() + b"\n")
-                    kept_as_failed += 1
-            size = fh.seek(0, os.SEEK_END)
-        note = journal_damage_note(path, skipped, advice=False)
-        clean = b"".join(out)
-        if not skipped and size == end:
-            return f"storage {path}: no damaged record; nothing to do"
-        orig = path.with_name(f"{path.name}.orig-{time.strftime('%Y%m%dT%H%M%S')}")
-        shutil.copy2(path, orig)
-        atomic_write_bytes(path, clean)
-    finally:
-        lock.release()
-    torn = f"; a torn last record of {size - end} bytes dropped" if size > end else ""
-    return (
-        f"storage {path}: rewritten with {len(out)} records ({kept_as_failed} damaged trial(s) "
-        f"kept as failed ones{torn}); the original is kept in {orig.name}"
-        + (f". {note}" if note else "")
-    )
-
-
-class StorageFault(Exception):
-    """A storage that fails at run time (a server down or refusing, a full disk): one line that
-    names its cause (the CLI's exit code 1; bad input is a DesignError, exit code 2)."""
-
-    def __init__(self, line: str):
-        super().__init__(line)
-        self.problems = [line]
-
-
-#: What to do, by the server's or the driver's own words (first match).
-_HINTS = (
-    (
-        r"refused|could not connect|timed? ?out",
-        "is the server running on that host and accepting TCP/IP connections?",
-    ),
-    (
-        r"password authentication failed|no password supplied|authentication",
-        "check the user name and password (in the URL, EDDYPULL_STORAGE_URL or the password file)",
-    ),
-    (r"database \S+ does not exist", "create the database (createdb) or correct its name"),
-    (r"resolve host|name or service not known|translate host", "check the host name"),
-    (r"role \S+ does not exist", "check the user name"),
-    (r"permission denied|must be owner", "grant the user the rights it needs on that database"),
-    (
-        r"relation \S+ does not exist|no such table",
-        "the database holds no study yet: run 'eddypull study run' against it first",
-    ),
-    (
-        r"closed the connection|terminating connection|connection (is )?(lost|closed)|shutdown",
-        "the server went away: every recorded trial is kept; run the same command again once it "
-        "is back",
-    ),
-)
-
-
-def is_storage_error(err: BaseException) -> bool:
-    """Whether ``err`` (or an exception it was raised from) is a database layer's error."""
-    return any(_is_db(e) for e in _chain(err))
-
-
-def _chain(err: BaseException) -> list:
-    seen, out = set(), []
-    while err is not None and id(err) not in seen:
-        seen.add(id(err))
-        out.append(err)
-        err = err.__cause__ or err.__context__
-    return out
-
-
-def _is_db(err: BaseException) -> bool:
-    module = type(err).__module__
-    return module.startswith(("sqlalchemy", "psycopg", "sqlite3")) or (
-        type(err).__name__ == "StorageInternalError"
-    )
-
-
-def _server_words(err: BaseException) -> str:
-    """The server's or driver's own words from the deepest database error behind ``err``, on
-    one line (never optuna's generic sentence about the commit)."""
-    dbs = [e for e in _chain(err) if _is_db(e) and type(e).__name__ != "StorageInternalError"]
-    e = dbs[-1] if dbs else err
-    text = str(getattr(e, "orig", None) or e)
-    text = text.split("(Background on this error", 1)[0].split("[SQL:", 1)[0]
-    lines = [
-        ln.strip() for ln in text.splitlines() if ln.strip() and not ln.strip().startswith("^")
-    ]
-    words = "; ".join(lines) or type(e).__name__
-    return " ".join(words.split())[:300]
-
-
-def _server_of(location: str) -> str:
-    """host:port and database of a URL, for a message (no user, no password)."""
-    try:
-        from sqlalchemy.engine import make_url
-
-        u = make_url(_database_url(location))
-    except Exception:
-        return "?"
-    if u.host is None:
-        return f"database {u.database}"
-    port = u.port or {"postgresql": 5432, "mysql": 3306}.get(u.get_backend_name(), "")
-    return f"server {u.host}:{port}, database {u.database}"
-
-
-def storage_fault(err: BaseException, location, doing: str = "failed") -> StorageFault:
-    """One line for a database error: the URL (password hidden), host and port, database, the
-    server's own words and what to do."""
-    words = redact_text(_server_words(err), location)
-    hint = next((h for pattern, h in _HINTS if re.search(pattern, words, re.I)), None)
-    if hint and hint.lower().rstrip("?") in words.lower():  # the driver said it already
-        hint = None
-    where = redact_url(str(location)) if is_url(str(location)) else str(location)
-    server = f" ({_server_of(str(location))})" if is_url(str(location)) else ""
-    return StorageFault(
-        f"storage {where}{server}: {doing}: {words}" + (f"; {hint}" if hint else "")
-    )
-
-
-def _dispose_half_made(err: BaseException) -> None:
-    """Close the connections of a database storage whose construction failed (optuna's
-    RDBStorage checks its tables after making its engine; the engine would be left open)."""
-    tb = err.__traceback__
-    while tb is not None:
-        engine = getattr(tb.tb_frame.f_locals.get("self"), "engine", None)
-        if engine is not None and hasattr(engine, "dispose"):
-            engine.dispose()
-        tb = tb.tb_next
-
-
-def _malformed_url(err: BaseException) -> bool:
-    names = {type(e).__name__ for e in _chain(err)}
-    return bool(names & {"ArgumentError", "NoSuchModuleError", "ValueError"})
 
 
 def _rdb_storage(location: str, create: bool):
@@ -393,7 +142,7 @@ def open_storage(location, repair: bool = True, create: bool = True, notes=None)
     note = repair_journal(path) if repair else None
     from optuna.storages.journal import JournalStorage
 
-    from optim.study.ledger import journal_backend
+    from optim.study.journal import journal_backend
 
     backend = journal_backend(path)
     storage = JournalStorage(backend)
