@@ -21,7 +21,7 @@ import time
 import pytest
 
 from optim.study.columns import open_readout
-from optim.study.journal import journal_backend, split_line
+from optim.study.journal import is_whole, journal_backend, split_line
 from optim.study.ledger import JournalLedger
 from optim.study.storage import load_existing
 from tests.conftest import ROOT
@@ -97,6 +97,10 @@ def test_a_line_that_parses_is_one_record_and_a_glued_one_is_cut_at_the_next_sta
     glued = b'{"op_code":4,"worker_id":"w","study_id":0,"sta{"op_code":2,"study_id":0}\n'
     cut = glued.index(b'{"op_code":2')
     assert split_line(glued) == [(0, glued[:cut]), (cut, glued[cut:])]
+    # a whole record whose newline never came, then the next one: two whole records
+    a, b = b'{"op_code":2,"study_id":0,"user_attr":{"a":1}}', b'{"op_code":2,"study_id":0}\n'
+    assert split_line(a + b) == [(0, a), (len(a), b)]
+    assert is_whole(a) and is_whole(b) and not is_whole(glued[:cut])
 
 
 def test_torn_middle_record_glued_to_a_whole_one_keeps_every_whole_record(clean, tmp_path):

@@ -33,6 +33,7 @@ __all__ = [
     "JournalLock",
     "decode_trial",
     "is_trial_of",
+    "is_whole",
     "journal_backend",
     "journal_damage_note",
     "journal_file_class",
@@ -111,12 +112,9 @@ def placeholder_log(study_id: int, offset: int, length: int) -> dict:
 
 
 def is_whole(seg: bytes) -> bool:
-    """Whether a record parses (a cheap check first: a whole record ends in ``}`` and a newline)."""
-    if not seg.endswith(b"}\n"):
-        return False
+    """Whether a record parses as a JSON object."""
     try:
-        json.loads(seg)
-        return True
+        return isinstance(json.loads(seg), dict)
     except ValueError:
         return False
 
