@@ -437,3 +437,22 @@ def test_status_says_a_torn_last_record_is_not_read(clean, tmp_path, capsys):
     (line,) = err.strip().splitlines()
     assert f"its last 45 bytes (from byte {len(data)}) are not a whole record" in line
     assert "restore" not in line
+
+
+def test_a_lock_whose_holder_cannot_be_checked_is_released_after_its_grace(tmp_path, caplog):
+    """A lock file without a holder of this machine in it (optuna's own lock, another machine):
+    waited for, then released after the grace period with one line, not a warning a second."""
+    from optim.study.journal import JournalLock
+
+    journal = tmp_path / "journal.log"
+    journal.write_bytes(b"")
+    (tmp_path / "journal.log.lock").write_bytes(b"")  # as optuna's lock leaves it
+    lock = JournalLock(journal, grace_s=1.0)
+    t0 = time.monotonic()
+    with caplog.at_level("WARNING", logger="eddypull"):
+        assert lock.acquire()
+    assert 1.0 <= time.monotonic() - t0 < 5.0
+    (record,) = caplog.records
+    assert record.getMessage() == "journal lock journal.log.lock was not released for 1 s: released"
+    lock.release()
+    assert not (tmp_path / "journal.log.lock").exists()
