@@ -255,6 +255,7 @@ def run_study(
         sys.stdout.write("\n")
     end = progress.line(final=True)
     stopped = f"stopped by {_SIGNAL_WORDS.get(signum, f'signal {signum}')}: " if signum else ""
+    stopped = stopped or ("stopped by an error (below): " if pool.errors else "")
     echo((stopped or "done: ") + end)
     log.info((stopped or "done: ") + end)
     return {
@@ -293,7 +294,7 @@ def _budget_words(trials, total_trials, start_count: int) -> str:
             )
         return f"{total_trials} trials in all ({trials} to run; --more N adds N beyond)"
     if trials is None:
-        return "open trials"
+        return "no trial limit"
     return f"{trials} more trials ({start_count + trials} in all)"
 
 
