@@ -11,6 +11,7 @@ belong in, and database URLs lose their password before they are printed, logged
 from __future__ import annotations
 
 import contextlib
+import errno
 import os
 import re
 import tempfile
@@ -53,9 +54,12 @@ def atomic_path(path):
     """
     path = Path(path)
     path.parent.mkdir(parents=True, exist_ok=True)
-    fd, tmp = tempfile.mkstemp(
-        prefix=f".{path.name}.", suffix=".tmp" + path.suffix, dir=path.parent
-    )
+    try:
+        fd, tmp = tempfile.mkstemp(
+            prefix=f".{path.name}.", suffix=".tmp" + path.suffix, dir=path.parent
+        )
+    except OSError as err:
+        raise _folder_error(err, path, None) from None
     try:
         try:
             os.fchmod(fd, 0o666 & ~_umask())  # mkstemp makes it owner-only; a colleague reads it
@@ -65,10 +69,24 @@ def atomic_path(path):
         with open(tmp, "rb+") as fh:
             os.fsync(fh.fileno())
         os.replace(tmp, path)
-    except BaseException:
+    except BaseException as err:
         with contextlib.suppress(OSError):
             os.unlink(tmp)
+        if isinstance(err, OSError) and err.filename in (None, tmp, str(path)):
+            raise _folder_error(err, path, tmp) from None
         raise
+
+
+#: A folder that takes no file: full, read-only, not ours, failing.
+_FOLDER_ERRNOS = {errno.ENOSPC, errno.EDQUOT, errno.EROFS, errno.EACCES, errno.EPERM, errno.EIO}
+
+
+def _folder_error(err: OSError, path: Path, tmp) -> OSError:
+    """An error writing ``path`` (through its temporary file ``tmp``) that names its folder and
+    the file, not the temporary one; other errors unchanged."""
+    if err.errno not in _FOLDER_ERRNOS:
+        return err
+    return OSError(err.errno, f"cannot write {path.name} there ({err.strerror})", str(path.parent))
 
 
 def atomic_write_bytes(path, data: bytes) -> Path:

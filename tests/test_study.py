@@ -209,7 +209,7 @@ def test_killed_worker_loses_nothing_completed_and_the_study_resumes(tmp_path):
         str(study_file),
         "--workers",
         "1",
-        "--trials",
+        "--more",
         "10",
         "--out",
         str(folder),
@@ -249,7 +249,7 @@ def test_whole_run_killed_then_resumed(tmp_path):
         proc.wait(timeout=30)
     n1, running = _count(folder)
     assert n1 >= 15 and running == 0
-    again = _cli("study", "run", str(study_file), "--trials", "5", "--out", str(folder), "--json")
+    again = _cli("study", "run", str(study_file), "--more", "5", "--out", str(folder), "--json")
     assert again.returncode == 0, again.stderr
     assert _count(folder)[0] == n1 + 5
 
@@ -265,13 +265,18 @@ def test_ctrl_c_or_terminate_stops_cleanly(tmp_path, sig):
         workers = workers_of(proc.pid)
         proc.send_signal(sig)
         out, err = proc.communicate(timeout=120)
-    assert proc.returncode == 0, err
+    # As shells expect: 128 + the signal's number (130 for SIGINT, 143 for SIGTERM), the signal
+    # named as what it is (POSIX shell, "Exit Status"; common practice, no source).
+    assert proc.returncode == 128 + sig, err
     assert "Traceback" not in err
-    assert "stopped by Ctrl-C" in out
+    named = "stopped by Ctrl-C (SIGINT): " if sig == signal.SIGINT else "stopped by SIGTERM"
+    assert named in out
+    reported = int(out.split("the study now ")[1].split(" trials")[0])
     time.sleep(0.5)
     assert not [p for p in workers if Path(f"/proc/{p}").exists()]  # no worker outlives the run
     n, running = _count(folder)
     assert running == 0 and n >= 10
+    assert n >= reported  # every trial the run counted is in the storage
 
 
 @pytest.mark.slow
@@ -434,7 +439,7 @@ def test_torn_last_journal_line_is_cut_and_kept(tmp_path):
     journal = folder / "journal.log"
     whole = journal.read_bytes()
     journal.write_bytes(whole + b'{"op_code": 5, "worker_id": "x", "trial_id"')  # torn write
-    assert main(["study", "run", str(path), "--trials", "2", "--out", str(folder)]) == 0
+    assert main(["study", "run", str(path), "--more", "2", "--out", str(folder)]) == 0
     kept = list(folder.glob("journal.log.torn-*"))
     assert len(kept) == 1 and kept[0].read_bytes().startswith(b'{"op_code": 5')
     assert _count(folder) == (6, 0)

@@ -414,8 +414,8 @@ def test_command_line_run_resume_front_and_export_with_a_material(tmp_path, caps
 
     path = _study_file(tmp_path, "cli")
     out = tmp_path / "out"
-    for n in (5, 3):
-        assert main(["study", "run", str(path), "--trials", str(n), "--out", str(out)]) == 0
+    for budget in (["--trials", "5"], ["--more", "3"]):  # the study's total, then 3 more
+        assert main(["study", "run", str(path), *budget, "--out", str(out)]) == 0
     assert main(["study", "front", str(out)]) == 0
     assert main(["study", "export", str(out), "--best", "pull_N"]) == 0
     capsys.readouterr()

@@ -1,11 +1,14 @@
 """The eddypull command line: evaluate, map, tolerance, verify, materials, demo.
 
-Exit codes: 0 success, 2 bad input (one line per problem, no traceback).
+Exit codes: 0 success, 2 bad input (one line per problem, no traceback), 1 a fault at run time
+(a storage server down, a full disk), 130 and 143 a study run stopped by SIGINT (Ctrl-C) or
+SIGTERM.
 """
 
 from __future__ import annotations
 
 import argparse
+import errno
 import sys
 from pathlib import Path
 
@@ -150,13 +153,15 @@ def _cmd_demo(args) -> int:
         spec,
         folder,
         workers=workers,
-        trials=args.trials,
+        total_trials=args.trials,
         minutes=minutes,
     )
     for line in summary["errors"]:
         print(f"eddypull: error: {line}", file=sys.stderr)
     if summary["errors"]:
         return 1
+    if summary["exit_code"]:
+        return summary["exit_code"]
     study = open_readout(folder)
     spec_json, where = study.spec_json, study.where
     out = write_front(
@@ -190,6 +195,7 @@ def _parser() -> argparse.ArgumentParser:
         prog="eddypull",
         description="Design AC shaded-pole electromagnets that pull non-ferrous parts.",
     )
+    p.add_argument("--version", action="version", version=version_line())
     sub = p.add_subparsers(dest="command", required=True)
 
     e = sub.add_parser("evaluate", help="evaluate one design file with the fast model")
@@ -267,7 +273,9 @@ def _parser() -> argparse.ArgumentParser:
         "demo", help="run the demo study, then write its front, report and best design's hand-off"
     )
     d.add_argument("--minutes", type=float, help="time budget (default: the study file's)")
-    d.add_argument("--trials", type=int, help="trial budget instead of the time budget")
+    d.add_argument(
+        "--trials", type=int, help="the demo study's total trials instead of the time budget"
+    )
     d.add_argument("--workers", type=int, help="worker processes (default: the study file's)")
     d.add_argument(
         "--scenario",
@@ -311,10 +319,58 @@ def _quiet_stdout() -> None:
         pass
 
 
+def version_line() -> str:
+    """``eddypull --version``: the installed distribution's version and the fast model's."""
+    from importlib.metadata import PackageNotFoundError, version
+
+    from models.result import MODEL_VERSION
+
+    try:
+        number = version("eddypull")
+    except PackageNotFoundError:  # run from a checkout that was never installed
+        number = "(not installed)"
+    return f"eddypull {number} (fast model {MODEL_VERSION})"
+
+
+#: Faults of the machine, not of the input: exit code 1 (a full disk, a read-only one, I/O).
+_RUNTIME_ERRNOS = {errno.ENOSPC, errno.EDQUOT, errno.EROFS, errno.EIO}
+
+
+def _warnings_to_stderr() -> None:
+    """eddypull's own warnings (the storage's notes) as one line each on stderr."""
+    import logging
+
+    log = logging.getLogger("eddypull")
+    if not any(getattr(h, "_eddypull", False) for h in log.handlers):
+        handler = logging.StreamHandler(sys.stderr)
+        handler.setFormatter(logging.Formatter("eddypull: warning: %(message)s"))
+        handler._eddypull = True
+        log.addHandler(handler)
+        log.propagate = False
+
+
+def _storage_of(args):
+    """The storage a command was pointed at (for an error's wording, password hidden)."""
+    import os
+
+    return (
+        getattr(args, "storage", None)
+        or os.environ.get("EDDYPULL_STORAGE_URL")
+        or getattr(args, "location", None)
+        or ""
+    )
+
+
 def main(argv=None) -> int:
+    from optim.study.storage import StorageFault, is_storage_error, storage_fault
+
     args = _parser().parse_args(argv)
+    _warnings_to_stderr()
     try:
         return args.func(args)
+    except StorageFault as err:  # a server down or refusing: the cause in one line
+        print(f"eddypull: error: {err.problems[0]}", file=sys.stderr)
+        return 1
     except DesignError as err:
         for line in err.problems:
             print(f"eddypull: error: {line}", file=sys.stderr)
@@ -325,7 +381,17 @@ def main(argv=None) -> int:
     except OSError as err:  # a folder that cannot be made, a full disk, no permission
         where = f"{err.filename}: " if err.filename else ""
         print(f"eddypull: error: {where}{err.strerror or err}", file=sys.stderr)
-        return 2
+        return 1 if err.errno in _RUNTIME_ERRNOS else 2
+    except KeyboardInterrupt:
+        print("eddypull: stopped by Ctrl-C (SIGINT)", file=sys.stderr)
+        return 130
+    except Exception as err:
+        if not is_storage_error(err):
+            raise
+        print(
+            f"eddypull: error: {storage_fault(err, _storage_of(args)).problems[0]}", file=sys.stderr
+        )
+        return 1
 
 
 if __name__ == "__main__":

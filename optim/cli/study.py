@@ -13,13 +13,13 @@ from optim.jsonout import strict_json
 __all__ = ["add_study_parser"]
 
 
-def check_budget(workers, trials, minutes) -> None:
-    """The run's workers, trials and minutes, or a one-line DesignError."""
+def check_budget(workers, trials, minutes, flag: str = "--trials") -> None:
+    """The run's workers, trials (``flag`` names them) and minutes, or a one-line DesignError."""
     from optim.study.spec import RUN_MAX
 
-    for flag, value in (("--workers", workers), ("--trials", trials)):
+    for name, value in (("--workers", workers), (flag, trials)):
         if value is not None and (not isinstance(value, int) or value < 1):
-            raise UsageError(f"{flag} = {value!r}: must be a whole number >= 1")
+            raise UsageError(f"{name} = {value!r}: must be a whole number >= 1")
     if minutes is not None and not 0 < minutes <= RUN_MAX["minutes"]:
         raise UsageError(
             f"--minutes/--hours = {minutes!r} min: must be > 0 and at most a year (525600 min)"
@@ -35,12 +35,20 @@ def _cmd_run(args) -> int:
 
     spec = load_study_spec(args.study)
     run = spec.run
+    if args.trials is not None and args.more is not None:
+        raise UsageError(
+            f"--trials {args.trials} and --more {args.more}: give one (--trials: the study's "
+            "total; --more: trials beyond what is there)"
+        )
     minutes = budget_minutes(args.hours, args.minutes, spec)
     trials = args.trials if args.trials is not None else run.get("trials")
-    if args.trials is None and (args.hours is not None or args.minutes is not None):
-        trials = None  # a time given on the command line replaces the file's whole budget
+    if args.trials is None and (
+        args.hours is not None or args.minutes is not None or args.more is not None
+    ):
+        trials = None  # a budget given on the command line replaces the file's whole budget
     workers = args.workers if args.workers is not None else run.get("workers", 1)
     check_budget(workers, trials, minutes)
+    check_budget(workers, args.more, minutes, flag="--more")
     if args.seed is not None and not 0 <= args.seed <= RUN_MAX["seed"]:
         raise UsageError(f"--seed = {args.seed}: must be between 0 and {RUN_MAX['seed']}")
     if args.storage is not None and not is_url(args.storage):
@@ -63,7 +71,8 @@ def _cmd_run(args) -> int:
         folder,
         storage_url=storage,
         workers=workers,
-        trials=trials,
+        trials=args.more,
+        total_trials=trials,
         minutes=minutes,
         seed=args.seed,
         echo=(lambda *_: None) if args.json else print,
@@ -78,7 +87,7 @@ def _cmd_run(args) -> int:
                 print(line)
     for line in summary["errors"]:
         print(f"eddypull: error: {line}", file=sys.stderr)
-    return 1 if summary["errors"] else 0
+    return 1 if summary["errors"] else summary["exit_code"]
 
 
 def _has_password(url: str) -> bool:
@@ -106,19 +115,54 @@ def _why_none_feasible(location, name: str) -> list[str]:
     return ["no feasible design yet:", *lines] if lines else []
 
 
+def _location(args) -> tuple:
+    """(storage location, study name) of a command's DIR|URL argument; a study file
+    (``STUDY.toml``) stands for its study: its folder, or the database its runs use."""
+    from optim.study.storage import is_url
+
+    loc = args.location
+    path = Path(loc)
+    if is_url(loc) or path.suffix.lower() != ".toml" or not path.is_file():
+        return loc, args.name
+    from optim.study.run import study_folder
+    from optim.study.spec import load_study_spec
+
+    spec = load_study_spec(path)
+    storage = os.environ.get("EDDYPULL_STORAGE_URL") or spec.run.get("storage")
+    return (storage or str(study_folder(spec, path))), (args.name or spec.name)
+
+
 def _open(args):
-    """The study to read: (readout, its definition, where it is) (optim.study.columns)."""
+    """The study to read: (readout, its definition, where it is) (optim.study.columns); what was
+    skipped in its storage is said on stderr."""
     from optim.study.columns import open_readout
 
+    args.location, args.name = _location(args)
     readout = open_readout(args.location, args.name)
+    for line in readout.notes:
+        print(f"eddypull: warning: {line}", file=sys.stderr)
     return readout, readout.spec_json, readout.where
+
+
+def _cmd_repair(args) -> int:
+    from optim.study.storage import is_url, rewrite_journal
+
+    location, _ = _location(args)
+    if is_url(location):
+        raise UsageError(f"repair {location!r}: only a study folder's journal can be repaired")
+    print(rewrite_journal(Path(location)))
+    return 0
 
 
 def _cmd_status(args) -> int:
     from optim.morning.front import format_status, status_summary
+    from optim.study.storage import release
 
     study, spec_json, where = _open(args)
-    s = status_summary(study, spec_json)
+    try:
+        s = status_summary(study, spec_json)
+    finally:
+        release(study)  # a database's connections closed
     print(strict_json(s) if args.json else format_status(s, where))
     return 0
 
@@ -140,16 +184,20 @@ def _cmd_results(args) -> int:
 
 def _cmd_front(args) -> int:
     from optim.morning.outputs import write_front
+    from optim.study.storage import release
 
     study, spec_json, where = _open(args)
-    out = write_front(
-        study,
-        spec_json,
-        where,
-        _folder_for(args.location, spec_json, args.out),
-        pick_maps=False if args.no_pick_maps else None,
-        tolerance=False if args.no_tolerance else None,
-    )
+    try:
+        out = write_front(
+            study,
+            spec_json,
+            where,
+            _folder_for(args.location, spec_json, args.out),
+            pick_maps=False if args.no_pick_maps else None,
+            tolerance=False if args.no_tolerance else None,
+        )
+    finally:
+        release(study)
     for line in out["lines"]:
         print(line)
     return 0
@@ -160,22 +208,27 @@ def _cmd_export(args) -> int:
 
     if (args.trial is not None) + (args.best is not None) + bool(args.nearest) != 1:
         raise UsageError("export: give exactly one of --trial N, --best OBJECTIVE and --nearest")
+    from optim.study.storage import release
+
     study, spec_json, where = _open(args)
     folder = _folder_for(args.location, spec_json, None)
-    paths = export_trial(
-        study,
-        spec_json,
-        where,
-        folder,
-        trial=args.trial,
-        best=args.best,
-        nearest=args.nearest,
-        out=args.out,
-        verify=args.verify,
-        echo=print,
-        resolution_mm=args.resolution_mm,
-        tolerance=args.tolerance,
-    )
+    try:
+        paths = export_trial(
+            study,
+            spec_json,
+            where,
+            folder,
+            trial=args.trial,
+            best=args.best,
+            nearest=args.nearest,
+            out=args.out,
+            verify=args.verify,
+            echo=print,
+            resolution_mm=args.resolution_mm,
+            tolerance=args.tolerance,
+        )
+    finally:
+        release(study)
     for name, path in paths.items():
         print(f"{name:16s} {path}")
     return 0
@@ -215,7 +268,12 @@ def add_study_parser(sub) -> None:
     budget = r.add_mutually_exclusive_group()
     budget.add_argument("--hours", type=float, help="wall-time budget of this run [h]")
     budget.add_argument("--minutes", type=float, help="wall-time budget of this run [min]")
-    r.add_argument("--trials", type=int, help="trials in this run (on this machine)")
+    r.add_argument(
+        "--trials",
+        type=int,
+        help="the study's total trials: a rerun makes what is missing (as [run] trials)",
+    )
+    r.add_argument("--more", type=int, metavar="N", help="N trials beyond what the study has")
     r.add_argument("--workers", type=int, help="worker processes on this machine")
     r.add_argument("--storage", metavar="URL", help="database URL shared by several machines")
     r.add_argument("--seed", type=int, help="sampler seed (overrides [run] seed)")
@@ -234,7 +292,9 @@ def add_study_parser(sub) -> None:
         ("export", "write the hand-off of one design for CAD", _cmd_export),
     ):
         p = ss.add_parser(cmd, help=helptext)
-        p.add_argument("location", metavar="DIR|URL", help="study folder or storage URL")
+        p.add_argument(
+            "location", metavar="DIR|URL", help="study folder, storage URL or the study file"
+        )
         p.add_argument("--name", help="study name (a URL can hold several studies)")
         p.set_defaults(func=func)
         if cmd == "status":
@@ -276,6 +336,15 @@ def add_study_parser(sub) -> None:
                 type=float,
                 help="round every dimension to this step [mm] (default 0.01)",
             )
+
+    rp = ss.add_parser(
+        "repair",
+        help="rewrite a study folder's journal without its damaged records (a copy is kept); "
+        "stop the study's runs first",
+    )
+    rp.add_argument("location", metavar="DIR", help="study folder (or its study file)")
+    rp.add_argument("--name", help=argparse.SUPPRESS)
+    rp.set_defaults(func=_cmd_repair)
 
     q = ss.add_parser("results", help="list the result names a study file can use")
     q.add_argument("study", help="study TOML file")

@@ -14,9 +14,9 @@ the front are added.
 
 from __future__ import annotations
 
-import json
 import math
 import os
+import time
 from dataclasses import dataclass, field
 
 import numpy as np
@@ -129,30 +129,40 @@ class StudyReadout:
     """One stored study as ``study status``, ``front`` and ``export`` read it: its attributes,
     its columns, and one trial by number. ``source`` is a ``JournalLedger`` or an optuna Study."""
 
-    def __init__(self, source, spec_json: dict, where: str):
+    def __init__(self, source, spec_json: dict, where: str, notes=()):
         self.source = source
         self.spec_json = spec_json
         self.where = where
         self.user_attrs = source.user_attrs
         self._storage = getattr(source, "_storage", None)
+        #: lines on what was skipped in the storage (damaged records, a torn last one)
+        self.notes = [n for n in notes if n]
+        self._snapshot = None
+
+    def _trials(self) -> list:
+        """A database study's trials as read once (workers may add trials meanwhile: every
+        count, column and trial of this readout comes from this one snapshot)."""
+        if self._snapshot is None:
+            self._snapshot = list(self.source.get_trials(deepcopy=False))
+        return self._snapshot
 
     @property
     def n_trials(self) -> int:
         if hasattr(self.source, "n_trials"):
             return self.source.n_trials
-        return len(self.source.get_trials(deepcopy=False))
+        return len(self._trials())
 
     def trial(self, number: int):
         """The stored trial ``number`` (a FrozenTrial)."""
         if hasattr(self.source, "trial"):
             return self.source.trial(number)
-        return self.source.get_trials(deepcopy=False)[number]
+        return self._trials()[number]
 
     def get_trials(self, deepcopy: bool = False):
         """Every trial as a FrozenTrial (small studies, tests)."""
         if hasattr(self.source, "recent"):
             return self.source.recent(self.source.n_trials)
-        return self.source.get_trials(deepcopy=deepcopy)
+        return self._trials()
 
     def columns(self) -> TrialColumns:
         from optim.study.engine import RESULT_NAMES_ATTR
@@ -166,8 +176,9 @@ class StudyReadout:
         )
         if isinstance(self.source, JournalLedger):
             return _journal_columns(self.source, shape)
-        filler = _filler(self.n_trials, shape)
-        for t in self.source.get_trials(deepcopy=False):
+        trials = self._trials()
+        filler = _filler(len(trials), shape)
+        for t in trials:
             done = t.datetime_complete
             filler.add(
                 t.number,
@@ -218,19 +229,18 @@ def _journal_columns(ledger, shape) -> TrialColumns:
 
 def _decode_range(path, study_id: int, offset: int, first: int, end: int, shape) -> TrialColumns:
     """Decode the study's trial records ``first`` to ``end`` - 1, the first at byte ``offset``."""
-    from optim.study.ledger import is_trial_of
+    from optim.study.journal import decode_trial, is_trial_of, segments
 
     filler = _filler(end - first, shape)
     dists = _Distributions()
     number = first
     with open(path, "rb") as fh:
-        fh.seek(offset)
-        for line in fh:
+        for pos, seg in segments(fh, offset):
             if number >= end:
                 break
-            if not is_trial_of(line, study_id):
+            if not is_trial_of(seg, study_id):
                 continue
-            log = json.loads(line)
+            log = decode_trial(seg, pos, study_id)  # a damaged one: a failed trial in its place
             _, params = params_of(log, dists)
             values = log.get("values")
             if values is None and log.get("value") is not None:
@@ -248,6 +258,27 @@ def _decode_range(path, study_id: int, offset: int, first: int, end: int, shape)
     return filler.columns()
 
 
+def tail_note(path, index, settle_s: float = 0.3) -> str | None:
+    """One line when the journal ends in bytes that are not a whole line (a record being
+    written, or a torn one); None when it ends whole or the bytes grow within ``settle_s``
+    (a writer at work)."""
+    size = os.path.getsize(path)
+    if size <= index.position:
+        return None
+    with open(path, "rb") as fh:
+        fh.seek(max(index.position, size - 1))
+        if fh.read(1) == b"\n":  # whole records written since the index was read
+            return None
+    time.sleep(settle_s)
+    if os.path.getsize(path) != size:
+        return None
+    return (
+        f"storage {os.path.basename(path)}: its last {size - index.position} bytes (from byte "
+        f"{index.position}) are not a whole record and are not read: a torn last record (the "
+        "next 'study run' sets it aside, as does 'eddypull study repair')"
+    )
+
+
 def open_readout(location, name: str | None = None) -> StudyReadout:
     """The study at ``location`` (folder or URL; ``name`` picks one of several) for reading: a
     journal through the ledger's index when it can follow it, else optuna's storage."""
@@ -255,7 +286,13 @@ def open_readout(location, name: str | None = None) -> StudyReadout:
 
     from models.errors import DesignError
     from optim.study.ledger import JournalIndex, JournalLedger, LedgerUnfit
-    from optim.study.storage import JOURNAL, SPEC_ATTR, is_url, load_existing
+    from optim.study.storage import (
+        JOURNAL,
+        SPEC_ATTR,
+        is_url,
+        journal_damage_note,
+        load_existing,
+    )
 
     if not is_url(str(location)):
         path = Path(location) / JOURNAL
@@ -274,7 +311,8 @@ def open_readout(location, name: str | None = None) -> StudyReadout:
                             f"study {name!r} in {str(path)!r}: not an eddypull study "
                             "(no definition)"
                         )
-                    return StudyReadout(ledger, spec, str(path))
+                    notes = (journal_damage_note(path, index.damage), tail_note(path, index))
+                    return StudyReadout(ledger, spec, str(path), notes)
             except LedgerUnfit:
                 pass
     study, spec, where = load_existing(location, name)

@@ -11,8 +11,8 @@ writes, and it reads what is new. So:
   ``limit`` records of them; afterwards each look reads the bytes appended since the last one. A
   trial is appended as the same record optuna's journal storage writes for a finished trial
   (``Study.add_trial``: one CREATE_TRIAL operation holding state, values, parameters and
-  attributes), through optuna's own file backend and lock, so any optuna reader of the file sees
-  it as its own. Trial numbers are counted as optuna counts them (the order of CREATE_TRIAL
+  attributes), through optuna's own file backend (``journal_backend``), so any optuna reader of
+  the file sees it as its own. Trial numbers are counted as optuna counts them (the order of CREATE_TRIAL
   records of the study).
 * **Database** (``DatabaseLedger``): the storage itself, bypassing the caching wrapper; a trial
   is one ``create_new_trial`` with the finished trial as template, and a look reads the trials
@@ -21,30 +21,44 @@ writes, and it reads what is new. So:
 A journal that holds operations the engine never writes (a trial asked and told step by step by
 another program) cannot be followed this way: ``JournalLedger`` then says so
 (``LedgerUnfit``) and the worker falls back to optuna's storage.
+
+**Damaged records** are skipped by the index and read as failed trials in their place, by the
+rules of ``optim.study.journal``.
 """
 
 from __future__ import annotations
 
 import json
-import re
 from array import array
 from datetime import UTC, datetime
 from pathlib import Path
 
+from optim.study.journal import (
+    _STUDY_ID,
+    _TRIAL_PREFIX,
+    CREATE_STUDY,
+    CREATE_TRIAL,
+    DELETE_STUDY,
+    SET_STUDY_SYSTEM_ATTR,
+    SET_STUDY_USER_ATTR,
+    decode_trial,
+    is_trial_of,
+    is_whole,
+    journal_backend,
+    segments,
+    split_line,
+)
+
 __all__ = [
     "DatabaseLedger",
+    "JournalIndex",
     "JournalLedger",
     "LedgerUnfit",
     "OptunaLedger",
     "open_ledger",
+    "params_of",
     "trial_log",
 ]
-
-#: optuna journal operation codes (optuna.storages.journal JournalOperation), as stored.
-CREATE_STUDY, DELETE_STUDY, SET_STUDY_USER_ATTR, SET_STUDY_SYSTEM_ATTR, CREATE_TRIAL = 0, 1, 2, 3, 4
-#: How optuna's file backend writes a CREATE_TRIAL record (compact JSON, op_code first).
-_TRIAL_PREFIX = b'{"op_code":4,'
-_STUDY_ID = re.compile(rb'"study_id":(\d+)')
 
 
 class LedgerUnfit(Exception):
@@ -137,9 +151,15 @@ def trial_from_log(log: dict, number: int, dists=None):
 
 
 class JournalIndex:
-    """What one pass over a journal file finds: its studies (name, directions, attributes) and
-    the byte offset of every trial record of each. ``update()`` reads on from where it stopped;
-    only whole lines are read (a record being written is left for the next look).
+    """What one pass over a journal file finds: its studies (name, directions, attributes), the
+    byte offset of every trial record of each, and the damaged records skipped (``damage``:
+    (offset, bytes) pairs). ``update()`` reads on from where it stopped; only whole lines are
+    read (a record being written is left for the next look).
+
+    A damaged record is skipped and the next record start read on (``split_line``); a damaged
+    trial record of a study keeps its place among the study's trials (a failed trial stands in
+    for it when read), so no later trial changes its number. Trial records are not decoded here
+    (a damaged one that ends like a whole record is found when it is read).
 
     Raises ``LedgerUnfit`` for operations that change a trial after it was created (optuna's
     step-by-step ask and tell, deletes): the offsets alone no longer describe those trials.
@@ -150,6 +170,7 @@ class JournalIndex:
         self.position = 0
         self.studies: dict[int, dict] = {}
         self.offsets: dict[int, array] = {}
+        self.damage: list[tuple[int, int]] = []
         self._next_study = 0
 
     def update(self) -> None:
@@ -161,27 +182,30 @@ class JournalIndex:
             for line in fh:
                 if not line.endswith(b"\n"):
                     break
-                if line.startswith(_TRIAL_PREFIX):
-                    m = _STUDY_ID.search(line, 0, 400)
-                    sid = int(m.group(1)) if m else -1
-                    if sid in self.offsets:
-                        self.offsets[sid].append(pos)
-                else:
-                    self._apply(self._decode(line, pos))
+                for k, seg in split_line(line):
+                    self._note(pos + k, seg)
                 pos += len(line)
             self.position = pos
 
-    def _decode(self, line: bytes, pos: int) -> dict:
+    def _note(self, pos: int, seg: bytes) -> None:
+        """Index one record (a trial's offset, a study's change) or note it as damaged."""
+        if seg.startswith(_TRIAL_PREFIX):
+            m = _STUDY_ID.search(seg, 0, 400)
+            sid = int(m.group(1)) if m else -1
+            if sid in self.offsets:
+                self.offsets[sid].append(pos)
+            if not seg.endswith(b"}\n") and not is_whole(seg):
+                self.damage.append((pos, len(seg)))
+            return
         try:
-            return json.loads(line)
-        except ValueError as err:
-            from models.errors import DesignError
-
-            raise DesignError(
-                f"storage {str(self.path)!r}: cannot be read, a record before the last is "
-                f"damaged (byte {pos}: {str(err).splitlines()[0][:80]}); restore the file from "
-                "a copy"
-            ) from None
+            log = json.loads(seg)
+        except ValueError:
+            self.damage.append((pos, len(seg)))
+            return
+        if not isinstance(log, dict):
+            self.damage.append((pos, len(seg)))
+            return
+        self._apply(log)
 
     def _apply(self, log: dict) -> None:
         op = log.get("op_code")
@@ -217,15 +241,13 @@ class JournalLedger:
     """One worker's line to a study in a journal file (module docstring)."""
 
     def __init__(self, path, name: str, index: JournalIndex | None = None):
-        from optuna.storages.journal import JournalFileBackend, JournalFileOpenLock
-
         self.path = str(path)
         self.index = index or JournalIndex(path)
         self.index.update()
         self.study_id = self.index.study_id(name)
         self.user_attrs = self.index.studies[self.study_id]["user_attrs"]
         self.directions = _direction_names(self.index.studies[self.study_id]["directions"])
-        self.backend = JournalFileBackend(self.path, lock_obj=JournalFileOpenLock(self.path))
+        self.backend = journal_backend(self.path)
         self.dists = _Distributions()
         self.read_to = len(self.index.offsets[self.study_id])  # trials handed out so far
 
@@ -257,12 +279,13 @@ class JournalLedger:
         if first >= end:
             return out
         with open(self.path, "rb") as fh:
-            fh.seek(offsets[first])
+            records = segments(fh, offsets[first])
             for number in range(first, end):
-                line = fh.readline()
-                while not line.startswith(_TRIAL_PREFIX) or not _is_study(line, self.study_id):
-                    line = fh.readline()  # another record between two of this study's trials
-                out.append(trial_from_log(json.loads(line), number, self.dists))
+                # other records may lie between two of this study's trials
+                pos, seg = next((p, r) for p, r in records if is_trial_of(r, self.study_id))
+                out.append(
+                    trial_from_log(decode_trial(seg, pos, self.study_id), number, self.dists)
+                )
         return out
 
     def add(self, trial, worker_id: str) -> None:
@@ -279,16 +302,6 @@ class JournalLedger:
 def _direction_names(directions) -> list[str]:
     """Stored directions (optuna's StudyDirection values: 1 minimise, 2 maximise) as words."""
     return ["minimize" if int(d) == 1 else "maximize" for d in directions]
-
-
-def is_trial_of(line: bytes, study_id: int) -> bool:
-    """Whether a journal line is a trial record of study ``study_id``."""
-    return line.startswith(_TRIAL_PREFIX) and _is_study(line, study_id)
-
-
-def _is_study(line: bytes, study_id: int) -> bool:
-    m = _STUDY_ID.search(line, 0, 400)
-    return m is not None and int(m.group(1)) == study_id
 
 
 class DatabaseLedger:
@@ -341,7 +354,7 @@ class OptunaLedger:
 
         from optim.study.storage import open_storage
 
-        storage, _ = open_storage(location, repair=False)
+        storage, _ = open_storage(location, repair=False, notes=[])  # the run's parent says it
         self.study = optuna.load_study(study_name=name, storage=storage)
         self.user_attrs = self.study.user_attrs
         self.directions = [d.name.lower() for d in self.study.directions]

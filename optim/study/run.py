@@ -104,13 +104,23 @@ class Progress:
             f"{o.name} {'-' if b is None else format(s * b, '.4g')}"
             for o, b, s in zip(self.spec.objectives, self.best, self.signs, strict=True)
         )
+        if final and not self.done:
+            return f"this run 0 trials; the study now {self.start_count} trials"
+        if final:
+            return (
+                f"this run {self.done} trials"
+                + (f" ({rate:.2f}/s)" if rate is not None else "")
+                + f", feasible {100 * share:.0f} %, failed {self.failed}, its front "
+                f"{len(self.front)}, its best {best}; the study now {self.start_count + self.done}"
+                " trials ('eddypull study status' for its front)"
+            )
         text = (
             f"{self.start_count + self.done} trials ({self.done} this run"
             + (f", {rate:.2f}/s" if rate is not None else "")
             + f"), feasible {100 * share:.0f} %, failed {self.failed}, "
             f"front {len(self.front)}; best {best}"
         )
-        return text if final else f"{text}; {self._left(rate)}"
+        return f"{text}; {self._left(rate)}"
 
     def _left(self, rate) -> str:
         """What is left of the budget: the trials to go and the time they take, or the time."""
@@ -124,24 +134,38 @@ class Progress:
         return " or ".join(left)
 
 
-def prepare(spec, location):
-    """Open (repairing a torn journal) or create the study. Returns (ledger, where it is
-    stored): ``optim.study.ledger``'s line to the study, which does not read its trials (a
-    journal's existing study is read by one pass over its records' heads)."""
+def prepare(spec, location, note=None):
+    """Open (setting a torn last record aside) or create the study. Returns (ledger, where it
+    is stored): ``optim.study.ledger``'s line to the study, which does not read its trials (a
+    journal's existing study is read by one pass over its records' heads). ``note`` (a function
+    of one line; default: a warning on stderr) hears what was set aside or skipped."""
     from optim.study.ledger import JournalLedger, LedgerUnfit, open_ledger
-    from optim.study.storage import JOURNAL, check_stored, repair_journal
+    from optim.study.storage import (
+        JOURNAL,
+        SPEC_ATTR,
+        check_stored,
+        journal_damage_note,
+        repair_journal,
+    )
 
+    note = note or logging.getLogger("eddypull").warning
     if not is_url(str(location)):
         path = Path(location) / JOURNAL
-        note = repair_journal(path)
-        if note:
-            logging.getLogger("eddypull").warning(note)
+        torn = repair_journal(path)
+        if torn:
+            note(torn)
         try:
             ledger = JournalLedger(path, spec.name)
         except (KeyError, LedgerUnfit):  # a new study, or a journal only optuna can follow
             ledger = None
+        if ledger is not None:
+            damaged = journal_damage_note(path, ledger.index.damage)
+            if damaged:
+                note(damaged)
         if ledger is not None and FINGERPRINT_ATTR in ledger.user_attrs:
             check_stored(ledger.user_attrs, ledger.directions, spec)
+            if SPEC_ATTR not in ledger.user_attrs:  # its record was damaged: the same study's
+                ledger.set_user_attr(SPEC_ATTR, spec.to_json())
             _result_names(ledger, spec)
             return ledger, str(path)
     storage, where = open_storage(location)
@@ -169,23 +193,33 @@ def run_study(
     sync_s: float | None = None,
     evaluator: str | None = None,
     salt: int | None = None,
+    total_trials: int | None = None,
 ) -> dict:
     """Run ``spec`` until the budget ends or Ctrl-C; return a summary dict.
 
-    ``trials`` counts this run's trials on this machine; ``minutes`` its wall time. At least one
-    must be given. A resumed study adds to what it has.
+    ``trials`` counts this run's trials on this machine; ``total_trials`` instead the study's
+    total (the run makes what is missing, nothing when it is reached); ``minutes`` its wall
+    time. At least one must be given. Stopped by a signal, the summary names it (``signal``)
+    and gives the shell's ``exit_code`` (130 for SIGINT, 143 for SIGTERM, 129 for SIGHUP).
 
     Seeds: with a seed (``seed``, else ``[run] seed``) worker ``i``'s sampler is seeded from
     (seed, i, run number, restarts) only, so one worker repeats the same trials each time; with
     none, a per-process salt takes the seed's place. ``salt``, when given, is mixed in as well.
     """
-    if trials is None and minutes is None:
+    if trials is None and minutes is None and total_trials is None:
         raise DesignError("budget: give --trials, --minutes or --hours (or [run] in the file)")
     folder.mkdir(parents=True, exist_ok=True)
     location = storage_url if storage_url else folder
     log = _file_logger(folder)
-    ledger, where = prepare(spec, location)
+
+    def note(line: str) -> None:  # what the storage set aside or skipped: stderr and run.log
+        log.warning(line)
+        print(f"eddypull: warning: {line}", file=sys.stderr)
+
+    ledger, where = prepare(spec, location, note)
     start_count = ledger.n_trials
+    if total_trials is not None:
+        trials = max(total_trials - start_count, 0)
     run_number = int(ledger.user_attrs.get(RUNS_ATTR, 0))
     ledger.set_user_attr(RUNS_ATTR, run_number + 1)
     release(getattr(ledger, "storage", None) or getattr(ledger, "study", None))
@@ -194,7 +228,7 @@ def run_study(
     tty = sys.stdout.isatty() if tty is None else tty
     msg = (
         f"study {spec.name}: {start_count} trials so far; storage {where}; {workers} worker(s); "
-        f"budget {trials if trials is not None else 'open'} trials, "
+        f"budget {_budget_words(trials, total_trials, start_count)}, "
         f"{f'{minutes:g} min' if minutes is not None else 'no time limit'}"
     )
     echo(
@@ -213,24 +247,52 @@ def run_study(
     }
     pool = _WorkerPool(cfg, _split(trials, workers), progress, log, echo)
     pool.seed_parts = _seed_parts(base_seed, salt, run_number)
-    interrupted = pool.run(tty)
+    signum = pool.run(tty) if trials != 0 else None
     if tty:
         sys.stdout.write("\n")
     end = progress.line(final=True)
-    echo(("stopped by Ctrl-C: " if interrupted else "done: ") + end)
-    log.info(end)
+    stopped = f"stopped by {_SIGNAL_WORDS.get(signum, f'signal {signum}')}: " if signum else ""
+    stopped = stopped or ("stopped by an error (below): " if pool.errors else "")
+    echo((stopped or "done: ") + end)
+    log.info((stopped or "done: ") + end)
     return {
         "name": spec.name,
         "folder": str(folder),
         "storage": redact_url(str(location)) if is_url(str(location)) else str(location),
+        "trials_before": start_count,
         "trials_this_run": progress.done,
         "failed_this_run": progress.failed,
         "feasible_this_run": progress.feasible,
+        "trials_in_study": start_count + progress.done,
         "elapsed_s": time.time() - progress.t0,
-        "interrupted": interrupted,
+        "interrupted": bool(signum),
+        "signal": signal.Signals(signum).name if signum else None,
+        "exit_code": 128 + signum if signum else 0,
         "restarts": pool.restarts,
         "errors": pool.errors,
     }
+
+
+#: How a stop by each signal is named (the shell's exit code is 128 + its number).
+_SIGNAL_WORDS = {
+    signal.SIGINT: "Ctrl-C (SIGINT)",
+    signal.SIGTERM: "SIGTERM (a kill or a shutdown)",
+    signal.SIGHUP: "SIGHUP (its terminal closed)",
+}
+
+
+def _budget_words(trials, total_trials, start_count: int) -> str:
+    """The trial budget in words: the study's total or this run's trials, and which."""
+    if total_trials is not None:
+        if trials == 0:
+            return (
+                f"{total_trials} trials in all, reached ({start_count} there): nothing to run "
+                "(--more N adds N)"
+            )
+        return f"{total_trials} trials in all ({trials} to run; --more N adds N beyond)"
+    if trials is None:
+        return "no trial limit"
+    return f"{trials} more trials ({start_count + trials} in all)"
 
 
 class _WorkerPool:
@@ -297,10 +359,10 @@ class _WorkerPool:
             self.readers.pop(reader, None)
             reader.close()
 
-    def run(self, tty: bool) -> bool:
-        """Start every worker and serve them until all have ended. Returns True if stopped by
-        Ctrl-C, SIGTERM or SIGHUP."""
-        interrupted = False
+    def run(self, tty: bool) -> int | None:
+        """Start every worker and serve them until all have ended. Returns the number of the
+        signal that stopped the run (SIGINT: Ctrl-C, SIGTERM, SIGHUP), None if none did."""
+        stopped_by = None
         previous = {sig: signal.getsignal(sig) for sig in (signal.SIGTERM, signal.SIGHUP)}
         for sig in previous:  # a terminal closed or a `kill`: stop like Ctrl-C, workers included
             signal.signal(sig, _interrupt)
@@ -314,15 +376,17 @@ class _WorkerPool:
                     if not p.is_alive():
                         self._reap(index, p)
                 self._show_progress(tty)
-        except KeyboardInterrupt:
-            interrupted = True
+        except KeyboardInterrupt as stop:
+            stopped_by = getattr(stop, "signum", signal.SIGINT)
+            for sig in previous:  # a second signal must not break the stop either
+                signal.signal(sig, signal.SIG_IGN)
             self.shutdown()
         finally:
             for sig, handler in previous.items():
                 signal.signal(sig, handler)
-            if interrupted:
+            if stopped_by is not None:
                 signal.signal(signal.SIGINT, signal.default_int_handler)
-        return interrupted
+        return stopped_by
 
     def _reap(self, index: int, p) -> None:
         """A worker has ended: read its last messages, report how it ended, restart it if it was
@@ -384,8 +448,16 @@ class _WorkerPool:
             self.receive(reader, index)
 
 
+class _Stop(KeyboardInterrupt):
+    """A stop by SIGTERM or SIGHUP, raised where the parent is, as Ctrl-C's KeyboardInterrupt."""
+
+    def __init__(self, signum: int):
+        super().__init__(signum)
+        self.signum = signum
+
+
 def _interrupt(signum, frame):
-    raise KeyboardInterrupt
+    raise _Stop(signum)
 
 
 def _seed_parts(seed: int | None, salt: int | None, run_number: int) -> tuple:
@@ -426,7 +498,13 @@ def _worker_entry(cfg, conn, stop, counter):
         sender.put(("error", redact_text("; ".join(err.problems), cfg["location"])))
         code = 3
     except Exception as err:  # reported once by the parent; the study itself is intact
-        sender.put(("error", redact_text(f"{type(err).__name__}: {err}", cfg["location"])[:500]))
+        from optim.study.storage import is_storage_error, storage_fault
+
+        if is_storage_error(err):
+            text = str(storage_fault(err, cfg["location"], "a worker stopped"))
+        else:
+            text = redact_text(f"{type(err).__name__}: {err}", cfg["location"])[:500]
+        sender.put(("error", text))
         code = 3
     finally:
         conn.close()

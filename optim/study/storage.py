@@ -14,16 +14,23 @@ resumed run with a changed search is refused. Passwords never leave this module 
 
 from __future__ import annotations
 
-import json
 import logging
-import os
+import re
 import time
-import uuid
 from pathlib import Path
 
 from models.errors import DesignError
 from models.result import MODEL_VERSION
 from optim.files import redact_text, redact_url, safe_child
+from optim.study.journal import journal_damage_note, repair_journal, rewrite_journal
+from optim.study.storage_errors import (
+    StorageFault,
+    _dispose_half_made,
+    _malformed_url,
+    _server_words,
+    is_storage_error,
+    storage_fault,
+)
 
 __all__ = [
     "JOURNAL",
@@ -33,10 +40,15 @@ __all__ = [
     "is_url",
     "open_storage",
     "repair_journal",
+    "rewrite_journal",
+    "journal_damage_note",
     "check_stored",
     "create_or_load",
     "load_existing",
     "release",
+    "StorageFault",
+    "is_storage_error",
+    "storage_fault",
 ]
 
 JOURNAL = "journal.log"
@@ -68,69 +80,6 @@ def _database_url(url: str) -> str:
     return url
 
 
-#: How much of the journal's end is checked for a torn record [bytes] (records are ~1-2 kB).
-TAIL_BYTES = 1 << 20
-
-
-def repair_journal(path: Path) -> str | None:
-    """Cut a torn or unreadable last record off the journal at ``path``.
-
-    Done under the journal's own lock, so that a writer of another process is never cut short;
-    only the last ``TAIL_BYTES`` are read. The cut bytes are kept beside the journal in
-    ``<name>.torn-<time>-<id>``. Returns a one-line description of what was done, or None if the
-    journal ended with a whole record. A journal damaged before its last record is left alone:
-    opening it then fails with one line (``open_storage``).
-    """
-    from optuna.storages.journal import JournalFileOpenLock
-
-    path = Path(path)
-    if not path.exists() or path.stat().st_size == 0:
-        return None
-    lock = JournalFileOpenLock(str(path))
-    lock.acquire()
-    try:
-        with open(path, "rb") as fh:
-            size = fh.seek(0, os.SEEK_END)
-            start = max(0, size - TAIL_BYTES)
-            fh.seek(start)
-            tail = fh.read()
-        if tail.endswith(b"\n"):
-            last = tail.rfind(b"\n", 0, len(tail) - 1) + 1
-            try:
-                json.loads(tail[last:])
-                return None
-            except ValueError:
-                cut = start + last
-        else:
-            newline = tail.rfind(b"\n")
-            if newline < 0 and start > 0:
-                raise DesignError(
-                    f"storage {str(path)!r}: its last {TAIL_BYTES} bytes hold no whole record; "
-                    "the file is damaged (restore it from a copy)"
-                )
-            cut = start + newline + 1
-        torn = tail[cut - start :]
-        keep = path.with_name(
-            f"{path.name}.torn-{time.strftime('%Y%m%dT%H%M%S')}-{uuid.uuid4().hex[:6]}"
-        )
-        try:
-            keep.write_bytes(torn)
-        except OSError as err:
-            raise DesignError(
-                f"storage {str(path)!r}: ends in a torn record that cannot be set aside "
-                f"({err.strerror}); free space and run again"
-            ) from None
-        with open(path, "rb+") as fh:
-            fh.truncate(cut)
-            os.fsync(fh.fileno())
-    finally:
-        lock.release()
-    return (
-        f"storage {path.name}: cut {len(torn)} bytes of a torn last record "
-        f"(kept in {keep.name}); every whole record is kept"
-    )
-
-
 def _rdb_storage(location: str, create: bool):
     """optuna's database storage. Two machines starting on a new database at once race to create
     its tables (the loser sees a unique-key violation): a failed first attempt is retried once the
@@ -153,38 +102,55 @@ def _rdb_storage(location: str, create: bool):
     raise AssertionError("unreachable")
 
 
-def open_storage(location, repair: bool = True, create: bool = True):
+def open_storage(location, repair: bool = True, create: bool = True, notes=None):
     """An optuna storage for a study folder's journal (a Path) or a database URL (a str).
 
-    Returns (storage, description) with the description safe to print.
+    Returns (storage, description) with the description safe to print. What a journal's
+    reading set aside or skipped goes to ``notes`` (a list) when given, else to the warnings.
     """
 
     if is_url(location):
         try:
             storage = _rdb_storage(location, create)
         except Exception as err:  # sqlalchemy/driver errors: one line, no password
-            msg = str(err).splitlines()[0] if str(err) else type(err).__name__
-            raise DesignError(
-                f"storage = {redact_url(location)!r}: cannot be opened "
-                f"({redact_text(msg, location)[:200]})"
-            ) from None
+            _dispose_half_made(err)
+            if re.search(
+                r"(relation|table:?) \W?version_info\W? does not exist|no such table: "
+                r"version_info",
+                _server_words(err),
+            ):
+                raise DesignError(
+                    f"storage = {redact_url(location)!r}: the database holds no study yet "
+                    "(none of optuna's tables)"
+                ) from None
+            if _malformed_url(err):
+                raise DesignError(
+                    f"storage = {redact_url(location)!r}: not a database URL that can be used "
+                    f"({redact_text(_server_words(err), location)[:200]}); write it as "
+                    "postgresql://USER@HOST:PORT/DATABASE"
+                ) from None
+            if "unable to open database file" in _server_words(err):  # SQLite: a bad path
+                raise DesignError(
+                    f"storage = {redact_url(location)!r}: the database file cannot be opened "
+                    "(no such folder, or no permission)"
+                ) from None
+            raise storage_fault(err, location, "cannot be opened") from None
         return storage, redact_url(location)
     folder = Path(location)
     folder.mkdir(parents=True, exist_ok=True)
     path = safe_child(folder, JOURNAL)
     note = repair_journal(path) if repair else None
-    from optuna.storages.journal import JournalFileBackend, JournalFileOpenLock, JournalStorage
+    from optuna.storages.journal import JournalStorage
 
-    backend = JournalFileBackend(str(path), lock_obj=JournalFileOpenLock(str(path)))
-    try:
-        storage = JournalStorage(backend)
-    except (ValueError, json.JSONDecodeError) as err:
-        raise DesignError(
-            f"storage {str(path)!r}: cannot be read, a record before the last is damaged "
-            f"({str(err).splitlines()[0][:120]}); restore the file from a copy"
-        ) from None
-    if note:
-        logging.getLogger("eddypull").warning(note)
+    from optim.study.journal import journal_backend
+
+    backend = journal_backend(path)
+    storage = JournalStorage(backend)
+    for line in (note, journal_damage_note(path, backend.damage.items())):
+        if line and notes is not None:
+            notes.append(line)
+        elif line:
+            logging.getLogger("eddypull").warning(line)
     return storage, str(path)
 
 
@@ -220,14 +186,64 @@ def check_stored(attrs: dict, directions: list[str], spec) -> None:
             "they are not mixed: give the study a new name (or a new folder)"
         )
     if FINGERPRINT_ATTR in attrs and attrs[FINGERPRINT_ATTR] != fp:
+        changed = changed_keys(attrs.get(SPEC_ATTR), spec.to_json())
         raise DesignError(
             f"name = {spec.name!r}: a study of that name already exists in this storage with a "
-            "different base design, search, objectives or constraints; give the study a new name"
+            f"different {changed or 'base design, search, objectives or constraints'}; give the "
+            "study a new name (or put the file back as it was)"
         )
     if list(directions) != list(spec.directions):
         raise DesignError(
             f"name = {spec.name!r}: the stored study optimises other directions; use a new name"
         )
+
+
+#: The parts of a study's definition its fingerprint covers, as the file names them.
+_DEFINING = {
+    "base": "base design",
+    "search": "[search]",
+    "objectives": "[objectives]",
+    "robust": "[robust]",
+    "constraints": "[constraints]",
+    "parts": "[[parts]]",
+}
+
+
+def changed_keys(stored, now: dict) -> str:
+    """What differs between a stored definition (``StudySpec.to_json``, maybe None) and
+    ``now``: e.g. "[search] frequency_Hz (low 100 -> 200), ring_depth_mm (added)"; "" when the
+    stored one is missing or nothing named differs."""
+    if not isinstance(stored, dict):
+        return ""
+    out = []
+    for key, label in _DEFINING.items():
+        a, b = stored.get(key), now.get(key)
+        if a == b:
+            continue
+        if isinstance(a, dict) and isinstance(b, dict):
+            names = [k for k in sorted(set(a) | set(b)) if a.get(k) != b.get(k)]
+            items = [_change(k, a.get(k), b.get(k)) for k in names[:6]]
+            if key == "objectives" and not names:
+                items = ["their order"]
+            out.append(f"{label} " + ", ".join(items) + (" ..." if len(names) > 6 else ""))
+        else:
+            out.append(label)
+    if stored.get("run", {}).get("isothermal", False) != now.get("run", {}).get(
+        "isothermal", False
+    ):
+        out.append("[run] isothermal")
+    return "; ".join(out)
+
+
+def _change(name: str, was, now) -> str:
+    if was is None:
+        return f"{name} (added)"
+    if now is None:
+        return f"{name} (removed)"
+    if isinstance(was, dict) and isinstance(now, dict):
+        keys = [k for k in sorted(set(was) | set(now)) if was.get(k) != now.get(k)]
+        return f"{name} (" + ", ".join(f"{k} {was.get(k)} -> {now.get(k)}" for k in keys) + ")"
+    return f"{name} ({was} -> {now})"
 
 
 def load_existing(location, name: str | None = None):
@@ -243,17 +259,15 @@ def load_existing(location, name: str | None = None):
             raise DesignError(
                 f"study {str(location)!r}: no {JOURNAL} there; give a study folder or a URL"
             )
-    storage, where = open_storage(location, repair=False, create=False)
+    notes: list[str] = []
+    storage, where = open_storage(location, repair=False, create=False, notes=notes)
     try:
         try:
             summaries = optuna.get_all_study_summaries(storage, include_best_trial=False)
         except DesignError:
             raise
-        except Exception as err:  # e.g. a database without optuna's tables
-            why = str(err).splitlines()[0] if str(err) else type(err).__name__
-            raise DesignError(
-                f"study {where!r}: holds no study that can be read ({redact_text(why, location)[:160]})"
-            ) from None
+        except Exception as err:  # a server down, a database without optuna's tables
+            raise storage_fault(err, location, "holds no study that can be read") from None
         names = [s.study_name for s in summaries]
         if not names:
             raise DesignError(f"study {where!r}: the storage holds no study")
@@ -273,6 +287,8 @@ def load_existing(location, name: str | None = None):
     except BaseException:
         release(storage)
         raise
+    for line in notes:  # said once the study is found (a file of nothing but damage is refused)
+        logging.getLogger("eddypull").warning(line)
     return study, spec, where
 
 
