@@ -27,7 +27,10 @@ def test_verify_reads_a_result_with_two_warnings():
     assert by_key["pull_N"]["difference_rel"] == pytest.approx(1 / 1.01 - 1, rel=1e-9)
     # The impedance (a [re, im] pair by name) is still split into its two parts.
     re, im = fast.to_dict()["coil_impedance_ohm"]
-    assert (by_key["coil_impedance_ohm.re"]["fast"], by_key["coil_impedance_ohm.im"]["fast"]) == (re, im)
+    assert (by_key["coil_impedance_ohm.re"]["fast"], by_key["coil_impedance_ohm.im"]["fast"]) == (
+        re,
+        im,
+    )
     assert "coil reactance" in format_table(rows, 1.0, 0.01)
     assert not any(k.startswith(("warnings", "thermal_time_constants")) for k in by_key)
 

@@ -53,7 +53,9 @@ def _complex_parts(key: str, value) -> tuple[float, float]:
         return float(value[0]), float(value[1])
     if value is None:
         return math.nan, math.nan
-    raise ValueError(f"{key} must be a complex number or a [re, im] pair; instead received {value!r}")
+    raise ValueError(
+        f"{key} must be a complex number or a [re, im] pair; instead received {value!r}"
+    )
 
 
 def _scalars(d) -> dict:
