@@ -203,7 +203,7 @@ LIFT_STUDY = """
 ambient_C = 30.0
 duty_cycle = 0.3
 period_s = 2.0
-hold_time_s = 1.0
+hold_time_s = 0.5
 coil_insulation_class = "F"
 [target]
 thickness_mm = 0.6

@@ -293,6 +293,13 @@ def _write_study_report(
         }
     )
     notes = _notes(spec, df, front, designs[0][1] if designs else None)
+    from optim.morning.cards import CardStates
+
+    states = CardStates(
+        gaps_mm=tuple(spec.gaps_mm),
+        family=bool(spec.parts),
+        isothermal=bool(spec.run.get("isothermal", False)),
+    )
     report = write_report(
         folder,
         summary,
@@ -305,6 +312,7 @@ def _write_study_report(
         picks=picks,
         pick_maps=maps,
         tolerance=table,
+        states=states,
     )
     return Path(report)
 
