@@ -14,6 +14,7 @@ from models.design import design_from_dict
 from models.errors import DesignError
 from models.evaluate import evaluate
 from optim.cli.main import main
+from optim.cli.summary import format_result
 from optim.demo import DEMO_SORTING, DEMO_STUDY
 from optim.morning.cards import CardStates
 from optim.morning.front import DIMENSIONS
@@ -143,3 +144,45 @@ def _with_gap(source: dict, gap_mm: float) -> dict:
     d = copy.deepcopy(source)
     d["target"]["gap_mm"] = gap_mm
     return d
+
+
+def _printed(d: dict, isothermal: bool = False) -> tuple:
+    design = design_from_dict(d)
+    result = evaluate(design, isothermal=isothermal)
+    return result, format_result(design, result)
+
+
+def test_a_runaway_prints_no_negative_time_nan_or_infinite_temperature():
+    d = demo_dict()
+    d["drive"]["current_A"] = 20.0  # 1 kW in the demo's coil: its hot spot runs away
+    result, text = _printed(d)
+    assert result.thermal_status.startswith("runaway")
+    # From cold the coil cannot reach its limit before it is switched on (seconds >= 0).
+    assert all(t >= 0.0 for t in result.time_to_limit_s.values())
+    assert "coil at switch-on" in text
+    times = next(x for x in text.splitlines() if "time to limit" in x)
+    assert " -" not in times
+    for nonsense in ("nan", "inf degC", "-inf", "(part at inf"):
+        assert nonsense not in text, nonsense
+    assert "after the hold     n/a: no pull after a 0.5 s hold (runaway" in text
+
+
+def test_a_pole_given_by_permeability_has_no_saturation_to_compare():
+    d = demo_dict()
+    d["pole"] = {
+        "radius_mm": 10.0,
+        "length_mm": 40.0,
+        "relative_permeability": 2000.0,
+        "conductivity_S_per_m": 0.0,
+    }
+    result, text = _printed(d)
+    assert math.isnan(result.core_saturation_T)
+    assert "nan" not in text
+    assert "core flux vs saturation n/a" in text
+
+
+def test_an_isothermal_run_says_its_temperatures_are_not_coupled():
+    _, text = _printed(demo_dict(), isothermal=True)
+    line = next(x for x in text.splitlines() if x.strip().startswith("temperatures"))
+    assert "not coupled (every resistivity held at 20 degC" in line
+    assert "isothermal" in next(x for x in text.splitlines() if "after the hold" in x)
