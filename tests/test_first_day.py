@@ -15,7 +15,7 @@ from models.errors import DesignError
 from models.evaluate import evaluate
 from optim.cli.main import main
 from optim.cli.summary import format_result
-from optim.demo import DEMO_SORTING, DEMO_STUDY
+from optim.demo import DEMO_DESIGN, DEMO_SORTING, DEMO_STUDY
 from optim.morning.cards import CardStates
 from optim.morning.front import DIMENSIONS
 from optim.morning.handoff import dumps_toml
@@ -186,3 +186,72 @@ def test_an_isothermal_run_says_its_temperatures_are_not_coupled():
     line = next(x for x in text.splitlines() if x.strip().startswith("temperatures"))
     assert "not coupled (every resistivity held at 20 degC" in line
     assert "isothermal" in next(x for x in text.splitlines() if "after the hold" in x)
+
+
+REPEATS = """
+[search]
+turns = { low = 200, high = 202 }
+pole_material = { choices = ["electrical-steel-m400", "electrical-steel-m270"] }
+[objectives]
+pull_N = "maximize"
+input_power_W = "minimize"
+[run]
+sampler = "random"
+seed = 3
+"""
+
+
+def _repeat_study(tmp_path, trials: int):
+    """A search of 3 x 2 = 6 designs run for more trials than that, by one worker in this process."""
+    import multiprocessing as mp
+
+    from optim.study.engine import run_worker
+    from optim.study.run import prepare
+
+    path = tmp_path / "repeats.toml"
+    path.write_text(
+        f'name = "repeats"\ndesign = "{DEMO_DESIGN.as_posix()}"\n{REPEATS}', encoding="utf-8"
+    )
+    spec = load_study_spec(path)
+    folder = tmp_path / "repeats"
+    prepare(spec, folder)
+    cfg = {"spec": spec.to_json(), "location": str(folder), "trials": trials, "seed": 3}
+    counter = mp.get_context("spawn").Value("q", 0)
+    assert run_worker(cfg, None, None, counter) == trials
+    return spec, folder
+
+
+def test_a_repeated_design_is_copied_not_evaluated(tmp_path):
+    from optim.morning.front import status_summary, trials_table
+    from optim.study.engine import record_of
+    from optim.study.storage import load_existing
+
+    spec, folder = _repeat_study(tmp_path, 20)
+    study, spec_json, _ = load_existing(folder)
+    trials = study.get_trials(deepcopy=False)
+    first: dict = {}
+    for t in trials:
+        key = tuple(sorted(t.params.items()))
+        rec = record_of(t)
+        if key not in first:  # the first of a design is evaluated
+            first[key] = t
+            assert "copy_of" not in rec and rec["eval_s"] > 0
+        else:  # every later one copies it: its numbers, no evaluation
+            original = first[key]
+            assert rec["copy_of"] == original.number and rec["eval_s"] == 0
+            assert t.values == original.values
+            assert rec["results"] == record_of(original)["results"]
+    assert len(first) <= 6 < len(trials)  # 3 turns x 2 steels: repeats are certain
+    df = trials_table(study, spec_json)
+    copies = df["copy_of"].notna()
+    assert int(copies.sum()) == len(trials) - len(first)
+    assert str(df["copy_of"].dtype) == "Int64"  # a trial number, empty for an evaluated trial
+    front = df[df["on_front"]]
+    assert not front[["turns", "pole_material"]].astype(str).duplicated().any()
+    assert front["copy_of"].isna().all()
+    # The rate counts evaluated trials only: (evaluated - 1) / their span.
+    s = status_summary(study, spec_json, df)
+    times = df.loc[~copies, "completed_at"]
+    span = (times.max() - times.min()).total_seconds()
+    assert s["copies"] == int(copies.sum())
+    assert s["rate_per_s"] == pytest.approx((len(first) - 1) / span)

@@ -30,7 +30,16 @@ from optim.morning.handoff import unit_of
 __all__ = ["write_report", "render_report", "binding_counts", "CAUTIONS", "BOOKKEEPING"]
 
 #: Front-table columns about the run rather than the design: last, and hidden until asked for.
-BOOKKEEPING = ("state", "feasible", "on_front", "completed_at", "eval_s", "reason", "worker")
+BOOKKEEPING = (
+    "state",
+    "feasible",
+    "on_front",
+    "completed_at",
+    "eval_s",
+    "copy_of",
+    "reason",
+    "worker",
+)
 
 #: The cautions of the README (section "Cautions"), shown at the end of every report.
 CAUTIONS = (
