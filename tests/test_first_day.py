@@ -255,3 +255,37 @@ def test_a_repeated_design_is_copied_not_evaluated(tmp_path):
     span = (times.max() - times.min()).total_seconds()
     assert s["copies"] == int(copies.sum())
     assert s["rate_per_s"] == pytest.approx((len(first) - 1) / span)
+
+
+def test_a_ring_without_its_own_limit_is_held_to_the_coil_beside_it():
+    d = demo_dict()  # class F coil (the demo's [thermal]), copper ring, no ring_limit_C
+    assert d["thermal"]["coil_insulation_class"] == "F" and "ring_limit_C" not in d["thermal"]
+    result = evaluate(design_from_dict(d))
+    a = result.thermal_assumptions
+    assert a["ring_limit_C"] == 155.0  # IEC 60085 class F
+    assert a["ring_limit_source"].startswith("the coil's insulation class F")
+    # A limit of the user's own still wins.
+    d["thermal"]["ring_limit_C"] = 250.0
+    assert evaluate(design_from_dict(d)).thermal_assumptions["ring_limit_C"] == 250.0
+
+
+@pytest.mark.parametrize(
+    ("sigma", "metal"),
+    # conductivities at 20 degC (IEC 60028 copper 58 MS/m; aluminium about 35 MS/m, from memory)
+    [(5.8e7, "copper"), (3.5e7, "aluminium")],
+)
+def test_an_unnamed_conductor_takes_one_metal_for_every_property(sigma, metal):
+    from models.design import nearest_metal
+
+    d = demo_dict()
+    d["target"].pop("material", None)
+    d["target"].update(conductivity_S_per_m=sigma, density_kg_per_m3=2700.0)
+    design = design_from_dict(d)
+    near = nearest_metal(sigma)
+    assert near.name.startswith(metal)
+    result = evaluate(design)
+    # the temperature coefficient and the melting point are the same metal's
+    assert design.target.temperature_coefficient == near.temperature_coefficient
+    assert result.thermal_assumptions["target_limit_C"] == near.max_temperature_C
+    assert near.name in result.thermal_assumptions["target_limit_source"]
+    assert any(f"melting point of {near.name}" in w for w in result.warnings)
