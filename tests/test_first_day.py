@@ -289,3 +289,12 @@ def test_an_unnamed_conductor_takes_one_metal_for_every_property(sigma, metal):
     assert result.thermal_assumptions["target_limit_C"] == near.max_temperature_C
     assert near.name in result.thermal_assumptions["target_limit_source"]
     assert any(f"melting point of {near.name}" in w for w in result.warnings)
+
+
+def test_the_reports_model_validity_note_speaks_of_the_core_losses_modelled():
+    from optim.morning.outputs import _notes
+
+    spec = load_study_spec(DEMO_STUDY)
+    first = _notes(spec, pd.DataFrame({"state": []}), pd.DataFrame())[0]
+    assert "no hysteresis" not in first
+    assert "hysteresis and excess from a loss law" in first
