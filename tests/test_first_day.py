@@ -298,3 +298,17 @@ def test_the_reports_model_validity_note_speaks_of_the_core_losses_modelled():
     first = _notes(spec, pd.DataFrame({"state": []}), pd.DataFrame())[0]
     assert "no hysteresis" not in first
     assert "hysteresis and excess from a loss law" in first
+
+
+def test_british_spellings_of_the_directions_are_the_same_study(tmp_path):
+    text = DEMO_STUDY.read_text(encoding="utf-8")
+    british = text.replace('= "maximize"', '= "maximise"').replace('= "minimize"', '= "minimise"')
+    assert british != text
+    path = tmp_path / "demo_study.toml"
+    path.write_text(
+        british.replace('design = "demo_design.toml"', f'design = "{DEMO_DESIGN.as_posix()}"'),
+        encoding="utf-8",
+    )
+    ours, theirs = load_study_spec(path), load_study_spec(DEMO_STUDY)
+    assert ours.directions == theirs.directions == ["maximize", "minimize"]
+    assert ours.fingerprint() == theirs.fingerprint()
