@@ -312,3 +312,51 @@ def test_british_spellings_of_the_directions_are_the_same_study(tmp_path):
     ours, theirs = load_study_spec(path), load_study_spec(DEMO_STUDY)
     assert ours.directions == theirs.directions == ["maximize", "minimize"]
     assert ours.fingerprint() == theirs.fingerprint()
+
+
+def _significant(v: float) -> int:
+    """Significant digits of a float as Python writes it (repr: the shortest round trip)."""
+    digits = repr(abs(v)).split("e")[0].replace(".", "").lstrip("0")
+    return len(digits.rstrip("0")) or 1
+
+
+def _floats(value, path=()):
+    if isinstance(value, dict):
+        for k, v in value.items():
+            yield from _floats(v, (*path, str(k)))
+    elif isinstance(value, list):
+        for v in value:
+            yield from _floats(v, path)
+    elif isinstance(value, float):
+        yield path, value
+
+
+def test_a_hand_off_states_every_number_at_its_resolution(tmp_path):
+    import csv
+    import json
+
+    from optim.morning.handoff import write_handoff
+    from optim.morning.rounding import round_design
+
+    d = demo_dict()
+    d["ring"]["depth_mm"] = 0.9132379628928807  # a study's 16 digits
+    d["drive"].update(frequency_Hz=1200.8715316975965, current_A=5.166308101283111)
+    design, changed = round_design(design_from_dict(d))
+    # the drive as an inverter is set: 1 Hz and 0.01 A (rounding.DRIVE_RESOLUTION)
+    assert design.source["drive"] == {"frequency_Hz": 1201.0, "current_A": 5.17}
+    assert {"drive.frequency_Hz", "drive.current_A", "ring.depth_mm"} <= set(changed)
+    paths = write_handoff(design, evaluate(design), tmp_path, {"trial": 3})
+    data = json.loads(paths["handoff.json"].read_text(encoding="utf-8"))
+    assert data["resolution"]["lengths_mm"] == 0.001
+    for path, v in _floats({k: v for k, v in data.items() if k != "design"}):
+        limit = 6 if path[0] in ("study", "rounding", "resolution") else 4
+        assert _significant(v) <= limit, (path, v)
+    for path, v in _floats({k: v for k, v in data["design"].items() if k != "file"}):
+        if path[-1].endswith("_mm") or path[0] in ("dimensions_mm", "section_mm"):
+            assert abs(v * 1000 - round(v * 1000)) < 1e-6, (path, v)  # 0.001 mm
+        else:
+            assert _significant(v) <= 6, (path, v)
+    with open(paths["parameters.csv"], newline="", encoding="utf-8") as fh:
+        for row in csv.DictReader(fh):
+            if row["unit"]:  # a number (texts have no unit)
+                assert _significant(float(row["value"])) <= 6, row

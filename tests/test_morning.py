@@ -112,7 +112,8 @@ def test_export_reproduces_the_stored_numbers(finished, tmp_path, capsys):
     # re-evaluates exactly to handoff.json's predicted numbers (the study ran with coupling).
     again = evaluate(load_design(out / "design.toml"))
     for name in ("pull_N", "input_power_W", "ring_loss_W", "coil_temperature_C"):
-        assert getattr(again, name) == info["predicted"][name], name
+        # handoff.json states its results to 4 significant digits (STATED_RESOLUTION)
+        assert info["predicted"][name] == pytest.approx(getattr(again, name), rel=5e-4), name
     rounding = info["rounding"]
     assert rounding["resolution_mm"] == 0.01
     assert rounding["constraints_met"] == all(
