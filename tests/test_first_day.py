@@ -360,3 +360,28 @@ def test_a_hand_off_states_every_number_at_its_resolution(tmp_path):
         for row in csv.DictReader(fh):
             if row["unit"]:  # a number (texts have no unit)
                 assert _significant(float(row["value"])) <= 6, row
+
+
+def test_the_dxf_marks_the_sheets_and_letters_at_print_size(tmp_path):
+    import ezdxf
+
+    from optim.morning.dxf import write_profile_dxf
+
+    design = design_from_dict(demo_dict())  # a laminated electrical-steel pole
+    doc = ezdxf.readfile(write_profile_dxf(design, tmp_path / "p.dxf"))
+    msp = doc.modelspace()
+    lines = [e for e in msp if e.dxf.layer == "LAMINATIONS" and e.dxftype() == "LINE"]
+    rp, length = design.source["pole"]["radius_mm"], design.source["pole"]["length_mm"]
+    assert lines and all(e.dxf.start[0] == e.dxf.end[0] for e in lines)  # parallel to the axis
+    assert all(-rp < e.dxf.start[0] < 0 and e.dxf.start[1] == -length for e in lines)
+    (label,) = [e for e in msp if e.dxf.layer == "LAMINATIONS" and e.dxftype() == "MTEXT"]
+    assert "sheets ∥ axis" in label.plain_text()
+    # ISO 3098-0: 2.5 mm is the smallest standard lettering for dimensions at 1:1.
+    dims = [e for e in msp if e.dxftype() == "DIMENSION"]
+    assert min(e.get_dxf_attrib("char_height") for e in msp if e.dxftype() == "MTEXT") >= 2.5
+    assert dims and all(e.override().get("dimtxt") >= 2.5 for e in dims)
+    # A ferrite pole has no sheets: nothing on the layer.
+    d = demo_dict()
+    d["pole"]["material"] = "ferrite-mnzn"
+    doc = ezdxf.readfile(write_profile_dxf(design_from_dict(d), tmp_path / "f.dxf"))
+    assert not [e for e in doc.modelspace() if e.dxf.layer == "LAMINATIONS"]

@@ -474,24 +474,30 @@ def test_dxf_dimensions_measure_the_design(tmp_path):
     assert {e.dxf.layer for e in dims} == {"DIMENSIONS"}
     measured = sorted(round(e.get_measurement(), 9) for e in dims)
     c = src["coil"]
-    expected = sorted(
-        [
-            src["ring"]["inner_radius_mm"],
-            src["ring"]["outer_radius_mm"],
-            src["ring"]["depth_mm"],
-            src["pole"]["radius_mm"],
-            src["target"]["gap_mm"],
-            c["inner_radius_mm"],
-            round(c["outer_radius_mm"] - c["inner_radius_mm"], 9),  # window width
-            c["length_mm"],
-            c["setback_mm"],
-        ]
-    )
-    assert measured == pytest.approx(expected, abs=1e-9)
+    diameters = [  # a turned part by its diameters (2 r, geometry), across the full section
+        2 * src["ring"]["inner_radius_mm"],
+        2 * src["ring"]["outer_radius_mm"],
+        2 * src["pole"]["radius_mm"],
+        2 * c["inner_radius_mm"],
+        2 * c["outer_radius_mm"],
+    ]
+    lengths = [
+        src["ring"]["depth_mm"],
+        src["pole"]["length_mm"],
+        src["target"]["gap_mm"],
+        c["length_mm"],
+        c["setback_mm"],
+    ]
+    assert measured == pytest.approx(sorted(diameters + lengths), abs=1e-9)
     for e in dims:  # each rendered to its block, showing the value to 0.01 mm
         block = doc.blocks.get(e.dxf.geometry)
         texts = [t.text for t in block if t.dxftype() == "MTEXT"]
-        assert texts == [f"{e.get_measurement():.2f}"]
+        value = e.get_measurement()
+        sign = "Ø" if any(abs(value - v) < 1e-9 for v in diameters) else ""
+        assert texts == [f"{sign}{value:.2f}"]
+    # The ring's depth stands clear of the centre line (left of the full section).
+    (depth,) = [e for e in dims if abs(e.get_measurement() - src["ring"]["depth_mm"]) < 1e-9]
+    assert depth.dxf.defpoint[0] < -src["coil"]["outer_radius_mm"]
 
     (notes,) = [e for e in doc.modelspace() if e.dxf.layer == "NOTES"]
     text = notes.plain_text()
@@ -500,6 +506,7 @@ def test_dxf_dimensions_measure_the_design(tmp_path):
         "pole: electrical-steel-m400",
         "ring: copper",
         "target: aluminium-1350",
+        "pole: laminated, 0.5 mm sheets parallel to the axis",
         f"{design.coil.turns} turns",
         "wire 0.800 mm bare copper",
         "0.855 grade 1, 0.884 grade 2",

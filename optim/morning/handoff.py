@@ -406,6 +406,10 @@ def _dxf_notes(design, content: dict, meta: dict) -> list[str]:
     lines = [ident, "units: mm; half section r >= 0 (parts' layers), FULL_SECTION mirrored"]
     for part, m in content["design"]["materials"].items():
         lines.append(f"{part}: {m['material']}")
+    from optim.morning.dxfnotes import sheets_words
+
+    if sheets_words(design):
+        lines.append(sheets_words(design))
     wire = f"wire {w['wire_bare_diameter_mm']:.3f} mm bare copper"
     if w["wire_overall_grade1_max_mm"] is not None:
         wire += (
