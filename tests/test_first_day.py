@@ -385,3 +385,22 @@ def test_the_dxf_marks_the_sheets_and_letters_at_print_size(tmp_path):
     d["pole"]["material"] = "ferrite-mnzn"
     doc = ezdxf.readfile(write_profile_dxf(design_from_dict(d), tmp_path / "f.dxf"))
     assert not [e for e in doc.modelspace() if e.dxf.layer == "LAMINATIONS"]
+
+
+@pytest.mark.slow
+def test_verify_and_its_hand_off_on_a_design_with_two_warnings(tmp_path):
+    import json
+
+    from optim.morning.handoff import write_handoff
+    from optim.morning.verify import run_verify
+
+    d = demo_dict()
+    d["target"]["gap_mm"] = 3.5  # outside the FEM-checked range twice: two warnings
+    design = design_from_dict(d)
+    # refine 0.5: the FEM's coarse level (as tests/test_handoff.py's real verification)
+    checked = run_verify(design, refine=0.5)
+    paths = write_handoff(design, evaluate(design), tmp_path, {"trial": 0}, verify=checked)
+    data = json.loads(paths["handoff.json"].read_text(encoding="utf-8"))
+    keys = {r["key"] for r in data["verify"]["rows"]}
+    assert {"pull_N", "coil_impedance_ohm.re", "coil_impedance_ohm.im"} <= keys
+    assert "FEM" in paths["verify.txt"].read_text(encoding="utf-8")
