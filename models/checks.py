@@ -361,18 +361,30 @@ def thermal_warnings(design: Design, state, result: dict, hold_tau: float) -> li
 
 
 def used_limits(design: Design, network) -> dict:
-    """Temperature limit of each part [degC] that margins and times to limit use, with its
-    source: {"coil": (limit, why), "ring": ..., "target": ...}. Without a user's limit a ring or
-    a part is held to its material's own (melting or Curie point, ``network.ceiling_C``)."""
+    """Temperature limit of each part [degC] that times to limit use, with its source:
+    {"coil": (limit, why), "ring": ..., "target": ...}.
+
+    Without a user's limit the ring is held to the coil's insulation class (or its own melting
+    point, if lower): it is inlaid in the face of the pole that carries the winding and heats it,
+    so the pole's hottest part runs no hotter than the winding may (common practice, no source);
+    a part (the target) to its material's own limit (melting or Curie point,
+    ``network.ceiling_C``): it leaves the magnet with each pick.
+    """
     th = design.thermal
     out = {"coil": (th.coil_class_C, f"insulation class {th.coil_class}, IEC 60085")}
     for part, user in (("ring", th.ring_limit_C), ("target", th.target_limit_C)):
         if part not in network.nodes:
             continue
+        k = network.index(part)
         if user is not None:
             out[part] = (user, f"thermal.{part}_limit_C")
+        elif part == "ring" and th.coil_class_C < network.ceiling_C[k]:
+            out[part] = (
+                float(th.coil_class_C),
+                f"the coil's insulation class {th.coil_class} beside it in the pole; no "
+                "thermal.ring_limit_C given",
+            )
         else:
-            k = network.index(part)
             out[part] = (
                 float(network.ceiling_C[k]),
                 f"{network.ceiling_why[k]}; no thermal.{part}_limit_C given",

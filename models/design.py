@@ -913,7 +913,24 @@ def _parse_thermal(t: _Values, problems: list[str]) -> dict:
             kw[name] = t[key]
     if "hold_gap_mm" in t:
         kw["hold_gap"] = t["hold_gap_mm"] * MM
+    _check_hold_within_on_time(t, problems)
     return kw
+
+
+def _check_hold_within_on_time(t: _Values, problems: list[str]) -> None:
+    """A part is held by the field, so a hold (thermal.hold_time_s) cannot outlast the magnet's
+    on-time in each cycle (thermal.duty_cycle x thermal.period_s); refused, not warned: no such
+    cycle exists (the rounding allowance 1e-9 is far below any stated time)."""
+    if not all(k in t and t.usable(k) for k in ("hold_time_s", "period_s", "duty_cycle")):
+        return
+    hold, duty, period = t["hold_time_s"], t["duty_cycle"], t["period_s"]
+    on = duty * period
+    if duty < 1.0 and hold > on * (1.0 + 1e-9):
+        problems.append(
+            f"thermal.hold_time_s = {hold!r}: must be at most the magnet's on-time in each cycle, "
+            f"thermal.duty_cycle x thermal.period_s = {duty:g} x {period:g} s = {on:g} s (the "
+            "field holds the part, so the magnet is on for the whole hold)"
+        )
 
 
 def _insulation_class(cls, problems: list[str]) -> dict:

@@ -25,7 +25,6 @@ __all__ = [
     "BOBBIN_THERMAL_CONDUCTIVITY",
     "RING_CONTACT_CONDUCTANCE",
     "COIL_MAX_TEMPERATURE_C",
-    "UNNAMED_CONDUCTOR",
     "CORE_MATERIALS",
 ]
 
@@ -370,10 +369,6 @@ RING_CONTACT_CONDUCTANCE = 5000.0
 #: Ceiling of a winding's temperature [degC]: the organic insulation of magnet wire decomposes
 #: above about 400 degC, well past the highest IEC 60085 class (250) (common practice, no source).
 COIL_MAX_TEMPERATURE_C = 400.0
-#: Thermal stand-in for a ring or target given by conductivity only (no library material):
-#: aluminium's volumetric heat capacity (the lowest of the library's conductors, so the fastest
-#: rise) and its solidus (the lowest ceiling) (conservative choice, common practice, no source).
-UNNAMED_CONDUCTOR = {"volumetric_heat_capacity": 2703.0 * 900.0, "max_temperature_C": 646.0}
 
 
 def get_material(name: str, field_name: str = "material") -> Material:

@@ -37,8 +37,14 @@ def finished(tmp_path_factory):
 def test_front_files_hold_exactly_the_feasible_non_dominated_trials(finished, capsys):
     assert main(["study", "front", str(finished)]) == 0
     study, spec_json, _ = load_existing(finished)
-    # Reference: optuna's constrained Pareto front of the stored trials.
-    expected = {t.number for t in study.best_trials}
+    # Reference: optuna's constrained Pareto front of the stored trials, each design once (the
+    # first of equal trials: a repeat is copied, optim.study.engine).
+    seen, expected = set(), set()
+    for t in sorted(study.best_trials, key=lambda t: t.number):
+        key = tuple(sorted(t.params.items()))
+        if key not in seen:
+            seen.add(key)
+            expected.add(t.number)
     front = pd.read_csv(finished / "front.csv")
     assert set(front["trial"]) == expected
     assert (
@@ -112,7 +118,8 @@ def test_export_reproduces_the_stored_numbers(finished, tmp_path, capsys):
     # re-evaluates exactly to handoff.json's predicted numbers (the study ran with coupling).
     again = evaluate(load_design(out / "design.toml"))
     for name in ("pull_N", "input_power_W", "ring_loss_W", "coil_temperature_C"):
-        assert getattr(again, name) == info["predicted"][name], name
+        # handoff.json states its results to 4 significant digits (STATED_RESOLUTION)
+        assert info["predicted"][name] == pytest.approx(getattr(again, name), rel=5e-4), name
     rounding = info["rounding"]
     assert rounding["resolution_mm"] == 0.01
     assert rounding["constraints_met"] == all(

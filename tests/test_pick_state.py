@@ -173,7 +173,8 @@ def test_defaults_are_shown_in_text_json_and_hand_off(tmp_path, capsys):
         "class B (default)",
         "10 s hold (default)",
         "part arrives at 25 degC (default)",
-        "ring 1083 degC (copper",
+        # the default class B coil's 130 degC (IEC 60085), which the ring beside it is held to
+        "ring 130 degC (the coil's insulation class B",
         "no thermal.ring_limit_C given",
     ):
         assert words in text, words
@@ -203,7 +204,7 @@ LIFT_STUDY = """
 ambient_C = 30.0
 duty_cycle = 0.3
 period_s = 2.0
-hold_time_s = 1.0
+hold_time_s = 0.5
 coil_insulation_class = "F"
 [target]
 thickness_mm = 0.6
@@ -328,7 +329,7 @@ def test_defaults_reach_the_report_note_and_the_hand_off(tmp_path):
     assert data["thermal_assumptions"]["duty_cycle"] == 1.0
     assert "hold_time_s" in data["thermal_assumptions"]["defaults"]
     used = data["limits"]["temperature_limits_used"]
-    assert used["ring"]["limit_C"] == pytest.approx(1083.0)
+    assert used["ring"]["limit_C"] == pytest.approx(130.0)  # class B, IEC 60085 (the default coil)
     assert "no thermal.ring_limit_C given" in used["ring"]["source"]
 
 

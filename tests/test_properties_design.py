@@ -132,6 +132,10 @@ def valid_designs(draw, current_drive=None, allow_explicit=True, largest_pole_mm
         for key, values in optional.items():
             if draw(st.booleans()):
                 thermal[key] = draw(values)
+        if {"duty_cycle", "period_s", "hold_time_s"} <= set(thermal) and thermal["duty_cycle"] < 1:
+            # a hold fits in the magnet's on-time (design.py refuses a longer one)
+            on_s = thermal["duty_cycle"] * thermal["period_s"]
+            thermal["hold_time_s"] = min(thermal["hold_time_s"], on_s)
         d["thermal"] = thermal
     if draw(st.integers(0, 4)) > 0:
         # ring inside the pole: MIN_WALL_MM of steel inside and outside, width >= finest feature

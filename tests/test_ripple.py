@@ -115,9 +115,11 @@ def test_chatter_margin_is_mean_minus_ripple_minus_weight():
 
 
 def test_chatter_margin_takes_the_worse_state_at_the_holding_gap():
-    design = _design(thermal={"hold_gap_mm": 1.0, "hold_time_s": 30.0})
+    design = _design(thermal={"hold_gap_mm": 1.0, "hold_time_s": 30.0, "period_s": 300.0})
     r = evaluate(design)
-    held = _design(target={"gap_mm": 1.0}, thermal={"hold_gap_mm": 1.0, "hold_time_s": 30.0})
+    held = _design(
+        target={"gap_mm": 1.0}, thermal={"hold_gap_mm": 1.0, "hold_time_s": 30.0, "period_s": 300.0}
+    )
     model = pole_model_for(held, DEFAULT_FINENESS)
     system = assemble_circuit(held, DEFAULT_FINENESS, model)
     temps = {k: v for k, v in r.temperatures_C.items() if k in ("ring",)}

@@ -26,7 +26,7 @@ from tests.conftest import demo_dict
 #: A demo machine on a realistic duty: 10 % on, emissive enamel and paint.
 THERMAL = {
     "duty_cycle": 0.1,
-    "period_s": 10.0,
+    "period_s": 50.0,  # 5 s on in each cycle: the 5 s hold fits in it
     "hold_time_s": 5.0,
     "emissivity": 0.9,
     "coil_insulation_class": "F",

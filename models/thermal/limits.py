@@ -180,7 +180,9 @@ def _crossing_time(temps, grid, column, k, limit) -> float:
     lo, hi = (grid[j - 1] if j > 0 else 0.0), grid[j]
     sub = np.linspace(lo, hi, 65)
     vals = temps(sub)[:, k]
+    if vals[0] >= limit:  # over the limit from the first instant (the coil's hot-spot rise)
+        return float(lo)
     m = max(int(np.argmax(vals >= limit)), 1)
     t0, t1, v0, v1 = sub[m - 1], sub[m], vals[m - 1], vals[m]
     hi = t1 if v1 == v0 else t0 + (limit - v0) * (t1 - t0) / (v1 - v0)
-    return float(hi)
+    return float(min(max(hi, t0), t1))  # inside its bracket: never before switch-on

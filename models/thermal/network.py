@@ -35,7 +35,6 @@ from models.materials import (
     COIL_MAX_TEMPERATURE_C,
     IMPREGNANT_THERMAL_CONDUCTIVITY,
     MATERIALS,
-    UNNAMED_CONDUCTOR,
 )
 from models.thermal.air import air_properties
 from models.thermal.convection import (
@@ -228,14 +227,28 @@ def build_network(design) -> ThermalNetwork:
     return net.finish(hot_spot_factor, design.target.gap, th)
 
 
-#: Thermal values (as _thermal_props returns them) of a conductor whose material is not named.
-_UNNAMED = (
-    UNNAMED_CONDUCTOR["volumetric_heat_capacity"],
-    1.0,
-    None,
-    UNNAMED_CONDUCTOR["max_temperature_C"],
-    "an unnamed conductor taken as aluminium starts to melt",
-)
+def _unnamed(conductivity: float, density: float):
+    """Thermal values (as _thermal_props returns them) of a conductor given by its conductivity
+    alone: the library metal nearest in conductivity, the same one whose temperature coefficient
+    the design took (models.design.nearest_metal), at the part's own density: one metal for every
+    property, not a mix (common practice, no source)."""
+    from models.design import nearest_metal
+
+    m = nearest_metal(conductivity)
+    why = (
+        f"{m.name} starts to melt (solidus): the library metal nearest in conductivity, taken "
+        "for a conductor given by its conductivity alone"
+    )
+    return density, m.specific_heat, m.thermal_conductivity, m.max_temperature_C, why
+
+
+def _unnamed_note(part: str, conductivity: float) -> str:
+    from models.design import nearest_metal
+
+    return (
+        f"{part} material not named: heat capacity and melting point of {nearest_metal(conductivity).name}, "
+        "the library metal nearest in conductivity (as its temperature coefficient)"
+    )
 
 
 @dataclass
@@ -444,9 +457,10 @@ def _add_ring(net: _Assembly, design) -> float:
     where covered. Returns the covered ring area [m^2]."""
     t, ring = design.target, design.ring
     i_ring = net.ix("ring")
-    rho_r, c_r, _, ceil_r, why_r = _thermal_props(ring.material, _UNNAMED)
+    unnamed = _unnamed(ring.conductivity, ring.density) if ring.material is None else None
+    rho_r, c_r, _, ceil_r, why_r = _thermal_props(ring.material, unnamed)
     if ring.material is None:
-        net.notes.append("ring material not named: heat capacity and melting as aluminium's")
+        net.notes.append(_unnamed_note("ring", ring.conductivity))
     v_ring = math.pi * (ring.outer_radius**2 - ring.inner_radius**2) * ring.depth
     net.part("ring", v_ring * rho_r * c_r, ceil_r, why_r)
     contact = 2 * math.pi * (ring.inner_radius + ring.outer_radius) * ring.depth + math.pi * (
@@ -468,10 +482,10 @@ def _add_target(net: _Assembly, design, covered_steel: float, covered_ring: floa
     gap (``covered_steel`` + ``covered_ring``) and its rim to the air."""
     t = design.target
     i_t = net.ix("target")
-    rho_t, c_t, _, ceil_t, why_t = _thermal_props(t.material, _UNNAMED)
+    unnamed = _unnamed(t.conductivity, t.density) if t.material is None else None
+    rho_t, c_t, _, ceil_t, why_t = _thermal_props(t.material, unnamed)
     if t.material is None:
-        net.notes.append("target material not named: heat capacity and melting as aluminium's")
-        rho_t, c_t = t.density, UNNAMED_CONDUCTOR["volumetric_heat_capacity"] / t.density
+        net.notes.append(_unnamed_note("target", t.conductivity))
     net.part("target", t.volume * rho_t * c_t, ceil_t, why_t)
     a_t = math.pi * (t.radius**2 - t.inner_radius**2)
     half_width = (t.radius - t.inner_radius) / 2

@@ -2,6 +2,8 @@
 
 from __future__ import annotations
 
+import math
+
 from models.materials import MATERIALS
 
 __all__ = [
@@ -25,9 +27,14 @@ def _w(x):
 
 
 def _time(seconds):
-    """Seconds in words: 'never', '42 s', '3.5 min', '2.1 h'."""
+    """Seconds in words: 'never', 'at switch-on', '42 s', '3.5 min', '2.1 h'; 'n/a' when not
+    known."""
     if seconds == float("inf"):
         return "never"
+    if not math.isfinite(seconds) or seconds < 0:
+        return "n/a"
+    if seconds == 0:
+        return "at switch-on"
     if seconds < 120:
         return f"{seconds:.3g} s"
     if seconds < 7200:
@@ -38,6 +45,8 @@ def _time(seconds):
 def _pick_state(r) -> str:
     """Which state pull_N is in, in words."""
     a = r.thermal_assumptions
+    if r.thermal_status == "isothermal":
+        return "pull above with every part's resistivity at 20 degC (isothermal run)"
     if a["target_stays"]:
         return (
             f"pull above with the part at its steady state {r.target_temperature_C:.4g} degC "
@@ -51,8 +60,6 @@ def _pick_state(r) -> str:
 
 def _pick_dynamics_lines(design, r) -> list:
     """The pull's ripple at twice the frequency, the held part's chatter margin and the lift."""
-    import math
-
     hold_mm = r.thermal_assumptions["hold_gap_mm"]
     margin = r.hold_chatter_margin_N
     held = (
@@ -75,6 +82,57 @@ def _pick_dynamics_lines(design, r) -> list:
         f"{hold_mm:g} mm: chatter margin {held}",
         f"  lift               {lift}",
     ]
+
+
+def _after_hold(r) -> str:
+    """The pull at the end of the hold, or why there is none (a thermal runaway)."""
+    a = r.thermal_assumptions
+    if r.thermal_status == "isothermal":
+        return (
+            f"pull {r.pull_hold_N * 1e3:+.4g} mN, lift ratio {r.lift_ratio_hold:+.3g} (isothermal: "
+            f"the part at 20 degC, as on arrival; gap {a['hold_gap_mm']:g} mm)"
+        )
+    if not (math.isfinite(r.pull_hold_N) and math.isfinite(r.target_hold_temperature_C)):
+        return (
+            f"n/a: no pull after a {a['hold_time_s']:g} s hold ({r.thermal_status}; the part has "
+            "no temperature to evaluate it at)"
+        )
+    return (
+        f"pull {r.pull_hold_N * 1e3:+.4g} mN, lift ratio {r.lift_ratio_hold:+.3g} (part at "
+        f"{r.target_hold_temperature_C:.4g} degC after a {a['hold_time_s']:g} s hold, gap "
+        f"{a['hold_gap_mm']:g} mm)"
+    )
+
+
+def _core_flux(r) -> str:
+    """The core's peak flux against its saturation, or why that is not known."""
+    if not (math.isfinite(r.core_saturation_T) and r.core_saturation_T > 0):
+        return (
+            "core flux vs saturation n/a: the pole's material has no saturation flux density "
+            "(a pole given by its permeability); compare the peak above with the steel's own"
+        )
+    at = (
+        f"at {r.core_temperature_C:.4g} degC"
+        if math.isfinite(r.core_temperature_C)
+        else "at 20 degC: the core's temperature is unknown after the runaway"
+    )
+    return f"core flux {r.core_flux_fraction:.0%} of saturation ({r.core_saturation_T:.3g} T {at})"
+
+
+def _temperatures(r) -> str:
+    """The temperatures [degC], saying what they are in an isothermal run (the losses at 20 degC
+    put through the thermal network once, without feeding the temperatures back)."""
+    values = ", ".join(
+        f"{k} {v:.4g}" if math.isfinite(v) else f"{k} n/a (runaway)"
+        for k, v in r.temperatures_C.items()
+    )
+    values += " degC"
+    if r.thermal_status == "isothermal":
+        return (
+            "not coupled (every resistivity held at 20 degC, as the pulls above): the network's "
+            f"response to those losses, not fed back: {values}"
+        )
+    return values
 
 
 def limits_used_text(a: dict) -> list:
@@ -188,9 +246,7 @@ def format_result(design, result) -> str:
         f"    from ring        {split['ring'] * 1e3:+.4g} mN",
         f"  target weight      {r.target_weight_N * 1e3:.4g} mN   lift ratio {r.lift_ratio:+.3g}",
         f"  part state         {_pick_state(r)}",
-        f"  after the hold     pull {r.pull_hold_N * 1e3:+.4g} mN, lift ratio "
-        f"{r.lift_ratio_hold:+.3g} (part at {r.target_hold_temperature_C:.4g} degC, "
-        f"gap {a['hold_gap_mm']:g} mm)",
+        f"  after the hold     {_after_hold(r)}",
         *_pick_dynamics_lines(design, r),
         f"  losses             target {_w(r.target_loss_W)} W, ring {_w(r.ring_loss_W)} W, "
         f"coil {_w(r.coil_loss_W)} W, core {_w(r.core_loss_W)} W (input {_w(r.input_power_W)} W)",
@@ -206,19 +262,22 @@ def format_result(design, result) -> str:
         "coil current",
         f"  core peak flux     {r.core_peak_flux_density_T:.3g} T",
         f"  power factor       {r.power_factor:.3g}   pole mass {r.pole_mass_kg * 1e3:.4g} g   "
-        f"core flux {r.core_flux_fraction:.0%} of saturation ({r.core_saturation_T:.3g} T at "
-        f"{r.core_temperature_C:.4g} degC)",
+        f"{_core_flux(r)}",
         f"  thermal            {r.thermal_status}",
-        "  temperatures       "
-        + ", ".join(f"{k} {v:.4g}" for k, v in r.temperatures_C.items())
-        + " degC",
+        f"  temperatures       {_temperatures(r)}",
         f"  coil limit         {r.coil_temperature_limit_C:g} degC (insulation class, hot spot)",
         f"  magnet envelope    {r.magnet_diameter_mm:.4g} mm diameter x {r.magnet_height_mm:.4g} mm "
         f"(pole and coil), {r.magnet_mass_kg * 1e3:.4g} g (copper {r.coil_copper_mass_kg * 1e3:.4g} g)",
         "  limits used        " + "; ".join(limits_used_text(a)),
         "  thermal assumed    " + assumptions_text(a),
         "  margins            "
-        + (", ".join(f"{k} {v:+.4g}" for k, v in r.margins.items()) or "none")
+        + (
+            ", ".join(
+                f"{k} {v:+.4g}" if math.isfinite(v) else f"{k} exceeded (runaway)"
+                for k, v in r.margins.items()
+            )
+            or "none"
+        )
         + (f"   binding: {r.binding_limit}" if r.binding_limit else ""),
         "  time to limit      "
         + ", ".join(f"{k} {_time(v)}" for k, v in r.time_to_limit_s.items())

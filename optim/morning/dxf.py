@@ -21,9 +21,14 @@ layer         content
 ============  ==========================================================================
 FULL_SECTION  the full section, both halves (mirrored about the axis), one closed polyline
               per part region: a part that touches the axis is one outline across it
-DIMENSIONS    linear dimensions (DIMENSION entities) of the ring radii and depth, the pole
-              radius, the gap and the coil window, measured from the geometry
-NOTES         a text block: design, study and trial, materials, turns, wire, frequency, current
+DIMENSIONS    linear dimensions (DIMENSION entities) measured from the geometry: diameters
+              (Ø) across the full section of the pole, the ring's groove and the coil window;
+              the pole's length and the ring's depth left of it, the gap and the coil window's
+              length and setback right of it
+NOTES         a text block: design, study and trial, materials, the pole's sheets, turns, wire,
+              frequency, current
+LAMINATIONS   a laminated pole's sheets: lines parallel to the axis in the pole's left half
+              and the words "sheets ∥ axis"
 ============  ==========================================================================
 
 Revolving each closed polyline about the y axis gives the solid of that part. `section_mm` is the
@@ -51,8 +56,9 @@ LAYERS: dict[str, tuple[int, str]] = {
 #: Layers of the CAD annotations (same form as `LAYERS`), declared in every file we write.
 ANNOTATION_LAYERS: dict[str, tuple[int, str]] = {
     "FULL_SECTION": (4, "full section, both halves mirrored about the axis"),
-    "DIMENSIONS": (6, "linear dimensions of the ring, pole, gap and coil window"),
+    "DIMENSIONS": (6, "diameters and lengths of the pole, ring, coil window and the gap"),
     "NOTES": (7, "design, materials, winding and drive"),
+    "LAMINATIONS": (8, "direction of a laminated pole's sheets (parallel to the axis)"),
 }
 
 
@@ -174,7 +180,7 @@ def write_profile_dxf(design, path, notes: list[str] | None = None) -> Path:
     doc.header["$INSUNITS"] = units.MM
     doc.header["$MEASUREMENT"] = 1
     doc.header["$LUNITS"] = 2  # decimal
-    from optim.morning.dxfnotes import add_dimensions, add_notes, default_notes
+    from optim.morning.dxfnotes import add_dimensions, add_laminations, add_notes, default_notes
 
     for name, (colour, description) in {**LAYERS, **ANNOTATION_LAYERS}.items():
         layer = doc.layers.add(name, color=colour)
@@ -192,6 +198,7 @@ def write_profile_dxf(design, path, notes: list[str] | None = None) -> Path:
             points, format="xy", close=True, dxfattribs={"layer": "FULL_SECTION", "color": colour}
         )
     add_dimensions(msp, design)
+    add_laminations(msp, design)
     add_notes(msp, design, default_notes(design) if notes is None else notes)
     path = Path(path)
     with atomic_path(path) as tmp:

@@ -1,7 +1,8 @@
 """A study's trials as a table, its Pareto front, and the summary ``study status`` prints.
 
 Columns of the trials table (units in the names): ``trial``, ``state``, ``feasible``,
-``on_front``, ``completed_at``, ``eval_s``, ``reason``, ``worker``; the searched parameters
+``on_front``, ``completed_at``, ``eval_s``, ``reason``, ``worker``, ``copy_of`` (the evaluated
+trial a repeat copies, optim.study.engine; empty for an evaluated trial); the searched parameters
 (``frequency_Hz``, ``ring_outer_fraction``...; a text parameter such as ``pole_material`` as
 text); the trial design's main dimensions
 (``pole_radius_mm``, ``ring_inner_radius_mm``, ``ring_outer_radius_mm``, ``ring_depth_mm``,
@@ -11,8 +12,8 @@ a physical limit); ``constraint_margin.<constraint>`` (the margin to the study's
 positive = met); ``warning_count`` and ``warnings`` (the model's warnings, " | " between them).
 
 The front is the set of feasible COMPLETE trials that no other feasible COMPLETE trial
-dominates (at least as good in every objective and better in one). Failed and infeasible trials
-never enter it.
+dominates (at least as good in every objective and better in one), each design once (the first
+of equal trials). Failed and infeasible trials never enter it.
 """
 
 from __future__ import annotations
@@ -89,6 +90,7 @@ def trials_table(study, spec_json: dict, dimensions: bool = True) -> pd.DataFram
     ordered: dict = {}
     for key in ("trial", "state", "completed_at", "eval_s", "reason", "binding_limit", "worker"):
         ordered[key] = data.pop(key)
+    ordered["copy_of"] = pd.array(data.pop("copy_of"), dtype="Int64")  # empty: evaluated
     ordered["feasible"] = data.pop("feasible")
     names = [p for p in spec_json["search"]]
     for p in names:
@@ -109,8 +111,20 @@ def trials_table(study, spec_json: dict, dimensions: bool = True) -> pd.DataFram
     if ok.any() and all(o in df for o in objectives):
         mask = pareto_mask(df.loc[ok, objectives].to_numpy(float), spec_json["objectives"].values())
         df.loc[np.flatnonzero(ok)[mask], "on_front"] = True
+        _one_row_per_design(df, names)
     lead = ["trial", "state", "feasible", "on_front"]
     return df[lead + [c for c in df.columns if c not in lead]]
+
+
+def _one_row_per_design(df: pd.DataFrame, names: list) -> None:
+    """Keep one front row per design: of the front's trials with the same searched parameters
+    (a repeat and what it copies, or repeats from before copies were recorded), the first."""
+    names = [p for p in names if p in df]
+    front = df.index[df["on_front"]]
+    if len(front) < 2 or not names:
+        return
+    repeat = df.loc[front, names].astype(str).duplicated(keep="first")
+    df.loc[front[repeat.to_numpy()], "on_front"] = False
 
 
 def _dimensions(spec_json: dict, params: dict) -> dict:
@@ -157,9 +171,11 @@ def status_summary(study, spec_json: dict, table: pd.DataFrame | None = None) ->
     objectives = spec_json["objectives"]
     n = len(df)
     done = df[df["state"].isin(["COMPLETE", "FAIL"])] if n else df
+    copies = int(df["copy_of"].notna().sum()) if n and "copy_of" in df else 0
+    evaluated = done[done["copy_of"].isna()] if copies else done
     complete = int((df["state"] == "COMPLETE").sum()) if n else 0
     feasible = int(df["feasible"].sum()) if n else 0
-    times = done["completed_at"].dropna() if n else pd.Series([], dtype="datetime64[ns, UTC]")
+    times = evaluated["completed_at"].dropna() if n else pd.Series([], dtype="datetime64[ns, UTC]")
     span = (times.max() - times.min()).total_seconds() if len(times) > 1 else 0.0
     best, best_trials = {}, {}
     for name, direction in objectives.items():
@@ -202,7 +218,8 @@ def status_summary(study, spec_json: dict, table: pd.DataFrame | None = None) ->
         "running": int((df["state"] == "RUNNING").sum()) if n else 0,
         "feasible": feasible,
         "feasible_share": feasible / len(done) if n and len(done) else 0.0,
-        "rate_per_s": (len(done) - 1) / span if span > 0 else 0.0,
+        "rate_per_s": (len(times) - 1) / span if span > 0 else 0.0,
+        "copies": copies,
         "first": None if not len(times) else times.min().isoformat(),
         "last": None if not len(times) else times.max().isoformat(),
         "front_size": int(df["on_front"].sum()) if n else 0,
@@ -233,9 +250,12 @@ def format_status(s: dict, where: str) -> str:
     lines = [
         f"study {s['name']} ({where})",
         f"  trials      {s['trials']} ({s['complete']} done, {s['failed']} failed, "
-        f"{s['running']} running)",
+        f"{s['running']} running"
+        + (f"; {s['copies']} repeats copied, not evaluated" if s.get("copies") else "")
+        + ")",
         f"  feasible    {s['feasible']} ({100 * s['feasible_share']:.1f} % of finished)",
-        f"  rate        {s['rate_per_s']:.2f} trials/s between the first and the last finish "
+        f"  rate        {s['rate_per_s']:.2f} trials evaluated/s between the first and the last "
+        "evaluation "
         f"({s['first']} to {s['last']}; pauses between runs count)",
         f"  front       {s['front_size']} designs",
     ]

@@ -13,6 +13,8 @@ The folder is what a mechanical engineer receives in the morning:
   model version, study, trial (with its searched parameters, a chosen material among them) and
   time;
 * ``parameters.csv`` - ``name,value,unit,description`` rows a parametric CAD model can read;
+* every number of handoff.json and parameters.csv at `STATED_RESOLUTION` (lengths to 0.001 mm,
+  predicted results to 4 significant digits, other values to 6), stated under ``resolution``;
 * ``profile.dxf`` - the half cross-section in mm, one layer per part, the full section, linear
   dimensions and a text block (`optim.morning.dxf`, `optim.morning.dxfnotes`);
 * ``verify.txt`` - the fast model beside the FEM reference, when a verification was run.
@@ -28,6 +30,7 @@ import csv
 import datetime as _dt
 import io
 import json
+import math
 import numbers
 import tomllib
 from pathlib import Path
@@ -275,6 +278,56 @@ def _duty_figures(predicted: dict) -> dict:
     return out
 
 
+#: The resolution of every number in handoff.json and parameters.csv (design.toml, and
+#: handoff.json's copy of it under design.file, keep every digit: they reproduce the predicted
+#: numbers exactly). Lengths to 0.001 mm: finer than the 0.01 mm manufacturing step, so a rounded
+#: dimension reads exactly and a derived one (a diameter, a width) without binary noise; the
+#: design's other values (frequency, current, material constants, thermal conditions) to 6
+#: significant digits; predicted results to 4 (their error bar is about 1 %, so 4 digits round
+#: 100 times finer than the model knows) (common practice, no source).
+STATED_RESOLUTION = {
+    "lengths_mm": 0.001,
+    "design_values_significant_digits": 6,
+    "predicted_significant_digits": 4,
+    "design_file": "exact: as design.toml",
+}
+_PREDICTED_SECTIONS = ("predicted", "limits", "thermal_assumptions", "verify")
+
+
+def stated(value, key: str = "", digits: int = 6, mm: bool = False):
+    """``value`` at `STATED_RESOLUTION`: a length (a key ending ``_mm``, or inside a table of
+    lengths) to 0.001 mm, any other float to ``digits`` significant digits; dicts and lists
+    throughout; whole numbers, texts and non-finite numbers unchanged."""
+    mm = mm or key.endswith("_mm")
+    if isinstance(value, dict):
+        return {k: stated(v, str(k), digits, mm) for k, v in value.items()}
+    if isinstance(value, (list, tuple)):
+        return [stated(v, key, digits, mm) for v in value]
+    if isinstance(value, bool) or not isinstance(value, numbers.Real):
+        return value
+    if isinstance(value, numbers.Integral) or not math.isfinite(float(value)):
+        return value
+    step = STATED_RESOLUTION["lengths_mm"]
+    out = round(float(value), 3) if mm and step == 0.001 else float(f"{float(value):.{digits}g}")
+    return out + 0.0  # no -0.0
+
+
+def _stated_content(out: dict) -> dict:
+    """handoff.json's numbers at `STATED_RESOLUTION` (the design file's copy kept exact)."""
+    design = dict(out["design"])
+    file = design.pop("file")
+    design = stated(design)
+    design["file"] = file
+    result = {**out, "design": design, "resolution": dict(STATED_RESOLUTION)}
+    for key in ("study", "rounding"):
+        if key in out:
+            result[key] = stated(out[key])
+    for key in _PREDICTED_SECTIONS:
+        if out.get(key) is not None:
+            result[key] = stated(out[key], digits=STATED_RESOLUTION["predicted_significant_digits"])
+    return result
+
+
 def handoff_dict(design, result, meta: dict, verify: dict | None = None) -> dict:
     """The content of handoff.json (see the module docstring), strict-JSON ready."""
     from models.evaluate import MODEL_VERSION
@@ -350,7 +403,7 @@ def handoff_dict(design, result, meta: dict, verify: dict | None = None) -> dict
         out["rounding"] = rounding
     if verify is not None:
         out["verify"] = verify.get("json", {k: v for k, v in verify.items() if k != "reference"})
-    return to_jsonable(out)
+    return to_jsonable(_stated_content(out))
 
 
 def _capacitor(design, predicted) -> dict:
@@ -381,6 +434,10 @@ def _dxf_notes(design, content: dict, meta: dict) -> list[str]:
     lines = [ident, "units: mm; half section r >= 0 (parts' layers), FULL_SECTION mirrored"]
     for part, m in content["design"]["materials"].items():
         lines.append(f"{part}: {m['material']}")
+    from optim.morning.dxfnotes import sheets_words
+
+    if sheets_words(design):
+        lines.append(sheets_words(design))
     wire = f"wire {w['wire_bare_diameter_mm']:.3f} mm bare copper"
     if w["wire_overall_grade1_max_mm"] is not None:
         wire += (
@@ -491,7 +548,7 @@ def write_handoff(design, result, out_dir, meta: dict, verify: dict | None = Non
     for row in parameter_rows(design):
         value = row["value"]
         if isinstance(value, numbers.Real) and not isinstance(value, numbers.Integral):
-            value = repr(float(value))
+            value = repr(stated(float(value), mm=row["unit"] == "mm"))
         writer.writerow({**row, "value": value})
     written["parameters.csv"] = atomic_write_text(
         safe_child(out_dir, "parameters.csv"), buf.getvalue()

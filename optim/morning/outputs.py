@@ -61,7 +61,11 @@ def _notes(spec, df, front, design=None) -> list[str]:
 
     ranges = "; ".join(f"{k} {lo:g}-{hi:g}" for k, (lo, hi) in VALIDATED_RANGE.items())
     notes = [
-        "Fast multi-loop model: linear steel (no saturation, no hysteresis loss), laminated pole. "
+        "Fast multi-loop model: linear steel (no saturation: a peak flux density near the "
+        "steel's saturation makes its answers optimistic), laminated pole with its core losses "
+        "(the sheets' eddy currents through a complex permeability, hysteresis and excess from "
+        "a loss law fitted to the grade's specified loss; a flux-density-dependent permeability "
+        "is not modelled). "
         f"Held to the finite-element reference over: {ranges}. Near a change of sign the pull is "
         "a small difference of large terms: check the chosen design with 'eddypull study export "
         "--verify' or 'eddypull verify'.",
@@ -325,6 +329,13 @@ def _write_study_report(
 
         summary["nearest to feasible"] = "; ".join(x.strip() for x in nearest_lines(nearest)[1:])
     notes = _notes(spec, df, front, designs[0][1] if designs else None)
+    from optim.morning.cards import CardStates
+
+    states = CardStates(
+        gaps_mm=tuple(spec.gaps_mm),
+        family=bool(spec.parts),
+        isothermal=bool(spec.run.get("isothermal", False)),
+    )
     report = write_report(
         folder,
         summary,
@@ -337,6 +348,7 @@ def _write_study_report(
         picks=picks,
         pick_maps=maps,
         tolerance=table,
+        states=states,
     )
     return Path(report)
 

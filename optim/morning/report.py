@@ -30,7 +30,16 @@ from optim.morning.handoff import unit_of
 __all__ = ["write_report", "render_report", "binding_counts", "CAUTIONS", "BOOKKEEPING"]
 
 #: Front-table columns about the run rather than the design: last, and hidden until asked for.
-BOOKKEEPING = ("state", "feasible", "on_front", "completed_at", "eval_s", "reason", "worker")
+BOOKKEEPING = (
+    "state",
+    "feasible",
+    "on_front",
+    "completed_at",
+    "eval_s",
+    "copy_of",
+    "reason",
+    "worker",
+)
 
 #: The cautions of the README (section "Cautions"), shown at the end of every report.
 CAUTIONS = (
@@ -248,68 +257,6 @@ def _front_table(front: pd.DataFrame, objectives=(), params=()) -> str:
     )
 
 
-#: What a pick card shows, after the dimensions: (column, words), the first present of each group.
-_CARD_ROWS = (
-    (("frequency_Hz",), "frequency"),
-    (("current_A", "voltage_V"), "drive"),
-    (("worst_pull_N", "pull_N"), "pull"),
-    (("worst_lift_ratio", "lift_ratio"), "lift ratio"),
-    (("input_power_W",), "input power"),
-    (("core_loss_W",), "core loss"),
-    (("pull_uncertainty_relative",), "pull error bar (relative)"),
-)
-
-
-def _card_value(name: str, v) -> str:
-    """A value on a card with its unit: millimetres to 0.01 mm, others to 4 significant digits."""
-    if not _is_number(v) or (isinstance(v, float) and not math.isfinite(v)):
-        return _fmt(v)
-    unit = unit_of(name)
-    if unit == "mm":
-        return f"{float(v):.2f} mm"
-    if unit == "N" and abs(float(v)) < 1.0:  # a lifter's pull reads in millinewtons
-        return f"{1e3 * float(v):.4g} mN"
-    return f"{float(v):.4g}" + ("" if unit == "-" else f" {unit}")
-
-
-def _pick_card(why: str, row: pd.Series) -> str:
-    """One pick: its trial and why it was picked, then dimensions, searched materials, drive,
-    pull, lift ratio, power, temperatures and the limit that binds it."""
-    items: list[tuple[str, str]] = []
-    for c in row.index:
-        if str(c).endswith("_mm") and "." not in str(c):
-            items.append((str(c)[: -len("_mm")].replace("_", " "), _card_value(c, row[c])))
-    for c in row.index:  # a searched material (pole_material or "pole.material")
-        if str(c).endswith("material") and isinstance(row[c], str):
-            items.append((str(c).replace(".", " ").replace("_", " "), row[c]))
-    for names, what in _CARD_ROWS:
-        name = next((n for n in names if n in row.index), None)
-        if name is not None:
-            label = what if what != "drive" else name.split("_")[0]
-            items.append((label, _card_value(name, row[name])))
-    for c in row.index:
-        if str(c).endswith("temperature_C") and "." not in str(c):
-            items.append((str(c)[: -len("_C")].replace("_", " "), _card_value(c, row[c])))
-    limit = row.get("binding_limit", "")
-    items.append(("binding limit", limit if isinstance(limit, str) and limit else "none"))
-    rows = "".join(f'<tr><th class="text">{_e(k)}</th><td>{_e(v)}</td></tr>' for k, v in items)
-    return (
-        f'<div class="card"><h3>Trial {_e(int(row["trial"]))}: {_e(why)}</h3>'
-        f"<table><tbody>{rows}</tbody></table></div>"
-    )
-
-
-def _pick_cards(front: pd.DataFrame, picks) -> str:
-    """The cards of the picked trials ``(why, trial)`` found in the front, in order."""
-    cards = []
-    for why, trial in picks:
-        if "trial" in front.columns:
-            match = front[front["trial"] == trial]
-            if len(match):
-                cards.append(_pick_card(why, match.iloc[0]))
-    return f'<div class="picks">{"".join(cards)}</div>' if cards else ""
-
-
 def _figure(image) -> str:
     """An embedded image with its caption: ``image`` is a path or ``(path, caption)``; a bare
     path is captioned with its file name in words."""
@@ -344,9 +291,12 @@ def binding_counts(front: pd.DataFrame, column: str = "binding_limit") -> dict[s
     return counts
 
 
-def _picks_section(front: pd.DataFrame, picks) -> list[str]:
-    """The page's opening: the picked designs as cards (nothing when none is picked)."""
-    cards = _pick_cards(front, picks)
+def _picks_section(front: pd.DataFrame, picks, states=None) -> list[str]:
+    """The page's opening: the picked designs as cards (nothing when none is picked), every
+    number labelled with its gap and state (`optim.morning.cards`)."""
+    from optim.morning.cards import pick_cards
+
+    cards = pick_cards(front, picks, states)
     if not cards:
         return []
     return [
@@ -392,6 +342,7 @@ def render_report(
     picks=(),
     pick_maps=(),
     tolerance=None,
+    states=None,
 ) -> str:
     """The report page as a string (see `write_report`)."""
     from importlib.metadata import PackageNotFoundError, version
@@ -411,7 +362,7 @@ def render_report(
         f"<title>eddypull study {_e(name)}</title><style>{_CSS}</style></head><body>",
         f"<h1>eddypull study {_e(name)}</h1>",
         f'<p class="caution">{_e(CAUTIONS[0][1])}</p>',
-        *_picks_section(front, picks),
+        *_picks_section(front, picks, states),
         *_pick_maps_section(pick_maps),
         *_tolerance_section(tolerance),
         "<h2>Summary</h2>",
@@ -455,6 +406,7 @@ def write_report(
     picks=(),
     pick_maps=(),
     tolerance=None,
+    states=None,
 ) -> Path:
     """Write ``report.html`` into ``out_dir``: one self-contained page.
 
@@ -487,6 +439,8 @@ def write_report(
     tolerance : optim.morning.robustness.ReportTolerance, optional
         The first pick's tolerance table (`optim.morning.robustness.report_tolerance`), shown
         after the pick maps.
+    states : optim.morning.cards.CardStates, optional
+        The study's gap range and kind of run, which the cards' labels name.
 
     Returns
     -------
@@ -506,5 +460,6 @@ def write_report(
         picks=list(picks),
         pick_maps=list(pick_maps),
         tolerance=tolerance,
+        states=states,
     )
     return atomic_write_text(safe_child(out_dir, "report.html"), text)

@@ -4,7 +4,8 @@ A study hands back dimensions with every digit of a double (``ring_depth_mm = 0.
 a workshop works to a resolution (0.01 mm by default). `round_design` rounds every dimension of
 the parts (the ``*_mm`` keys of [pole], [coil], [ring] and [target]) to the nearest multiple of the
 resolution; the wire diameter is left as it is (wire is bought to its nominal size, which IEC
-60317 gives to 0.001 mm), as are [thermal] keys (operating conditions, not dimensions).
+60317 gives to 0.001 mm), as are [thermal] keys (operating conditions, not dimensions). The drive
+is rounded to what an inverter is set to (`DRIVE_RESOLUTION`: 1 Hz, 0.01 A rms, 0.1 V rms).
 `rounded_for_handoff` re-evaluates the rounded design the way the study evaluated its trials and
 says which of the study's constraints rounding broke, if any.
 """
@@ -16,10 +17,15 @@ import math
 from models.design import design_from_dict
 from models.errors import DesignError
 
-__all__ = ["DEFAULT_RESOLUTION_MM", "round_design", "rounded_for_handoff"]
+__all__ = ["DEFAULT_RESOLUTION_MM", "DRIVE_RESOLUTION", "round_design", "rounded_for_handoff"]
 
 #: Default manufacturing resolution [mm] (a common machining step; no source).
 DEFAULT_RESOLUTION_MM = 0.01
+
+#: The drive's set-point resolution: frequency [Hz], current [A rms], voltage [V rms]. An
+#: inverter's frequency is set in steps of 0.1-1 Hz and its current or voltage limit in steps of
+#: 0.01 A and 0.1 V; the coarser 1 Hz keeps a kHz set point whole (common practice, no source).
+DRIVE_RESOLUTION = {"frequency_Hz": 1.0, "current_A": 0.01, "voltage_V": 0.1}
 
 _PART_TABLES = ("pole", "coil", "ring", "target")
 _NOT_ROUNDED = {("coil", "wire_diameter_mm")}
@@ -33,7 +39,8 @@ def _round_to(value: float, resolution: float) -> float:
 
 
 def round_design(design, resolution_mm: float = DEFAULT_RESOLUTION_MM):
-    """The design with its part dimensions rounded to ``resolution_mm``.
+    """The design with its part dimensions rounded to ``resolution_mm`` and its drive to
+    `DRIVE_RESOLUTION`.
 
     Returns
     -------
@@ -62,6 +69,13 @@ def round_design(design, resolution_mm: float = DEFAULT_RESOLUTION_MM):
             if new != value:
                 changed[f"{table}.{key}"] = [value, new]
             source[table][key] = new
+    for key, step in DRIVE_RESOLUTION.items():
+        value = source.get("drive", {}).get(key)
+        if isinstance(value, (int, float)) and not isinstance(value, bool):
+            new = _round_to(float(value), step)
+            if new != value:
+                changed[f"drive.{key}"] = [value, new]
+            source["drive"][key] = new
     try:
         rounded = design_from_dict(source, name=design.name)
     except DesignError as exc:
@@ -111,11 +125,13 @@ def rounded_for_handoff(spec, design, resolution_mm: float, isothermal: bool):
         )
     else:
         words = (
-            f"dimensions rounded to {resolution_mm:g} mm ({len(changed)} changed); the rounded "
-            "design still meets every constraint of the study"
+            f"dimensions rounded to {resolution_mm:g} mm, the drive to "
+            f"{_drive_words()} ({len(changed)} changed); the rounded design still meets every "
+            "constraint of the study"
         )
     record = {
         "resolution_mm": resolution_mm,
+        "drive_resolution": dict(DRIVE_RESOLUTION),
         "changed": changed,
         "not_rounded": sorted(".".join(k) for k in _NOT_ROUNDED),
         "constraint_margins": margins,
@@ -125,3 +141,8 @@ def rounded_for_handoff(spec, design, resolution_mm: float, isothermal: bool):
         "words": words,
     }
     return rounded, result, record
+
+
+def _drive_words() -> str:
+    r = DRIVE_RESOLUTION
+    return f"{r['frequency_Hz']:g} Hz, {r['current_A']:g} A, {r['voltage_V']:g} V"

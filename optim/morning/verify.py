@@ -39,16 +39,38 @@ QUANTITIES = (
 )
 
 
+#: The compared fields that are complex (a phasor or an impedance): split into ``.re``/``.im``.
+#: Decoded by name, never by shape: a result also carries lists (its warnings, its thermal time
+#: constants) that are not complex numbers.
+COMPLEX_FIELDS = frozenset(key[: -len(".re")] for key, _, _ in QUANTITIES if key.endswith(".re"))
+
+
+def _complex_parts(key: str, value) -> tuple[float, float]:
+    """(re, im) of a complex field given as a complex number or a [re, im] pair."""
+    if isinstance(value, complex):
+        return value.real, value.imag
+    if isinstance(value, (list, tuple)) and len(value) == 2:
+        return float(value[0]), float(value[1])
+    if value is None:
+        return math.nan, math.nan
+    raise ValueError(
+        f"{key} must be a complex number or a [re, im] pair; instead received {value!r}"
+    )
+
+
 def _scalars(d) -> dict:
-    """Flattened float view of a result (dict or object with ``to_dict``)."""
+    """Flattened float view of a result (dict or object with ``to_dict``).
+
+    The fields in `COMPLEX_FIELDS` become ``.re``/``.im`` pairs; other numbers are kept; None is
+    nan; every other field (texts, lists such as the warnings) is not a compared quantity and is
+    left out.
+    """
     if hasattr(d, "to_dict"):
         d = d.to_dict()
     out = {}
     for key, value in d.items():
-        if isinstance(value, complex):
-            out[key + ".re"], out[key + ".im"] = value.real, value.imag
-        elif isinstance(value, (list, tuple)) and len(value) == 2:
-            out[key + ".re"], out[key + ".im"] = float(value[0]), float(value[1])
+        if key in COMPLEX_FIELDS:
+            out[key + ".re"], out[key + ".im"] = _complex_parts(key, value)
         elif isinstance(value, (int, float)) and not isinstance(value, bool):
             out[key] = float(value)
         elif value is None:

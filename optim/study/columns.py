@@ -49,6 +49,7 @@ class _Filler:
         self.state = np.zeros(n, np.int8)
         self.completed = nan()
         self.eval_s = nan()
+        self.copy_of = nan()  # the evaluated trial a repeat copies (optim.study.engine); nan: none
         self.reason, self.binding, self.worker, self.warnings = obj(), obj(), obj(), obj()
         self.warning_count = np.zeros(n, np.int64)
         self.feasible = np.zeros(n, bool)
@@ -76,6 +77,7 @@ class _Filler:
         rec = user_attrs.get("eddypull")
         rec = rec if isinstance(rec, dict) else {}
         self.eval_s[i] = rec.get("eval_s", math.nan)
+        self.copy_of[i] = rec.get("copy_of", math.nan)
         self.reason[i] = self._text(rec.get("reason", ""))
         self.binding[i] = self._text(rec.get("binding_limit", ""))
         self.worker[i] = self._text(rec.get("worker", ""))
@@ -101,6 +103,7 @@ class _Filler:
             "state": np.array(_STATES, dtype=object)[self.state[:n]],
             "completed_at": self.completed[:n],
             "eval_s": self.eval_s[:n],
+            "copy_of": self.copy_of[:n],
             "reason": self.reason[:n],
             "binding_limit": self.binding[:n],
             "worker": self.worker[:n],

@@ -22,6 +22,12 @@ value per ``[constraints]`` entry (<= 0 feasible, optuna's convention); and one 
 ``eddypull`` (one attribute, so that a database writes it in one statement) holding ``results`` (a list aligned with the study attribute ``eddypull_result_names``: compact, for
 studies of 10^5-10^6 trials), ``margins`` (constraint -> margin in the result's unit), ``reason``
 (why it failed or is infeasible), ``warnings``, ``worker`` and ``eval_s``.
+
+A proposal equal to a finished trial (the same value of every searched parameter, exactly) is
+not evaluated again: the model is deterministic, so the worker records a copy of that trial's
+values, constraints and results, with ``copy_of`` (the number of the evaluated trial it copies)
+and ``eval_s`` 0 in its record. The worker knows the trials of its window and every trial
+finished since it started (its own and others'), the most recent `known_limit` of them.
 """
 
 from __future__ import annotations
@@ -120,8 +126,9 @@ def _record(spec, params, dists, outcome, worker_id, t0, t1, result_names):
     from optuna.trial import TrialState
 
     flat = outcome["flat"]
+    results = [flat.get(n, math.nan) for n in result_names] if flat else []
     attrs = {
-        "results": [flat.get(n, math.nan) for n in result_names] if flat else [],
+        "results": outcome.get("results", results),
         "margins": outcome["margins"],
         "reason": outcome["reason"],
         "binding_limit": outcome.get("binding", ""),
@@ -130,6 +137,8 @@ def _record(spec, params, dists, outcome, worker_id, t0, t1, result_names):
         "id": uuid.uuid4().hex[:16],
         "eval_s": round(t1 - t0, 6),
     }
+    if outcome.get("copy_of") is not None:
+        attrs["copy_of"] = int(outcome["copy_of"])
     system = {f"{_CONSTRAINTS_KEY}:{k}": v for k, v in outcome["violations"].items()}
     state = TrialState.COMPLETE if outcome["state"] == "COMPLETE" else TrialState.FAIL
     return optuna.trial.create_trial(
@@ -177,6 +186,7 @@ def run_worker(cfg: dict, queue=None, stop=None, counter=None) -> int:
                         outcome["state"] == "COMPLETE" and not outcome["reason"],
                         outcome["values"],
                         eval_s,
+                        outcome.get("copy_of") is not None,
                     )
                 )
     except KeyboardInterrupt:
@@ -211,6 +221,8 @@ class _Worker:
         )
         self.seen = -1
         self.evaluator = _evaluator(cfg)
+        self.known = KnownTrials(known_limit(self.window.limit))
+        self.deferred: list = []  # read while a trial was asked: join the window at the next sync
 
     def sync(self, first: bool = False) -> None:
         """Copy the trials other workers have finished since the last sync into the window (at
@@ -219,14 +231,30 @@ class _Worker:
 
         ledger = self.ledger
         trials = ledger.recent(self.window.limit) if first else ledger.fresh()
-        if trials:
-            self.seen = max(self.seen, max(t.number for t in trials))
+        trials, self.deferred = self.deferred + self._remember(trials), []
         fresh = [
             t
             for t in trials
             if t.state == TrialState.COMPLETE and record_of(t).get("worker") != self.worker_id
         ]
         self.window.add(fresh)
+
+    def _remember(self, trials) -> list:
+        """Note the newest trial number seen and each finished trial's parameters."""
+        if trials:
+            self.seen = max(self.seen, max(t.number for t in trials))
+        for t in trials:
+            self.known.remember(t)
+        return trials
+
+    def _copy_source(self, params: dict):
+        """The finished trial ``params`` repeats (None: a new design). A repeat of this worker's
+        own last trials, not yet read back with their numbers, reads them first (kept out of the
+        window until the next sync: a trial is open in it)."""
+        key = params_key(params)
+        if self.known.pending(key):
+            self.deferred += self._remember(self.ledger.fresh())
+        return self.known.get(key)
 
     def may_start(self, stop, counter) -> bool:
         """Whether to start one more trial: not stopped, before the deadline, within this slot's
@@ -250,8 +278,14 @@ class _Worker:
         trial = self.window.study.ask(self.dists)
         params = dict(trial.params)
         t0 = time.time()
-        outcome = self.evaluator(self.spec, params)
-        t1 = time.time()
+        source = self._copy_source(params)
+        if source is None:
+            outcome = self.evaluator(self.spec, params)
+            t1 = time.time()
+            self.known.stored(params, outcome)
+        else:
+            outcome = copied_outcome(*source)
+            t1 = t0  # no evaluation
         frozen, (start, end) = _record(
             self.spec, params, self.dists, outcome, self.worker_id, t0, t1, self.result_names
         )
@@ -294,3 +328,78 @@ def _evaluator(cfg: dict):
 
     module, _, func = cfg["evaluator"].partition(":")
     return getattr(importlib.import_module(module), func)
+
+
+def params_key(params: dict) -> tuple:
+    """A design's identity in a study: every searched parameter's exact value (repr keeps every
+    digit of a float; a choice is its text)."""
+    return tuple(sorted((str(k), repr(v)) for k, v in params.items()))
+
+
+def known_limit(window: int) -> int:
+    """How many finished trials a worker remembers for repeats: twice its window (the proposals
+    of NSGA-II and TPE repeat the trials they learn from, which are in the window)."""
+    return 2 * int(window)
+
+
+class KnownTrials:
+    """Finished trials by parameters (`params_key`), the most recent ``limit``: each key maps to
+    the evaluated trial (a copy's key to the trial it copies). ``stored`` marks a key this worker
+    has just written and not yet read back with its number (``pending``)."""
+
+    def __init__(self, limit: int):
+        from collections import OrderedDict
+
+        self.limit = limit
+        self.trials: OrderedDict = OrderedDict()
+        self.waiting: set = set()
+
+    def remember(self, trial) -> None:
+        from optuna.trial import TrialState
+
+        rec = record_of(trial)
+        if trial.state != TrialState.COMPLETE or not rec or trial.values is None:
+            return
+        key = params_key(trial.params)
+        self.waiting.discard(key)
+        if key in self.trials:
+            self.trials.move_to_end(key)
+            return
+        self.trials[key] = (int(rec.get("copy_of", trial.number)), trial)
+        if len(self.trials) > self.limit:
+            self.trials.popitem(last=False)
+
+    def stored(self, params: dict, outcome: dict) -> None:
+        if outcome["state"] == "COMPLETE":
+            self.waiting.add(params_key(params))
+
+    def pending(self, key) -> bool:
+        return key in self.waiting and key not in self.trials
+
+    def get(self, key):
+        """(number of the evaluated trial, a stored trial with its results) or None."""
+        return self.trials.get(key)
+
+
+def copied_outcome(number: int, trial) -> dict:
+    """The outcome of a repeat of stored trial ``trial`` (evaluated as trial ``number``): its
+    values, constraints, margins, results, warnings and reason, and ``copy_of``."""
+    from optuna.study._constrained_optimization import _CONSTRAINTS_KEY
+
+    rec = record_of(trial)
+    prefix = f"{_CONSTRAINTS_KEY}:"
+    violations = {
+        k[len(prefix) :]: v for k, v in trial.system_attrs.items() if k.startswith(prefix)
+    }
+    return {
+        "state": "COMPLETE",
+        "values": list(trial.values),
+        "violations": violations,
+        "margins": dict(rec.get("margins") or {}),
+        "flat": {},
+        "results": list(rec.get("results") or []),
+        "warnings": list(rec.get("warnings") or []),
+        "reason": rec.get("reason", ""),
+        "binding": rec.get("binding_limit", ""),
+        "copy_of": number,
+    }

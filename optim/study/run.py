@@ -65,18 +65,23 @@ class Progress:
         self.start_count = start_count
         self.budget_trials = budget_trials
         self.deadline = deadline
-        self.done = self.failed = self.feasible = 0
+        self.done = self.failed = self.feasible = self.copies = 0
         self.first_finish = self.last_finish = None
         self.best = [None] * len(spec.objectives)
         self.signs = minimisation_signs(spec.directions)
         self.front = np.empty((0, len(spec.objectives)))
 
-    def add(self, state, feasible, values):
-        """Count one finished trial; keep the front of feasible ones (minimisation form)."""
+    def add(self, state, feasible, values, copied: bool = False):
+        """Count one finished trial; keep the front of feasible ones (minimisation form). A
+        ``copied`` trial (a repeat, not evaluated: optim.study.engine) is counted apart and
+        left out of the rate."""
         self.done += 1
-        now = time.time()
-        self.first_finish = now if self.first_finish is None else self.first_finish
-        self.last_finish = now
+        if copied:
+            self.copies += 1
+        else:
+            now = time.time()
+            self.first_finish = now if self.first_finish is None else self.first_finish
+            self.last_finish = now
         if state != "COMPLETE":
             self.failed += 1
             return
@@ -90,11 +95,12 @@ class Progress:
         self.front = with_row(self.front, v)
 
     def rate(self) -> float | None:
-        """Trials finished per second between this run's first and last finish (the rate
-        ``study status`` gives over the whole study); None before two have finished."""
-        if self.done < 2 or self.last_finish <= self.first_finish:
+        """Trials evaluated per second between this run's first and last evaluation (the rate
+        ``study status`` gives over the whole study); None before two have been evaluated."""
+        evaluated = self.done - self.copies
+        if evaluated < 2 or self.last_finish <= self.first_finish:
             return None
-        return (self.done - 1) / (self.last_finish - self.first_finish)
+        return (evaluated - 1) / (self.last_finish - self.first_finish)
 
     def line(self, final: bool = False) -> str:
         """The progress line; ``final``: the run's last, without what is left."""
@@ -116,7 +122,8 @@ class Progress:
             )
         text = (
             f"{self.start_count + self.done} trials ({self.done} this run"
-            + (f", {rate:.2f}/s" if rate is not None else "")
+            + (f", {self.copies} repeats copied" if self.copies else "")
+            + (f", {rate:.2f}/s evaluated" if rate is not None else "")
             + f"), feasible {100 * share:.0f} %, failed {self.failed}, "
             f"front {len(self.front)}; best {best}"
         )
@@ -348,7 +355,7 @@ class _WorkerPool:
                 msg = reader.recv()
                 if msg[0] == "trial":
                     self.done[index] += 1
-                    self.progress.add(msg[1], msg[2], msg[3])
+                    self.progress.add(msg[1], msg[2], msg[3], copied=len(msg) > 5 and msg[5])
                 elif msg[0] == "error":
                     self.reported_error[index] = True
                     if msg[1] not in self.errors:

@@ -11,7 +11,7 @@ A study file::
     frequency_Hz = { low = 50, high = 5000, scale = "log" }
     pole_material = { choices = ["electrical-steel-m400", "ferrite-mnzn"] }   # a text key
     "coil.wire_diameter_mm" = { choices = [0.56, 0.63, 0.71] }   # a number over choices
-    [objectives]                      # result = "maximize" | "minimize", in order
+    [objectives]                      # result = "maximize" | "minimize" (or -ise), in order
     worst_pull_N = "maximize"
     input_power_W = "minimize"
     [robust]                          # the gap range of worst_pull_N / worst_lift_ratio
@@ -253,6 +253,11 @@ def _base_design(data: dict, folder: Path, problems: list[str]) -> dict | None:
     return base
 
 
+#: The British spellings of the directions, read as optuna's (what the study stores, so that a
+#: study file in either spelling is the same study).
+DIRECTION_SPELLINGS = {"maximise": "maximize", "minimise": "minimize"}
+
+
 def _objectives(table, problems) -> tuple[list[Objective], dict]:
     if not isinstance(table, dict) or not table:
         problems.append('[objectives]: must list at least one result = "maximize" | "minimize"')
@@ -273,8 +278,16 @@ def _objectives(table, problems) -> tuple[list[Objective], dict]:
                 f"objectives.{name}.direction: missing; must be 'maximize' or 'minimize'"
             )
             continue
+        direction = (
+            DIRECTION_SPELLINGS.get(direction, direction)
+            if isinstance(direction, str)
+            else direction
+        )
         if direction not in ("maximize", "minimize"):
-            problems.append(f"objectives.{name} = {direction!r}: must be 'maximize' or 'minimize'")
+            problems.append(
+                f"objectives.{name} = {direction!r}: must be 'maximize' or 'minimize' (or "
+                "'maximise', 'minimise')"
+            )
             continue
         out.append(Objective(name, direction))
     return out, robust
