@@ -281,7 +281,10 @@ def constraint_lines(s: dict) -> list[str]:
     for name, c in (s.get("constraints") or {}).items():
         if c["rejected"]:
             best = "-" if c["best_margin"] is None else format(c["best_margin"], "+.4g")
+            # a positive best margin was reached by a trial that breaks another constraint
+            kept = " (by a trial that breaks another)" if (c["best_margin"] or 0) >= 0 else ""
             out.append(
                 f"  constraint {name}: rejected {c['rejected']} done trials; best margin {best}"
+                + kept
             )
     return out
