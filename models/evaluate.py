@@ -26,7 +26,7 @@ from models.checks import (
     thermal_warnings,
 )
 from models.core_loss import face_slab_depth
-from models.design import Design, with_gap
+from models.design import Design, edit, with_capacitance, with_gap
 from models.envelope import envelope
 from models.errors import DesignError
 from models.fast.circuit import RING, TARGET, CircuitSolution, assemble_circuit, solve_system
@@ -38,7 +38,7 @@ from models.fast.ripple import pull_ripple
 from models.fast.uncertainty import COARSE_FACTOR, pull_uncertainty
 from models.motion import Lift, PullCurve, lift_in_time, weight_against_pull
 from models.result import MODEL_VERSION, Electrical, Result, Thermal, ring_phase
-from models.supply import supply_state, tuned_capacitance, with_capacitance
+from models.supply import supply_state, tuned_capacitance
 from models.thermal.coupling import solve_coupled
 from models.thermal.limits import hold_temperature
 from models.thermal.network import build_network, face_slab_thickness
@@ -471,9 +471,7 @@ def _tuning_capacitance(design: Design, pick_system, held_system, state, isother
 def no_part(design: Design) -> Design:
     """``design`` with its part made a non-conductor (``NO_PART_CONDUCTIVITY``): the magnet
     with nothing in front of it, for the capacitor's rating."""
-    return dataclasses.replace(
-        design, target=dataclasses.replace(design.target, conductivity=NO_PART_CONDUCTIVITY)
-    )
+    return edit(design, properties={"target.conductivity": NO_PART_CONDUCTIVITY})
 
 
 #: A part's conductivity [S/m] that stands for no part: its cells' resistances (~1e17 Ohm) leave

@@ -11,7 +11,7 @@ from __future__ import annotations
 
 import math
 
-from models.design import Design, with_gap
+from models.design import Design, with_capacitance, with_gap
 from models.evaluate import (
     DEFAULT_FINENESS,
     at_hold_gap,
@@ -24,7 +24,6 @@ from models.fast.circuit import assemble_circuit, solve_system
 from models.fast.discretize import Fineness
 from models.fast.pull import net_pull
 from models.result import Result
-from models.supply import with_capacitance
 
 __all__ = ["part_pulls_under_magnet", "magnet_temperatures"]
 

@@ -16,7 +16,14 @@ The package by concern:
 Every name other modules import is re-exported here: ``from models.design import ...`` as before.
 """
 
-from models.design.editing import edit, resolve_key, with_gap, with_value
+from models.design.editing import (
+    edit,
+    resolve_key,
+    with_capacitance,
+    with_fixed_capacitor,
+    with_gap,
+    with_value,
+)
 from models.design.files import design_from_dict, load_design, read_toml
 from models.design.parts import (
     DEFAULT_FILL_FACTOR,
@@ -53,6 +60,8 @@ __all__ = [
     "edit",
     "with_value",
     "with_gap",
+    "with_capacitance",
+    "with_fixed_capacitor",
     "resolve_key",
     "DESIGN_KEYS",
     "PLAUSIBLE_LIMITS",

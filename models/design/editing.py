@@ -168,3 +168,21 @@ def with_gap(design: Design, gap_mm: float) -> Design:
     properties set on it by ``edit`` (a tolerance table's part conductivity).
     """
     return edit(design, {"target.gap_mm": gap_mm})
+
+
+def with_capacitance(design: Design, capacitance_F: float) -> Design:
+    """``design`` with its drive's capacitor fixed at ``capacitance_F`` [F] (a tuned one):
+    ``edit(design, properties={"drive.capacitance": capacitance_F})``."""
+    return edit(design, properties={"drive.capacitance": float(capacitance_F)})
+
+
+def with_fixed_capacitor(design: Design, capacitance_F: float) -> Design:
+    """``design`` with its capacitor fixed at ``capacitance_F`` [F] in the drive and in its file
+    values (``drive.capacitance_uF``), so that a design rebuilt from the file (a tolerance sample)
+    keeps the capacitor as built instead of tuning a new one."""
+    capacitance_F = float(capacitance_F)
+    return edit(
+        design,
+        {"drive.capacitance_uF": capacitance_F * 1e6},
+        properties={"drive.capacitance": capacitance_F},
+    )
