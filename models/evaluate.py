@@ -37,7 +37,7 @@ from models.fast.pull import pull_by_source
 from models.fast.ripple import pull_ripple
 from models.fast.uncertainty import COARSE_FACTOR, pull_uncertainty
 from models.motion import Lift, PullCurve, lift_in_time, weight_against_pull
-from models.result import MODEL_VERSION, Electrical, Result, Thermal, ring_phase
+from models.result import MODEL_VERSION, Electrical, Result, Thermal, flat_for_checks, ring_phase
 from models.supply import supply_state, tuned_capacitance
 from models.thermal.coupling import solve_coupled
 from models.thermal.limits import hold_temperature
@@ -362,7 +362,7 @@ def evaluate_pick_gaps(
             pull_at[g * 1e-3] = p
     electrical, lift = _with_lift(electrical, design, held_design, pull_at, lift_points)
     thermal = _thermal(design, state, part, electrical)
-    flat = _flat_for_checks(electrical, thermal)
+    flat = flat_for_checks(electrical, thermal)
     warnings = [f"design: {note}" for note in design.notes]
     warnings += range_warnings(design, arrival, fineness, electrical)
     warnings += gap_warnings(design, gaps_mm, "pick gap")
@@ -879,7 +879,7 @@ def _thermal(design: Design, state, part: PickState, electrical: Electrical) -> 
         thermal_time_constants_s=[],
     )
     margins, binding, times, taus = limits_and_margins(
-        design, state, _flat_for_checks(electrical, no_limits_yet)
+        design, state, flat_for_checks(electrical, no_limits_yet)
     )
     thermal = dataclasses.replace(
         no_limits_yet,
@@ -889,23 +889,3 @@ def _thermal(design: Design, state, part: PickState, electrical: Electrical) -> 
         thermal_time_constants_s=[float(x) for x in taus],
     )
     return thermal
-
-
-def _flat_for_checks(electrical: Electrical, thermal: Thermal) -> dict:
-    """The flat values the limit checks read (models.checks)."""
-    return {
-        "coil_temperature_C": thermal.coil_temperature_C,
-        "ring_temperature_C": thermal.ring_temperature_C,
-        "target_hold_temperature_C": thermal.target_hold_temperature_C,
-        "core_peak_flux_density_T": electrical.core_peak_flux_density_T,
-        "core_flux_fraction": electrical.core_flux_fraction,
-        "core_saturation_T": electrical.core_saturation_T,
-        "coil_voltage_V": electrical.coil_voltage_V,
-        "coil_current_A": electrical.coil_current_A,
-        "supply_voltage_V": electrical.supply_voltage_V,
-        "supply_current_A": electrical.supply_current_A,
-        "supply_VA": electrical.supply_VA,
-        "capacitor_rating_V": electrical.capacitor_rating_V,
-        "pull_uncertainty_relative": electrical.pull_uncertainty_relative,
-        "pull_cancellation": electrical.pull_cancellation,
-    }
