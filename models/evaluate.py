@@ -11,7 +11,6 @@ import dataclasses
 import functools
 import math
 import time
-from dataclasses import dataclass
 
 import numpy as np
 from scipy.constants import g as standard_gravity
@@ -29,7 +28,7 @@ from models.core_loss import face_slab_depth
 from models.design import Design, edit, with_capacitance, with_gap
 from models.envelope import envelope
 from models.errors import DesignError
-from models.fast.circuit import RING, TARGET, CircuitSolution, assemble_circuit, solve_system
+from models.fast.circuit import RING, CircuitSolution, assemble_circuit, solve_system
 from models.fast.core import radial_flux_fraction
 from models.fast.discretize import Fineness, resolved_gap
 from models.fast.flux import core_peak_flux_density, pole_flux_density
@@ -37,11 +36,17 @@ from models.fast.pull import pull_by_source
 from models.fast.ripple import pull_ripple
 from models.fast.uncertainty import COARSE_FACTOR, pull_uncertainty
 from models.motion import Lift, PullCurve, lift_in_time, weight_against_pull
+from models.pick import (
+    PickState,
+    SolvedOnce,
+    at_hold_gap,
+    part_losses,
+    part_state,
+    pick_state,
+    steady_state,
+)
 from models.result import MODEL_VERSION, Electrical, Result, Thermal, flat_for_checks, ring_phase
 from models.supply import supply_state, tuned_capacitance
-from models.thermal.coupling import solve_coupled
-from models.thermal.limits import hold_temperature
-from models.thermal.network import build_network, face_slab_thickness
 
 __all__ = [
     "DEFAULT_FINENESS",
@@ -149,71 +154,6 @@ def clear_pole_cache():
     _cached_pole_geometry.cache_clear()
 
 
-def _part_losses(sol: CircuitSolution, face_depth: float | None = None) -> dict:
-    """Losses [W] of one solution: Joule losses of coil, ring and target (rms: |I|^2 R) and, with
-    iron, the core's losses split between the steel within ``face_depth`` [m] of the face
-    ("face") and the rest ("core") where the field puts them (models.fast.core)."""
-    loss = np.abs(sol.cell_current) ** 2 * sol.cell_resistance
-    part = sol.cells.part
-    out = {
-        "coil": float(abs(sol.coil_current) ** 2 * sol.coil_resistance),
-        "ring": float(loss[part == RING].sum()),
-        "target": float(loss[part == TARGET].sum()),
-    }
-    if sol.winding_current is not None:  # a shading winding: its wire heats the ring's node;
-        i2 = abs(sol.winding_current) ** 2  # its closing resistor sits outside the magnet
-        out["ring"] = float(i2 * sol.winding_resistance)
-        out["closing"] = float(i2 * sol.winding_closing.real)
-    c = sol.core
-    if c is not None and face_depth is not None:
-        at = c.eddy * c.eddy_share + c.hysteresis_at + c.excess_at
-        face = sol.core_grid.z > -face_depth
-        out["face"] = float(at[face].sum())
-        out["core"] = float(at[~face].sum())
-    return out
-
-
-def part_losses(solution: CircuitSolution, face_depth_m: float | None = None) -> dict:
-    """Losses [W] of one circuit solution, by part.
-
-    Parameters
-    ----------
-    solution : models.fast.circuit.CircuitSolution
-        A solved circuit (``models.fast.circuit.solve_system``); rms phasors.
-    face_depth_m : float, optional
-        Depth [m] of the face slab: with it, and a pole with core losses, the core's losses
-        are split into "face" (steel within that depth of the face) and "core" (the rest).
-
-    Returns
-    -------
-    dict of str to float
-        "coil", "ring", "target" [W] (Joule losses |I|^2 R of rms currents, no factor 1/2), and
-        "face", "core" [W] when ``face_depth_m`` is given and the pole has core losses.
-    """
-    return _part_losses(solution, face_depth_m)
-
-
-def steady_state(design: Design, system, isothermal: bool = False):
-    """The magnet's duty-averaged steady state with the part under the pole.
-
-    Parameters
-    ----------
-    design : models.design.Design
-        The design with its part at the holding gap (``at_hold_gap``).
-    system : models.fast.circuit.CircuitSystem
-        Its assembled circuit (``models.fast.circuit.assemble_circuit``).
-    isothermal : bool
-        True: every resistivity at 20 degC (the network's response to those losses).
-
-    Returns
-    -------
-    models.thermal.coupling.ThermalState
-        Temperatures [degC] and losses [W] that agree (``solve_coupled``: rho(T) = rho_20
-        (1 + alpha (T - 20 degC)), Newton on the network), or a runaway's last iterate.
-    """
-    return _steady_state(design, system, isothermal)
-
-
 def pole_mass(design: Design) -> float:
     """Mass of the pole's steel with the ring's groove removed [kg] (nan for an air core)."""
     p, g = design.pole, design.ring
@@ -311,14 +251,10 @@ def evaluate_pick_gaps(
         else assemble_circuit(held_design, fineness, pole_model_for(held_design, fineness))
     )
     design, pick_system, held_system, state = _tuned(design, pick_system, held_system, isothermal)
-    solve = _solved_once()
-
-    def loss_at_arrival(temps):
-        return _part_losses(solve(held_system, temps))["target"]
-
-    part = pick_state(design, state, isothermal, loss_at_arrival)
-    arrival = solve(pick_system, part.arrival)
-    hold = solve(held_system, part.hold) if part.hold is not None else None
+    solve = SolvedOnce(pick=pick_system, held=held_system)
+    part = part_state(design, state, isothermal, lambda temps: solve("held", temps))
+    arrival = solve("pick", part.arrival)
+    hold = solve("held", part.hold) if part.hold is not None else None
     drive = design.drive
     # The capacitor's states to rate it by: a series capacitor on a given coil current has the
     # same voltage I/(omega C) in every state, so only the design point is needed then.
@@ -353,7 +289,7 @@ def evaluate_pick_gaps(
     core_C = state.temperature("core") if design.pole is not None else math.nan
     electrical = _electrical(design, arrival, hold, core_C, rating)
     electrical = _with_error_bar(electrical, design, fineness, part.arrival)
-    arrival_held = solve(held_system, part.arrival)  # solved already, except with target_stays
+    arrival_held = solve("held", part.arrival)  # solved already, except with target_stays
     electrical = _with_ripple(electrical, design, arrival, arrival_held, hold)
     pull_at = _ArrivalPulls(design, fineness, part.arrival, {held_design.target.gap: arrival_held})
     pull_at[design.target.gap] = electrical.pull_N
@@ -430,7 +366,7 @@ def _tuned(design: Design, pick_system, held_system, isothermal: bool):
     coil's current does not depend on the capacitor, nor the steady state: one pass. A series
     capacitor on a voltage sets the current and so the temperatures: passes until the
     capacitance the steady state asks for is the one it was computed with."""
-    state = _steady_state(held_system.design, held_system, isothermal)
+    state = steady_state(held_system.design, held_system, isothermal)
     drive = design.drive
     if drive.compensation == "none" or drive.capacitance is not None:
         return design, pick_system, held_system, state
@@ -452,17 +388,14 @@ def _tuned(design: Design, pick_system, held_system, isothermal: bool):
         )
         if not dependent or done:
             break
-        state = _steady_state(held_system.design, held_system, isothermal)
+        state = steady_state(held_system.design, held_system, isothermal)
     return tuned, pick_system, held_system, state
 
 
 def _tuning_capacitance(design: Design, pick_system, held_system, state, isothermal) -> float:
     """The capacitance [F] for unity power factor at the design point of ``state``."""
 
-    def loss_at_arrival(temps):
-        return _part_losses(solve_system(held_system, temps))["target"]
-
-    part = pick_state(design, state, isothermal, loss_at_arrival)
+    part = part_state(design, state, isothermal, lambda temps: solve_system(held_system, temps))
     sol = solve_system(pick_system, part.arrival)
     z = complex(sol.coil_voltage / sol.coil_current)
     return tuned_capacitance(design.drive.compensation, design.drive.omega, z)
@@ -519,108 +452,6 @@ def _check_laminated(design: Design) -> None:
         )
 
 
-def at_hold_gap(design: Design) -> Design:
-    """``design`` with its part at the holding gap (``thermal.hold_gap_mm``; ``with_gap``); the
-    same object when that is the design's own gap (the default)."""
-    gap = design.thermal.hold_gap
-    if gap is None or abs(gap - design.target.gap) <= 1e-12:
-        return design
-    return with_gap(design, gap * 1e3)
-
-
-def _steady_state(design: Design, system, isothermal: bool):
-    """The thermal network's duty-averaged steady state with the electrical model of ``system``
-    (the part under the pole at its holding gap, as for a part that stays)."""
-    network = build_network(design)
-
-    face_depth = face_slab_thickness(design)
-
-    def losses_at(temps):
-        sol = solve_system(system, temps)
-        return _part_losses(sol, face_depth), sol
-
-    coil_sensitivity = None
-    if design.drive.current is not None and len(design.windings) == 1:  # P = I^2 R(T) exactly
-        a = design.coil.temperature_coefficient
-        coil_sensitivity = lambda t: a / (1.0 + a * (t - 20.0))  # noqa: E731
-    return solve_coupled(
-        network, losses_at, coupled=not isothermal, coil_sensitivity=coil_sensitivity
-    )
-
-
-@dataclass(frozen=True)
-class PickState:
-    """The part's temperatures in the two states a result reports, and the circuit temperatures
-    [degC] of each ("coil" its mean, "ring", "target"; 20 degC everywhere when isothermal).
-
-    target_arrival_C : the part as it arrives; target_hold_C : at the end of the hold
-    (inf after a runaway); hold_time_constant_s : of the held part (negative: it runs away);
-    arrival, hold : circuit temperatures of the two states (hold None when it has none).
-    """
-
-    target_arrival_C: float
-    target_hold_C: float
-    hold_time_constant_s: float
-    arrival: dict
-    hold: dict | None
-
-
-def _solved_once():
-    """``solve_system`` that solves each (system, temperatures) once: at the design's own gap
-    the part's loss at arrival, the arrival itself and (isothermal) the hold are one solve."""
-    seen = {}
-
-    def solve(system, temps):
-        key = (id(system), tuple(sorted(temps.items())))
-        if key not in seen:
-            seen[key] = solve_system(system, temps)
-        return seen[key]
-
-    return solve
-
-
-def pick_state(design: Design, state, isothermal: bool, loss_at_arrival=None) -> PickState:
-    """The moment of pick and the end of the hold: the fixed parts (coil, ring) at the steady
-    state of ``state``, the part arriving at ``thermal.target_arrival_C`` (default the ambient)
-    and warmed for ``thermal.hold_time_s`` from there; with ``thermal.target_stays``, the part
-    at its steady state in both. ``loss_at_arrival(temperatures)`` (the part's loss [W] in the
-    circuit at the holding gap) gives the loss the warming starts from (models.thermal.limits)."""
-    th = design.thermal
-    net = state.network
-    T = state.T if np.all(np.isfinite(state.T)) else state.T_last  # a runaway: its last iterate
-    fixed = {"coil": 20.0, "ring": 20.0}
-    if not isothermal:
-        fixed = {"coil": float(T[net.index("coil")])}
-        if "ring" in net.nodes:
-            fixed["ring"] = float(T[net.index("ring")])
-    if th.target_stays:
-        t_arrival = t_hold = state.temperature("target")
-        circuit_target = float(T[net.index("target")])
-        _, _, tau = hold_temperature(state, th.hold_time, initial_C=circuit_target)
-    else:
-        t_arrival = th.ambient_C if th.target_arrival_C is None else th.target_arrival_C
-        circuit_target = t_arrival
-        initial_loss = None
-        if loss_at_arrival is not None and not isothermal:
-            initial_loss = loss_at_arrival({**fixed, "target": t_arrival})
-        t_hold, _, tau = hold_temperature(
-            state, th.hold_time, initial_C=t_arrival, initial_loss_W=initial_loss
-        )
-    if isothermal:
-        arrival = {**fixed, "target": 20.0}
-        hold = dict(arrival) if math.isfinite(t_hold) else None
-    else:
-        arrival = {**fixed, "target": circuit_target}
-        hold = {**fixed, "target": t_hold} if math.isfinite(t_hold) else None
-    return PickState(
-        target_arrival_C=float(t_arrival),
-        target_hold_C=float(t_hold),
-        hold_time_constant_s=float(tau),
-        arrival=arrival,
-        hold=hold,
-    )
-
-
 def _electrical(
     design: Design,
     sol: CircuitSolution,
@@ -635,7 +466,7 @@ def _electrical(
     no capacitor)."""
     split = pull_by_source(sol)
     pull = sum(split.values())
-    losses = _part_losses(sol)
+    losses = part_losses(sol)
     z_coil = sol.coil_voltage / sol.coil_current
     ring_current = complex(sol.cell_current[sol.cells.part == RING].sum())
     if sol.winding_current is not None:
