@@ -13,7 +13,6 @@ import math
 import time
 
 import numpy as np
-from scipy.constants import g as standard_gravity
 
 from models.checks import (
     gap_warnings,
@@ -32,7 +31,7 @@ from models.fast.circuit import RING, CircuitSolution, assemble_circuit, solve_s
 from models.fast.core import radial_flux_fraction
 from models.fast.discretize import Fineness, resolved_gap
 from models.fast.flux import core_peak_flux_density, pole_flux_density
-from models.fast.pull import pull_by_source
+from models.fast.pull import net_pull, pull_by_source
 from models.fast.ripple import pull_ripple
 from models.fast.uncertainty import COARSE_FACTOR, pull_uncertainty
 from models.motion import Lift, PullCurve, lift_in_time, weight_against_pull
@@ -271,7 +270,7 @@ def evaluate_pick_gaps(
             at_gap, fineness, pole_model_for(at_gap, fineness), pull_only=not compensated
         )
         solution = solve_system(system, part.arrival)
-        pulls.append(float(sum(pull_by_source(solution).values())))
+        pulls.append(net_pull(solution))
         if compensated:
             gap_solutions.append((system, solution))
     rating = None
@@ -326,7 +325,7 @@ class _ArrivalPulls(dict):
         super().__init__()
         self._design, self._fineness, self._temps = design, fineness, temperatures
         for gap, sol in solved.items():
-            self[gap] = float(sum(pull_by_source(sol).values()))
+            self[gap] = net_pull(sol)
 
     def _key(self, gap):
         return next((k for k in self.keys() if abs(k - gap) <= 1e-12), gap)
@@ -342,7 +341,7 @@ class _ArrivalPulls(dict):
         system = assemble_circuit(
             at_gap, self._fineness, pole_model_for(at_gap, self._fineness), pull_only=True
         )
-        pull = float(sum(pull_by_source(solve_system(system, self._temps)).values()))
+        pull = net_pull(solve_system(system, self._temps))
         self[key] = pull
         return pull
 
@@ -472,8 +471,8 @@ def _electrical(
     if sol.winding_current is not None:
         ring_current = sol.winding_current  # the current in the winding's wire
     phase = ring_phase(ring_current, sol.coil_current) if design.ring is not None else 0.0
-    pull_hold = math.nan if hold is None else float(sum(pull_by_source(hold).values()))
-    weight = design.target.density * design.target.volume * standard_gravity
+    pull_hold = math.nan if hold is None else net_pull(hold)
+    weight = design.target.weight
     input_power = float(np.real(sol.coil_voltage * np.conj(sol.coil_current)))
     drive = design.drive
     supply = supply_state(
@@ -614,7 +613,7 @@ def _with_error_bar(electrical: Electrical, design: Design, fineness, temperatur
         gap_floor=fineness.gap_floor,  # the panels' sizes as the fine level's: its pole model
     )
     system = assemble_circuit(design, coarse, pole_model_for(design, coarse), pull_only=True)
-    pull_coarse = float(sum(pull_by_source(solve_system(system, temperatures)).values()))
+    pull_coarse = net_pull(solve_system(system, temperatures))
     u = pull_uncertainty(electrical.pull_N, pull_coarse, electrical.pull_by_source_N)
     pull = abs(electrical.pull_N)
     return dataclasses.replace(
@@ -632,7 +631,7 @@ def _with_ripple(electrical: Electrical, design: Design, arrival, arrival_held, 
     arrives (``arrival_held``) and at the end of the hold (``hold``; None after a runaway: nan)."""
     against = weight_against_pull(electrical.target_weight_N, design.thermal.orientation)
     margins = [
-        float(sum(pull_by_source(sol).values())) - pull_ripple(sol) - against
+        net_pull(sol) - pull_ripple(sol) - against
         for sol in (arrival_held, hold)
         if sol is not None
     ]
@@ -660,8 +659,7 @@ def _with_lift(electrical: Electrical, design: Design, held_design: Design, pull
     ``pick_time_ms``, ``contact_speed_m_per_s``), the pull-against-gap curve through the pulls
     at arrival at ``lift_gaps`` (``pull_at``: the two ends are solved already); and the Lift."""
     pick, hold_gap = design.target.gap, held_design.target.gap
-    t = design.target
-    mass = t.density * t.volume
+    mass = design.target.mass
     if hold_gap < pick:
         gaps = lift_gaps(pick, hold_gap, points)
         curve = PullCurve(tuple(gaps), tuple(pull_at[g] for g in gaps))

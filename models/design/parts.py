@@ -13,6 +13,8 @@ from __future__ import annotations
 import math
 from dataclasses import dataclass, field
 
+from scipy.constants import g as standard_gravity
+
 from models.core_loss import lamination_permeability
 from models.materials import MATERIALS
 
@@ -219,7 +221,19 @@ class Target:
 
     @property
     def volume(self) -> float:
+        """The part's volume [m^3]."""
         return math.pi * (self.radius**2 - self.inner_radius**2) * self.thickness
+
+    @property
+    def mass(self) -> float:
+        """The part's mass [kg]: density x volume."""
+        return self.density * self.volume
+
+    @property
+    def weight(self) -> float:
+        """The part's weight [N]: its mass times standard gravity (scipy.constants.g,
+        9.80665 m/s^2, CGPM 1901); the result's ``target_weight_N``."""
+        return self.mass * standard_gravity
 
 
 #: IEC 60085:2007 thermal classes: letter -> class temperature [degC] (Table 1 of the standard:
