@@ -257,7 +257,7 @@ def out_of_depth(design: Design, electrical, thermal_status: str) -> list[str]:
 
 def limits_and_margins(design: Design, state, result: dict):
     """(margins, binding limit, time to limits, thermal time constants) of a result (see
-    models.result.Thermal); ``result`` holds the flat values the margins are taken of."""
+    models.result.ThermalResults); ``result`` holds the flat values the margins are taken of."""
     th = design.thermal
     ta = th.ambient_C
     net = state.network

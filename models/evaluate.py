@@ -44,7 +44,14 @@ from models.pick import (
     pick_state,
     steady_state,
 )
-from models.result import MODEL_VERSION, Electrical, Result, Thermal, flat_for_checks, ring_phase
+from models.result import (
+    MODEL_VERSION,
+    Electrical,
+    Result,
+    ThermalResults,
+    flat_for_checks,
+    ring_phase,
+)
 from models.supply import supply_state, tuned_capacitance
 
 __all__ = [
@@ -183,7 +190,7 @@ def evaluate(
         and temperatures of the fixed parts (coil, ring, core, face) iterated to agree at their
         duty-averaged steady state (models.thermal.coupling.solve_coupled), resistivities
         rho_20 (1 + alpha (T - 20 degC)). A design without [thermal] uses
-        models.design.Thermal's defaults (25 degC ambient, natural convection, continuous duty).
+        models.design.ThermalSettings's defaults (25 degC ambient, natural convection, continuous duty).
     fineness : Fineness, optional
         Discretisation; DEFAULT_FINENESS converges the pull to about 1 %.
     pole_model : optional
@@ -684,7 +691,7 @@ def pull_cancellation(split: dict) -> float:
     return float(terms / net) if net > 0 else math.inf
 
 
-def _thermal(design: Design, state, part: PickState, electrical: Electrical) -> Thermal:
+def _thermal(design: Design, state, part: PickState, electrical: Electrical) -> ThermalResults:
     """The temperatures of the steady state and of the part (arriving, held), the thermal
     assumptions behind them, the margins to every limit and the time to them."""
     temps = {"coil": state.coil_hot_spot_C, "coil_mean": state.temperature("coil")}
@@ -697,7 +704,7 @@ def _thermal(design: Design, state, part: PickState, electrical: Electrical) -> 
     temps["target_arrival"] = part.target_arrival_C
     temps["target_hold"] = part.target_hold_C
     temps["ambient"] = design.thermal.ambient_C
-    no_limits_yet = Thermal(
+    no_limits_yet = ThermalResults(
         temperatures_C=temps,
         thermal_assumptions=thermal_assumptions(design, state.network),
         coil_temperature_limit_C=design.thermal.coil_class_C,

@@ -26,7 +26,7 @@ __all__ = [
     "MODEL_VERSION",
     "RING_PHASE_FROM_DEG",
     "Result",
-    "Thermal",
+    "ThermalResults",
     "ring_phase",
 ]
 
@@ -186,7 +186,7 @@ class Electrical:
 
 
 @dataclass(frozen=True)
-class Thermal:
+class ThermalResults:
     """The thermal network's outputs (models.thermal; steady state at the duty-averaged losses).
 
     temperatures_C : [degC] "coil" (its hot spot), "coil_mean" (its mean, which sets its
@@ -495,7 +495,7 @@ def null_reason(name: str, sign: str) -> str | None:
     return dict(row.null).get(sign) if row is not None else None
 
 
-def flat_for_checks(electrical: Electrical, thermal: Thermal) -> dict:
+def flat_for_checks(electrical: Electrical, thermal: ThermalResults) -> dict:
     """The flat values the limit checks read (models.checks): the ``checked`` rows of FIELDS."""
     parts = {"electrical": electrical, "thermal": thermal}
     return {f.name: getattr(parts[f.group], f.name) for f in FIELDS if f.checked}
@@ -509,7 +509,7 @@ class Result:
     model's version. Every field of the two parts also reads as a flat attribute."""
 
     electrical: Electrical
-    thermal: Thermal
+    thermal: ThermalResults
     warnings: list = field(default_factory=list)
     n_cells: int = 0
     n_panels: int = 0

@@ -19,7 +19,7 @@ from models.result import (
     Electrical,
     Envelope,
     Result,
-    Thermal,
+    ThermalResults,
     field_names,
     flat_for_checks,
     null_reason,
@@ -45,7 +45,11 @@ def _public(cls) -> set:
 def test_every_group_field_is_flattened_once():
     names = [n for _, n in FLAT_FIELDS]
     assert len(names) == len(set(names))
-    for group, cls in (("electrical", Electrical), ("thermal", Thermal), ("envelope", Envelope)):
+    for group, cls in (
+        ("electrical", Electrical),
+        ("thermal", ThermalResults),
+        ("envelope", Envelope),
+    ):
         assert {n for g, n in FLAT_FIELDS if g == group} == _public(cls)
     own = {f.name for f in dataclasses.fields(Result)} - {"electrical", "thermal", "envelope"}
     assert {n for g, n in FLAT_FIELDS if g == ""} == own
@@ -69,7 +73,7 @@ def test_flat_attributes_read_the_groups(result):
 
 def test_each_temperature_is_stored_once(result):
     th = result.thermal
-    stored = {f.name for f in dataclasses.fields(Thermal)}
+    stored = {f.name for f in dataclasses.fields(ThermalResults)}
     assert "coil_temperature_C" not in stored and "ring_temperature_C" not in stored
     assert th.coil_temperature_C == th.temperatures_C["coil"]
     assert th.ring_temperature_C == th.temperatures_C["ring"]
@@ -78,7 +82,7 @@ def test_each_temperature_is_stored_once(result):
 
 def test_no_measured_looking_defaults():
     # A thermal part needs every value given: no coil at 20 degC before any thermal solve.
-    for cls in (Electrical, Thermal):
+    for cls in (Electrical, ThermalResults):
         for f in dataclasses.fields(cls):
             assert f.default is dataclasses.MISSING and f.default_factory is dataclasses.MISSING
 

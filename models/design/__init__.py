@@ -2,7 +2,7 @@
 
 The package by concern:
 
-* ``parts``: the dataclasses (Pole, Coil, Drive, Ring, Target, Thermal, Supply, Design) and the
+* ``parts``: the dataclasses (Pole, Coil, Drive, Ring, Target, ThermalSettings, Supply, Design) and the
   winding's turns;
 * ``schema``: the file's tables and keys (DESIGN_KEYS), the kinds of value and the check of one
   value (step 1 of reading);
@@ -37,7 +37,7 @@ from models.design.parts import (
     Ring,
     Supply,
     Target,
-    Thermal,
+    ThermalSettings,
     coil_fill,
     coil_turns,
     turns_in_window,
@@ -51,7 +51,7 @@ __all__ = [
     "Drive",
     "Ring",
     "Target",
-    "Thermal",
+    "ThermalSettings",
     "Supply",
     "Design",
     "load_design",

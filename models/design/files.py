@@ -17,7 +17,7 @@ from models.design.parts import (
     Ring,
     Supply,
     Target,
-    Thermal,
+    ThermalSettings,
     coil_fill,
     coil_turns,
 )
@@ -82,7 +82,7 @@ def _build(data: dict, name: str, vals: dict[str, _Values], parsed: dict[str, di
         ring=ring,
         name=str(data.get("name", name)),
         source=_deep_copy(data),
-        thermal=Thermal(**parsed["thermal"]) if "thermal" in parsed else Thermal(),
+        thermal=ThermalSettings(**parsed["thermal"]) if "thermal" in parsed else ThermalSettings(),
         supply=Supply(**parsed["supply"]) if "supply" in parsed else None,
         notes=design_notes(vals),
         coils=coils,

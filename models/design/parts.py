@@ -253,7 +253,7 @@ ORIENTATIONS = ("face-down", "face-up", "horizontal")
 
 
 @dataclass(frozen=True)
-class Thermal:
+class ThermalSettings:
     """Thermal surroundings and duty of a design (models.thermal). Temperatures [degC], times [s].
 
     ambient_C : air temperature; convection : heat-transfer coefficient of every outer surface
@@ -320,7 +320,7 @@ class Design:
     ring: Ring | None = None
     name: str = "design"
     source: dict = field(default_factory=dict, compare=False, repr=False)
-    thermal: Thermal = Thermal()
+    thermal: ThermalSettings = ThermalSettings()
     supply: Supply | None = None
     #: What the reader took on the user's behalf (each becomes a warning of every result).
     notes: tuple = field(default=(), compare=False)

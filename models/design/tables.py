@@ -10,7 +10,7 @@ from models.design.parts import (
     INSULATION_CLASSES,
     MM,
     ORIENTATIONS,
-    Thermal,
+    ThermalSettings,
 )
 from models.design.schema import (
     _ALLOWED,
@@ -279,7 +279,7 @@ def _parse_target(g: _Values, problems: list[str]) -> dict | None:
 def _parse_thermal(t: _Values, problems: list[str]) -> dict:
     """[thermal]: the Thermal keywords (defaults where a key is missing)."""
     kw = {}
-    ambient = t.get("ambient_C", Thermal.ambient_C)
+    ambient = t.get("ambient_C", ThermalSettings.ambient_C)
     # -50 to 150 degC: from arctic outdoor to inside an oven line (common practice, no source)
     if not -50.0 <= ambient <= 150.0:
         problems.append(f"thermal.ambient_C = {ambient!r}: must be between -50 and 150 degC")
@@ -293,7 +293,7 @@ def _parse_thermal(t: _Values, problems: list[str]) -> dict:
                     f"thermal.{key} = {t[key]!r}: must be above thermal.ambient_C (= {ambient!r})"
                 )
             kw[key] = t[key]
-    orientation = t.get("orientation", Thermal.orientation)
+    orientation = t.get("orientation", ThermalSettings.orientation)
     if orientation not in ORIENTATIONS:
         problems.append(
             f"thermal.orientation = {orientation!r}: must be one of {', '.join(ORIENTATIONS)}"
