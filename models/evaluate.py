@@ -23,7 +23,7 @@ from models.checks import (
     thermal_assumptions,
     thermal_warnings,
 )
-from models.core_loss import face_slab_depth
+from models.core_loss import radial_flux_slab_depth
 from models.design import Design, edit, with_capacitance, with_gap
 from models.envelope import envelope
 from models.errors import DesignError
@@ -605,7 +605,9 @@ def _steel_results(design: Design, sol: CircuitSolution, core_C: float) -> dict:
         "core_radial_flux_fraction": (
             0.0
             if sol.core_grid is None
-            else radial_flux_fraction(sol.core_grid, sol.cell_current, face_slab_depth(design))
+            else radial_flux_fraction(
+                sol.core_grid, sol.cell_current, radial_flux_slab_depth(design)
+            )
         ),
     }
 

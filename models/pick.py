@@ -20,7 +20,7 @@ from models.design import Design, with_gap
 from models.fast.circuit import RING, TARGET, CircuitSolution, solve_system
 from models.thermal.coupling import solve_coupled
 from models.thermal.limits import hold_temperature
-from models.thermal.network import build_network, face_slab_thickness
+from models.thermal.network import build_network, face_node_thickness
 
 __all__ = [
     "PickState",
@@ -100,7 +100,7 @@ def steady_state(design: Design, system, isothermal: bool = False):
     """
     network = build_network(design)
 
-    face_depth = face_slab_thickness(design)
+    face_depth = face_node_thickness(design)
 
     def losses_at(temps):
         sol = solve_system(system, temps)

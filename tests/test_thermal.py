@@ -20,7 +20,7 @@ from models.thermal.air import air_properties
 from models.thermal.convection import churchill_chu_vertical, natural_convection_coefficient
 from models.thermal.coupling import solve_coupled
 from models.thermal.limits import hold_temperature, lumped_temperature, time_to_limits
-from models.thermal.network import build_network, face_slab_thickness
+from models.thermal.network import build_network, face_node_thickness
 from tests.conftest import demo_dict
 
 #: A demo machine on a realistic duty: 10 % on, emissive enamel and paint.
@@ -356,7 +356,7 @@ def _damped_fixed_point(design):
     system = assemble_circuit(design, DEFAULT_FINENESS, pole_model_for(design, DEFAULT_FINENESS))
     net = build_network(design)
     names = [n for n in ("coil", "ring", "target") if n in net.nodes]
-    face = face_slab_thickness(design)
+    face = face_node_thickness(design)
     T = np.full(len(net.nodes), design.thermal.ambient_C)
     for _ in range(400):
         sol = solve_system(system, {n: T[net.index(n)] for n in names})
