@@ -80,7 +80,7 @@ def range_warnings(design: Design, sol: CircuitSolution, fineness: Fineness, ele
             "linear model may be optimistic"
         )
     f = design.drive.frequency
-    out += general_windings_warnings(design)
+    out += _general_windings_warnings(design)
     values = {
         "frequency_Hz": f,
         "gap_mm": design.target.gap * 1e3,
@@ -139,7 +139,7 @@ def gap_warnings(design: Design, gaps_mm, what: str) -> list[str]:
     return out
 
 
-def general_windings_warnings(design: Design) -> list[str]:
+def _general_windings_warnings(design: Design) -> list[str]:
     """Several coils, a coil wound in the -1 sense or an air core: checked against a published
     measurement and the FEM on one device only (TEAM Workshop Problem 28,
     tests/validation/test_team28.py), not over a range of designs."""

@@ -407,7 +407,7 @@ def _tuning_capacitance(design: Design, pick_system, held_system, state, isother
     return tuned_capacitance(design.drive.compensation, design.drive.omega, z)
 
 
-def no_part(design: Design) -> Design:
+def _no_part(design: Design) -> Design:
     """``design`` with its part made a non-conductor (``NO_PART_CONDUCTIVITY``): the magnet
     with nothing in front of it, for the capacitor's rating."""
     return edit(design, properties={"target.conductivity": NO_PART_CONDUCTIVITY})
@@ -426,7 +426,7 @@ def _capacitor_rating(design, fineness, pole_model, part: PickState, isothermal,
     and no part present, hot and cold."""
     cold_C = 20.0 if isothermal else design.thermal.ambient_C
     cold = {"coil": cold_C, "ring": cold_C, "target": cold_C}
-    empty = no_part(design)
+    empty = _no_part(design)
     empty_system = assemble_circuit(empty, fineness, pole_model)
     states = [sol for _, sol in solved if sol is not None]
     states += [solve_system(system, cold) for system, sol in solved if sol is not None]
