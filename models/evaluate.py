@@ -8,12 +8,12 @@ thermal network (models.thermal), take the pull and the losses, check the limits
 from __future__ import annotations
 
 import dataclasses
-import functools
 import math
 import time
 
 import numpy as np
 
+from models.capacitor import capacitor_rating, capacitor_rating_of, tune_capacitor
 from models.checks import (
     gap_warnings,
     lift_warnings,
@@ -24,12 +24,12 @@ from models.checks import (
     thermal_warnings,
 )
 from models.core_loss import radial_flux_slab_depth
-from models.design import Design, edit, with_capacitance, with_gap
+from models.design import Design, with_gap
 from models.envelope import envelope
 from models.errors import DesignError
 from models.fast.circuit import RING, CircuitSolution, assemble_circuit, solve_system
 from models.fast.core import radial_flux_fraction
-from models.fast.discretize import Fineness, resolved_gap
+from models.fast.discretize import Fineness
 from models.fast.flux import core_peak_flux_density, pole_flux_density
 from models.fast.pull import net_pull, pull_by_source
 from models.fast.ripple import pull_ripple
@@ -44,6 +44,12 @@ from models.pick import (
     pick_state,
     steady_state,
 )
+from models.pole_cache import (
+    DEFAULT_FINENESS,
+    clear_pole_cache,
+    pole_model_for,
+    pole_model_key,
+)
 from models.result import (
     MODEL_VERSION,
     Electrical,
@@ -52,7 +58,7 @@ from models.result import (
     flat_for_checks,
     ring_phase,
 )
-from models.supply import supply_state, tuned_capacitance
+from models.supply import supply_state
 
 __all__ = [
     "DEFAULT_FINENESS",
@@ -65,99 +71,17 @@ __all__ = [
     "lift_gaps",
     "part_losses",
     "pick_state",
+    "clear_pole_cache",
+    "pole_model_for",
     "pole_model_key",
     "steady_state",
 ]
 
-DEFAULT_FINENESS = Fineness()
 
 #: Pulls on the lift's pull-against-gap curve by default (models.motion): the pick gap's and the
 #: holding gap's, both already solved by an evaluation, so the lift costs no circuit assembly.
 #: Each further point costs one (about half an evaluation): ``evaluate(..., lift_points=n)``.
 LIFT_POINTS = 2
-
-
-def _panel_size(design: Design, fineness: Fineness) -> float:
-    """Iron panel size at the face [m]: a fraction of the smallest feature near it."""
-    gap = resolved_gap(design.target.gap, design.pole.radius, fineness)
-    features = [design.pole.radius, 2.0 * gap, design.target.radius]
-    if design.ring is not None:
-        features += [design.ring.width, design.ring.depth, design.ring.inner_radius]
-    return fineness.panel_size * min(features)
-
-
-def pole_model_for(design: Design, fineness: Fineness):
-    """The magnetised-pole model of ``design`` (None if the pole is not magnetic).
-
-    The model depends on the pole's radius and length, the groove (ring radii and depth), the
-    panel size and the pole's permeability at the design's frequency (complex for a laminated
-    stack with sheet data), not on drive, coil or target material. The panels and their field
-    matrix (the costly part, geometry only) are kept for the last few geometries
-    (``_cached_pole_geometry``), the factorised model for the last few (geometry,
-    permeability) pairs (``_cached_pole_model``), so that sweeps and studies over frequency and
-    the rest reuse them. The same object is returned for equal keys; treat it as read-only.
-    """
-    key = pole_model_key(design, fineness)
-    return None if key is None else _cached_pole_model(*key)
-
-
-def pole_model_key(design: Design, fineness: Fineness | None = None):
-    """What the pole model of ``design`` depends on (``pole_model_for``): (pole radius [m], pole
-    length [m], relative permeability at the drive frequency (complex for a laminated stack with
-    sheet data), groove (ring inner radius, outer radius, depth [m]) or None, panel size [m]);
-    None when the pole is not magnetic. Designs with equal keys share one model; callers that
-    evaluate many designs can order them by it to reuse the kept ones."""
-    if design.pole is None or design.pole.relative_permeability <= 1.0:
-        return None
-    p, g = design.pole, design.ring
-    groove = None if g is None else (g.inner_radius, g.outer_radius, g.depth)
-    return (
-        float(p.radius),
-        float(p.length),
-        complex(p.effective_permeability(design.drive.frequency)),
-        None if groove is None else tuple(float(x) for x in groove),
-        float(_panel_size(design, fineness or DEFAULT_FINENESS)),
-    )
-
-
-@functools.lru_cache(maxsize=8)
-def _cached_pole_model(radius, length, relative_permeability, groove, panel_size):
-    """MagnetisedPole of a pole (radius, length [m], relative permeability, complex or real) with
-    the groove (inner radius, outer radius, depth [m]) or None, meshed with ``panel_size`` [m]."""
-    geometry = _cached_pole_geometry(radius, length, groove, panel_size)
-    mu = relative_permeability.real if relative_permeability.imag == 0.0 else relative_permeability
-    model = geometry.with_permeability(mu)
-    # Shared between callers: lock the arrays so that an accidental in-place change fails loudly.
-    for a in (model.matrix, *model._lu):
-        if isinstance(a, np.ndarray):
-            a.setflags(write=False)
-    return model
-
-
-@functools.lru_cache(maxsize=8)
-def _cached_pole_geometry(radius, length, groove, panel_size):
-    """Panels and field matrix of a pole geometry (a MagnetisedPole at mu_r = 2, whose
-    ``with_permeability`` gives the model at any permeability). build_panels reads only these
-    fields of the pole and the ring, so they stand in for the design's dataclasses here."""
-    from types import SimpleNamespace
-
-    from models.fast.pole import MagnetisedPole, build_panels
-
-    pole = SimpleNamespace(radius=radius, length=length)
-    ring = None
-    if groove is not None:
-        ring = SimpleNamespace(inner_radius=groove[0], outer_radius=groove[1], depth=groove[2])
-    model = MagnetisedPole(build_panels(pole, ring, panel_size=panel_size), 2.0)
-    for a in (*vars(model.panels).values(), model.field_matrix):
-        if isinstance(a, np.ndarray):
-            a.setflags(write=False)
-    return model
-
-
-def clear_pole_cache():
-    """Forget the kept pole models (``pole_model_for``), e.g. to time a cold evaluation."""
-    _cached_pole_model.cache_clear()
-    _cached_pole_geometry.cache_clear()
 
 
 def pole_mass(design: Design) -> float:
@@ -249,14 +173,10 @@ def evaluate_pick_gaps(
         raise ValueError(f"lift_points = {lift_points}: must be at least 2 (the two ends)")
     if pole_model is None:
         pole_model = pole_model_for(design, fineness)
-    pick_system = assemble_circuit(design, fineness, pole_model)
-    held_design = at_hold_gap(design)
-    held_system = (
-        pick_system
-        if held_design is design
-        else assemble_circuit(held_design, fineness, pole_model_for(held_design, fineness))
+    pick_system, held_design, held_system = _pick_circuits(design, fineness, pole_model)
+    design, pick_system, held_system, state = tune_capacitor(
+        design, pick_system, held_system, isothermal
     )
-    design, pick_system, held_system, state = _tuned(design, pick_system, held_system, isothermal)
     solve = SolvedOnce(pick=pick_system, held=held_system)
     part = part_state(design, state, isothermal, lambda temps: solve("held", temps))
     arrival = solve("pick", part.arrival)
@@ -267,6 +187,55 @@ def evaluate_pick_gaps(
     compensated = drive.compensation != "none" and not (
         drive.current is not None and drive.compensation == "series"
     )
+    pulls, gap_solutions = _pulls_at_gaps(design, gaps_mm, fineness, part, compensated)
+    rating = None
+    if drive.compensation == "series" and drive.current is not None:
+        rating = capacitor_rating_of([arrival], drive)
+    elif compensated:
+        solved = [(pick_system, arrival), (held_system, hold), *gap_solutions]
+        rating = capacitor_rating(design, fineness, pole_model, part, isothermal, solved)
+    core_C = state.temperature("core") if design.pole is not None else math.nan
+    electrical = _electrical(design, arrival, hold, core_C, rating)
+    electrical = _with_error_bar(electrical, design, fineness, part.arrival)
+    arrival_held = solve("held", part.arrival)  # solved already, except with target_stays
+    electrical = _with_ripple(electrical, design, arrival, arrival_held, hold)
+    pull_at = _ArrivalPulls(design, fineness, part.arrival, {held_design.target.gap: arrival_held})
+    pull_at[design.target.gap] = electrical.pull_N
+    for g, p in zip(gaps_mm, pulls, strict=True):
+        if p is not None:
+            pull_at[g * 1e-3] = p
+    electrical, lift = _with_lift(electrical, design, held_design, pull_at, lift_points)
+    thermal = _thermal(design, state, part, electrical)
+    result = Result(
+        electrical=electrical,
+        thermal=thermal,
+        warnings=_warnings(
+            design, gaps_mm, fineness, state, part, arrival, (electrical, thermal), lift
+        ),
+        out_of_depth=out_of_depth(design, electrical, state.status),
+        n_cells=int(arrival.cells.n),
+        n_panels=0 if arrival.panels is None else int(arrival.panels.n),
+        run_time_s=time.perf_counter() - t_start,
+        envelope=envelope(design, electrical.pole_mass_kg),
+    )
+    return result, [pull_at[g * 1e-3] for g in gaps_mm]
+
+
+def _pick_circuits(design: Design, fineness: Fineness, pole_model):
+    """(pick circuit, design at the holding gap, held circuit): the circuits of the part at the
+    design's gap and at the holding gap (one and the same where those are equal)."""
+    pick_system = assemble_circuit(design, fineness, pole_model)
+    held_design = at_hold_gap(design)
+    if held_design is design:
+        return pick_system, held_design, pick_system
+    held_pole = pole_model_for(held_design, fineness)
+    return pick_system, held_design, assemble_circuit(held_design, fineness, held_pole)
+
+
+def _pulls_at_gaps(design: Design, gaps_mm, fineness: Fineness, part: PickState, compensated):
+    """The pull at arrival [N] at each further gap of ``gaps_mm`` [mm] (None at the design's own
+    gap: the result holds it), and (circuit, solution) of each for the capacitor's rating when
+    ``compensated``."""
     pulls, gap_solutions = [], []
     for g in gaps_mm:
         if abs(g * 1e-3 - design.target.gap) <= 1e-12:
@@ -280,47 +249,20 @@ def evaluate_pick_gaps(
         pulls.append(net_pull(solution))
         if compensated:
             gap_solutions.append((system, solution))
-    rating = None
-    if drive.compensation == "series" and drive.current is not None:
-        rating = _capacitor_rating_of([arrival], drive)
-    elif compensated:
-        rating = _capacitor_rating(
-            design,
-            fineness,
-            pole_model,
-            part,
-            isothermal,
-            [(pick_system, arrival), (held_system, hold), *gap_solutions],
-        )
-    core_C = state.temperature("core") if design.pole is not None else math.nan
-    electrical = _electrical(design, arrival, hold, core_C, rating)
-    electrical = _with_error_bar(electrical, design, fineness, part.arrival)
-    arrival_held = solve("held", part.arrival)  # solved already, except with target_stays
-    electrical = _with_ripple(electrical, design, arrival, arrival_held, hold)
-    pull_at = _ArrivalPulls(design, fineness, part.arrival, {held_design.target.gap: arrival_held})
-    pull_at[design.target.gap] = electrical.pull_N
-    for g, p in zip(gaps_mm, pulls, strict=True):
-        if p is not None:
-            pull_at[g * 1e-3] = p
-    electrical, lift = _with_lift(electrical, design, held_design, pull_at, lift_points)
-    thermal = _thermal(design, state, part, electrical)
+    return pulls, gap_solutions
+
+
+def _warnings(design, gaps_mm, fineness, state, part, arrival, parts, lift) -> list:
+    """Every warning of an evaluation: the design's notes, the model's range, the pick gaps,
+    the temperatures and the lift (models.checks); ``parts``: (electrical, thermal)."""
+    electrical, thermal = parts
     flat = flat_for_checks(electrical, thermal)
     warnings = [f"design: {note}" for note in design.notes]
     warnings += range_warnings(design, arrival, fineness, electrical)
     warnings += gap_warnings(design, gaps_mm, "pick gap")
     warnings += thermal_warnings(design, state, flat, part.hold_time_constant_s)
     warnings += lift_warnings(design, electrical, lift)
-    result = Result(
-        electrical=electrical,
-        thermal=thermal,
-        warnings=warnings,
-        out_of_depth=out_of_depth(design, electrical, state.status),
-        n_cells=int(arrival.cells.n),
-        n_panels=0 if arrival.panels is None else int(arrival.panels.n),
-        run_time_s=time.perf_counter() - t_start,
-        envelope=envelope(design, electrical.pole_mass_kg),
-    )
-    return result, [pull_at[g * 1e-3] for g in gaps_mm]
+    return warnings
 
 
 class _ArrivalPulls(dict):
@@ -351,102 +293,6 @@ class _ArrivalPulls(dict):
         pull = net_pull(solve_system(system, self._temps))
         self[key] = pull
         return pull
-
-
-#: Passes of the series capacitor's tuning under voltage drive (``_tuned``): the capacitor sets
-#: the current, the current the temperatures, the temperatures the coil's reactance it is tuned
-#: to; the reactance moves little with temperature: 3-4 passes on the demo at 5-20 V (measured).
-TUNING_PASSES = 8
-#: Relative change of the tuned capacitance that ends the passes (common practice, no source:
-#: far below any capacitor's tolerance).
-TUNING_TOLERANCE = 1e-9
-
-
-def _tuned(design: Design, pick_system, held_system, isothermal: bool):
-    """(design, pick system, held system, steady state) with the drive's capacitor fixed.
-
-    A capacitor without a capacitance (``drive.compensation`` "series" or "parallel") is tuned
-    for unity power factor at the design point: the coil's terminal impedance (iron loss
-    included) at the design's gap, the magnet at its steady state, the part arriving
-    (models.supply.tuned_capacitance). Under current drive, and in parallel on a voltage, the
-    coil's current does not depend on the capacitor, nor the steady state: one pass. A series
-    capacitor on a voltage sets the current and so the temperatures: passes until the
-    capacitance the steady state asks for is the one it was computed with."""
-    state = steady_state(held_system.design, held_system, isothermal)
-    drive = design.drive
-    if drive.compensation == "none" or drive.capacitance is not None:
-        return design, pick_system, held_system, state
-    dependent = drive.voltage is not None and drive.compensation == "series"
-    capacitance = None
-    for _ in range(TUNING_PASSES):
-        new = _tuning_capacitance(design, pick_system, held_system, state, isothermal)
-        if not math.isfinite(new):
-            raise DesignError(
-                f"drive.compensation = {drive.compensation!r}: the coil's reactance at the design "
-                "point is not positive, so there is nothing to tune a capacitor to"
-            )
-        done = capacitance is not None and abs(new - capacitance) <= TUNING_TOLERANCE * new
-        capacitance = new
-        tuned = with_capacitance(design, capacitance)
-        pick_system = dataclasses.replace(pick_system, design=tuned)
-        held_system = dataclasses.replace(
-            held_system, design=with_capacitance(held_system.design, capacitance)
-        )
-        if not dependent or done:
-            break
-        state = steady_state(held_system.design, held_system, isothermal)
-    return tuned, pick_system, held_system, state
-
-
-def _tuning_capacitance(design: Design, pick_system, held_system, state, isothermal) -> float:
-    """The capacitance [F] for unity power factor at the design point of ``state``."""
-
-    part = part_state(design, state, isothermal, lambda temps: solve_system(held_system, temps))
-    sol = solve_system(pick_system, part.arrival)
-    z = complex(sol.coil_voltage / sol.coil_current)
-    return tuned_capacitance(design.drive.compensation, design.drive.omega, z)
-
-
-def _no_part(design: Design) -> Design:
-    """``design`` with its part made a non-conductor (``NO_PART_CONDUCTIVITY``): the magnet
-    with nothing in front of it, for the capacitor's rating."""
-    return edit(design, properties={"target.conductivity": NO_PART_CONDUCTIVITY})
-
-
-#: A part's conductivity [S/m] that stands for no part: its cells' resistances (~1e17 Ohm) leave
-#: currents 1e-20 of a metal's, far below rounding of the terminal quantities.
-NO_PART_CONDUCTIVITY = 1e-12
-
-
-def _capacitor_rating(design, fineness, pole_model, part: PickState, isothermal, solved):
-    """The capacitor's worst state: (rms voltage [V], reactive power [var]) of the state with the
-    highest capacitor voltage among the solved ones (``solved``: (system, solution) pairs, a
-    solution None is skipped: the design point, the hold, the other gaps, all at the steady
-    state), the same with the magnet and the part cold (the ambient; 20 degC when isothermal),
-    and no part present, hot and cold."""
-    cold_C = 20.0 if isothermal else design.thermal.ambient_C
-    cold = {"coil": cold_C, "ring": cold_C, "target": cold_C}
-    empty = _no_part(design)
-    empty_system = assemble_circuit(empty, fineness, pole_model)
-    states = [sol for _, sol in solved if sol is not None]
-    states += [solve_system(system, cold) for system, sol in solved if sol is not None]
-    states += [solve_system(empty_system, part.arrival), solve_system(empty_system, cold)]
-    return _capacitor_rating_of(states, design.drive)
-
-
-def _capacitor_rating_of(states, drive) -> tuple:
-    """(rms voltage [V], reactive power [var]) of the capacitor in the state of ``states``
-    (circuit solutions) where its voltage is highest."""
-    worst = max(
-        (
-            supply_state(
-                drive.compensation, drive.capacitance, drive.omega, s.coil_voltage, s.coil_current
-            )
-            for s in states
-        ),
-        key=lambda st: abs(st.capacitor_voltage),
-    )
-    return abs(worst.capacitor_voltage), worst.capacitor_reactive_VA
 
 
 def _check_laminated(design: Design) -> None:
