@@ -95,6 +95,7 @@ def edit(design: Design, changes=None, *, properties=None) -> Design:
 
     Examples
     --------
+    >>> from models.design import load_design
     >>> from optim.demo import DEMO_DESIGN
     >>> design = edit(load_design(DEMO_DESIGN), properties={"ring.conductivity": 5.0e7})
     >>> closer = edit(design, {"gap_mm": 1.0})
@@ -153,6 +154,7 @@ def with_value(design: Design, key: str, value) -> Design:
 
     Examples
     --------
+    >>> from models.design import load_design
     >>> from optim.demo import DEMO_DESIGN
     >>> closer = with_value(load_design(DEMO_DESIGN), "gap_mm", 1.0)
     >>> closer.source["target"]["gap_mm"]
