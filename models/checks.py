@@ -80,7 +80,7 @@ def range_warnings(design: Design, sol: CircuitSolution, fineness: Fineness, ele
             "linear model may be optimistic"
         )
     f = design.drive.frequency
-    out += general_windings_warnings(design)
+    out += _general_windings_warnings(design)
     values = {
         "frequency_Hz": f,
         "gap_mm": design.target.gap * 1e3,
@@ -139,7 +139,7 @@ def gap_warnings(design: Design, gaps_mm, what: str) -> list[str]:
     return out
 
 
-def general_windings_warnings(design: Design) -> list[str]:
+def _general_windings_warnings(design: Design) -> list[str]:
     """Several coils, a coil wound in the -1 sense or an air core: checked against a published
     measurement and the FEM on one device only (TEAM Workshop Problem 28,
     tests/validation/test_team28.py), not over a range of designs."""
@@ -257,7 +257,7 @@ def out_of_depth(design: Design, electrical, thermal_status: str) -> list[str]:
 
 def limits_and_margins(design: Design, state, result: dict):
     """(margins, binding limit, time to limits, thermal time constants) of a result (see
-    models.result.Thermal); ``result`` holds the flat values the margins are taken of."""
+    models.result.ThermalResults); ``result`` holds the flat values the margins are taken of."""
     th = design.thermal
     ta = th.ambient_C
     net = state.network

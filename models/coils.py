@@ -12,18 +12,10 @@ from __future__ import annotations
 
 import math
 
-from models.design import (
-    _ALLOWED,
-    DESIGN_KEYS,
-    Coil,
-    _check_value,
-    _check_winding,
-    _check_wire_fills,
-    _parse_coil,
-    _Values,
-    coil_fill,
-    coil_turns,
-)
+from models.design.geometry import _check_winding, _check_wire_fills
+from models.design.parts import Coil, coil_fill, coil_turns
+from models.design.schema import _ALLOWED, DESIGN_KEYS, _check_value, _Values
+from models.design.tables import _parse_coil
 from models.errors import nearest
 
 __all__ = [
@@ -53,7 +45,7 @@ def coil_table_key(key: str) -> tuple[int, str] | None:
 
 
 def check_coils(data: dict, problems: list[str]) -> list | None:
-    """The checked values of each ``[[coils]]`` table (models.design._Values, file units), None
+    """The checked values of each ``[[coils]]`` table (models.design.schema._Values, file units), None
     when the file has no ``[[coils]]``. Unknown keys, values, a missing key, a sense other than
     +1 or -1, ``[coil]`` beside ``[[coils]]``: one line each in ``problems``."""
     coils = data.get("coils")
@@ -169,7 +161,7 @@ def coils_fit_pole(coils: list, pole, problems: list[str]) -> None:
 
 
 def parse_coil_materials(coils: list, problems: list[str]) -> list | None:
-    """Each coil's wire (models.design._parse_coil's keywords), None if any is unknown."""
+    """Each coil's wire (models.design.tables._parse_coil's keywords), None if any is unknown."""
     out = []
     for n, c in enumerate(coils):
         before = len(problems)

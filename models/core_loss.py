@@ -40,7 +40,7 @@ __all__ = [
     "sheet_loss_density",
     "CoreLossLaw",
     "peak_flux_density",
-    "face_slab_depth",
+    "radial_flux_slab_depth",
     "FACE_SLAB_MIN",
     "hysteresis_excess_loss",
     "coil_current_with_core_loss",
@@ -158,10 +158,11 @@ class CoreLossLaw:
 FACE_SLAB_MIN = 1e-3
 
 
-def face_slab_depth(design) -> float:
+def radial_flux_slab_depth(design) -> float:
     """Depth of the pole's face slab [m], where flux running radially crosses the sheets of a real
     stack (``core_radial_flux_fraction`` of both models): the ring's depth, at least
-    FACE_SLAB_MIN, at most the pole's length."""
+    FACE_SLAB_MIN, at most the pole's length. Not the thermal network's face node
+    (models.thermal.network.face_node_thickness)."""
     ring_depth = design.ring.depth if design.ring is not None else 0.0
     return min(max(ring_depth, FACE_SLAB_MIN), design.pole.length)
 

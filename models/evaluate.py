@@ -8,14 +8,12 @@ thermal network (models.thermal), take the pull and the losses, check the limits
 from __future__ import annotations
 
 import dataclasses
-import functools
 import math
 import time
-from dataclasses import dataclass
 
 import numpy as np
-from scipy.constants import g as standard_gravity
 
+from models.capacitor import capacitor_rating, capacitor_rating_of, tune_capacitor
 from models.checks import (
     gap_warnings,
     lift_warnings,
@@ -25,23 +23,42 @@ from models.checks import (
     thermal_assumptions,
     thermal_warnings,
 )
-from models.core_loss import face_slab_depth
+from models.core_loss import radial_flux_slab_depth
 from models.design import Design, with_gap
 from models.envelope import envelope
 from models.errors import DesignError
-from models.fast.circuit import RING, TARGET, CircuitSolution, assemble_circuit, solve_system
+from models.fast.circuit import RING, CircuitSolution, assemble_circuit, solve_system
 from models.fast.core import radial_flux_fraction
-from models.fast.discretize import Fineness, resolved_gap
+from models.fast.discretize import Fineness
 from models.fast.flux import core_peak_flux_density, pole_flux_density
-from models.fast.pull import pull_by_source
+from models.fast.pull import net_pull, pull_by_source
 from models.fast.ripple import pull_ripple
 from models.fast.uncertainty import COARSE_FACTOR, pull_uncertainty
 from models.motion import Lift, PullCurve, lift_in_time, weight_against_pull
-from models.result import MODEL_VERSION, Electrical, Result, Thermal, ring_phase
-from models.supply import supply_state, tuned_capacitance, with_capacitance
-from models.thermal.coupling import solve_coupled
-from models.thermal.limits import hold_temperature
-from models.thermal.network import build_network, face_slab_thickness
+from models.pick import (
+    PickState,
+    SolvedOnce,
+    at_hold_gap,
+    part_losses,
+    part_state,
+    pick_state,
+    steady_state,
+)
+from models.pole_cache import (
+    DEFAULT_FINENESS,
+    clear_pole_cache,
+    pole_model_for,
+    pole_model_key,
+)
+from models.result import (
+    MODEL_VERSION,
+    Electrical,
+    Result,
+    ThermalResults,
+    flat_for_checks,
+    ring_phase,
+)
+from models.supply import supply_state
 
 __all__ = [
     "DEFAULT_FINENESS",
@@ -54,164 +71,17 @@ __all__ = [
     "lift_gaps",
     "part_losses",
     "pick_state",
+    "clear_pole_cache",
+    "pole_model_for",
     "pole_model_key",
     "steady_state",
 ]
 
-DEFAULT_FINENESS = Fineness()
 
 #: Pulls on the lift's pull-against-gap curve by default (models.motion): the pick gap's and the
 #: holding gap's, both already solved by an evaluation, so the lift costs no circuit assembly.
 #: Each further point costs one (about half an evaluation): ``evaluate(..., lift_points=n)``.
 LIFT_POINTS = 2
-
-
-def _panel_size(design: Design, fineness: Fineness) -> float:
-    """Iron panel size at the face [m]: a fraction of the smallest feature near it."""
-    gap = resolved_gap(design.target.gap, design.pole.radius, fineness)
-    features = [design.pole.radius, 2.0 * gap, design.target.radius]
-    if design.ring is not None:
-        features += [design.ring.width, design.ring.depth, design.ring.inner_radius]
-    return fineness.panel_size * min(features)
-
-
-def pole_model_for(design: Design, fineness: Fineness):
-    """The magnetised-pole model of ``design`` (None if the pole is not magnetic).
-
-    The model depends on the pole's radius and length, the groove (ring radii and depth), the
-    panel size and the pole's permeability at the design's frequency (complex for a laminated
-    stack with sheet data), not on drive, coil or target material. The panels and their field
-    matrix (the costly part, geometry only) are kept for the last few geometries
-    (``_cached_pole_geometry``), the factorised model for the last few (geometry,
-    permeability) pairs (``_cached_pole_model``), so that sweeps and studies over frequency and
-    the rest reuse them. The same object is returned for equal keys; treat it as read-only.
-    """
-    key = pole_model_key(design, fineness)
-    return None if key is None else _cached_pole_model(*key)
-
-
-def pole_model_key(design: Design, fineness: Fineness | None = None):
-    """What the pole model of ``design`` depends on (``pole_model_for``): (pole radius [m], pole
-    length [m], relative permeability at the drive frequency (complex for a laminated stack with
-    sheet data), groove (ring inner radius, outer radius, depth [m]) or None, panel size [m]);
-    None when the pole is not magnetic. Designs with equal keys share one model; callers that
-    evaluate many designs can order them by it to reuse the kept ones."""
-    if design.pole is None or design.pole.relative_permeability <= 1.0:
-        return None
-    p, g = design.pole, design.ring
-    groove = None if g is None else (g.inner_radius, g.outer_radius, g.depth)
-    return (
-        float(p.radius),
-        float(p.length),
-        complex(p.effective_permeability(design.drive.frequency)),
-        None if groove is None else tuple(float(x) for x in groove),
-        float(_panel_size(design, fineness or DEFAULT_FINENESS)),
-    )
-
-
-@functools.lru_cache(maxsize=8)
-def _cached_pole_model(radius, length, relative_permeability, groove, panel_size):
-    """MagnetisedPole of a pole (radius, length [m], relative permeability, complex or real) with
-    the groove (inner radius, outer radius, depth [m]) or None, meshed with ``panel_size`` [m]."""
-    geometry = _cached_pole_geometry(radius, length, groove, panel_size)
-    mu = relative_permeability.real if relative_permeability.imag == 0.0 else relative_permeability
-    model = geometry.with_permeability(mu)
-    # Shared between callers: lock the arrays so that an accidental in-place change fails loudly.
-    for a in (model.matrix, *model._lu):
-        if isinstance(a, np.ndarray):
-            a.setflags(write=False)
-    return model
-
-
-@functools.lru_cache(maxsize=8)
-def _cached_pole_geometry(radius, length, groove, panel_size):
-    """Panels and field matrix of a pole geometry (a MagnetisedPole at mu_r = 2, whose
-    ``with_permeability`` gives the model at any permeability). build_panels reads only these
-    fields of the pole and the ring, so they stand in for the design's dataclasses here."""
-    from types import SimpleNamespace
-
-    from models.fast.pole import MagnetisedPole, build_panels
-
-    pole = SimpleNamespace(radius=radius, length=length)
-    ring = None
-    if groove is not None:
-        ring = SimpleNamespace(inner_radius=groove[0], outer_radius=groove[1], depth=groove[2])
-    model = MagnetisedPole(build_panels(pole, ring, panel_size=panel_size), 2.0)
-    for a in (*vars(model.panels).values(), model.field_matrix):
-        if isinstance(a, np.ndarray):
-            a.setflags(write=False)
-    return model
-
-
-def clear_pole_cache():
-    """Forget the kept pole models (``pole_model_for``), e.g. to time a cold evaluation."""
-    _cached_pole_model.cache_clear()
-    _cached_pole_geometry.cache_clear()
-
-
-def _part_losses(sol: CircuitSolution, face_depth: float | None = None) -> dict:
-    """Losses [W] of one solution: Joule losses of coil, ring and target (rms: |I|^2 R) and, with
-    iron, the core's losses split between the steel within ``face_depth`` [m] of the face
-    ("face") and the rest ("core") where the field puts them (models.fast.core)."""
-    loss = np.abs(sol.cell_current) ** 2 * sol.cell_resistance
-    part = sol.cells.part
-    out = {
-        "coil": float(abs(sol.coil_current) ** 2 * sol.coil_resistance),
-        "ring": float(loss[part == RING].sum()),
-        "target": float(loss[part == TARGET].sum()),
-    }
-    if sol.winding_current is not None:  # a shading winding: its wire heats the ring's node;
-        i2 = abs(sol.winding_current) ** 2  # its closing resistor sits outside the magnet
-        out["ring"] = float(i2 * sol.winding_resistance)
-        out["closing"] = float(i2 * sol.winding_closing.real)
-    c = sol.core
-    if c is not None and face_depth is not None:
-        at = c.eddy * c.eddy_share + c.hysteresis_at + c.excess_at
-        face = sol.core_grid.z > -face_depth
-        out["face"] = float(at[face].sum())
-        out["core"] = float(at[~face].sum())
-    return out
-
-
-def part_losses(solution: CircuitSolution, face_depth_m: float | None = None) -> dict:
-    """Losses [W] of one circuit solution, by part.
-
-    Parameters
-    ----------
-    solution : models.fast.circuit.CircuitSolution
-        A solved circuit (``models.fast.circuit.solve_system``); rms phasors.
-    face_depth_m : float, optional
-        Depth [m] of the face slab: with it, and a pole with core losses, the core's losses
-        are split into "face" (steel within that depth of the face) and "core" (the rest).
-
-    Returns
-    -------
-    dict of str to float
-        "coil", "ring", "target" [W] (Joule losses |I|^2 R of rms currents, no factor 1/2), and
-        "face", "core" [W] when ``face_depth_m`` is given and the pole has core losses.
-    """
-    return _part_losses(solution, face_depth_m)
-
-
-def steady_state(design: Design, system, isothermal: bool = False):
-    """The magnet's duty-averaged steady state with the part under the pole.
-
-    Parameters
-    ----------
-    design : models.design.Design
-        The design with its part at the holding gap (``at_hold_gap``).
-    system : models.fast.circuit.CircuitSystem
-        Its assembled circuit (``models.fast.circuit.assemble_circuit``).
-    isothermal : bool
-        True: every resistivity at 20 degC (the network's response to those losses).
-
-    Returns
-    -------
-    models.thermal.coupling.ThermalState
-        Temperatures [degC] and losses [W] that agree (``solve_coupled``: rho(T) = rho_20
-        (1 + alpha (T - 20 degC)), Newton on the network), or a runaway's last iterate.
-    """
-    return _steady_state(design, system, isothermal)
 
 
 def pole_mass(design: Design) -> float:
@@ -244,7 +114,7 @@ def evaluate(
         and temperatures of the fixed parts (coil, ring, core, face) iterated to agree at their
         duty-averaged steady state (models.thermal.coupling.solve_coupled), resistivities
         rho_20 (1 + alpha (T - 20 degC)). A design without [thermal] uses
-        models.design.Thermal's defaults (25 degC ambient, natural convection, continuous duty).
+        models.design.ThermalSettings's defaults (25 degC ambient, natural convection, continuous duty).
     fineness : Fineness, optional
         Discretisation; DEFAULT_FINENESS converges the pull to about 1 %.
     pole_model : optional
@@ -303,28 +173,69 @@ def evaluate_pick_gaps(
         raise ValueError(f"lift_points = {lift_points}: must be at least 2 (the two ends)")
     if pole_model is None:
         pole_model = pole_model_for(design, fineness)
-    pick_system = assemble_circuit(design, fineness, pole_model)
-    held_design = at_hold_gap(design)
-    held_system = (
-        pick_system
-        if held_design is design
-        else assemble_circuit(held_design, fineness, pole_model_for(held_design, fineness))
+    pick_system, held_design, held_system = _pick_circuits(design, fineness, pole_model)
+    design, pick_system, held_system, state = tune_capacitor(
+        design, pick_system, held_system, isothermal
     )
-    design, pick_system, held_system, state = _tuned(design, pick_system, held_system, isothermal)
-    solve = _solved_once()
-
-    def loss_at_arrival(temps):
-        return _part_losses(solve(held_system, temps))["target"]
-
-    part = pick_state(design, state, isothermal, loss_at_arrival)
-    arrival = solve(pick_system, part.arrival)
-    hold = solve(held_system, part.hold) if part.hold is not None else None
+    solve = SolvedOnce(pick=pick_system, held=held_system)
+    part = part_state(design, state, isothermal, lambda temps: solve("held", temps))
+    arrival = solve("pick", part.arrival)
+    hold = solve("held", part.hold) if part.hold is not None else None
     drive = design.drive
     # The capacitor's states to rate it by: a series capacitor on a given coil current has the
     # same voltage I/(omega C) in every state, so only the design point is needed then.
     compensated = drive.compensation != "none" and not (
         drive.current is not None and drive.compensation == "series"
     )
+    pulls, gap_solutions = _pulls_at_gaps(design, gaps_mm, fineness, part, compensated)
+    rating = None
+    if drive.compensation == "series" and drive.current is not None:
+        rating = capacitor_rating_of([arrival], drive)
+    elif compensated:
+        solved = [(pick_system, arrival), (held_system, hold), *gap_solutions]
+        rating = capacitor_rating(design, fineness, pole_model, part, isothermal, solved)
+    core_C = state.temperature("core") if design.pole is not None else math.nan
+    electrical = _electrical(design, arrival, hold, core_C, rating)
+    electrical = _with_error_bar(electrical, design, fineness, part.arrival)
+    arrival_held = solve("held", part.arrival)  # solved already, except with target_stays
+    electrical = _with_ripple(electrical, design, arrival, arrival_held, hold)
+    pull_at = _ArrivalPulls(design, fineness, part.arrival, {held_design.target.gap: arrival_held})
+    pull_at[design.target.gap] = electrical.pull_N
+    for g, p in zip(gaps_mm, pulls, strict=True):
+        if p is not None:
+            pull_at[g * 1e-3] = p
+    electrical, lift = _with_lift(electrical, design, held_design, pull_at, lift_points)
+    thermal = _thermal(design, state, part, electrical)
+    result = Result(
+        electrical=electrical,
+        thermal=thermal,
+        warnings=_warnings(
+            design, gaps_mm, fineness, state, part, arrival, (electrical, thermal), lift
+        ),
+        out_of_depth=out_of_depth(design, electrical, state.status),
+        n_cells=int(arrival.cells.n),
+        n_panels=0 if arrival.panels is None else int(arrival.panels.n),
+        run_time_s=time.perf_counter() - t_start,
+        envelope=envelope(design, electrical.pole_mass_kg),
+    )
+    return result, [pull_at[g * 1e-3] for g in gaps_mm]
+
+
+def _pick_circuits(design: Design, fineness: Fineness, pole_model):
+    """(pick circuit, design at the holding gap, held circuit): the circuits of the part at the
+    design's gap and at the holding gap (one and the same where those are equal)."""
+    pick_system = assemble_circuit(design, fineness, pole_model)
+    held_design = at_hold_gap(design)
+    if held_design is design:
+        return pick_system, held_design, pick_system
+    held_pole = pole_model_for(held_design, fineness)
+    return pick_system, held_design, assemble_circuit(held_design, fineness, held_pole)
+
+
+def _pulls_at_gaps(design: Design, gaps_mm, fineness: Fineness, part: PickState, compensated):
+    """The pull at arrival [N] at each further gap of ``gaps_mm`` [mm] (None at the design's own
+    gap: the result holds it), and (circuit, solution) of each for the capacitor's rating when
+    ``compensated``."""
     pulls, gap_solutions = [], []
     for g in gaps_mm:
         if abs(g * 1e-3 - design.target.gap) <= 1e-12:
@@ -335,50 +246,23 @@ def evaluate_pick_gaps(
             at_gap, fineness, pole_model_for(at_gap, fineness), pull_only=not compensated
         )
         solution = solve_system(system, part.arrival)
-        pulls.append(float(sum(pull_by_source(solution).values())))
+        pulls.append(net_pull(solution))
         if compensated:
             gap_solutions.append((system, solution))
-    rating = None
-    if drive.compensation == "series" and drive.current is not None:
-        rating = _capacitor_rating_of([arrival], drive)
-    elif compensated:
-        rating = _capacitor_rating(
-            design,
-            fineness,
-            pole_model,
-            part,
-            isothermal,
-            [(pick_system, arrival), (held_system, hold), *gap_solutions],
-        )
-    core_C = state.temperature("core") if design.pole is not None else math.nan
-    electrical = _electrical(design, arrival, hold, core_C, rating)
-    electrical = _with_error_bar(electrical, design, fineness, part.arrival)
-    arrival_held = solve(held_system, part.arrival)  # solved already, except with target_stays
-    electrical = _with_ripple(electrical, design, arrival, arrival_held, hold)
-    pull_at = _ArrivalPulls(design, fineness, part.arrival, {held_design.target.gap: arrival_held})
-    pull_at[design.target.gap] = electrical.pull_N
-    for g, p in zip(gaps_mm, pulls, strict=True):
-        if p is not None:
-            pull_at[g * 1e-3] = p
-    electrical, lift = _with_lift(electrical, design, held_design, pull_at, lift_points)
-    thermal = _thermal(design, state, part, electrical)
-    flat = _flat_for_checks(electrical, thermal)
+    return pulls, gap_solutions
+
+
+def _warnings(design, gaps_mm, fineness, state, part, arrival, parts, lift) -> list:
+    """Every warning of an evaluation: the design's notes, the model's range, the pick gaps,
+    the temperatures and the lift (models.checks); ``parts``: (electrical, thermal)."""
+    electrical, thermal = parts
+    flat = flat_for_checks(electrical, thermal)
     warnings = [f"design: {note}" for note in design.notes]
     warnings += range_warnings(design, arrival, fineness, electrical)
     warnings += gap_warnings(design, gaps_mm, "pick gap")
     warnings += thermal_warnings(design, state, flat, part.hold_time_constant_s)
     warnings += lift_warnings(design, electrical, lift)
-    result = Result(
-        electrical=electrical,
-        thermal=thermal,
-        warnings=warnings,
-        out_of_depth=out_of_depth(design, electrical, state.status),
-        n_cells=int(arrival.cells.n),
-        n_panels=0 if arrival.panels is None else int(arrival.panels.n),
-        run_time_s=time.perf_counter() - t_start,
-        envelope=envelope(design, electrical.pole_mass_kg),
-    )
-    return result, [pull_at[g * 1e-3] for g in gaps_mm]
+    return warnings
 
 
 class _ArrivalPulls(dict):
@@ -390,7 +274,7 @@ class _ArrivalPulls(dict):
         super().__init__()
         self._design, self._fineness, self._temps = design, fineness, temperatures
         for gap, sol in solved.items():
-            self[gap] = float(sum(pull_by_source(sol).values()))
+            self[gap] = net_pull(sol)
 
     def _key(self, gap):
         return next((k for k in self.keys() if abs(k - gap) <= 1e-12), gap)
@@ -406,110 +290,9 @@ class _ArrivalPulls(dict):
         system = assemble_circuit(
             at_gap, self._fineness, pole_model_for(at_gap, self._fineness), pull_only=True
         )
-        pull = float(sum(pull_by_source(solve_system(system, self._temps)).values()))
+        pull = net_pull(solve_system(system, self._temps))
         self[key] = pull
         return pull
-
-
-#: Passes of the series capacitor's tuning under voltage drive (``_tuned``): the capacitor sets
-#: the current, the current the temperatures, the temperatures the coil's reactance it is tuned
-#: to; the reactance moves little with temperature: 3-4 passes on the demo at 5-20 V (measured).
-TUNING_PASSES = 8
-#: Relative change of the tuned capacitance that ends the passes (common practice, no source:
-#: far below any capacitor's tolerance).
-TUNING_TOLERANCE = 1e-9
-
-
-def _tuned(design: Design, pick_system, held_system, isothermal: bool):
-    """(design, pick system, held system, steady state) with the drive's capacitor fixed.
-
-    A capacitor without a capacitance (``drive.compensation`` "series" or "parallel") is tuned
-    for unity power factor at the design point: the coil's terminal impedance (iron loss
-    included) at the design's gap, the magnet at its steady state, the part arriving
-    (models.supply.tuned_capacitance). Under current drive, and in parallel on a voltage, the
-    coil's current does not depend on the capacitor, nor the steady state: one pass. A series
-    capacitor on a voltage sets the current and so the temperatures: passes until the
-    capacitance the steady state asks for is the one it was computed with."""
-    state = _steady_state(held_system.design, held_system, isothermal)
-    drive = design.drive
-    if drive.compensation == "none" or drive.capacitance is not None:
-        return design, pick_system, held_system, state
-    dependent = drive.voltage is not None and drive.compensation == "series"
-    capacitance = None
-    for _ in range(TUNING_PASSES):
-        new = _tuning_capacitance(design, pick_system, held_system, state, isothermal)
-        if not math.isfinite(new):
-            raise DesignError(
-                f"drive.compensation = {drive.compensation!r}: the coil's reactance at the design "
-                "point is not positive, so there is nothing to tune a capacitor to"
-            )
-        done = capacitance is not None and abs(new - capacitance) <= TUNING_TOLERANCE * new
-        capacitance = new
-        tuned = with_capacitance(design, capacitance)
-        pick_system = dataclasses.replace(pick_system, design=tuned)
-        held_system = dataclasses.replace(
-            held_system, design=with_capacitance(held_system.design, capacitance)
-        )
-        if not dependent or done:
-            break
-        state = _steady_state(held_system.design, held_system, isothermal)
-    return tuned, pick_system, held_system, state
-
-
-def _tuning_capacitance(design: Design, pick_system, held_system, state, isothermal) -> float:
-    """The capacitance [F] for unity power factor at the design point of ``state``."""
-
-    def loss_at_arrival(temps):
-        return _part_losses(solve_system(held_system, temps))["target"]
-
-    part = pick_state(design, state, isothermal, loss_at_arrival)
-    sol = solve_system(pick_system, part.arrival)
-    z = complex(sol.coil_voltage / sol.coil_current)
-    return tuned_capacitance(design.drive.compensation, design.drive.omega, z)
-
-
-def no_part(design: Design) -> Design:
-    """``design`` with its part made a non-conductor (``NO_PART_CONDUCTIVITY``): the magnet
-    with nothing in front of it, for the capacitor's rating."""
-    return dataclasses.replace(
-        design, target=dataclasses.replace(design.target, conductivity=NO_PART_CONDUCTIVITY)
-    )
-
-
-#: A part's conductivity [S/m] that stands for no part: its cells' resistances (~1e17 Ohm) leave
-#: currents 1e-20 of a metal's, far below rounding of the terminal quantities.
-NO_PART_CONDUCTIVITY = 1e-12
-
-
-def _capacitor_rating(design, fineness, pole_model, part: PickState, isothermal, solved):
-    """The capacitor's worst state: (rms voltage [V], reactive power [var]) of the state with the
-    highest capacitor voltage among the solved ones (``solved``: (system, solution) pairs, a
-    solution None is skipped: the design point, the hold, the other gaps, all at the steady
-    state), the same with the magnet and the part cold (the ambient; 20 degC when isothermal),
-    and no part present, hot and cold."""
-    cold_C = 20.0 if isothermal else design.thermal.ambient_C
-    cold = {"coil": cold_C, "ring": cold_C, "target": cold_C}
-    empty = no_part(design)
-    empty_system = assemble_circuit(empty, fineness, pole_model)
-    states = [sol for _, sol in solved if sol is not None]
-    states += [solve_system(system, cold) for system, sol in solved if sol is not None]
-    states += [solve_system(empty_system, part.arrival), solve_system(empty_system, cold)]
-    return _capacitor_rating_of(states, design.drive)
-
-
-def _capacitor_rating_of(states, drive) -> tuple:
-    """(rms voltage [V], reactive power [var]) of the capacitor in the state of ``states``
-    (circuit solutions) where its voltage is highest."""
-    worst = max(
-        (
-            supply_state(
-                drive.compensation, drive.capacitance, drive.omega, s.coil_voltage, s.coil_current
-            )
-            for s in states
-        ),
-        key=lambda st: abs(st.capacitor_voltage),
-    )
-    return abs(worst.capacitor_voltage), worst.capacitor_reactive_VA
 
 
 def _check_laminated(design: Design) -> None:
@@ -519,108 +302,6 @@ def _check_laminated(design: Design) -> None:
             f"pole.conductivity_S_per_m = {design.pole.conductivity:.4g}: the fast model covers "
             "laminated poles only (0); check a solid pole with 'eddypull verify'"
         )
-
-
-def at_hold_gap(design: Design) -> Design:
-    """``design`` with its part at the holding gap (``thermal.hold_gap_mm``; ``with_gap``); the
-    same object when that is the design's own gap (the default)."""
-    gap = design.thermal.hold_gap
-    if gap is None or abs(gap - design.target.gap) <= 1e-12:
-        return design
-    return with_gap(design, gap * 1e3)
-
-
-def _steady_state(design: Design, system, isothermal: bool):
-    """The thermal network's duty-averaged steady state with the electrical model of ``system``
-    (the part under the pole at its holding gap, as for a part that stays)."""
-    network = build_network(design)
-
-    face_depth = face_slab_thickness(design)
-
-    def losses_at(temps):
-        sol = solve_system(system, temps)
-        return _part_losses(sol, face_depth), sol
-
-    coil_sensitivity = None
-    if design.drive.current is not None and len(design.windings) == 1:  # P = I^2 R(T) exactly
-        a = design.coil.temperature_coefficient
-        coil_sensitivity = lambda t: a / (1.0 + a * (t - 20.0))  # noqa: E731
-    return solve_coupled(
-        network, losses_at, coupled=not isothermal, coil_sensitivity=coil_sensitivity
-    )
-
-
-@dataclass(frozen=True)
-class PickState:
-    """The part's temperatures in the two states a result reports, and the circuit temperatures
-    [degC] of each ("coil" its mean, "ring", "target"; 20 degC everywhere when isothermal).
-
-    target_arrival_C : the part as it arrives; target_hold_C : at the end of the hold
-    (inf after a runaway); hold_time_constant_s : of the held part (negative: it runs away);
-    arrival, hold : circuit temperatures of the two states (hold None when it has none).
-    """
-
-    target_arrival_C: float
-    target_hold_C: float
-    hold_time_constant_s: float
-    arrival: dict
-    hold: dict | None
-
-
-def _solved_once():
-    """``solve_system`` that solves each (system, temperatures) once: at the design's own gap
-    the part's loss at arrival, the arrival itself and (isothermal) the hold are one solve."""
-    seen = {}
-
-    def solve(system, temps):
-        key = (id(system), tuple(sorted(temps.items())))
-        if key not in seen:
-            seen[key] = solve_system(system, temps)
-        return seen[key]
-
-    return solve
-
-
-def pick_state(design: Design, state, isothermal: bool, loss_at_arrival=None) -> PickState:
-    """The moment of pick and the end of the hold: the fixed parts (coil, ring) at the steady
-    state of ``state``, the part arriving at ``thermal.target_arrival_C`` (default the ambient)
-    and warmed for ``thermal.hold_time_s`` from there; with ``thermal.target_stays``, the part
-    at its steady state in both. ``loss_at_arrival(temperatures)`` (the part's loss [W] in the
-    circuit at the holding gap) gives the loss the warming starts from (models.thermal.limits)."""
-    th = design.thermal
-    net = state.network
-    T = state.T if np.all(np.isfinite(state.T)) else state.T_last  # a runaway: its last iterate
-    fixed = {"coil": 20.0, "ring": 20.0}
-    if not isothermal:
-        fixed = {"coil": float(T[net.index("coil")])}
-        if "ring" in net.nodes:
-            fixed["ring"] = float(T[net.index("ring")])
-    if th.target_stays:
-        t_arrival = t_hold = state.temperature("target")
-        circuit_target = float(T[net.index("target")])
-        _, _, tau = hold_temperature(state, th.hold_time, initial_C=circuit_target)
-    else:
-        t_arrival = th.ambient_C if th.target_arrival_C is None else th.target_arrival_C
-        circuit_target = t_arrival
-        initial_loss = None
-        if loss_at_arrival is not None and not isothermal:
-            initial_loss = loss_at_arrival({**fixed, "target": t_arrival})
-        t_hold, _, tau = hold_temperature(
-            state, th.hold_time, initial_C=t_arrival, initial_loss_W=initial_loss
-        )
-    if isothermal:
-        arrival = {**fixed, "target": 20.0}
-        hold = dict(arrival) if math.isfinite(t_hold) else None
-    else:
-        arrival = {**fixed, "target": circuit_target}
-        hold = {**fixed, "target": t_hold} if math.isfinite(t_hold) else None
-    return PickState(
-        target_arrival_C=float(t_arrival),
-        target_hold_C=float(t_hold),
-        hold_time_constant_s=float(tau),
-        arrival=arrival,
-        hold=hold,
-    )
 
 
 def _electrical(
@@ -637,14 +318,14 @@ def _electrical(
     no capacitor)."""
     split = pull_by_source(sol)
     pull = sum(split.values())
-    losses = _part_losses(sol)
+    losses = part_losses(sol)
     z_coil = sol.coil_voltage / sol.coil_current
     ring_current = complex(sol.cell_current[sol.cells.part == RING].sum())
     if sol.winding_current is not None:
         ring_current = sol.winding_current  # the current in the winding's wire
     phase = ring_phase(ring_current, sol.coil_current) if design.ring is not None else 0.0
-    pull_hold = math.nan if hold is None else float(sum(pull_by_source(hold).values()))
-    weight = design.target.density * design.target.volume * standard_gravity
+    pull_hold = math.nan if hold is None else net_pull(hold)
+    weight = design.target.weight
     input_power = float(np.real(sol.coil_voltage * np.conj(sol.coil_current)))
     drive = design.drive
     supply = supply_state(
@@ -770,7 +451,9 @@ def _steel_results(design: Design, sol: CircuitSolution, core_C: float) -> dict:
         "core_radial_flux_fraction": (
             0.0
             if sol.core_grid is None
-            else radial_flux_fraction(sol.core_grid, sol.cell_current, face_slab_depth(design))
+            else radial_flux_fraction(
+                sol.core_grid, sol.cell_current, radial_flux_slab_depth(design)
+            )
         ),
     }
 
@@ -785,7 +468,7 @@ def _with_error_bar(electrical: Electrical, design: Design, fineness, temperatur
         gap_floor=fineness.gap_floor,  # the panels' sizes as the fine level's: its pole model
     )
     system = assemble_circuit(design, coarse, pole_model_for(design, coarse), pull_only=True)
-    pull_coarse = float(sum(pull_by_source(solve_system(system, temperatures)).values()))
+    pull_coarse = net_pull(solve_system(system, temperatures))
     u = pull_uncertainty(electrical.pull_N, pull_coarse, electrical.pull_by_source_N)
     pull = abs(electrical.pull_N)
     return dataclasses.replace(
@@ -803,7 +486,7 @@ def _with_ripple(electrical: Electrical, design: Design, arrival, arrival_held, 
     arrives (``arrival_held``) and at the end of the hold (``hold``; None after a runaway: nan)."""
     against = weight_against_pull(electrical.target_weight_N, design.thermal.orientation)
     margins = [
-        float(sum(pull_by_source(sol).values())) - pull_ripple(sol) - against
+        net_pull(sol) - pull_ripple(sol) - against
         for sol in (arrival_held, hold)
         if sol is not None
     ]
@@ -831,8 +514,7 @@ def _with_lift(electrical: Electrical, design: Design, held_design: Design, pull
     ``pick_time_ms``, ``contact_speed_m_per_s``), the pull-against-gap curve through the pulls
     at arrival at ``lift_gaps`` (``pull_at``: the two ends are solved already); and the Lift."""
     pick, hold_gap = design.target.gap, held_design.target.gap
-    t = design.target
-    mass = t.density * t.volume
+    mass = design.target.mass
     if hold_gap < pick:
         gaps = lift_gaps(pick, hold_gap, points)
         curve = PullCurve(tuple(gaps), tuple(pull_at[g] for g in gaps))
@@ -857,7 +539,7 @@ def pull_cancellation(split: dict) -> float:
     return float(terms / net) if net > 0 else math.inf
 
 
-def _thermal(design: Design, state, part: PickState, electrical: Electrical) -> Thermal:
+def _thermal(design: Design, state, part: PickState, electrical: Electrical) -> ThermalResults:
     """The temperatures of the steady state and of the part (arriving, held), the thermal
     assumptions behind them, the margins to every limit and the time to them."""
     temps = {"coil": state.coil_hot_spot_C, "coil_mean": state.temperature("coil")}
@@ -870,7 +552,7 @@ def _thermal(design: Design, state, part: PickState, electrical: Electrical) -> 
     temps["target_arrival"] = part.target_arrival_C
     temps["target_hold"] = part.target_hold_C
     temps["ambient"] = design.thermal.ambient_C
-    no_limits_yet = Thermal(
+    no_limits_yet = ThermalResults(
         temperatures_C=temps,
         thermal_assumptions=thermal_assumptions(design, state.network),
         coil_temperature_limit_C=design.thermal.coil_class_C,
@@ -881,7 +563,7 @@ def _thermal(design: Design, state, part: PickState, electrical: Electrical) -> 
         thermal_time_constants_s=[],
     )
     margins, binding, times, taus = limits_and_margins(
-        design, state, _flat_for_checks(electrical, no_limits_yet)
+        design, state, flat_for_checks(electrical, no_limits_yet)
     )
     thermal = dataclasses.replace(
         no_limits_yet,
@@ -891,23 +573,3 @@ def _thermal(design: Design, state, part: PickState, electrical: Electrical) -> 
         thermal_time_constants_s=[float(x) for x in taus],
     )
     return thermal
-
-
-def _flat_for_checks(electrical: Electrical, thermal: Thermal) -> dict:
-    """The flat values the limit checks read (models.checks)."""
-    return {
-        "coil_temperature_C": thermal.coil_temperature_C,
-        "ring_temperature_C": thermal.ring_temperature_C,
-        "target_hold_temperature_C": thermal.target_hold_temperature_C,
-        "core_peak_flux_density_T": electrical.core_peak_flux_density_T,
-        "core_flux_fraction": electrical.core_flux_fraction,
-        "core_saturation_T": electrical.core_saturation_T,
-        "coil_voltage_V": electrical.coil_voltage_V,
-        "coil_current_A": electrical.coil_current_A,
-        "supply_voltage_V": electrical.supply_voltage_V,
-        "supply_current_A": electrical.supply_current_A,
-        "supply_VA": electrical.supply_VA,
-        "capacitor_rating_V": electrical.capacitor_rating_V,
-        "pull_uncertainty_relative": electrical.pull_uncertainty_relative,
-        "pull_cancellation": electrical.pull_cancellation,
-    }

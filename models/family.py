@@ -11,20 +11,13 @@ from __future__ import annotations
 
 import math
 
-from models.design import Design, with_gap
-from models.evaluate import (
-    DEFAULT_FINENESS,
-    at_hold_gap,
-    part_losses,
-    pick_state,
-    pole_model_for,
-    steady_state,
-)
+from models.design import Design, with_capacitance, with_gap
+from models.evaluate import DEFAULT_FINENESS, pole_model_for
 from models.fast.circuit import assemble_circuit, solve_system
 from models.fast.discretize import Fineness
 from models.fast.pull import net_pull
+from models.pick import at_hold_gap, magnet_temperatures, part_state, steady_state
 from models.result import Result
-from models.supply import with_capacitance
 
 __all__ = ["part_pulls_under_magnet", "magnet_temperatures"]
 
@@ -88,11 +81,7 @@ def part_pulls_under_magnet(
     held = at_hold_gap(design)
     held_system = system_at(held)
     state = steady_state(held, held_system, isothermal)
-
-    def loss_at_arrival(temps):
-        return part_losses(solve_system(held_system, temps))["target"]
-
-    part = pick_state(design, state, isothermal, loss_at_arrival)
+    part = part_state(design, state, isothermal, lambda temps: solve_system(held_system, temps))
     fixed = magnet_temperatures(own_result, isothermal)
     arrival = {**part.arrival, **fixed}
     pulls = []
@@ -105,17 +94,3 @@ def part_pulls_under_magnet(
     if part.hold is not None:
         hold = net_pull(solve_system(held_system, {**part.hold, **fixed}))
     return pulls, hold
-
-
-def magnet_temperatures(result: Result, isothermal: bool = False) -> dict:
-    """The circuit temperatures [degC] of a magnet's coil (its mean) and ring in ``result``.
-
-    Empty when ``isothermal`` (20 degC, as a part's own pick state has them) or after a runaway
-    (no steady state: the part's own last iterate stands)."""
-    if isothermal:
-        return {}
-    temps = result.temperatures_C
-    out = {"coil": float(temps["coil_mean"])}
-    if "ring" in temps and temps["ring"] is not None:
-        out["ring"] = float(temps["ring"])
-    return out if all(math.isfinite(v) for v in out.values()) else {}

@@ -20,7 +20,6 @@ __all__ = [
     "Material",
     "MATERIALS",
     "get_material",
-    "resistivity_at",
     "IMPREGNANT_THERMAL_CONDUCTIVITY",
     "BOBBIN_THERMAL_CONDUCTIVITY",
     "RING_CONTACT_CONDUCTANCE",
@@ -96,18 +95,6 @@ class Material:
             return self.saturation_flux_density
         t, b = zip(*table, strict=True)
         return float(np.interp(temperature_C, t, b))
-
-
-def resistivity_at(
-    material_conductivity: float, temperature_coefficient: float, temperature_C: float
-):
-    """Resistivity at ``temperature_C`` [Ohm m] from the 20 degC conductivity [S/m].
-
-    Notes
-    -----
-    Linear law rho(T) = rho_20 (1 + alpha (T - 20)), as used in IEC 60028 for annealed copper.
-    """
-    return (1.0 + temperature_coefficient * (temperature_C - 20.0)) / material_conductivity
 
 
 _IEC60028 = "IEC 60028 (international annealed copper standard)"

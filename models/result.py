@@ -14,11 +14,19 @@ import numpy as np
 
 __all__ = [
     "Electrical",
+    "FIELDS",
+    "FLAT_FIELDS",
+    "ResultField",
+    "field_names",
+    "flat_for_checks",
+    "null_reason",
+    "unit_of",
+    "words_of",
     "Envelope",
     "MODEL_VERSION",
     "RING_PHASE_FROM_DEG",
     "Result",
-    "Thermal",
+    "ThermalResults",
     "ring_phase",
 ]
 
@@ -178,7 +186,7 @@ class Electrical:
 
 
 @dataclass(frozen=True)
-class Thermal:
+class ThermalResults:
     """The thermal network's outputs (models.thermal; steady state at the duty-averaged losses).
 
     temperatures_C : [degC] "coil" (its hot spot), "coil_mean" (its mean, which sets its
@@ -272,88 +280,225 @@ class Envelope:
     coil_copper_mass_kg: float
 
 
-#: The public flat fields in their JSON order, each with the group it lives in ("" = the Result).
-FLAT_FIELDS = (
-    *(
-        ("electrical", name)
-        for name in (
-            "pull_N",
-            "pull_by_source_N",
-            "target_loss_W",
-            "ring_loss_W",
-            "coil_loss_W",
-            "input_power_W",
-            "coil_current_A",
-            "coil_voltage_V",
-            "supply_VA",
-            "coil_impedance_ohm",
-            "ring_current_A",
-            "ring_phase_deg",
-            "core_peak_flux_density_T",
-            "pole_flux_density_T",
-            "target_weight_N",
-            "lift_ratio",
-        )
+_RUNAWAY = "thermal runaway: no steady state below the materials' limits"
+_AIR_CORE = "air core: the design has no pole (no steel)"
+
+
+@dataclass(frozen=True)
+class ResultField:
+    """One public result field: a row of ``FIELDS``.
+
+    name : the JSON field and flat attribute (``result.pull_N``)
+    group : the part of the Result it lives in: "electrical", "thermal", "envelope" or "" (the
+        Result itself)
+    unit : its unit as labels write it ("N", "degC", "" for a ratio or a text)
+    words : a label in words, without the unit ("pull at pick")
+    stored : how it is stored: "float", "int", "dict" (a table by name), "list" or "text"
+    null : why it may not be a number, by sign ("nan", "inf", "-inf") -> the reason a JSON null
+        carries beside it (``<name>_why``); empty: always finite
+    checked : read by the limit checks (models.checks; ``flat_for_checks``)
+    """
+
+    name: str
+    group: str
+    unit: str
+    words: str
+    stored: str = "float"
+    null: tuple = ()
+    checked: bool = False
+
+
+def _f(name, group, unit, words, stored="float", null=(), checked=False) -> ResultField:
+    return ResultField(name, group, unit, words, stored, tuple(null), checked)
+
+
+_E, _T, _V = "electrical", "thermal", "envelope"
+_STEEL = (("nan", _AIR_CORE),)
+
+#: The public result fields in their JSON order: the one table the flat view (``FLAT_FIELDS``,
+#: ``Result.to_dict``), the checks' view (``flat_for_checks``), units, labels and the reasons
+#: for a null derive from. A new result field is one row here plus its formula.
+FIELDS: tuple[ResultField, ...] = (
+    _f("pull_N", _E, "N", "pull at pick"),
+    _f("pull_by_source_N", _E, "N", "pull by source", "dict"),
+    _f("target_loss_W", _E, "W", "part loss"),
+    _f("ring_loss_W", _E, "W", "ring loss"),
+    _f("coil_loss_W", _E, "W", "coil loss"),
+    _f("input_power_W", _E, "W", "input power"),
+    _f("coil_current_A", _E, "A rms", "coil current", checked=True),
+    _f("coil_voltage_V", _E, "V rms", "coil voltage", checked=True),
+    _f("supply_VA", _E, "VA", "supply apparent power", checked=True),
+    _f("coil_impedance_ohm", _E, "Ohm", "coil resistance and reactance", "list"),
+    _f("ring_current_A", _E, "A rms", "ring current"),
+    _f("ring_phase_deg", _E, "deg", "ring current phase"),
+    _f(
+        "core_peak_flux_density_T",
+        _E,
+        "T",
+        "peak flux density in the core",
+        null=_STEEL,
+        checked=True,
     ),
-    ("thermal", "temperatures_C"),
-    ("", "warnings"),
-    ("", "n_cells"),
-    ("", "n_panels"),
-    ("", "run_time_s"),
-    ("", "model"),
-    ("thermal", "coil_temperature_C"),
-    ("thermal", "core_temperature_C"),
-    ("thermal", "ring_temperature_C"),
-    ("thermal", "target_temperature_C"),
-    ("thermal", "target_hold_temperature_C"),
-    ("thermal", "coil_temperature_limit_C"),
-    ("electrical", "power_factor"),
-    ("electrical", "pole_mass_kg"),
-    ("electrical", "core_flux_fraction"),
-    ("thermal", "thermal_status"),
-    ("thermal", "margins"),
-    ("thermal", "binding_limit"),
-    ("thermal", "time_to_limit_s"),
-    ("thermal", "thermal_time_constants_s"),
-    ("electrical", "pull_hold_N"),
-    ("electrical", "lift_ratio_hold"),
-    ("electrical", "pull_cancellation"),
-    ("thermal", "target_arrival_temperature_C"),
-    ("thermal", "thermal_assumptions"),
-    ("thermal", "face_temperature_C"),
-    ("electrical", "pull_uncertainty_N"),
-    ("electrical", "pull_uncertainty_relative"),
-    ("electrical", "core_loss_W"),
-    ("electrical", "core_eddy_loss_W"),
-    ("electrical", "core_hysteresis_loss_W"),
-    ("electrical", "core_excess_loss_W"),
-    ("electrical", "core_saturation_T"),
-    ("electrical", "core_radial_flux_fraction"),
-    ("electrical", "pull_ripple_N"),
-    ("electrical", "hold_chatter_margin_N"),
-    ("electrical", "pick_time_ms"),
-    ("electrical", "contact_speed_m_per_s"),
-    ("envelope", "magnet_diameter_mm"),
-    ("envelope", "magnet_height_mm"),
-    ("envelope", "magnet_mass_kg"),
-    ("envelope", "coil_copper_mass_kg"),
-    ("electrical", "supply_voltage_V"),
-    ("electrical", "supply_current_A"),
-    ("electrical", "capacitor_uF"),
-    ("electrical", "capacitor_voltage_V"),
-    ("electrical", "capacitor_current_A"),
-    ("electrical", "capacitor_rating_V"),
-    ("electrical", "capacitor_reactive_VA"),
-    ("", "out_of_depth"),
-    ("electrical", "coil_loss_by_coil_W"),
-    ("electrical", "coil_resistance_by_coil_ohm"),
-    ("electrical", "ampere_turns_by_coil_A"),
-    ("electrical", "ring_ampere_turns_A"),
-    ("electrical", "ring_closing_voltage_V"),
-    ("electrical", "ring_capacitor_var"),
-    ("electrical", "ring_closing_loss_W"),
+    _f("pole_flux_density_T", _E, "T", "pole flux density", null=_STEEL),
+    _f("target_weight_N", _E, "N", "part weight"),
+    _f("lift_ratio", _E, "", "lift ratio (pull over weight)"),
+    _f("temperatures_C", _T, "degC", "temperatures", "dict", (("inf", _RUNAWAY),)),
+    _f("warnings", "", "", "warnings", "list"),
+    _f("n_cells", "", "", "cells", "int"),
+    _f("n_panels", "", "", "panels", "int"),
+    _f("run_time_s", "", "s", "run time"),
+    _f("model", "", "", "model version", "text"),
+    _f("coil_temperature_C", _T, "degC", "coil hot spot", null=(("inf", _RUNAWAY),), checked=True),
+    _f("core_temperature_C", _T, "degC", "core temperature", null=(("inf", _RUNAWAY), *_STEEL)),
+    _f(
+        "ring_temperature_C",
+        _T,
+        "degC",
+        "ring temperature",
+        null=(("inf", _RUNAWAY),),
+        checked=True,
+    ),
+    _f("target_temperature_C", _T, "degC", "part steady temperature", null=(("inf", _RUNAWAY),)),
+    _f(
+        "target_hold_temperature_C",
+        _T,
+        "degC",
+        "part temperature after the hold",
+        null=(("inf", _RUNAWAY),),
+        checked=True,
+    ),
+    _f("coil_temperature_limit_C", _T, "degC", "coil insulation class limit"),
+    _f("power_factor", _E, "", "power factor"),
+    _f("pole_mass_kg", _E, "kg", "pole mass", null=_STEEL),
+    _f("core_flux_fraction", _E, "", "core flux over saturation", null=_STEEL, checked=True),
+    _f("thermal_status", _T, "", "thermal status", "text"),
+    _f("margins", _T, "", "margins to the limits", "dict", (("-inf", _RUNAWAY),)),
+    _f("binding_limit", _T, "", "binding limit", "text"),
+    _f(
+        "time_to_limit_s",
+        _T,
+        "s",
+        "time to limit",
+        "dict",
+        (("inf", "never: stays below its limit running continuously"),),
+    ),
+    _f("thermal_time_constants_s", _T, "s", "thermal time constants", "list"),
+    _f("pull_hold_N", _E, "N", "pull at the end of the hold"),
+    _f("lift_ratio_hold", _E, "", "lift ratio at the end of the hold"),
+    _f(
+        "pull_cancellation",
+        _E,
+        "",
+        "pull cancellation",
+        null=(("inf", "the net pull is zero"),),
+        checked=True,
+    ),
+    _f(
+        "target_arrival_temperature_C",
+        _T,
+        "degC",
+        "part temperature on arrival",
+        null=(("inf", _RUNAWAY),),
+    ),
+    _f("thermal_assumptions", _T, "", "thermal assumptions", "dict"),
+    _f(
+        "face_temperature_C", _T, "degC", "pole face temperature", null=(("inf", _RUNAWAY), *_STEEL)
+    ),
+    _f("pull_uncertainty_N", _E, "N", "pull uncertainty"),
+    _f("pull_uncertainty_relative", _E, "", "relative pull uncertainty", checked=True),
+    _f("core_loss_W", _E, "W", "core loss", null=_STEEL),
+    _f("core_eddy_loss_W", _E, "W", "core eddy-current loss", null=_STEEL),
+    _f("core_hysteresis_loss_W", _E, "W", "core hysteresis loss", null=_STEEL),
+    _f("core_excess_loss_W", _E, "W", "core excess loss", null=_STEEL),
+    _f("core_saturation_T", _E, "T", "core saturation flux density", checked=True),
+    _f("core_radial_flux_fraction", _E, "", "radial flux share in the face slab", null=_STEEL),
+    _f("pull_ripple_N", _E, "N", "pull ripple"),
+    _f(
+        "hold_chatter_margin_N",
+        _E,
+        "N",
+        "hold chatter margin",
+        null=(("nan", "thermal runaway: the hold has no end state"),),
+    ),
+    _f(
+        "pick_time_ms",
+        _E,
+        "ms",
+        "pick time",
+        null=(("inf", "never: the part stalls on its way to the holding gap (see warnings)"),),
+    ),
+    _f(
+        "contact_speed_m_per_s",
+        _E,
+        "m/s",
+        "contact speed",
+        null=(("nan", "never reaches contact: the part stalls on the way"),),
+    ),
+    _f("magnet_diameter_mm", _V, "mm", "magnet diameter"),
+    _f("magnet_height_mm", _V, "mm", "magnet height"),
+    _f("magnet_mass_kg", _V, "kg", "magnet mass"),
+    _f("coil_copper_mass_kg", _V, "kg", "coil conductor mass"),
+    _f("supply_voltage_V", _E, "V rms", "supply voltage", checked=True),
+    _f("supply_current_A", _E, "A rms", "supply current", checked=True),
+    _f("capacitor_uF", _E, "uF", "capacitance"),
+    _f("capacitor_voltage_V", _E, "V rms", "capacitor voltage"),
+    _f("capacitor_current_A", _E, "A rms", "capacitor current"),
+    _f("capacitor_rating_V", _E, "V rms", "capacitor voltage rating", checked=True),
+    _f("capacitor_reactive_VA", _E, "var", "capacitor reactive power"),
+    _f("out_of_depth", "", "", "why the linear model is out of its depth", "list"),
+    _f("coil_loss_by_coil_W", _E, "W", "loss by coil", "dict"),
+    _f("coil_resistance_by_coil_ohm", _E, "Ohm", "resistance by coil", "dict"),
+    _f("ampere_turns_by_coil_A", _E, "A rms", "ampere-turns by coil", "dict"),
+    _f("ring_ampere_turns_A", _E, "A rms", "ring ampere-turns"),
+    _f(
+        "ring_closing_voltage_V",
+        _E,
+        "V rms",
+        "ring closing voltage",
+        null=(("nan", "no shading winding: a solid ring (or none) has no closing part"),),
+    ),
+    _f(
+        "ring_capacitor_var",
+        _E,
+        "var",
+        "ring capacitor reactive power",
+        null=(("nan", "no capacitor closes the ring"),),
+    ),
+    _f("ring_closing_loss_W", _E, "W", "ring closing resistor loss"),
 )
-_GROUP_OF = {name: group for group, name in FLAT_FIELDS if group}
+_BY_NAME = {f.name: f for f in FIELDS}
+
+#: The public flat fields in their JSON order, each with the group it lives in ("" = the Result).
+FLAT_FIELDS = tuple((f.group, f.name) for f in FIELDS)
+_GROUP_OF = {f.name: f.group for f in FIELDS if f.group}
+
+
+def field_names() -> tuple[str, ...]:
+    """The public result fields' names in their JSON order."""
+    return tuple(f.name for f in FIELDS)
+
+
+def unit_of(name: str) -> str:
+    """The unit of result field ``name`` as labels write it ("" for a ratio or a text)."""
+    return _BY_NAME[name].unit
+
+
+def words_of(name: str) -> str:
+    """Result field ``name`` in words, for a label (without its unit)."""
+    return _BY_NAME[name].words
+
+
+def null_reason(name: str, sign: str) -> str | None:
+    """Why result field ``name`` is not a number when it is ``sign`` ("nan", "inf", "-inf");
+    None where the table gives no reason (a field, or a sign, that is always finite)."""
+    row = _BY_NAME.get(name)
+    return dict(row.null).get(sign) if row is not None else None
+
+
+def flat_for_checks(electrical: Electrical, thermal: ThermalResults) -> dict:
+    """The flat values the limit checks read (models.checks): the ``checked`` rows of FIELDS."""
+    parts = {"electrical": electrical, "thermal": thermal}
+    return {f.name: getattr(parts[f.group], f.name) for f in FIELDS if f.checked}
 
 
 @dataclass(frozen=True)
@@ -364,7 +509,7 @@ class Result:
     model's version. Every field of the two parts also reads as a flat attribute."""
 
     electrical: Electrical
-    thermal: Thermal
+    thermal: ThermalResults
     warnings: list = field(default_factory=list)
     n_cells: int = 0
     n_panels: int = 0

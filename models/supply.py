@@ -22,7 +22,6 @@ correction of power factor, ch. 10 "power factor correction"), from memory.
 
 from __future__ import annotations
 
-import dataclasses
 import math
 from dataclasses import dataclass
 
@@ -33,8 +32,6 @@ __all__ = [
     "series_impedance",
     "supply_state",
     "tuned_capacitance",
-    "with_capacitance",
-    "with_fixed_capacitor",
 ]
 
 #: The ways a capacitor may sit between the supply and the coil ([drive] compensation).
@@ -138,20 +135,3 @@ def supply_state(
         return SupplyState(v + v_c, i, v_c, i)
     i_c = v / z_c
     return SupplyState(v, i + i_c, v, i_c)
-
-
-def with_capacitance(design, capacitance_F: float):
-    """``design`` with its drive's capacitor fixed at ``capacitance_F`` [F] (a tuned one)."""
-    return dataclasses.replace(
-        design, drive=dataclasses.replace(design.drive, capacitance=float(capacitance_F))
-    )
-
-
-def with_fixed_capacitor(design, capacitance_F: float):
-    """``design`` with its capacitor fixed at ``capacitance_F`` [F] in the drive and in its file
-    values (``source``: ``drive.capacitance_uF``), so that a design rebuilt from the file (a
-    tolerance sample) keeps the capacitor as built instead of tuning a new one."""
-    source = {k: (dict(v) if isinstance(v, dict) else v) for k, v in design.source.items()}
-    source.setdefault("drive", {})["capacitance_uF"] = float(capacitance_F) * 1e6
-    fixed = with_capacitance(design, capacitance_F)
-    return dataclasses.replace(fixed, source=source)

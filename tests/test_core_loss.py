@@ -19,10 +19,11 @@ from models.core_loss import (
     sheet_loss_density,
 )
 from models.design import load_design, with_value
-from models.evaluate import DEFAULT_FINENESS, _part_losses, evaluate, pole_model_for
+from models.evaluate import DEFAULT_FINENESS, evaluate, pole_model_for
 from models.fast.circuit import assemble_circuit, solve_system
 from models.materials import CORE_MATERIALS, MATERIALS
-from models.thermal.network import face_slab_thickness
+from models.pick import part_losses
+from models.thermal.network import face_node_thickness
 from optim.demo import DEMO_DESIGN
 
 M400 = MATERIALS["electrical-steel-m400"]
@@ -208,7 +209,7 @@ def test_core_loss_heats_the_face_and_core_nodes():
     # coil, ring and part run hotter than beside a lossless pole of the same permeability.
     design = _demo(**{"drive.frequency_Hz": 2000.0})
     sol = _solved(design)
-    losses = _part_losses(sol, face_slab_thickness(design))
+    losses = part_losses(sol, face_node_thickness(design))
     assert losses["face"] + losses["core"] == pytest.approx(sol.core.total, rel=1e-12)
     assert losses["face"] > 0 and losses["core"] > 0
     lossy = evaluate(design)

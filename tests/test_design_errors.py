@@ -13,7 +13,7 @@ from models.design import (
     Pole,
     Ring,
     Target,
-    Thermal,
+    ThermalSettings,
     design_from_dict,
     load_design,
 )
@@ -172,7 +172,7 @@ def test_a_valid_file_loads_as_before(tmp_path):
             density=copper.density,
         ),
         name="harrowgate-cap-lifter",
-        thermal=Thermal(
+        thermal=ThermalSettings(
             emissivity=0.9,
             duty_cycle=0.1,
             period=5.0,

@@ -16,7 +16,7 @@ from scipy.constants import mu_0
 
 from models.core_loss import peak_flux_density
 from models.design import design_from_dict
-from models.fem.core import face_slab_depth, field_crossing_fraction
+from models.fem.core import field_crossing_fraction, radial_flux_slab_depth
 from models.fem.regions import design_regions
 from models.fem.solve import solve, solve_regions
 from tests.test_fem import _demo_dict
@@ -217,7 +217,7 @@ def test_field_crossing_fraction_integrates_the_slab_exactly():
     # the fraction is within ~1e-6 of its value there (it changes by about 1 relative per element
     # here); 1e-5.
     design = _sheet_design(_frequency_at(1.0), ring=None)
-    assert face_slab_depth(design) == 1e-3
+    assert radial_flux_slab_depth(design) == 1e-3
     sol = solve_regions(
         design_regions(design),
         design.drive.frequency,
@@ -255,7 +255,7 @@ def test_field_crossing_fraction_is_the_radial_share_of_the_core_eddy_loss():
         keep_field=True,
     )
     q = sol.quadrature
-    slab = face_slab_depth(design)  # the ring's depth, 3 mm: a grid line
+    slab = radial_flux_slab_depth(design)  # the ring's depth, 3 mm: a grid line
     in_slab = q.elements_of("pole")[:, None] & (q.z >= -slab)
     nu_im = (1.0 / (mu_0 * design_regions(design)[0].relative_permeability)).imag
     omega = 2.0 * math.pi * design.drive.frequency

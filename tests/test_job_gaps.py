@@ -128,7 +128,7 @@ def test_the_error_bar_keeps_the_pole_model_at_a_thin_gap():
     # the gap floor too: one pole model for the whole evaluation
     import sys
 
-    module = sys.modules["models.evaluate"]
+    module = sys.modules["models.pole_cache"]
     module.clear_pole_cache()
     evaluate(case_design("g01-400Hz-held-0.05mm"), isothermal=True)
     assert module._cached_pole_model.cache_info().misses == 1

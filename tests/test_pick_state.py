@@ -187,7 +187,7 @@ def test_defaults_are_shown_in_text_json_and_hand_off(tmp_path, capsys):
     assert math.isfinite(out["pull_hold_N"]) and out["pull_cancellation"] >= 1.0
 
 
-def test_the_washer_of_the_issue_no_longer_pulls_at_its_steady_state():
+def test_the_washer_of_the_issue_no_longer_pulls_at_itssteady_state():
     # Before: +6.46 mN with the part at 304 degC (its steady state); the part never gets there.
     r = evaluate(_design(WASHER))
     iso = evaluate(_design(WASHER), isothermal=True)
@@ -286,12 +286,12 @@ def test_held_part_warming_against_integration_of_its_own_loss_law():
     # closely; the tangent at the steady state does not.
     from scipy.integrate import solve_ivp
 
-    from models.evaluate import _steady_state
+    from models.pick import steady_state
     from models.thermal.limits import hold_temperature
 
     design = _design(WASHER)
     system = _system(design)
-    state = _steady_state(design, system, isothermal=False)
+    state = steady_state(design, system, isothermal=False)
     net = state.network
     i = net.index("target")
     alpha = MATERIALS["copper"].temperature_coefficient
@@ -335,17 +335,17 @@ def test_defaults_reach_the_report_note_and_the_hand_off(tmp_path):
 
 def test_energy_balance_closes_at_the_end_of_the_hold():
     # Poynting again, in the held state: the part warm, at the holding gap.
-    from models.evaluate import _part_losses, _steady_state, at_hold_gap, pick_state
+    from models.pick import at_hold_gap, part_losses, pick_state, steady_state
 
     design = _design({**WASHER, "thermal": {"hold_gap_mm": 0.8, "hold_time_s": 30.0}})
     held = at_hold_gap(design)
     system = _system(held)
-    state = _steady_state(held, system, isothermal=False)
+    state = steady_state(held, system, isothermal=False)
     part = pick_state(
-        design, state, False, lambda t: _part_losses(solve_system(system, t))["target"]
+        design, state, False, lambda t: part_losses(solve_system(system, t))["target"]
     )
     assert part.target_hold_C > part.target_arrival_C + 5.0
     sol = solve_system(system, part.hold)
-    losses = _part_losses(sol)
+    losses = part_losses(sol)
     terminal = float((sol.coil_voltage * sol.coil_current.conjugate()).real)
     assert terminal == pytest.approx(sum(losses.values()) + sol.core.total, rel=1e-12)

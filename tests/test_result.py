@@ -8,11 +8,24 @@ import inspect
 import json
 import math
 import pickle
+import re
 
 import pytest
 
 from models import evaluate, load_design
-from models.result import FLAT_FIELDS, Electrical, Envelope, Result, Thermal
+from models.result import (
+    FIELDS,
+    FLAT_FIELDS,
+    Electrical,
+    Envelope,
+    Result,
+    ThermalResults,
+    field_names,
+    flat_for_checks,
+    null_reason,
+    unit_of,
+    words_of,
+)
 from optim.demo import DEMO_DESIGN
 
 DEMO = DEMO_DESIGN
@@ -32,7 +45,11 @@ def _public(cls) -> set:
 def test_every_group_field_is_flattened_once():
     names = [n for _, n in FLAT_FIELDS]
     assert len(names) == len(set(names))
-    for group, cls in (("electrical", Electrical), ("thermal", Thermal), ("envelope", Envelope)):
+    for group, cls in (
+        ("electrical", Electrical),
+        ("thermal", ThermalResults),
+        ("envelope", Envelope),
+    ):
         assert {n for g, n in FLAT_FIELDS if g == group} == _public(cls)
     own = {f.name for f in dataclasses.fields(Result)} - {"electrical", "thermal", "envelope"}
     assert {n for g, n in FLAT_FIELDS if g == ""} == own
@@ -56,7 +73,7 @@ def test_flat_attributes_read_the_groups(result):
 
 def test_each_temperature_is_stored_once(result):
     th = result.thermal
-    stored = {f.name for f in dataclasses.fields(Thermal)}
+    stored = {f.name for f in dataclasses.fields(ThermalResults)}
     assert "coil_temperature_C" not in stored and "ring_temperature_C" not in stored
     assert th.coil_temperature_C == th.temperatures_C["coil"]
     assert th.ring_temperature_C == th.temperatures_C["ring"]
@@ -65,7 +82,7 @@ def test_each_temperature_is_stored_once(result):
 
 def test_no_measured_looking_defaults():
     # A thermal part needs every value given: no coil at 20 degC before any thermal solve.
-    for cls in (Electrical, Thermal):
+    for cls in (Electrical, ThermalResults):
         for f in dataclasses.fields(cls):
             assert f.default is dataclasses.MISSING and f.default_factory is dataclasses.MISSING
 
@@ -76,3 +93,48 @@ def test_pickles_and_stays_frozen(result):
     assert json.dumps(back.to_dict()) == json.dumps(result.to_dict())
     with pytest.raises(dataclasses.FrozenInstanceError):
         result.electrical.pull_N = 0.0  # type: ignore[misc]
+
+
+_STORED_AS = {
+    "float": (float, int),
+    "int": (int,),
+    "dict": (dict,),
+    "list": (list,),
+    "text": (str,),
+}
+
+
+def test_each_field_is_stored_as_its_row_says(result):
+    """models.result.FIELDS: a row's ``stored`` kind is the type of the value to_dict gives."""
+    d = result.to_dict()
+    for row in FIELDS:
+        value = d[row.name]
+        assert isinstance(value, _STORED_AS[row.stored]), (row.name, type(value))
+        assert row.words and row.group in ("", "electrical", "thermal", "envelope")
+    assert field_names() == tuple(d)
+    assert unit_of("pull_N") == "N" and words_of("pull_N") == "pull at pick"
+
+
+def test_null_reasons_are_those_the_json_writer_gives():
+    """The table's reason for a null (null_reason) is the one optim.jsonout writes beside it."""
+    from optim.jsonout import _why
+
+    for row in FIELDS:
+        for sign, reason in row.null:
+            value = {"nan": math.nan, "inf": math.inf, "-inf": -math.inf}[sign]
+            assert null_reason(row.name, sign) == reason == _why(row.name, "", value), row.name
+    assert null_reason("pull_N", "nan") is None
+
+
+def test_the_checks_view_is_the_checked_rows(result):
+    """flat_for_checks holds every value models.checks reads by name, from the checked rows."""
+    import models.checks
+
+    flat = flat_for_checks(result.electrical, result.thermal)
+    assert set(flat) == {row.name for row in FIELDS if row.checked}
+    read = set(re.findall(r'result\["(\w+)"\]', inspect.getsource(models.checks)))
+    assert read and read <= set(flat)
+    for name, value in flat.items():
+        assert value == getattr(result, name) or (
+            math.isnan(value) and math.isnan(getattr(result, name))
+        )

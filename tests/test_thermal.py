@@ -20,7 +20,7 @@ from models.thermal.air import air_properties
 from models.thermal.convection import churchill_chu_vertical, natural_convection_coefficient
 from models.thermal.coupling import solve_coupled
 from models.thermal.limits import hold_temperature, lumped_temperature, time_to_limits
-from models.thermal.network import build_network, face_slab_thickness
+from models.thermal.network import build_network, face_node_thickness
 from tests.conftest import demo_dict
 
 #: A demo machine on a realistic duty: 10 % on, emissive enamel and paint.
@@ -145,7 +145,7 @@ def _linear_losses(p0=(30.0, 2.0, 0.2), alpha=0.0039):
     return losses_at
 
 
-def test_network_energy_balance_at_steady_state():
+def test_network_energy_balance_atsteady_state():
     design = _design()
     net = build_network(design)
     state = solve_coupled(net, _linear_losses())
@@ -349,17 +349,18 @@ def test_supply_table_errors():
 def _damped_fixed_point(design):
     """The coupled steady state by a different route: half-damped fixed-point iteration (losses
     and conductances frozen per step), 1e-4 K. None if it passes 3000 degC (no steady state)."""
-    from models.evaluate import DEFAULT_FINENESS, _part_losses, pole_model_for
+    from models.evaluate import DEFAULT_FINENESS, pole_model_for
     from models.fast.circuit import assemble_circuit, solve_system
+    from models.pick import part_losses
 
     system = assemble_circuit(design, DEFAULT_FINENESS, pole_model_for(design, DEFAULT_FINENESS))
     net = build_network(design)
     names = [n for n in ("coil", "ring", "target") if n in net.nodes]
-    face = face_slab_thickness(design)
+    face = face_node_thickness(design)
     T = np.full(len(net.nodes), design.thermal.ambient_C)
     for _ in range(400):
         sol = solve_system(system, {n: T[net.index(n)] for n in names})
-        losses = _part_losses(sol, face)
+        losses = part_losses(sol, face)
         P = np.zeros(len(T))
         for n in [*names, "core", "face"]:
             P[net.index(n)] = losses[n]

@@ -22,12 +22,12 @@ import numpy as np
 from skfem import Basis, ElementQuad2
 
 from models.core_loss import FACE_SLAB_MIN as FACE_SLAB_MIN
-from models.core_loss import face_slab_depth as face_slab_depth
 from models.core_loss import hysteresis_excess_loss, peak_flux_density
+from models.core_loss import radial_flux_slab_depth as radial_flux_slab_depth
 
 __all__ = [
     "FACE_SLAB_MIN",
-    "face_slab_depth",
+    "radial_flux_slab_depth",
     "pole_peak_flux_density",
     "hysteresis_excess",
     "field_crossing_fraction",
@@ -91,7 +91,7 @@ def field_crossing_fraction(sol, slab_depth: float, role: str = "pole") -> float
     sol : models.fem.results.FieldSolution
         Solved with ``keep_field=True``.
     slab_depth : float
-        Depth of the slab below the face z = 0 [m] (`face_slab_depth`).
+        Depth of the slab below the face z = 0 [m] (`radial_flux_slab_depth`).
     role : str
         Role of the pole's regions (the steel only: a ring's groove is another region).
 

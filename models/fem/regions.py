@@ -121,7 +121,7 @@ def design_regions(design) -> list[Region]:
     Parameters
     ----------
     design : models.design.Design
-        SI dataclasses (see models/design.py for the geometry).
+        SI dataclasses (see models/design/parts.py for the geometry).
 
     Returns
     -------

@@ -208,7 +208,7 @@ class FemResult:
         corners is higher and grows under refinement).
     core_radial_flux_fraction : float
         int_slab |B_r|^2 dV / int_pole |B|^2 dV [-], the slab being the pole's steel within
-        ``models.fem.core.face_slab_depth`` of the face (the ring's depth, at least 1 mm): how much
+        ``models.fem.core.radial_flux_slab_depth`` of the face (the ring's depth, at least 1 mm): how much
         of the pole's field runs radially in its face, where the flux turns from the axis toward the
         groove and the side. The homogenised permeability (and so ``core_eddy_loss_W``) holds for
         flux along the sheets; in a stack of flat sheets radial flux crosses them over most of the

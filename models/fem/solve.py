@@ -28,10 +28,10 @@ from models.coils import coils_resistance
 from models.core_loss import coil_current_with_core_loss
 from models.errors import DesignError
 from models.fem.core import (
-    face_slab_depth,
     field_crossing_fraction,
     hysteresis_excess,
     pole_peak_flux_density,
+    radial_flux_slab_depth,
 )
 from models.fem.mesh import MeshOptions, grid_nodes
 from models.fem.regions import design_regions, paint, region_edges
@@ -447,7 +447,7 @@ def solve(design, refine: float = 1.0, far_factor: float = 1.0, options: MeshOpt
         ring_current_A=complex(i_ring),
         ring_phase_deg=phase,
         pole_flux_density_T=_pole_mean_flux_density(sol, pole),
-        core_radial_flux_fraction=field_crossing_fraction(unit, face_slab_depth(design)),
+        core_radial_flux_fraction=field_crossing_fraction(unit, radial_flux_slab_depth(design)),
         n_dofs=sol.n_dofs,
         run_time_s=time.perf_counter() - t0,
         refine=float(refine),

@@ -100,16 +100,43 @@ def solve_coupled(
     are >= 0).
     """
     th = network.thermal
-    n = len(network.nodes)
-    ta = th.ambient_C
     D = th.duty_cycle if coupled else 1.0
     duty = th.duty_cycle
-    T = np.full(n, float(ta))
-    s = np.zeros(n)
-    held = np.zeros(n, dtype=int)
+    P = solution = None
     if not coupled:
         losses, solution = losses_at({"coil": 20.0, "ring": 20.0, "target": 20.0})
         P = _losses_vector(network, losses) * duty
+    T, P, s, solution, status, iterations = _newton_iterations(
+        network, losses_at, P, solution, D, coupled, coil_sensitivity, max_iterations, tolerance_K
+    )
+    if not coupled and status is None:
+        status = "isothermal"
+    i_coil = network.index("coil")
+    hot = float(T[i_coil] + network.hot_spot_factor * D * P[i_coil])
+    return _final_state(
+        network,
+        T,
+        hot,
+        status,
+        iterations=iterations if coupled else 1,
+        losses_on=P / duty if not coupled else P,
+        sensitivity=s,
+        solution=solution,
+    )
+
+
+def _newton_iterations(
+    network, losses_at, P, solution, D, coupled, coil_sensitivity, max_iterations, tolerance_K
+):
+    """The Newton iterations of ``solve_coupled`` from the ambient: (temperatures [degC], losses
+    [W], sensitivities [1/K], electrical solution, status or None, electrical solves). ``P`` and
+    ``solution``: the fixed losses and their solution when not ``coupled``; ``D``: the duty
+    cycle that scales the losses in the heat balance."""
+    n = len(network.nodes)
+    ta = network.thermal.ambient_C
+    T = np.full(n, float(ta))
+    s = np.zeros(n)
+    held = np.zeros(n, dtype=int)
     T_prev = P_prev = None
     status = None
     iterations = 0
@@ -138,20 +165,7 @@ def solve_coupled(
             f"runaway: no consistent temperatures in {max_iterations} iterations "
             f"(last change {np.max(np.abs(step)):.3g} K)"
         )
-    if not coupled and status is None:
-        status = "isothermal"
-    i_coil = network.index("coil")
-    hot = float(T[i_coil] + network.hot_spot_factor * D * P[i_coil])
-    return _final_state(
-        network,
-        T,
-        hot,
-        status,
-        iterations=iterations if coupled else 1,
-        losses_on=P / duty if not coupled else P,
-        sensitivity=s,
-        solution=solution,
-    )
+    return T, P, s, solution, status, iterations
 
 
 def _losses_and_sensitivity(network, losses_at, T, T_prev, P_prev, s, coil_sensitivity):

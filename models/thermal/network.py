@@ -389,10 +389,12 @@ def _add_coil(net: _Assembly, design, c, k_fe: float | None) -> float:
     return min(build_r, lc) ** 2 / (24 * k_w * volume)
 
 
-def face_slab_thickness(design) -> float | None:
+def face_node_thickness(design) -> float | None:
     """Thickness [m] of the pole's face node: at least the groove (whose volume it loses), else a
     tenth to half of the pole; the core node keeps the rest (the groove is shallower than the
-    pole, models.design). None for an air core."""
+    pole, models.design). None for an air core. A node of the thermal network, which also splits
+    the core's loss between face and core (models.pick.steady_state); not the slab where flux
+    crosses the sheets (models.core_loss.radial_flux_slab_depth)."""
     p, ring = design.pole, design.ring
     if p is None:
         return None  # an air core has no steel
@@ -408,7 +410,7 @@ def _add_pole(net: _Assembly, design, steel) -> None:
     rho_fe, c_fe, k_fe, ceil_fe, why_fe = steel
     area_p = math.pi * p.radius**2
     depth = ring.depth if ring is not None else 0.0
-    t_f = face_slab_thickness(design)
+    t_f = face_node_thickness(design)
     l_core = p.length - t_f
     groove = (
         0.0 if ring is None else math.pi * (ring.outer_radius**2 - ring.inner_radius**2) * depth

@@ -447,8 +447,8 @@ def _capacitor_as_built(design, isothermal: bool, evaluator=None):
     drive = design.drive
     if getattr(drive, "compensation", "none") == "none" or drive.capacitance is not None:
         return design
+    from models.design import with_fixed_capacitor
     from models.evaluate import evaluate
-    from models.supply import with_fixed_capacitor
 
     nominal = (evaluator or evaluate)(design, isothermal)
     capacitance_uF = getattr(nominal, "capacitor_uF", 0.0)

@@ -35,8 +35,6 @@ from __future__ import annotations
 
 import math
 
-from scipy.constants import g as standard_gravity
-
 from models.checks import gap_warnings
 from models.design import Design, edit
 from models.evaluate import evaluate_pick_gaps
@@ -125,7 +123,7 @@ def _gaps(design: Design, part: Part) -> tuple:
 def _weight(design: Design) -> float:
     """The part's weight [N] (its mass times standard gravity, as the model's
     ``target_weight_N``)."""
-    return float(design.target.density * design.target.volume * standard_gravity)
+    return float(design.target.weight)
 
 
 def _worst_and_best(states) -> tuple[float, float]:

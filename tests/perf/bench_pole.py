@@ -23,7 +23,8 @@ try:
     from models.fast.circuit import iron_nodes
 except ImportError:  # older circuit: the cell centres are the points
     iron_nodes = None
-from models.evaluate import DEFAULT_FINENESS, _panel_size, evaluate
+from models.evaluate import DEFAULT_FINENESS, evaluate
+from models.pole_cache import _panel_size
 from optim.demo import DEMO_DESIGN
 
 DEMO = DEMO_DESIGN
