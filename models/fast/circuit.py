@@ -206,6 +206,42 @@ def _self_inductances(rc, dr, dz):
     return out
 
 
+#: The cells' sums with the panels (``kernels.cell_panel_sums``) of one part's cells, kept for
+#: the last _PANEL_ROWS_KEPT (panels, cells) pairs, keyed by the panels' identity, the rule and the
+#: part's cell edges to the last bit: each cell's row depends on nothing else, so a part that does
+#: not move (the coil at every gap of a trial, a ring at every gap below the gap floor, the parts
+#: of a conductivity, current or frequency change that keeps the skin-depth grading) reuses its
+#: rows. Each entry holds its panels, so that an identity is never reused for other panels.
+_PANEL_ROWS: dict = {}
+_PANEL_ROWS_KEPT = 24
+
+
+def _cell_panel_rows(panels, cells: Cells, order, reach):
+    """``cell_panel_sums`` of ``cells`` with ``panels``: (mutual inductance, its z derivative,
+    applied field), each (n_cells, n_panels), assembled from the rows of each run of cells of
+    one part (taken from ``_PANEL_ROWS`` where known; the same numbers as one call on all
+    cells, bit for bit: every row is computed on its own)."""
+    part = cells.part
+    starts = np.flatnonzero(np.r_[True, part[1:] != part[:-1]])
+    ends = np.r_[starts[1:], part.size]
+    blocks = []
+    for a, b in zip(starts.tolist(), ends.tolist(), strict=True):
+        geometry = (cells.r0[a:b], cells.r1[a:b], cells.z0[a:b], cells.z1[a:b])
+        key = (id(panels), int(order), float(reach), np.concatenate(geometry).tobytes())
+        kept = _PANEL_ROWS.get(key)
+        if kept is None or kept[0] is not panels:
+            sums = cell_panel_sums(
+                panels, cells.rc[a:b], cells.zc[a:b], cells.dr[a:b], cells.dz[a:b], order, reach
+            )
+            sums.setflags(write=False)
+            if len(_PANEL_ROWS) >= _PANEL_ROWS_KEPT:
+                _PANEL_ROWS.pop(next(iter(_PANEL_ROWS)))
+            kept = _PANEL_ROWS[key] = (panels, sums)
+        blocks.append(kept[1])
+    sums = blocks[0].copy() if len(blocks) == 1 else np.concatenate(blocks, axis=1)
+    return sums[0], sums[1], sums[2]
+
+
 @dataclass(frozen=True)
 class CircuitSolution:
     """Currents of one solved design (rms phasors, SI).
@@ -307,14 +343,8 @@ def assemble_circuit(
         # Each cell with each panel: its mutual inductance, the derivative in the cell's z and
         # the panel-averaged tangential field of 1 A in it, the cell averaged over Gauss nodes
         # where it is within iron_reach cell sizes of the panel (models.fast.kernels).
-        panel_M, panel_D, applied = cell_panel_sums(
-            panels,
-            cells.rc,
-            cells.zc,
-            cells.dr,
-            cells.dz,
-            fineness.iron_nodes,
-            fineness.iron_reach,
+        panel_M, panel_D, applied = _cell_panel_rows(
+            panels, cells, fineness.iron_nodes, fineness.iron_reach
         )  # (n_cells, n_panels) each
         P = pole_model.response(applied.T)  # (n_panels, n_cells)
         M_iron = real_matmul(panel_M, P)
