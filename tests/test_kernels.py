@@ -148,6 +148,49 @@ def test_cell_coupling_is_the_average_of_its_gauss_nodes():
     np.testing.assert_allclose(got[:, 1, 0], far, rtol=1e-14)
 
 
+def test_mutual_blocks_equal_the_whole_matrix():
+    """cell_mutual_matrix, assembled from blocks of each part's cells (cell_mutual within a
+    part, cell_mutual_cross between two) and reused from its cache at a second gap (the coil
+    does not move), equals cell_mutual on all the cells at once, bit for bit (the same pairs,
+    the same arithmetic): an internal identity, no outside reference."""
+    from models.design import with_gap
+    from models.evaluate import DEFAULT_FINENESS
+    from models.fast import circuit
+
+    design = load_design(DEMO_DESIGN)
+    for gap_mm in (1.5, 2.25, 1.5):  # the third: every block from the cache
+        cells = circuit.build_cells(with_gap(design, gap_mm), DEFAULT_FINENESS)
+        rows = cells.part == circuit.TARGET
+        M, D = circuit.cell_mutual_matrix(cells, dz_rows=rows)
+        M_all, D_all = K.cell_mutual(cells.r0, cells.r1, cells.z0, cells.z1, rows)
+        assert np.array_equal(M - np.diag(np.diag(M)), M_all)
+        assert np.array_equal(D, D_all)
+        assert M.flags.writeable and D.flags.writeable  # the caller's own arrays
+
+
+def test_panel_rows_by_part_equal_one_call():
+    """The circuit's cell-panel sums, taken part by part and reused from its cache, equal one
+    cell_panel_sums call on all the cells, bit for bit (each row is computed on its own): an
+    internal identity, no outside reference."""
+    import importlib
+
+    from models.design import with_gap
+    from models.fast import circuit
+
+    ev = importlib.import_module("models.evaluate")
+    design = load_design(DEMO_DESIGN)
+    fine = ev.DEFAULT_FINENESS
+    panels = ev.pole_model_for(design, fine).panels
+    for gap_mm in (1.5, 2.25, 1.5):
+        cells = circuit.build_cells(with_gap(design, gap_mm), fine)
+        got = circuit._cell_panel_rows(panels, cells, fine.iron_nodes, fine.iron_reach)
+        want = K.cell_panel_sums(
+            panels, cells.rc, cells.zc, cells.dr, cells.dz, fine.iron_nodes, fine.iron_reach
+        )
+        for g, w in zip(got, want, strict=True):
+            assert np.array_equal(g, w)
+
+
 def test_each_kernel_compiled_once():
     """After an evaluation every compiled function holds one signature (a second one would mean
     an argument of another type, and a second compilation on every fresh install)."""

@@ -36,7 +36,7 @@ from models.fast.discretize import (
     resolved_gap,
 )
 from models.fast.filaments import self_inductance_rect
-from models.fast.kernels import cell_mutual, cell_panel_sums, real_matmul
+from models.fast.kernels import cell_mutual, cell_mutual_cross, cell_panel_sums, real_matmul
 from models.supply import series_impedance
 
 __all__ = [
@@ -180,9 +180,70 @@ def cell_mutual_matrix(cells: Cells, dz_rows=None):
         other cell); other rows are left 0. Default: all.
     """
     rows = np.ones(cells.n, bool) if dz_rows is None else np.asarray(dz_rows, bool)
-    M, D = cell_mutual(cells.r0, cells.r1, cells.z0, cells.z1, rows)
+    runs = _part_runs(cells)
+    M = np.empty((cells.n, cells.n))
+    D = np.empty((cells.n, cells.n))
+    for u, (a, b, key_a) in enumerate(runs):
+        for c, d, key_c in runs[u:]:
+            m, d_ac, d_ca = _mutual_block(cells, (a, b, key_a), (c, d, key_c))
+            M[a:b, c:d] = m
+            D[a:b, c:d] = d_ac
+            if c != a:
+                M[c:d, a:b] = m.T
+                D[c:d, a:b] = d_ca
+    D[~rows] = 0.0
     np.fill_diagonal(M, _self_inductances(cells.rc, cells.dr, cells.dz))
     return M, D
+
+
+def _part_runs(cells: Cells):
+    """(start, stop, key) of each run of consecutive cells of one part; the key is the run's cell
+    edges to the last bit."""
+    part = cells.part
+    starts = np.flatnonzero(np.r_[True, part[1:] != part[:-1]]).tolist()
+    stops = [*starts[1:], part.size]
+    return [
+        (
+            a,
+            b,
+            np.concatenate((cells.r0[a:b], cells.r1[a:b], cells.z0[a:b], cells.z1[a:b])).tobytes(),
+        )
+        for a, b in zip(starts, stops, strict=True)
+    ]
+
+
+#: Blocks of the cell mutual-inductance matrix (``kernels.cell_mutual`` within a run of one
+#: part's cells, ``kernels.cell_mutual_cross`` between two runs), kept for the last
+#: _BLOCKS_KEPT pairs of runs by the runs' cell edges to the last bit: a part that does not move
+#: (the coil at every gap, a ring whose grading the gap does not set) reuses its blocks. Each
+#: holds (M, dM/dz in the first run's rows, dM/dz in the second's), read-only.
+_BLOCKS: dict = {}
+_BLOCKS_KEPT = 48
+
+
+def _mutual_block(cells: Cells, run_a, run_c):
+    """The block of ``cell_mutual`` between the runs ``run_a`` and ``run_c`` (each (start,
+    stop, key), run_a not after run_c), with dM/dz in every row, from ``_BLOCKS`` where kept."""
+    (a, b, key_a), (c, d, key_c) = run_a, run_c
+    key = (key_a, key_c) if c != a else (key_a,)
+    kept = _BLOCKS.get(key)
+    if kept is None:
+        if c == a:
+            m, der = cell_mutual(
+                cells.r0[a:b], cells.r1[a:b], cells.z0[a:b], cells.z1[a:b], np.ones(b - a, bool)
+            )
+            kept = (m, der, der)
+        else:
+            kept = cell_mutual_cross(
+                (cells.r0[a:b], cells.r1[a:b], cells.z0[a:b], cells.z1[a:b]),
+                (cells.r0[c:d], cells.r1[c:d], cells.z0[c:d], cells.z1[c:d]),
+            )
+        for x in kept:
+            x.setflags(write=False)
+        if len(_BLOCKS) >= _BLOCKS_KEPT:
+            _BLOCKS.pop(next(iter(_BLOCKS)))
+        _BLOCKS[key] = kept
+    return kept
 
 
 #: Self-inductances of cell sections already computed, by (mean radius, dr, dz) [m] to the last
@@ -204,6 +265,38 @@ def _self_inductances(rc, dr, dz):
             _SELF.clear()
         _SELF.update(zip((keys[i] for i in miss), out[miss].tolist(), strict=True))
     return out
+
+
+#: The cells' sums with the panels (``kernels.cell_panel_sums``) of one part's cells, kept for
+#: the last _PANEL_ROWS_KEPT (panels, cells) pairs, keyed by the panels' identity, the rule and the
+#: part's cell edges to the last bit: each cell's row depends on nothing else, so a part that does
+#: not move (the coil at every gap of a trial, a ring at every gap below the gap floor, the parts
+#: of a conductivity, current or frequency change that keeps the skin-depth grading) reuses its
+#: rows. Each entry holds its panels, so that an identity is never reused for other panels.
+_PANEL_ROWS: dict = {}
+_PANEL_ROWS_KEPT = 24
+
+
+def _cell_panel_rows(panels, cells: Cells, order, reach):
+    """``cell_panel_sums`` of ``cells`` with ``panels``: (mutual inductance, its z derivative,
+    applied field), each (n_cells, n_panels), assembled from the rows of each run of cells of
+    one part (taken from ``_PANEL_ROWS`` where known; the same numbers as one call on all
+    cells, bit for bit: every row is computed on its own)."""
+    blocks = []
+    for a, b, edges in _part_runs(cells):
+        key = (id(panels), int(order), float(reach), edges)
+        kept = _PANEL_ROWS.get(key)
+        if kept is None or kept[0] is not panels:
+            sums = cell_panel_sums(
+                panels, cells.rc[a:b], cells.zc[a:b], cells.dr[a:b], cells.dz[a:b], order, reach
+            )
+            sums.setflags(write=False)
+            if len(_PANEL_ROWS) >= _PANEL_ROWS_KEPT:
+                _PANEL_ROWS.pop(next(iter(_PANEL_ROWS)))
+            kept = _PANEL_ROWS[key] = (panels, sums)
+        blocks.append(kept[1])
+    sums = blocks[0].copy() if len(blocks) == 1 else np.concatenate(blocks, axis=1)
+    return sums[0], sums[1], sums[2]
 
 
 @dataclass(frozen=True)
@@ -307,14 +400,8 @@ def assemble_circuit(
         # Each cell with each panel: its mutual inductance, the derivative in the cell's z and
         # the panel-averaged tangential field of 1 A in it, the cell averaged over Gauss nodes
         # where it is within iron_reach cell sizes of the panel (models.fast.kernels).
-        panel_M, panel_D, applied = cell_panel_sums(
-            panels,
-            cells.rc,
-            cells.zc,
-            cells.dr,
-            cells.dz,
-            fineness.iron_nodes,
-            fineness.iron_reach,
+        panel_M, panel_D, applied = _cell_panel_rows(
+            panels, cells, fineness.iron_nodes, fineness.iron_reach
         )  # (n_cells, n_panels) each
         P = pole_model.response(applied.T)  # (n_panels, n_cells)
         M_iron = real_matmul(panel_M, P)

@@ -733,6 +733,109 @@ def _cell_mutual(r0, r1, z0, z1, rows, mat, der):
             der[j, i] = -d_ij if rows[j] else 0.0
 
 
+@njit(cache=True, error_model="numpy")
+def _cell_mutual_cross(r0a, r1a, z0a, z1a, r0b, r1b, z0b, z1b, mat, der_a, der_b):
+    """``_cell_mutual`` between two sets of cells, a before b in the cells' order: the same pairs
+    (i of a, j of b) and the same arithmetic, so the same numbers, bit for bit. mat[i, j] = M_ij,
+    der_a[i, j] = dM_ij/dz_i, der_b[j, i] = dM_ij/dz_j."""
+    na = r0a.size
+    nb = r0b.size
+    rca = 0.5 * (r0a + r1a)
+    zca = 0.5 * (z0a + z1a)
+    dra = r1a - r0a
+    dza = z1a - z0a
+    rcb = 0.5 * (r0b + r1b)
+    zcb = 0.5 * (z0b + z1b)
+    drb = r1b - r0b
+    dzb = z1b - z0b
+    n_far = 0
+    n_near = 0
+    near = np.zeros((na, nb), np.bool_)
+    for i in range(na):
+        for j in range(nb):
+            gap_r = abs(rca[i] - rcb[j]) - 0.5 * (dra[i] + drb[j])
+            gap_z = abs(zca[i] - zcb[j]) - 0.5 * (dza[i] + dzb[j])
+            size = max(max(dra[i], drb[j]), max(dza[i], dzb[j]))
+            if max(gap_r, gap_z) < _NEAR_REACH * size:
+                near[i, j] = True
+                n_near += 1
+            else:
+                n_far += 1
+    m = n_far + 16 * n_near
+    a1 = np.empty(m)
+    b1 = np.empty(m)
+    a2 = np.empty(m)
+    b2 = np.empty(m)
+    k = 0
+    for i in range(na):
+        for j in range(nb):
+            if near[i, j]:
+                for u in range(4):
+                    ri = rca[i] + dra[i] * (_G2 if u >= 2 else -_G2)
+                    zi = zca[i] + dza[i] * (_G2 if u % 2 == 1 else -_G2)
+                    for v in range(4):
+                        a1[k] = ri
+                        b1[k] = zi
+                        a2[k] = rcb[j] + drb[j] * (_G2 if v >= 2 else -_G2)
+                        b2[k] = zcb[j] + dzb[j] * (_G2 if v % 2 == 1 else -_G2)
+                        k += 1
+            else:
+                a1[k] = rca[i]
+                b1[k] = zca[i]
+                a2[k] = rcb[j]
+                b2[k] = zcb[j]
+                k += 1
+    mut = np.empty(m)
+    dz1 = np.empty(m)
+    br = np.empty(m)
+    bz = np.empty(m)
+    _pairs_block(a2, b2, a1, b1, m, mut, dz1, br, bz)  # dz1: derivative in cell i's z
+    k = 0
+    for i in range(na):
+        for j in range(nb):
+            if near[i, j]:
+                m_sum = 0.0
+                d_sum = 0.0
+                log_sum = 0.0
+                dlog_sum = 0.0
+                for t in range(16):
+                    m_sum += mut[k + t]
+                    d_sum += dz1[k + t]
+                    ddr = a1[k + t] - a2[k + t]
+                    ddz = b1[k + t] - b2[k + t]
+                    rho2 = ddr * ddr + ddz * ddz
+                    log_sum += math.log(rho2)
+                    dlog_sum += ddz / rho2
+                k += 16
+                exact_log, exact_dlog = _log_mean_pair(
+                    r0a[i], r1a[i], z0a[i], z1a[i], r0b[j], r1b[j], z0b[j], z1b[j]
+                )
+                scale = _MU0 * math.sqrt(rca[i] * rcb[j])
+                m_ij = m_sum / 16.0 - scale * (exact_log - 0.5 * log_sum / 16.0)
+                d_ij = d_sum / 16.0 - scale * (exact_dlog - dlog_sum / 16.0)
+            else:
+                m_ij = mut[k]
+                d_ij = dz1[k]
+                k += 1
+            mat[i, j] = m_ij
+            der_a[i, j] = d_ij
+            der_b[j, i] = -d_ij
+
+
+def cell_mutual_cross(a, b):
+    """Mutual inductances between the cells ``a`` and the cells ``b`` (each (r0, r1, z0, z1)
+    arrays; a before b in the cells' order) [H], (na, nb), and dM/dz [H/m] in a's rows (na, nb)
+    and in b's (nb, na): the block of ``cell_mutual`` on a and b together, the same numbers."""
+    c = _f
+    a = [c(x, dtype=float) for x in a]
+    b = [c(x, dtype=float) for x in b]
+    mat = np.zeros((a[0].size, b[0].size))
+    der_a = np.zeros((a[0].size, b[0].size))
+    der_b = np.zeros((b[0].size, a[0].size))
+    _cell_mutual_cross(*a, *b, mat, der_a, der_b)
+    return mat, der_a, der_b
+
+
 def cell_mutual(r0, r1, z0, z1, rows):
     """Mutual inductances of uniform-current cells [r0, r1] x [z0, z1] (diagonal left 0) [H] and
     dM/dz_i [H/m] in the rows ``rows`` (others 0): models.fast.circuit.cell_mutual_matrix's

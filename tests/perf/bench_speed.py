@@ -1,6 +1,6 @@
 """Benchmark of the fast model's speed, as ratios measured in one run.
 
-    python tests/perf/bench_speed.py [--repeats N] [--trials N] [--no-study] [--no-fem]
+    python tests/perf/bench_speed.py [--repeats N] [--trials N] [--no-study] [--no-fem] [--cpu]
 
 Prints, on the demo design: one complex dense solve of the design's loop-equation size (the unit
 of the ratios), ``evaluate`` of a new pole geometry, ``evaluate`` at a repeated geometry (a gap,
@@ -8,7 +8,8 @@ current, frequency and target sweep), a robust trial of the demo study (its gaps
 coupling, the study's own result function), the demo study's trials per second on 1 and 2
 workers (real fast model, journal storage) and one solve of the finite-element reference at its
 default mesh. Times are medians; each row also shows its ratio to one complex solve, and the FEM
-row the ratio FEM / evaluate. Runs on older checkouts too (public interfaces only), so that a
+row the ratio FEM / evaluate; ``--cpu`` times them in this process's CPU time (the study rows
+stay wall time). Runs on older checkouts too (public interfaces only), so that a
 before/after comparison is two runs on one machine:
 ``PYTHONPATH=/path/to/old/checkout python tests/perf/bench_speed.py``. Asserts nothing.
 """
@@ -33,10 +34,23 @@ from models.design import with_value  # noqa: E402
 from optim.demo import DEMO_DESIGN, DEMO_STUDY  # noqa: E402
 from tests.perf.bench_evaluate import median_time  # noqa: E402
 
+#: The clock of the in-process rows: wall time (bench_evaluate's median_time) or, with
+#: ``--cpu``, this process's CPU time (time.process_time), which on a machine shared with other
+#: work counts the work rather than the wait for a core (BLAS runs one thread: models.threads).
+CPU_CLOCK = False
+
 
 def median_ms(fn, repeats):
-    """Median time of ``fn`` [ms] (bench_evaluate's median_time)."""
-    return median_time(fn, repeats) * 1e3
+    """Median time of ``fn`` [ms] (bench_evaluate's median_time; CPU time with ``--cpu``)."""
+    if not CPU_CLOCK:
+        return median_time(fn, repeats) * 1e3
+    fn()
+    times = []
+    for _ in range(repeats):
+        t = time.process_time()
+        fn()
+        times.append(time.process_time() - t)
+    return float(np.median(times)) * 1e3
 
 
 class Fresh:
@@ -90,7 +104,12 @@ def main():
     ap.add_argument("--trials", type=int, default=200, help="trials per demo-study run")
     ap.add_argument("--no-study", action="store_true")
     ap.add_argument("--no-fem", action="store_true")
+    ap.add_argument(
+        "--cpu", action="store_true", help="time the in-process rows in CPU time (a busy machine)"
+    )
     args = ap.parse_args()
+    global CPU_CLOCK
+    CPU_CLOCK = args.cpu
     design = load_design(DEMO_DESIGN)
     base = evaluate(design)
     n = base.n_cells  # loop equations: of the order of the cells (the coil's are one loop)
@@ -137,9 +156,10 @@ def main():
     if not args.no_fem:
         from models.fem.solve import solve
 
-        t = time.perf_counter()
+        clock = time.process_time if CPU_CLOCK else time.perf_counter
+        t = clock()
         solve(design)
-        first = time.perf_counter() - t
+        first = clock() - t
         fem_ms = median_ms(lambda: solve(design), 2)
         rows.append(("FEM reference, default mesh (first call)", first * 1e3))
         rows.append(("FEM reference, default mesh", fem_ms))
@@ -147,6 +167,7 @@ def main():
         f"demo design: {base.n_cells} cells, {base.n_panels} panels; "
         f"OPENBLAS_NUM_THREADS={os.environ.get('OPENBLAS_NUM_THREADS', 'unset')}; "
         f"load average {' '.join(f'{x:.2f}' for x in os.getloadavg())}; medians"
+        f"{' of CPU time' if CPU_CLOCK else ''}"
     )
     print(f"{'':64s} {'ms':>9s} {'x solve':>8s}")
     for name, ms in rows:

@@ -30,8 +30,11 @@ DEMO = DEMO_DESIGN
 
 
 def _clear_caches():
-    """Forget every cached rule and pole model, so that a stage is timed from cold."""
+    """Forget every cached rule, pole model and part's block, so that a stage is timed from
+    cold."""
     pole._PAIR_RULES.clear()
+    for kept in ("_PANEL_ROWS", "_BLOCKS"):  # a part's blocks (absent in older checkouts)
+        getattr(circuit, kept, {}).clear()
     cache_clear = getattr(ev, "clear_pole_cache", None)
     if cache_clear is not None:
         cache_clear()
