@@ -265,7 +265,9 @@ def limits_and_margins(design: Design, state, result: dict):
 
     def add(name, margin, size):
         margins[name] = float(margin)
-        scale[name] = float(size)
+        # a limit at the ambient (a class A coil in a 105 degC cell) leaves no span to scale
+        # by: its margin is then compared in its own unit (1 K)
+        scale[name] = float(size) if size > 0 else 1.0
 
     add("coil_temperature_C", th.coil_class_C - result["coil_temperature_C"], th.coil_class_C - ta)
     if th.ring_limit_C is not None and design.ring is not None:

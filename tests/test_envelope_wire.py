@@ -316,4 +316,9 @@ def test_a_study_searches_standard_wires_end_to_end(tmp_path):
         copper = turns * 2 * math.pi * (row["pole_radius_mm"] + 6.25) * 1e-3
         copper *= math.pi * (row["coil.wire_diameter_mm"] * 1e-3) ** 2 / 4 * 8890.0  # IEC 60028
         assert row["coil_copper_mass_kg"] == pytest.approx(copper, rel=1e-9)
-        assert row["feasible"] == (row["magnet_diameter_mm"] <= 46.0)
+        # a magnet wider than the bound is infeasible; one within it may still break a design
+        # rule (models.checks.out_of_depth: a wire carrying more than its current density)
+        if row["magnet_diameter_mm"] > 46.0:
+            assert not row["feasible"]
+        if row["feasible"]:
+            assert row["magnet_diameter_mm"] <= 46.0
