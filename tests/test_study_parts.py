@@ -126,9 +126,9 @@ def test_a_family_of_one_has_todays_results(tmp_path):
     for values in ({"ring_outer_fraction": 0.7, "ring_depth_mm": 3.0, "frequency_Hz": 400.0},):
         a = evaluate_trial(old, values)
         b = evaluate_trial(new, values)
-        assert a["values"] == b["values"] and a["violations"] == b["violations"]
-        assert {k: b["flat"][k] for k in a["flat"]} == a["flat"]
-        assert b["flat"]["parts.cap10.worst_lift_ratio"] == b["flat"]["worst_lift_ratio"]
+        assert a.values == b.values and a.violations == b.violations
+        assert {k: b.flat[k] for k in a.flat} == a.flat
+        assert b.flat["parts.cap10.worst_lift_ratio"] == b.flat["worst_lift_ratio"]
 
 
 @pytest.mark.slow
@@ -214,11 +214,11 @@ def test_a_pushed_leave_part_counts_as_left(sorting):
     spec, _ = sorting
     values = {"pole_radius_mm": 6.5, "ring_outer_fraction": 0.9, "frequency_Hz": 1000.0}
     out = evaluate_trial(spec, values)
-    flat = out["flat"]
+    flat = out.flat
     assert flat["parts.cap16.best_lift_ratio"] < 0  # pushed at every gap, arrival and hold
     assert flat["best_leave_lift_ratio"] == flat["parts.cap16.best_lift_ratio"]
     assert flat["selectivity_margin"] > flat["worst_lift_ratio"] >= 1.0
-    assert out["state"] == "COMPLETE" and out["reason"] == ""  # feasible: left, and lifted
+    assert out.complete and out.reason == ""  # feasible: left, and lifted
 
 
 def test_the_family_is_kept_in_the_study_definition(tmp_path):

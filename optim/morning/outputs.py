@@ -17,6 +17,7 @@ from pathlib import Path
 from models.errors import DesignError
 from optim.files import atomic_path, atomic_write_text
 from optim.morning.front import constraint_lines, for_people, status_summary, trials_table
+from optim.study.records import RESULT_NAMES_ATTR, StoredRecord
 
 __all__ = ["write_front", "export_trial", "handoff_folder", "pick_trial", "design_of"]
 
@@ -382,7 +383,7 @@ def pick_trial(study, spec_json: dict, trial: int | None, best: str | None, near
             raise DesignError(f"--trial {trial}: must be a trial number from 0 to {n - 1}")
         t = readout.trial(trial)
         if t.state.name != "COMPLETE":
-            reason = t.user_attrs.get("eddypull", {}).get("reason", "")
+            reason = StoredRecord.of(t.user_attrs).reason
             raise DesignError(
                 f"--trial {trial}: state {t.state.name} ({reason or 'no result'}); pick a "
                 "completed trial, e.g. one of the front"
@@ -444,16 +445,15 @@ def export_trial(
     from models.evaluate import evaluate
     from optim.morning.handoff import write_handoff
     from optim.morning.rounding import DEFAULT_RESOLUTION_MM, rounded_for_handoff
-    from optim.study.engine import record_of
 
     spec = _spec(spec_json)
     t = pick_trial(study, spec_json, trial, best, nearest)
     design = design_of(spec, t.params)
     isothermal = bool(spec.run.get("isothermal", False))
     result = evaluate(design, isothermal=isothermal)
-    record = record_of(t)
-    names = study.user_attrs.get("eddypull_result_names", [])
-    stored = dict(zip(names, record.get("results", []), strict=False))
+    record = StoredRecord.of(t.user_attrs)
+    names = study.user_attrs.get(RESULT_NAMES_ATTR, [])
+    stored = dict(zip(names, record.results, strict=False))
     target = handoff_folder(folder, t.number, out)
     objective_values = dict(zip(spec_json["objectives"], t.values, strict=True))
     now = result.to_dict()
@@ -473,7 +473,7 @@ def export_trial(
         "parameters": dict(t.params),
         "objectives": objective_values,
         "constraint_margins": rounding["constraint_margins"],
-        "constraint_margins_unrounded": record.get("margins", {}),
+        "constraint_margins_unrounded": record.margins,
         "feasible": rounding["constraints_met"] and not rounding["broken"],
         "broken_constraints": rounding["broken"],
         "feasible_unrounded": all(v <= 0 for v in t.constraints.values()),

@@ -22,6 +22,7 @@ from dataclasses import dataclass, field
 import numpy as np
 
 from optim.study.ledger import JournalLedger, _Distributions, params_of
+from optim.study.records import RESULT_NAMES_ATTR, StoredRecord, constraints_of
 
 __all__ = ["TrialColumns", "StudyReadout", "open_readout"]
 
@@ -74,26 +75,24 @@ class _Filler:
             column = self.params.get(name)
             if column is not None:
                 column[i] = self._text(v) if column.dtype == object else v
-        rec = user_attrs.get("eddypull")
-        rec = rec if isinstance(rec, dict) else {}
-        self.eval_s[i] = rec.get("eval_s", math.nan)
-        self.copy_of[i] = rec.get("copy_of", math.nan)
-        self.reason[i] = self._text(rec.get("reason", ""))
-        self.binding[i] = self._text(rec.get("binding_limit", ""))
-        self.worker[i] = self._text(rec.get("worker", ""))
-        warnings = [str(w) for w in rec.get("warnings") or []]
+        rec = StoredRecord.of(user_attrs)
+        self.eval_s[i] = rec.eval_s
+        self.copy_of[i] = math.nan if rec.copy_of is None else rec.copy_of
+        self.reason[i] = self._text(rec.reason)
+        self.binding[i] = self._text(rec.binding_limit)
+        self.worker[i] = self._text(rec.worker)
+        warnings = [str(w) for w in rec.warnings]
         self.warning_count[i] = len(warnings)
         self.warnings[i] = self._text(" | ".join(warnings))
-        results = rec.get("results") or []
+        results = rec.results
         m = min(len(results), len(self.names))
         if m:
             self.results[i, :m] = [math.nan if r is None else r for r in results[:m]]
-        margins = rec.get("margins") or {}
         for j, c in enumerate(self.constraints):
-            v = margins.get(c)
+            v = rec.margins.get(c)
             if v is not None:
                 self.margins[i, j] = v
-        violations = [v for k_, v in system_attrs.items() if k_.startswith("constraints:")]
+        violations = constraints_of(system_attrs).values()
         self.feasible[i] = state == 1 and all(v <= 0 for v in violations)
 
     def columns(self) -> TrialColumns:
@@ -168,8 +167,6 @@ class StudyReadout:
         return self._trials()
 
     def columns(self) -> TrialColumns:
-        from optim.study.engine import RESULT_NAMES_ATTR
-
         spec = self.spec_json
         shape = (
             list(self.user_attrs.get(RESULT_NAMES_ATTR, [])),

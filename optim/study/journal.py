@@ -28,6 +28,7 @@ from pathlib import Path
 
 from models.errors import DesignError
 from optim.files import atomic_write_bytes
+from optim.study.records import RECORD_ATTR
 
 __all__ = [
     "JournalLock",
@@ -105,7 +106,7 @@ def placeholder_log(study_id: int, offset: int, length: int) -> dict:
         "datetime_start": None,
         "distributions": {},
         "params": {},
-        "user_attrs": {"eddypull": {"reason": reason}},
+        "user_attrs": {RECORD_ATTR: {"reason": reason}},
         "system_attrs": {},
         "intermediate_values": {},
     }

@@ -17,7 +17,7 @@ private in-memory study that holds a window of the search, not all of it:
 
 from __future__ import annotations
 
-from optuna.study._constrained_optimization import _CONSTRAINTS_KEY
+from optim.study.records import constraint_attrs, constraints_of
 
 __all__ = ["SamplerWindow", "window_limit"]
 
@@ -65,9 +65,7 @@ class SamplerWindow:
         it joins (the sampler's other marks stay with the study they were made in)."""
         import optuna
 
-        system = {
-            k: v for k, v in trial.system_attrs.items() if k.startswith(f"{_CONSTRAINTS_KEY}:")
-        }
+        system = constraint_attrs(constraints_of(trial.system_attrs))
         if self.generation_key is not None:
             system[self.generation_key] = generation
         return optuna.trial.create_trial(
