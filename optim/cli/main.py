@@ -17,6 +17,7 @@ from models.errors import DesignError
 from models.evaluate import evaluate
 from optim.cli.usage import UsageError
 from optim.jsonout import strict_json
+from optim.words import CAUTION
 
 __all__ = ["main"]
 
@@ -175,7 +176,6 @@ def _cmd_demo(args) -> int:
     for line in out["lines"]:
         print(line)
     first = next(iter(spec_json["objectives"]))
-    from optim.cli.summary import CAUTION
 
     if out["front"].empty:
         print("no feasible design yet: run the demo longer (eddypull demo --minutes 10)")

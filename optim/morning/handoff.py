@@ -39,7 +39,8 @@ from models.design import DESIGN_KEYS, design_from_dict
 from models.errors import DesignError
 from optim.files import atomic_write_text, redact_url, safe_child
 from optim.jsonout import to_jsonable
-from optim.morning.dxf import LAYERS, section_mm, write_profile_dxf
+from optim.morning.dxf import LAYERS, write_profile_dxf
+from optim.morning.section import section_mm
 from optim.morning.winding import winding_dict
 from optim.tomlwrite import dumps_toml
 

@@ -18,6 +18,7 @@ from models.errors import DesignError
 from optim.files import atomic_path, atomic_write_text
 from optim.morning.front import constraint_lines, for_people, status_summary, trials_table
 from optim.study.records import RESULT_NAMES_ATTR, StoredRecord
+from optim.words import assumptions_text, limits_used_text
 
 __all__ = ["write_front", "export_trial", "handoff_folder", "pick_trial", "design_of"]
 
@@ -148,7 +149,6 @@ def _state_note(design, isothermal: bool) -> str:
     """Which state the pulls refer to and the thermal assumptions, as the first picked design
     has them (the study's designs share the base design's [thermal] table unless it is searched)."""
     from models.evaluate import evaluate
-    from optim.cli.summary import assumptions_text, limits_used_text
 
     r = evaluate(design, isothermal=isothermal)
     a = r.thermal_assumptions

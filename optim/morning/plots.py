@@ -23,8 +23,8 @@ from matplotlib.figure import Figure
 
 from models.errors import DesignError
 from optim.files import atomic_path, safe_child
-from optim.morning.dxf import section_mm
 from optim.morning.handoff import unit_of
+from optim.morning.section import section_mm
 from optim.study.progress import check_objectives, column, front_history, trial_flags
 
 __all__ = [

@@ -17,6 +17,8 @@ from __future__ import annotations
 
 import math
 
+from optim.words import CAUTION
+
 __all__ = ["QUANTITIES", "compare", "format_table", "to_json", "run_verify"]
 
 #: (key, unit, label) of the compared quantities, in table order.
@@ -287,7 +289,6 @@ def run_verify(design, refine: float = 1.0, far_factor: float = 1.0) -> dict:
         fast_error = str(err)
     ref = reference(design, refine=refine, far_factor=far_factor)
     rows = compare(fast, ref.result, ref.uncertainty, ref.uncertainty_abs)
-    from optim.cli.summary import CAUTION
 
     text = (
         f"design {design.name}: both models at 20 degC (every resistivity at 20 degC, no thermal "

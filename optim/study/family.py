@@ -41,6 +41,7 @@ from models.checks import gap_warnings
 from models.design import Design, edit
 from models.evaluate import evaluate_pick_gaps
 from models.family import part_pulls_under_magnet
+from optim.study.flat import flat_result
 from optim.study.parts import Part, part_source
 
 __all__ = ["family_results", "part_design", "pulls_under_magnet", "FAMILY_RESULTS"]
@@ -82,8 +83,6 @@ def family_results(design: Design, parts, isothermal: bool = False):
         Flat results (the first lift part's model result flattened, and the results of the
         module docstring), that evaluation's warnings and binding limit.
     """
-    from optim.study.objectives import flat_result
-
     own_part = next(p for p in parts if p.role == "lift")
     own = part_design(design, own_part)
     result, pulls = evaluate_pick_gaps(own, _gaps(own, own_part), isothermal=isothermal)
