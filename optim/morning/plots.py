@@ -16,16 +16,21 @@ from __future__ import annotations
 import math
 import re
 from pathlib import Path
+from typing import TYPE_CHECKING
 
 import numpy as np
 import pandas as pd
-from matplotlib.figure import Figure
 
+from models.design import with_value
 from models.errors import DesignError
+from models.evaluate import evaluate
 from optim.files import atomic_path, safe_child
 from optim.morning.handoff import unit_of
 from optim.morning.section import section_mm
 from optim.study.progress import check_objectives, column, front_history, trial_flags
+
+if TYPE_CHECKING:
+    from matplotlib.figure import Figure
 
 __all__ = [
     "plot_front_pairs",
@@ -43,6 +48,13 @@ __all__ = [
 RASTER_ABOVE = 5000
 
 _FAINT = {"infeasible": "0.55", "dominated": "tab:blue", "front": "tab:red"}
+
+
+def _figure(**kwargs) -> Figure:
+    """A matplotlib figure (matplotlib loads only when a plot is drawn)."""
+    from matplotlib.figure import Figure
+
+    return Figure(**kwargs)
 
 
 def _slug(text: str) -> str:
@@ -146,7 +158,7 @@ def plot_front_pairs(trials: pd.DataFrame, objectives, out_dir) -> list[Path]:
         for j in range(i + 1, len(objectives)):
             (a, da), (b, db) = objectives[i], objectives[j]
             xa, yb = values[a], values[b]
-            fig = Figure(figsize=(6.5, 5))
+            fig = _figure(figsize=(6.5, 5))
             ax = fig.subplots()
             groups = (
                 (complete & ~feasible, "infeasible", "x", 0.25, 14),
@@ -194,7 +206,7 @@ def _one_objective(trials, objective, values, n_fail: int, out_dir) -> list[Path
     complete, feasible, _ = trial_flags(trials)
     y = values[name]
     x = trials["trial"].to_numpy() if "trial" in trials else np.arange(len(trials))
-    fig = Figure(figsize=(7, 4.5))
+    fig = _figure(figsize=(7, 4.5))
     ax = fig.subplots()
     groups = [(complete & ~feasible, "infeasible", "x", 0.35), (feasible, "feasible", "o", 0.6)]
     for mask, what, marker, alpha in groups:
@@ -229,7 +241,7 @@ def _finish(ax, fig: Figure, title: str) -> None:
 
 
 def _empty(out_dir, stem: str, text: str) -> list[Path]:
-    fig = Figure(figsize=(6, 3))
+    fig = _figure(figsize=(6, 3))
     ax = fig.subplots()
     ax.axis("off")
     ax.text(0.5, 0.5, text, ha="center", va="center")
@@ -302,7 +314,7 @@ def plot_parameter_coupling(
             norm = mpl.colors.Normalize(np.nanmin(c), np.nanmax(c))
             cmap = mpl.colormaps["viridis"]
             colours = [cmap(norm(v)) if np.isfinite(v) else (0.6, 0.6, 0.6, 1) for v in c]
-    fig = Figure(figsize=(max(6.0, 1.6 * len(params)), 4.8))
+    fig = _figure(figsize=(max(6.0, 1.6 * len(params)), 4.8))
     ax = fig.subplots()
     x = np.arange(len(params))
     for k, row in enumerate(scaled):
@@ -366,7 +378,7 @@ def _scatter_matrix(params, data, axis, is_log, colours, cats=None) -> Figure:
     cats = cats or {}
     n = len(params)
     finite = np.isfinite(axis)
-    fig = Figure(figsize=(2.2 * n, 2.2 * n))
+    fig = _figure(figsize=(2.2 * n, 2.2 * n))
     axes = np.asarray(fig.subplots(n, n, squeeze=False))
     for i in range(n):
         for j in range(n):
@@ -464,12 +476,12 @@ def plot_front_progress(trials: pd.DataFrame, objectives, out_dir) -> list[Path]
     if hist.empty:
         return _empty(out_dir, "progress", "no finished trial yet")
     if "best" in hist:  # one objective: its best value so far says it all
-        fig = Figure(figsize=(7, 4))
+        fig = _figure(figsize=(7, 4))
         ax1 = ax2 = fig.subplots()
         ax1.step(hist["finished"], hist["best"], where="post", color="tab:red")
         ax1.set_ylabel(f"best {_label(*list(dict(objectives).items())[0])}")
     else:
-        fig = Figure(figsize=(7, 5.5))
+        fig = _figure(figsize=(7, 5.5))
         ax1, ax2 = fig.subplots(2, 1, sharex=True)
         ax1.step(hist["finished"], hist["hypervolume"], where="post", color="tab:red")
         ax1.set_ylabel("hypervolume [share of box]")
@@ -504,8 +516,6 @@ def plot_pull_vs_gap(designs, out_dir, gaps_mm=None, isothermal: bool = False) -
     list of Path
         ``pull_vs_gap.png/.svg``. Gaps a design refuses (DesignError) are left out of its curve.
     """
-    from models.design import with_value
-    from models.evaluate import evaluate
 
     if not designs:
         return _empty(out_dir, "pull_vs_gap", "no design picked")
@@ -513,7 +523,7 @@ def plot_pull_vs_gap(designs, out_dir, gaps_mm=None, isothermal: bool = False) -
     if gaps_mm is None:
         gaps_mm = np.linspace(0.5 * min(own), 2.0 * max(own), 15)
     gaps_mm = np.asarray(gaps_mm, float)
-    fig = Figure(figsize=(7, 4.8))
+    fig = _figure(figsize=(7, 4.8))
     ax = fig.subplots()
     refused = 0
     weights: list[float] = []
@@ -566,7 +576,7 @@ def plot_section(design, out_dir, label: str) -> list[Path]:
     from matplotlib.patches import Polygon
 
     poly = section_mm(design)
-    fig = Figure(figsize=(6.5, 6.5))
+    fig = _figure(figsize=(6.5, 6.5))
     ax = fig.subplots()
     for layer, (colour, words) in _PART_STYLE.items():
         if layer not in poly:

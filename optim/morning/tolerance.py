@@ -59,6 +59,11 @@ import numpy as np
 
 from models.design import DESIGN_KEYS, edit, read_toml, resolve_key
 from models.errors import DesignError, nearest
+from models.evaluate import evaluate
+from models.supply import with_fixed_capacitor
+from optim.files import atomic_write_text, safe_child
+from optim.jsonout import strict_json
+from optim.morning.handoff import unit_of
 
 __all__ = [
     "DEFAULT_SAMPLES",
@@ -140,7 +145,6 @@ class Tolerance:
 
     @property
     def unit(self) -> str:
-        from optim.morning.handoff import unit_of
 
         u = unit_of(self.key)
         return "" if u == "-" else u
@@ -219,7 +223,6 @@ def default_tolerances(design) -> list[Tolerance]:
 def _parse_value(key: str, value, where: str, problems: list[str]):
     """A half-width: a number >= 0 (the key's unit) or a string "N %" (0 <= N < 100). Returns
     (value, relative) or None (with a problem)."""
-    from optim.morning.handoff import unit_of
 
     unit = unit_of(key)
     allowed = (
@@ -371,7 +374,7 @@ def _evaluate_all(design, runs: list, isothermal: bool, evaluator=None) -> list:
     """Evaluate ``design`` moved by each of ``runs`` (dicts of deltas): ``_outputs`` or
     ``{"refused": reason}`` per run."""
     if evaluator is None:
-        from models.evaluate import evaluate as evaluator
+        evaluator = evaluate
     out = []
     for deltas in runs:
         try:
@@ -447,8 +450,6 @@ def _capacitor_as_built(design, isothermal: bool, evaluator=None):
     drive = design.drive
     if getattr(drive, "compensation", "none") == "none" or drive.capacitance is not None:
         return design
-    from models.evaluate import evaluate
-    from models.supply import with_fixed_capacitor
 
     nominal = (evaluator or evaluate)(design, isothermal)
     capacitance_uF = getattr(nominal, "capacitor_uF", 0.0)
@@ -728,8 +729,6 @@ def tolerance_csvs(study: ToleranceStudy) -> dict[str, str]:
 def write_tolerance(study: ToleranceStudy, out_dir) -> dict[str, Path]:
     """Write tolerance.txt, tolerance.json and the CSV tables into ``out_dir`` (atomically);
     returns file name -> path."""
-    from optim.files import atomic_write_text, safe_child
-    from optim.jsonout import strict_json
 
     out_dir = Path(out_dir)
     if out_dir.exists() and not out_dir.is_dir():

@@ -16,7 +16,10 @@ currents and voltage, the impedance as [re, im] or a complex number, split here 
 from __future__ import annotations
 
 import math
+import time
 
+from models.errors import DesignError
+from models.evaluate import evaluate
 from optim.words import CAUTION
 
 __all__ = ["QUANTITIES", "compare", "format_table", "to_json", "run_verify"]
@@ -274,10 +277,7 @@ def run_verify(design, refine: float = 1.0, far_factor: float = 1.0) -> dict:
         (`models.fem.reference.ReferenceResult`). When the fast model refuses the design (a solid pole) the
         table is FEM-only and ``json["fast_error"]`` gives its reason.
     """
-    import time
 
-    from models.errors import DesignError
-    from models.evaluate import evaluate
     from models.fem.reference import reference
 
     fast, fast_error, fast_time = None, None, math.nan

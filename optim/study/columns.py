@@ -18,11 +18,18 @@ import math
 import os
 import time
 from dataclasses import dataclass, field
+from datetime import datetime
+from pathlib import Path
 
 import numpy as np
+from joblib import Parallel, delayed
 
-from optim.study.ledger import JournalLedger, _Distributions, params_of
+from models.errors import DesignError
+from optim.study.journal import decode_trial, is_trial_of, segments
+from optim.study.ledger import JournalIndex, JournalLedger, LedgerUnfit, _Distributions, params_of
 from optim.study.records import RESULT_NAMES_ATTR, StoredRecord, constraints_of
+from optim.study.space import parse_search
+from optim.study.storage import JOURNAL, SPEC_ATTR, is_url, journal_damage_note, load_existing
 
 __all__ = ["TrialColumns", "StudyReadout", "open_readout"]
 
@@ -122,7 +129,6 @@ class _Filler:
 def _epoch(text) -> float:
     if text is None:
         return math.nan
-    from datetime import datetime
 
     return datetime.fromisoformat(text).timestamp()
 
@@ -193,7 +199,6 @@ class StudyReadout:
 
 
 def _filler(n: int, shape) -> _Filler:
-    from optim.study.space import parse_search
 
     names, search, constraints, k = shape
     return _Filler(n, names, parse_search(search, []), constraints, k)
@@ -218,8 +223,6 @@ def _journal_columns(ledger, shape) -> TrialColumns:
     if len(ranges) <= 1:
         parts = [_decode_range(*r) for r in ranges]
     else:
-        from joblib import Parallel, delayed
-
         parts = Parallel(n_jobs=len(ranges))(delayed(_decode_range)(*r) for r in ranges)
     if not parts:
         return _filler(0, shape).columns()
@@ -229,7 +232,6 @@ def _journal_columns(ledger, shape) -> TrialColumns:
 
 def _decode_range(path, study_id: int, offset: int, first: int, end: int, shape) -> TrialColumns:
     """Decode the study's trial records ``first`` to ``end`` - 1, the first at byte ``offset``."""
-    from optim.study.journal import decode_trial, is_trial_of, segments
 
     filler = _filler(end - first, shape)
     dists = _Distributions()
@@ -282,17 +284,6 @@ def tail_note(path, index, settle_s: float = 0.3) -> str | None:
 def open_readout(location, name: str | None = None) -> StudyReadout:
     """The study at ``location`` (folder or URL; ``name`` picks one of several) for reading: a
     journal through the ledger's index when it can follow it, else optuna's storage."""
-    from pathlib import Path
-
-    from models.errors import DesignError
-    from optim.study.ledger import JournalIndex, JournalLedger, LedgerUnfit
-    from optim.study.storage import (
-        JOURNAL,
-        SPEC_ATTR,
-        is_url,
-        journal_damage_note,
-        load_existing,
-    )
 
     if not is_url(str(location)):
         path = Path(location) / JOURNAL

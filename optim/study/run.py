@@ -25,15 +25,23 @@ import numpy as np
 from models.errors import DesignError
 from optim.files import redact_text, redact_url
 from optim.study.engine import run_worker
+from optim.study.ledger import JournalLedger, LedgerUnfit, open_ledger
 from optim.study.pareto import minimisation_signs, with_row
 from optim.study.records import RESULT_NAMES_ATTR, ErrorMessage, TrialMessage, WorkerConfig
 from optim.study.sampler import derive_seed
 from optim.study.storage import (
     FINGERPRINT_ATTR,
+    JOURNAL,
+    SPEC_ATTR,
+    check_stored,
     create_or_load,
+    is_storage_error,
     is_url,
+    journal_damage_note,
     open_storage,
     release,
+    repair_journal,
+    storage_fault,
 )
 
 __all__ = ["study_folder", "run_study", "Progress", "prepare"]
@@ -147,14 +155,6 @@ def prepare(spec, location, note=None):
     is stored): ``optim.study.ledger``'s line to the study, which does not read its trials (a
     journal's existing study is read by one pass over its records' heads). ``note`` (a function
     of one line; default: a warning on stderr) hears what was set aside or skipped."""
-    from optim.study.ledger import JournalLedger, LedgerUnfit, open_ledger
-    from optim.study.storage import (
-        JOURNAL,
-        SPEC_ATTR,
-        check_stored,
-        journal_damage_note,
-        repair_journal,
-    )
 
     note = note or logging.getLogger("eddypull").warning
     if not is_url(str(location)):
@@ -509,8 +509,6 @@ def _worker_entry(config: WorkerConfig, conn, stop, counter):
         sender.put(ErrorMessage(redact_text("; ".join(err.problems), config.location)))
         code = 3
     except Exception as err:  # reported once by the parent; the study itself is intact
-        from optim.study.storage import is_storage_error, storage_fault
-
         if is_storage_error(err):
             text = str(storage_fault(err, config.location, "a worker stopped"))
         else:
