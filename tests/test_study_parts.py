@@ -13,16 +13,17 @@ from __future__ import annotations
 import copy
 import math
 import re
+import sys
 import tomllib
 
 import pytest
 
 from models.design import design_from_dict, load_design, with_value
 from models.evaluate import evaluate_pick_gaps
+from models.family import part_pulls_under_magnet
 from optim.cli import main
 from optim.morning.front import trials_table
 from optim.study.engine import evaluate_trial
-from optim.study.family import pulls_under_magnet
 from optim.study.objectives import results_of
 from optim.study.run import run_study
 from optim.study.space import design_source
@@ -157,13 +158,14 @@ def test_a_family_of_one_gives_todays_front_on_the_same_seed(tmp_path):
     ids=["as filed", "held at 2 mm", "part stays"],
 )
 def test_a_part_under_the_evaluated_magnet_is_that_evaluation_for_its_own_part(edit):
-    """pulls_under_magnet on the first lift part itself repeats evaluate_pick_gaps (the same
+    """models.family.part_pulls_under_magnet (what family_results puts every other part
+    through) on the first lift part itself repeats evaluate_pick_gaps (the same
     steps, the same temperatures: identity to rounding, 1e-12)."""
     design = with_value(load_design(DEMO), "target.thickness_mm", 0.6)
     for key, value in edit.items():
         design = with_value(design, key, value)
     result, pulls = evaluate_pick_gaps(design, GAPS)
-    again, hold = pulls_under_magnet(result, design, GAPS)
+    again, hold = part_pulls_under_magnet(design, result, GAPS)
     assert again == pytest.approx(pulls, rel=1e-12)
     assert hold == pytest.approx(result.pull_hold_N, rel=1e-12)
 
@@ -348,7 +350,7 @@ def test_the_sorting_demo_is_a_valid_family_beside_the_lifter(tmp_path, monkeypa
         seen.append((spec.name, folder))
         return {"errors": ["stopped by the test"]}
 
-    monkeypatch.setattr("optim.study.run.run_study", fake_run)
+    monkeypatch.setattr(sys.modules["optim.cli.main"], "run_study", fake_run)
     monkeypatch.chdir(tmp_path)
     assert main(["demo", "--scenario", "sorting", "--trials", "1"]) == 1
     assert main(["demo", "--trials", "1"]) == 1

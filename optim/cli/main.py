@@ -33,13 +33,11 @@ from optim.morning.tolerance import (
     DEFAULT_SAMPLES,
     DEFAULT_SEED,
     SAMPLES_RANGE,
-    format_tolerance,
     read_tolerance_spec,
     run_tolerance,
-    tolerance_json,
     tolerances_for,
-    write_tolerance,
 )
+from optim.morning.tolerance_out import format_tolerance, tolerance_json, write_tolerance
 from optim.morning.verify import run_verify
 from optim.study.columns import open_readout
 from optim.study.run import run_study

@@ -30,8 +30,8 @@ from optim.morning.tolerance import (
     ToleranceStudy,
     run_tolerance,
     tolerances_for,
-    write_tolerance,
 )
+from optim.morning.tolerance_out import write_tolerance
 from optim.study.objectives import results_of
 
 __all__ = [
