@@ -32,7 +32,7 @@ LAMINATIONS   a laminated pole's sheets: lines parallel to the axis in the pole'
 ============  ==========================================================================
 
 Revolving each closed polyline about the y axis gives the solid of that part. `section_mm` is the
-one source of this geometry: the DXF and the plotted section (`optim.morning.plots.plot_section`) both use
+one source of this geometry: the DXF and the plotted section (`optim.morning.design_plots.plot_section`) both use
 it.
 """
 

@@ -18,7 +18,7 @@ from models.checks import VALIDATED_RANGE
 from models.errors import DesignError
 from models.evaluate import evaluate
 from optim.files import atomic_path, atomic_write_text
-from optim.morning import plots, robustness
+from optim.morning import design_plots, plots, robustness
 from optim.morning.cards import CardStates
 from optim.morning.front import constraint_lines, for_people, status_summary, trials_table
 from optim.morning.handoff import write_handoff
@@ -301,8 +301,8 @@ def _write_plots(plot_dir: Path, spec, objectives: dict, df, front, designs) -> 
         )
     if designs:
         isothermal = bool(spec.run.get("isothermal", False))
-        images += plots.plot_pull_vs_gap(designs, plot_dir, isothermal=isothermal)
-        images += plots.plot_section(designs[0][1], plot_dir, designs[0][0])
+        images += design_plots.plot_pull_vs_gap(designs, plot_dir, isothermal=isothermal)
+        images += design_plots.plot_section(designs[0][1], plot_dir, designs[0][0])
     return images
 
 
