@@ -17,6 +17,8 @@ import re
 import tempfile
 from pathlib import Path
 
+from sqlalchemy.engine import make_url
+
 from models.errors import DesignError
 
 __all__ = [
@@ -140,8 +142,6 @@ def redact_url(url: str) -> str:
         return url
     out = url
     try:
-        from sqlalchemy.engine import make_url
-
         parsed = make_url(url)
         if parsed.password is not None:
             out = parsed.render_as_string(hide_password=True)
@@ -155,8 +155,6 @@ def redact_text(text: str, url) -> str:
     text = str(text)
     if isinstance(url, str) and "://" in url:
         try:
-            from sqlalchemy.engine import make_url
-
             password = make_url(url).password
         except Exception:
             password = None

@@ -20,6 +20,7 @@ from models.errors import DesignError
 from optim.files import atomic_path, atomic_write_text, redact_url, safe_child, safe_name
 from optim.morning.front import trials_table
 from optim.study.engine import run_worker
+from optim.study.records import WorkerConfig
 from optim.study.run import prepare
 from optim.study.spec import load_study_spec
 from optim.study.storage import load_existing, open_storage
@@ -49,7 +50,7 @@ def test_disk_full_mid_write_stops_with_one_line_and_the_study_resumes(tmp_path,
 
     monkeypatch.setattr(JournalFileBackend, "append_logs", filling_disk)
     counter = mp.get_context("spawn").Value("q", 0)
-    cfg = {"spec": spec.to_json(), "location": str(folder), "trials": 20, "seed": 1}
+    cfg = WorkerConfig(spec=spec.to_json(), location=str(folder), trials=20, seed=1)
     with pytest.raises(DesignError, match=r"storage write failed \(No space left on device\)"):
         run_worker(cfg, None, None, counter)
     monkeypatch.setattr(JournalFileBackend, "append_logs", real)
@@ -59,7 +60,7 @@ def test_disk_full_mid_write_stops_with_one_line_and_the_study_resumes(tmp_path,
     study, spec_json, _ = load_existing(folder)
     assert len(study.get_trials(deepcopy=False)) == 6
     counter = mp.get_context("spawn").Value("q", 0)
-    assert run_worker(dict(cfg, trials=4, seed=2), None, None, counter) == 4
+    assert run_worker(cfg.but(trials=4, seed=2), None, None, counter).recorded == 4
     study, spec_json, _ = load_existing(folder)
     df = trials_table(study, spec_json)
     assert len(df) == 10

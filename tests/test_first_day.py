@@ -207,6 +207,7 @@ def _repeat_study(tmp_path, trials: int):
     import multiprocessing as mp
 
     from optim.study.engine import run_worker
+    from optim.study.records import WorkerConfig
     from optim.study.run import prepare
 
     path = tmp_path / "repeats.toml"
@@ -216,15 +217,15 @@ def _repeat_study(tmp_path, trials: int):
     spec = load_study_spec(path)
     folder = tmp_path / "repeats"
     prepare(spec, folder)
-    cfg = {"spec": spec.to_json(), "location": str(folder), "trials": trials, "seed": 3}
+    cfg = WorkerConfig(spec=spec.to_json(), location=str(folder), trials=trials, seed=3)
     counter = mp.get_context("spawn").Value("q", 0)
-    assert run_worker(cfg, None, None, counter) == trials
+    assert run_worker(cfg, None, None, counter).recorded == trials
     return spec, folder
 
 
 def test_a_repeated_design_is_copied_not_evaluated(tmp_path):
     from optim.morning.front import status_summary, trials_table
-    from optim.study.engine import record_of
+    from optim.study.records import StoredRecord
     from optim.study.storage import load_existing
 
     spec, folder = _repeat_study(tmp_path, 20)
@@ -233,15 +234,15 @@ def test_a_repeated_design_is_copied_not_evaluated(tmp_path):
     first: dict = {}
     for t in trials:
         key = tuple(sorted(t.params.items()))
-        rec = record_of(t)
+        rec = StoredRecord.of(t.user_attrs)
         if key not in first:  # the first of a design is evaluated
             first[key] = t
-            assert "copy_of" not in rec and rec["eval_s"] > 0
+            assert rec.copy_of is None and rec.eval_s > 0
         else:  # every later one copies it: its numbers, no evaluation
             original = first[key]
-            assert rec["copy_of"] == original.number and rec["eval_s"] == 0
+            assert rec.copy_of == original.number and rec.eval_s == 0
             assert t.values == original.values
-            assert rec["results"] == record_of(original)["results"]
+            assert rec.results == StoredRecord.of(original.user_attrs).results
     assert len(first) <= 6 < len(trials)  # 3 turns x 2 steels: repeats are certain
     df = trials_table(study, spec_json)
     copies = df["copy_of"].notna()

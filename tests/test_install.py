@@ -9,6 +9,7 @@ checked by ``.ci/run``.
 from __future__ import annotations
 
 import os
+import sys
 import tomllib
 from importlib.resources import files
 from pathlib import Path
@@ -47,7 +48,7 @@ def _fake_run(seen):
 
 def test_demo_writes_in_the_current_folder(tmp_path, monkeypatch, capsys):
     seen = []
-    monkeypatch.setattr("optim.study.run.run_study", _fake_run(seen))
+    monkeypatch.setattr(sys.modules["optim.cli.main"], "run_study", _fake_run(seen))
     monkeypatch.chdir(tmp_path)
     assert main(["demo", "--trials", "1"]) == 1
     assert seen == [tmp_path / "harrowgate-night"]

@@ -265,6 +265,7 @@ def test_a_resumed_run_reads_past_damage_and_says_so_in_run_log(clean, tmp_path,
 
 def test_a_worker_reads_its_window_past_a_damaged_record(clean, tmp_path):
     from optim.study.engine import run_worker
+    from optim.study.records import WorkerConfig
     from optim.study.spec import load_study_spec
 
     path, data, _ = clean
@@ -275,8 +276,8 @@ def test_a_worker_reads_its_window_past_a_damaged_record(clean, tmp_path):
     _write(folder, b"".join(lines))
     spec = load_study_spec(path)
     counter = mp.get_context("spawn").Value("q", 0)
-    cfg = {"spec": spec.to_json(), "location": str(folder), "trials": 2, "seed": 5}
-    assert run_worker(cfg, None, None, counter) == 2
+    cfg = WorkerConfig(spec=spec.to_json(), location=str(folder), trials=2, seed=5)
+    assert run_worker(cfg, None, None, counter).recorded == 2
     states = [s for s, _ in _every_reader(folder)["optuna"]]
     assert len(states) == 10 and states[7] == "FAIL"
 

@@ -18,7 +18,7 @@ from models.evaluate import evaluate
 from optim.cli import main
 from optim.demo import DEMO_STUDY
 from optim.morning.outputs import design_of
-from optim.study.engine import record_of
+from optim.study.records import RESULT_NAMES_ATTR, StoredRecord
 from optim.study.run import run_study
 from optim.study.spec import load_study_spec, spec_from_json
 from optim.study.storage import load_existing
@@ -108,7 +108,11 @@ def test_export_reproduces_the_stored_numbers(finished, tmp_path, capsys):
     trial = study.trials[info["study"]["trial"]]
     # The trial's own design still reproduces the stored numbers (the model did not change) ...
     stored = dict(
-        zip(study.user_attrs["eddypull_result_names"], record_of(trial)["results"], strict=True)
+        zip(
+            study.user_attrs[RESULT_NAMES_ATTR],
+            StoredRecord.of(trial.user_attrs).results,
+            strict=True,
+        )
     )
     unrounded = evaluate(design_of(spec_from_json(spec_json), trial.params))
     for name in ("pull_N", "input_power_W", "ring_loss_W", "coil_temperature_C"):

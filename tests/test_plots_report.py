@@ -16,12 +16,11 @@ import pytest
 
 from models.design import design_from_dict, with_value
 from models.errors import DesignError
+from optim.morning.design_plots import plot_pull_vs_gap, plot_section
 from optim.morning.plots import (
     plot_front_pairs,
     plot_front_progress,
     plot_parameter_coupling,
-    plot_pull_vs_gap,
-    plot_section,
 )
 from optim.morning.report import binding_counts, write_report
 from optim.study.progress import front_history

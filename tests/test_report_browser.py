@@ -11,12 +11,12 @@ import pandas as pd
 import pytest
 
 from models.design import design_from_dict, with_value
+from optim.morning.design_plots import plot_pull_vs_gap
 from optim.morning.plots import (
     caption_for,
     plot_front_pairs,
     plot_front_progress,
     plot_parameter_coupling,
-    plot_pull_vs_gap,
 )
 from optim.morning.report import write_report
 from tests.conftest import demo_dict

@@ -99,11 +99,11 @@ def test_a_sample_is_evaluated_as_the_study_evaluates_a_trial(small_study):
     sample = robustness.study_evaluator(spec)(design_of(spec, values), True)
     prefix = robustness.CONSTRAINT_PREFIX
     assert {k[len(prefix) :]: v for k, v in sample.margins.items() if k.startswith(prefix)} == {
-        "ring_temperature_C <= 180": engine["margins"]["ring_temperature_C"],
-        "worst_lift_ratio >= 1": engine["margins"]["worst_lift_ratio"],
+        "ring_temperature_C <= 180": engine.margins["ring_temperature_C"],
+        "worst_lift_ratio >= 1": engine.margins["worst_lift_ratio"],
     }
-    assert sample.pull_N == engine["flat"]["pull_N"]
-    assert sample.margins["coil_temperature_C"] == engine["flat"]["margins.coil_temperature_C"]
+    assert sample.pull_N == engine.flat["pull_N"]
+    assert sample.margins["coil_temperature_C"] == engine.flat["margins.coil_temperature_C"]
 
 
 def test_a_magnet_tolerance_reaches_every_part_of_a_family():

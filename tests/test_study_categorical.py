@@ -20,6 +20,7 @@ import pandas as pd
 import pytest
 
 from optim.study.engine import run_worker
+from optim.study.records import Outcome, OutcomeState, WorkerConfig
 from optim.study.run import prepare, run_study
 from optim.study.space import build_design, parse_search
 from optim.study.spec import load_study_spec, spec_from_json
@@ -66,15 +67,13 @@ def stand_in(spec, values):
     f1 = -sum((xi - 0.3) ** 2 for xi in x)
     f2 = sum((xi - 0.7) ** 2 for xi in x)
     flat = {n: 0.0 for n in spec.result_names} | {"pull_N": f1, "pole_mass_kg": f2}
-    return {
-        "state": "COMPLETE",
-        "values": [f1, f2],
-        "violations": {c.name: -1.0 for c in spec.constraints},
-        "margins": {c.name: 1.0 for c in spec.constraints},
-        "flat": flat,
-        "warnings": [],
-        "reason": "",
-    }
+    return Outcome(
+        state=OutcomeState.COMPLETE,
+        values=[f1, f2],
+        violations={c.name: -1.0 for c in spec.constraints},
+        margins={c.name: 1.0 for c in spec.constraints},
+        flat=flat,
+    )
 
 
 @pytest.fixture(scope="module")
@@ -260,23 +259,23 @@ def test_a_migrant_with_a_categorical_parameter_joins_another_worker(tmp_path):
     spec = load_study_spec(_study_file(tmp_path, "mig"))
     folder = tmp_path / "mig"
     prepare(spec, folder)
-    cfg = {
-        "spec": spec.to_json(),
-        "location": str(folder),
-        "trials": 6,
-        "seed": 1,
-        "evaluator": "tests.test_study_categorical:stand_in",
-    }
+    cfg = WorkerConfig(
+        spec=spec.to_json(),
+        location=str(folder),
+        trials=6,
+        seed=1,
+        evaluator="tests.test_study_categorical:stand_in",
+    )
     counter = mp.get_context("spawn").Value("q", 0)
-    assert run_worker(dict(cfg), None, None, counter) == 6
-    other = _Worker(dict(cfg, seed=2))
+    assert run_worker(cfg, None, None, counter).recorded == 6
+    other = _Worker(cfg.but(seed=2))
     other.sync(first=True)
     imported = other.window.study.get_trials(deepcopy=False)
     assert len(imported) == 6
     stored = load_existing(folder)[0].get_trials(deepcopy=False)
     assert [t.params for t in imported] == [t.params for t in stored]
     trial, outcome, _ = other.evaluate_and_store()
-    assert trial.params["pole_material"] in STEELS and outcome["state"] == "COMPLETE"
+    assert trial.params["pole_material"] in STEELS and outcome.complete
     # A trial drawn from other choices belongs to another search: never imported.
     foreign = optuna.trial.create_trial(
         params={"pole_material": "copper", "ring_depth_mm": 1.0},
@@ -298,16 +297,16 @@ def test_every_sampler_draws_the_choices_across_a_window_rollover(tmp_path, samp
     folder = tmp_path / sampler
     prepare(spec, folder)
     counter = mp.get_context("spawn").Value("q", 0)
-    cfg = {
-        "spec": spec.to_json(),
-        "location": str(folder),
-        "trials": 60,
-        "seed": 3,
-        "window_limit": 30,
-        "evaluator": "tests.test_study_categorical:stand_in",
-    }
-    assert run_worker(cfg, None, None, counter) == 60
-    assert cfg["_window"]["rollovers"] >= 1
+    cfg = WorkerConfig(
+        spec=spec.to_json(),
+        location=str(folder),
+        trials=60,
+        seed=3,
+        window_limit=30,
+        evaluator="tests.test_study_categorical:stand_in",
+    )
+    summary = run_worker(cfg, None, None, counter)
+    assert summary.recorded == 60 and summary.rollovers >= 1
     trials = load_existing(folder)[0].get_trials(deepcopy=False)
     assert {t.params["pole_material"] for t in trials} == set(STEELS)
 

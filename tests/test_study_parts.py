@@ -13,16 +13,17 @@ from __future__ import annotations
 import copy
 import math
 import re
+import sys
 import tomllib
 
 import pytest
 
 from models.design import design_from_dict, load_design, with_value
 from models.evaluate import evaluate_pick_gaps
+from models.family import part_pulls_under_magnet
 from optim.cli import main
 from optim.morning.front import trials_table
 from optim.study.engine import evaluate_trial
-from optim.study.family import pulls_under_magnet
 from optim.study.objectives import results_of
 from optim.study.run import run_study
 from optim.study.space import design_source
@@ -126,9 +127,9 @@ def test_a_family_of_one_has_todays_results(tmp_path):
     for values in ({"ring_outer_fraction": 0.7, "ring_depth_mm": 3.0, "frequency_Hz": 400.0},):
         a = evaluate_trial(old, values)
         b = evaluate_trial(new, values)
-        assert a["values"] == b["values"] and a["violations"] == b["violations"]
-        assert {k: b["flat"][k] for k in a["flat"]} == a["flat"]
-        assert b["flat"]["parts.cap10.worst_lift_ratio"] == b["flat"]["worst_lift_ratio"]
+        assert a.values == b.values and a.violations == b.violations
+        assert {k: b.flat[k] for k in a.flat} == a.flat
+        assert b.flat["parts.cap10.worst_lift_ratio"] == b.flat["worst_lift_ratio"]
 
 
 @pytest.mark.slow
@@ -157,13 +158,14 @@ def test_a_family_of_one_gives_todays_front_on_the_same_seed(tmp_path):
     ids=["as filed", "held at 2 mm", "part stays"],
 )
 def test_a_part_under_the_evaluated_magnet_is_that_evaluation_for_its_own_part(edit):
-    """pulls_under_magnet on the first lift part itself repeats evaluate_pick_gaps (the same
+    """models.family.part_pulls_under_magnet (what family_results puts every other part
+    through) on the first lift part itself repeats evaluate_pick_gaps (the same
     steps, the same temperatures: identity to rounding, 1e-12)."""
     design = with_value(load_design(DEMO), "target.thickness_mm", 0.6)
     for key, value in edit.items():
         design = with_value(design, key, value)
     result, pulls = evaluate_pick_gaps(design, GAPS)
-    again, hold = pulls_under_magnet(result, design, GAPS)
+    again, hold = part_pulls_under_magnet(design, result, GAPS)
     assert again == pytest.approx(pulls, rel=1e-12)
     assert hold == pytest.approx(result.pull_hold_N, rel=1e-12)
 
@@ -214,11 +216,11 @@ def test_a_pushed_leave_part_counts_as_left(sorting):
     spec, _ = sorting
     values = {"pole_radius_mm": 6.5, "ring_outer_fraction": 0.9, "frequency_Hz": 1000.0}
     out = evaluate_trial(spec, values)
-    flat = out["flat"]
+    flat = out.flat
     assert flat["parts.cap16.best_lift_ratio"] < 0  # pushed at every gap, arrival and hold
     assert flat["best_leave_lift_ratio"] == flat["parts.cap16.best_lift_ratio"]
     assert flat["selectivity_margin"] > flat["worst_lift_ratio"] >= 1.0
-    assert out["state"] == "COMPLETE" and out["reason"] == ""  # feasible: left, and lifted
+    assert out.complete and out.reason == ""  # feasible: left, and lifted
 
 
 def test_the_family_is_kept_in_the_study_definition(tmp_path):
@@ -348,7 +350,7 @@ def test_the_sorting_demo_is_a_valid_family_beside_the_lifter(tmp_path, monkeypa
         seen.append((spec.name, folder))
         return {"errors": ["stopped by the test"]}
 
-    monkeypatch.setattr("optim.study.run.run_study", fake_run)
+    monkeypatch.setattr(sys.modules["optim.cli.main"], "run_study", fake_run)
     monkeypatch.chdir(tmp_path)
     assert main(["demo", "--scenario", "sorting", "--trials", "1"]) == 1
     assert main(["demo", "--trials", "1"]) == 1

@@ -85,9 +85,9 @@ def test_a_study_counts_an_out_of_depth_trial_infeasible_unless_allowed(tmp_path
         folder=tmp_path,
     )
     out = evaluate_trial(spec, {"frequency_Hz": 50.0})
-    assert out["state"] == "COMPLETE"
+    assert out.complete
     if allow:
-        assert out["violations"] == {} and out["reason"] == ""
+        assert out.violations == {} and out.reason == ""
     else:
-        assert out["violations"] == {OUT_OF_DEPTH_RULE: 1.0}
-        assert out["reason"] == f"infeasible: {OUT_OF_DEPTH_RULE}"
+        assert out.violations == {OUT_OF_DEPTH_RULE: 1.0}
+        assert out.reason == f"infeasible: {OUT_OF_DEPTH_RULE}"

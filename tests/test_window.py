@@ -7,6 +7,7 @@ import multiprocessing as mp
 import numpy as np
 
 from optim.study.engine import run_worker
+from optim.study.records import Outcome, OutcomeState, WorkerConfig
 from optim.study.run import prepare
 from optim.study.spec import load_study_spec
 from optim.study.storage import load_existing
@@ -20,15 +21,13 @@ def bowl(spec, values):
     x = np.array([(values[p.name] - p.low) / (p.high - p.low) for p in spec.params])
     f1, f2 = -float(np.sum((x - 0.3) ** 2)), float(np.sum((x - 0.7) ** 2))
     flat = {n: 0.0 for n in spec.result_names} | {"pull_N": f1, "input_power_W": f2}
-    return {
-        "state": "COMPLETE",
-        "values": [f1, f2],
-        "violations": {c.name: -1.0 for c in spec.constraints},
-        "margins": {c.name: 1.0 for c in spec.constraints},
-        "flat": flat,
-        "warnings": [],
-        "reason": "",
-    }
+    return Outcome(
+        state=OutcomeState.COMPLETE,
+        values=[f1, f2],
+        violations={c.name: -1.0 for c in spec.constraints},
+        margins={c.name: 1.0 for c in spec.constraints},
+        flat=flat,
+    )
 
 
 def test_window_rolls_over_and_keeps_searching(tmp_path):
@@ -36,19 +35,20 @@ def test_window_rolls_over_and_keeps_searching(tmp_path):
     folder = tmp_path / "win"
     prepare(spec, folder)
     counter = mp.get_context("spawn").Value("q", 0)
-    cfg = {
-        "spec": spec.to_json(),
-        "location": str(folder),
-        "trials": 700,
-        "seed": 1,
-        "window_limit": 100,
-        "evaluator": "tests.test_window:bowl",
-    }
-    assert run_worker(cfg, None, None, counter) == 700
+    cfg = WorkerConfig(
+        spec=spec.to_json(),
+        location=str(folder),
+        trials=700,
+        seed=1,
+        window_limit=100,
+        evaluator="tests.test_window:bowl",
+    )
+    summary = run_worker(cfg, None, None, counter)
+    assert summary.recorded == 700
     # 700 trials through a window of 100: it rolled over, and never grew past the limit plus the
     # one generation it keeps (population 10 here, plus its parents).
-    assert cfg["_window"]["rollovers"] >= 5
-    assert cfg["_window"]["size"] <= 100 + 2 * 10
+    assert summary.rollovers >= 5
+    assert summary.window_size <= 100 + 2 * 10
     study, spec_json, _ = load_existing(folder)
     trials = study.get_trials(deepcopy=False)
     assert len(trials) == 700
@@ -67,8 +67,8 @@ def test_window_rolls_over_and_keeps_searching(tmp_path):
     assert last < first - 0.03, (first, last)
     # A resumed worker starts from the latest window of the shared study.
     counter2 = mp.get_context("spawn").Value("q", 0)
-    cfg2 = dict(cfg, trials=50, seed=2)
-    assert run_worker(cfg2, None, None, counter2) == 50
+    cfg2 = cfg.but(trials=50, seed=2)
+    assert run_worker(cfg2, None, None, counter2).recorded == 50
     assert len(load_existing(folder)[0].get_trials(deepcopy=False)) == 750
 
 

@@ -9,25 +9,49 @@ from __future__ import annotations
 
 import argparse
 import errno
+import logging
+import os
 import sys
+from dataclasses import asdict
+from importlib.metadata import PackageNotFoundError, version
 from pathlib import Path
 
 from models.design import load_design
 from models.errors import DesignError
 from models.evaluate import evaluate
+from models.materials import MATERIALS
+from models.result import MODEL_VERSION
+from optim.cli.study import add_study_parser, check_budget
+from optim.cli.summary import format_materials, format_result
 from optim.cli.usage import UsageError
+from optim.demo import SCENARIOS
 from optim.jsonout import strict_json
+from optim.morning.outputs import export_trial, write_front
+from optim.morning.pickmap import evaluate_map, format_map, map_json, parse_axis, write_map
+from optim.morning.sweep import format_sweep, parse_sweep, plot_sweep, run_sweep
+from optim.morning.tolerance import (
+    DEFAULT_SAMPLES,
+    DEFAULT_SEED,
+    SAMPLES_RANGE,
+    read_tolerance_spec,
+    run_tolerance,
+    tolerances_for,
+)
+from optim.morning.tolerance_out import format_tolerance, tolerance_json, write_tolerance
+from optim.morning.verify import run_verify
+from optim.study.columns import open_readout
+from optim.study.run import run_study
+from optim.study.spec import load_study_spec
+from optim.study.storage import StorageFault, is_storage_error, storage_fault
+from optim.words import CAUTION
 
 __all__ = ["main"]
 
 
 def _cmd_evaluate(args) -> int:
-    from optim.cli.summary import format_result
 
     design = load_design(args.design)
     if args.sweep:
-        from optim.morning.sweep import format_sweep, parse_sweep, plot_sweep, run_sweep
-
         key, values, note = parse_sweep(args.sweep, args.points)
         rows = run_sweep(design, key, values, isothermal=args.isothermal)
         if note:  # once the sweep ran: a failing one shows only its error
@@ -55,7 +79,6 @@ def _cmd_evaluate(args) -> int:
 
 def _cmd_map(args) -> int:
     """A pick map: the lift ratio over two design keys, drawn and tabulated."""
-    from optim.morning.pickmap import evaluate_map, format_map, map_json, parse_axis, write_map
 
     design = load_design(args.design)
     x = parse_axis(design, args.x, args.points, "--x")
@@ -68,15 +91,6 @@ def _cmd_map(args) -> int:
 
 def _cmd_tolerance(args) -> int:
     """The tolerance table: sensitivities, Monte Carlo spread and the limits kept."""
-    from optim.morning.tolerance import (
-        SAMPLES_RANGE,
-        format_tolerance,
-        read_tolerance_spec,
-        run_tolerance,
-        tolerance_json,
-        tolerances_for,
-        write_tolerance,
-    )
 
     design = load_design(args.design)
     lo, hi = SAMPLES_RANGE
@@ -103,7 +117,6 @@ def _cmd_tolerance(args) -> int:
 
 
 def _cmd_verify(args) -> int:
-    from optim.morning.verify import run_verify
 
     design = load_design(args.design)
     out = run_verify(design, refine=args.refine)
@@ -112,13 +125,8 @@ def _cmd_verify(args) -> int:
 
 
 def _cmd_materials(args) -> int:
-    from optim.cli.summary import format_materials
 
     if args.json:
-        from dataclasses import asdict
-
-        from models.materials import MATERIALS
-
         print(strict_json({k: asdict(m) for k, m in MATERIALS.items()}))
     else:
         print(format_materials())
@@ -133,12 +141,6 @@ def _cmd_demo(args) -> int:
     (``demo_sorting.toml``, a family of parts). The demo files are read from the installed
     package; every output goes to ``--out`` or to ``./<study name>`` (``harrowgate-night``,
     ``harrowgate-sorting``) in the current folder, never beside the package's files."""
-    from optim.cli.study import check_budget
-    from optim.demo import SCENARIOS
-    from optim.morning.outputs import export_trial, write_front
-    from optim.study.columns import open_readout
-    from optim.study.run import run_study
-    from optim.study.spec import load_study_spec
 
     demo_study = SCENARIOS[args.scenario]
     spec = load_study_spec(demo_study)
@@ -175,7 +177,6 @@ def _cmd_demo(args) -> int:
     for line in out["lines"]:
         print(line)
     first = next(iter(spec_json["objectives"]))
-    from optim.cli.summary import CAUTION
 
     if out["front"].empty:
         print("no feasible design yet: run the demo longer (eddypull demo --minutes 10)")
@@ -230,8 +231,6 @@ def _parser() -> argparse.ArgumentParser:
     mp.add_argument("--isothermal", action="store_true", help="resistivities at 20 degC, uncoupled")
     mp.set_defaults(func=_cmd_map)
 
-    from optim.morning.tolerance import DEFAULT_SAMPLES, DEFAULT_SEED
-
     t = sub.add_parser(
         "tolerance",
         help="tolerance table: sensitivities, Monte Carlo spread and the limits kept",
@@ -267,8 +266,6 @@ def _parser() -> argparse.ArgumentParser:
     m.add_argument("--json", action="store_true", help="print one JSON object")
     m.set_defaults(func=_cmd_materials)
 
-    from optim.demo import SCENARIOS
-
     d = sub.add_parser(
         "demo", help="run the demo study, then write its front, report and best design's hand-off"
     )
@@ -301,8 +298,6 @@ def _parser() -> argparse.ArgumentParser:
     )
     d.set_defaults(func=_cmd_demo)
 
-    from optim.cli.study import add_study_parser
-
     add_study_parser(sub)
     return p
 
@@ -310,7 +305,6 @@ def _parser() -> argparse.ArgumentParser:
 def _quiet_stdout() -> None:
     """Point stdout at the null device, so that the interpreter's last flush of a closed pipe
     does not print an error at exit."""
-    import os
 
     try:
         devnull = os.open(os.devnull, os.O_WRONLY)
@@ -321,9 +315,6 @@ def _quiet_stdout() -> None:
 
 def version_line() -> str:
     """``eddypull --version``: the installed distribution's version and the fast model's."""
-    from importlib.metadata import PackageNotFoundError, version
-
-    from models.result import MODEL_VERSION
 
     try:
         number = version("eddypull")
@@ -338,7 +329,6 @@ _RUNTIME_ERRNOS = {errno.ENOSPC, errno.EDQUOT, errno.EROFS, errno.EIO}
 
 def _warnings_to_stderr() -> None:
     """eddypull's own warnings (the storage's notes) as one line each on stderr."""
-    import logging
 
     log = logging.getLogger("eddypull")
     if not any(getattr(h, "_eddypull", False) for h in log.handlers):
@@ -351,7 +341,6 @@ def _warnings_to_stderr() -> None:
 
 def _storage_of(args):
     """The storage a command was pointed at (for an error's wording, password hidden)."""
-    import os
 
     return (
         getattr(args, "storage", None)
@@ -362,7 +351,6 @@ def _storage_of(args):
 
 
 def main(argv=None) -> int:
-    from optim.study.storage import StorageFault, is_storage_error, storage_fault
 
     args = _parser().parse_args(argv)
     _warnings_to_stderr()

@@ -8,14 +8,22 @@ import sys
 from pathlib import Path
 
 from optim.cli.usage import UsageError
+from optim.files import redact_url, safe_name
 from optim.jsonout import strict_json
+from optim.morning.front import constraint_lines, format_status, status_summary
+from optim.morning.nearest import nearest_lines
+from optim.morning.outputs import export_trial, write_front
+from optim.study.columns import open_readout
+from optim.study.run import budget_minutes, run_study, study_folder
+from optim.study.space import coupling_rules
+from optim.study.spec import RUN_MAX, load_study_spec
+from optim.study.storage import is_url, release, rewrite_journal
 
 __all__ = ["add_study_parser"]
 
 
 def check_budget(workers, trials, minutes, flag: str = "--trials") -> None:
     """The run's workers, trials (``flag`` names them) and minutes, or a one-line DesignError."""
-    from optim.study.spec import RUN_MAX
 
     for name, value in (("--workers", workers), (flag, trials)):
         if value is not None and (not isinstance(value, int) or value < 1):
@@ -29,9 +37,6 @@ def check_budget(workers, trials, minutes, flag: str = "--trials") -> None:
 
 
 def _cmd_run(args) -> int:
-    from optim.study.run import budget_minutes, run_study, study_folder
-    from optim.study.spec import RUN_MAX, load_study_spec
-    from optim.study.storage import is_url
 
     spec = load_study_spec(args.study)
     run = spec.run
@@ -92,7 +97,6 @@ def _cmd_run(args) -> int:
 
 def _has_password(url: str) -> bool:
     """True when a database URL carries a password (user:password@host, or ?password=...)."""
-    from optim.files import redact_url
 
     return redact_url(url) != url
 
@@ -100,10 +104,6 @@ def _has_password(url: str) -> bool:
 def _why_none_feasible(location, name: str) -> list[str]:
     """Which constraint rejected how many trials, and the best margin reached: the reason a run
     found no feasible design."""
-    from optim.morning.front import constraint_lines, status_summary
-    from optim.morning.nearest import nearest_lines
-    from optim.study.columns import open_readout
-    from optim.study.storage import release
 
     study = open_readout(location, name)
     spec_json = study.spec_json
@@ -118,14 +118,11 @@ def _why_none_feasible(location, name: str) -> list[str]:
 def _location(args) -> tuple:
     """(storage location, study name) of a command's DIR|URL argument; a study file
     (``STUDY.toml``) stands for its study: its folder, or the database its runs use."""
-    from optim.study.storage import is_url
 
     loc = args.location
     path = Path(loc)
     if is_url(loc) or path.suffix.lower() != ".toml" or not path.is_file():
         return loc, args.name
-    from optim.study.run import study_folder
-    from optim.study.spec import load_study_spec
 
     spec = load_study_spec(path)
     storage = os.environ.get("EDDYPULL_STORAGE_URL") or spec.run.get("storage")
@@ -135,7 +132,6 @@ def _location(args) -> tuple:
 def _open(args):
     """The study to read: (readout, its definition, where it is) (optim.study.columns); what was
     skipped in its storage is said on stderr."""
-    from optim.study.columns import open_readout
 
     args.location, args.name = _location(args)
     readout = open_readout(args.location, args.name)
@@ -145,7 +141,6 @@ def _open(args):
 
 
 def _cmd_repair(args) -> int:
-    from optim.study.storage import is_url, rewrite_journal
 
     location, _ = _location(args)
     if is_url(location):
@@ -155,8 +150,6 @@ def _cmd_repair(args) -> int:
 
 
 def _cmd_status(args) -> int:
-    from optim.morning.front import format_status, status_summary
-    from optim.study.storage import release
 
     study, spec_json, where = _open(args)
     try:
@@ -168,13 +161,11 @@ def _cmd_status(args) -> int:
 
 
 def _cmd_results(args) -> int:
-    from optim.study.spec import load_study_spec
 
     spec = load_study_spec(args.study)
     print("results a study can optimise or constrain (units in the names):")
     for name in spec.result_names:
         print(f"  {name}")
-    from optim.study.space import coupling_rules
 
     print("what follows the searched parameters (coupling rules):")
     for rule in coupling_rules(spec.base, spec.params):
@@ -183,8 +174,6 @@ def _cmd_results(args) -> int:
 
 
 def _cmd_front(args) -> int:
-    from optim.morning.outputs import write_front
-    from optim.study.storage import release
 
     study, spec_json, where = _open(args)
     try:
@@ -204,11 +193,9 @@ def _cmd_front(args) -> int:
 
 
 def _cmd_export(args) -> int:
-    from optim.morning.outputs import export_trial
 
     if (args.trial is not None) + (args.best is not None) + bool(args.nearest) != 1:
         raise UsageError("export: give exactly one of --trial N, --best OBJECTIVE and --nearest")
-    from optim.study.storage import release
 
     study, spec_json, where = _open(args)
     folder = _folder_for(args.location, spec_json, None)
@@ -235,8 +222,6 @@ def _cmd_export(args) -> int:
 
 
 def _folder_for(location, spec_json, out) -> Path:
-    from optim.files import safe_name
-    from optim.study.storage import is_url
 
     if out:
         return Path(out)

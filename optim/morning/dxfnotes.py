@@ -11,7 +11,7 @@ value a CAD program reads from it (``Dimension.get_measurement``) is the design'
 
 from __future__ import annotations
 
-from optim.morning.dxf import section_mm
+from optim.morning.section import section_mm
 
 __all__ = [
     "dimensions_mm",

@@ -23,7 +23,11 @@ import math
 import numpy as np
 import pandas as pd
 
+from models.design import coil_turns
+from optim.morning.nearest import nearest_lines, nearest_trials
+from optim.study.columns import StudyReadout
 from optim.study.pareto import pareto_mask
+from optim.study.space import design_source, parse_search
 
 __all__ = [
     "DIMENSIONS",
@@ -79,7 +83,6 @@ def trials_table(study, spec_json: dict, dimensions: bool = True) -> pd.DataFram
     one row (see the module docstring for the columns). Built column by column from the stored
     records (optim.study.columns). ``dimensions=False`` leaves out the design dimensions (each
     trial's design, ~10 us a trial: ``study status`` does without them)."""
-    from optim.study.columns import StudyReadout
 
     readout = study if isinstance(study, StudyReadout) else StudyReadout(study, spec_json, "")
     cols = readout.columns()
@@ -130,8 +133,6 @@ def _one_row_per_design(df: pd.DataFrame, names: list) -> None:
 def _dimensions(spec_json: dict, params: dict) -> dict:
     """The DIMENSIONS columns of every trial whose searched parameters are all set (the design
     each one is: ``design_source``, ~10 us a trial); a column no trial has is left out."""
-    from models.design import coil_turns
-    from optim.study.space import design_source, parse_search
 
     search = parse_search(spec_json["search"], [])
     n = len(next(iter(params.values()))) if params else 0
@@ -207,7 +208,6 @@ def status_summary(study, spec_json: dict, table: pd.DataFrame | None = None) ->
         for r in df.loc[df["state"] == "FAIL", "reason"]:
             key = str(r).split(":")[0] or "unknown"
             reasons[key] = reasons.get(key, 0) + 1
-    from optim.morning.nearest import nearest_trials
 
     nearest = nearest_trials(df, spec_json) if n and not feasible else []
     return {
@@ -268,7 +268,6 @@ def format_status(s: dict, where: str) -> str:
     for reason, count in sorted(s["failure_reasons"].items(), key=lambda kv: -kv[1]):
         lines.append(f"  failed: {reason:20s} {count}")
     lines += constraint_lines(s)
-    from optim.morning.nearest import nearest_lines
 
     lines += nearest_lines(s.get("nearest") or [])
     return "\n".join(lines)

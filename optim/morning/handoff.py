@@ -33,13 +33,17 @@ import json
 import math
 import numbers
 import tomllib
+from importlib.metadata import PackageNotFoundError, version
 from pathlib import Path
 
 from models.design import DESIGN_KEYS, design_from_dict
 from models.errors import DesignError
+from models.evaluate import MODEL_VERSION
 from optim.files import atomic_write_text, redact_url, safe_child
 from optim.jsonout import to_jsonable
-from optim.morning.dxf import LAYERS, section_mm, write_profile_dxf
+from optim.morning.dxf import LAYERS, write_profile_dxf
+from optim.morning.dxfnotes import sheets_words
+from optim.morning.section import section_mm
 from optim.morning.winding import winding_dict
 from optim.tomlwrite import dumps_toml
 
@@ -226,7 +230,6 @@ def _materials(design) -> dict:
 
 
 def _tool_version() -> str:
-    from importlib.metadata import PackageNotFoundError, version
 
     try:
         return version("eddypull")
@@ -330,7 +333,6 @@ def _stated_content(out: dict) -> dict:
 
 def handoff_dict(design, result, meta: dict, verify: dict | None = None) -> dict:
     """The content of handoff.json (see the module docstring), strict-JSON ready."""
-    from models.evaluate import MODEL_VERSION
 
     predicted = result.to_dict() if hasattr(result, "to_dict") else result
     predicted = dict(predicted) if predicted is not None else None
@@ -434,7 +436,6 @@ def _dxf_notes(design, content: dict, meta: dict) -> list[str]:
     lines = [ident, "units: mm; half section r >= 0 (parts' layers), FULL_SECTION mirrored"]
     for part, m in content["design"]["materials"].items():
         lines.append(f"{part}: {m['material']}")
-    from optim.morning.dxfnotes import sheets_words
 
     if sheets_words(design):
         lines.append(sheets_words(design))

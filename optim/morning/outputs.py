@@ -14,22 +14,35 @@ import math
 from datetime import UTC, datetime
 from pathlib import Path
 
+from models.checks import VALIDATED_RANGE
 from models.errors import DesignError
+from models.evaluate import evaluate
 from optim.files import atomic_path, atomic_write_text
+from optim.morning import design_plots, plots, robustness
+from optim.morning.cards import CardStates
 from optim.morning.front import constraint_lines, for_people, status_summary, trials_table
+from optim.morning.handoff import write_handoff
+from optim.morning.nearest import nearest_lines, nearest_trials
+from optim.morning.report import binding_counts, write_report
+from optim.morning.robustness import write_robustness
+from optim.morning.rounding import DEFAULT_RESOLUTION_MM, rounded_for_handoff
+from optim.morning.verify import run_verify
+from optim.study.columns import StudyReadout
+from optim.study.records import RESULT_NAMES_ATTR, StoredRecord
+from optim.study.space import build_design
+from optim.study.spec import spec_from_json
+from optim.words import assumptions_text, limits_used_text
 
 __all__ = ["write_front", "export_trial", "handoff_folder", "pick_trial", "design_of"]
 
 
 def _spec(spec_json):
-    from optim.study.spec import spec_from_json
 
     return spec_from_json(spec_json)
 
 
 def design_of(spec, params: dict):
     """The trial's design (validated) from the study's base design and the trial's parameters."""
-    from optim.study.space import build_design
 
     return build_design(spec.base, spec.params, params, spec.name)
 
@@ -57,7 +70,6 @@ def _picks(front, objectives: dict) -> list[tuple[str, int]]:
 
 
 def _notes(spec, df, front, design=None) -> list[str]:
-    from models.checks import VALIDATED_RANGE
 
     ranges = "; ".join(f"{k} {lo:g}-{hi:g}" for k, (lo, hi) in VALIDATED_RANGE.items())
     notes = [
@@ -146,8 +158,6 @@ def _family_note(spec) -> str:
 def _state_note(design, isothermal: bool) -> str:
     """Which state the pulls refer to and the thermal assumptions, as the first picked design
     has them (the study's designs share the base design's [thermal] table unless it is searched)."""
-    from models.evaluate import evaluate
-    from optim.cli.summary import assumptions_text, limits_used_text
 
     r = evaluate(design, isothermal=isothermal)
     a = r.thermal_assumptions
@@ -201,7 +211,6 @@ def write_front(
         row = front[front["trial"] == t].iloc[0]
         designs.append((f"trial {t}", design_of(spec, {p.name: row[p.name] for p in spec.params})))
     images = _write_plots(folder / "plots", spec, objectives, df, front, designs)
-    from optim.morning import robustness
 
     maps = []
     if designs and (robustness.REPORT_PICK_MAPS if pick_maps is None else pick_maps):
@@ -235,7 +244,6 @@ def write_front(
 def _report_tolerance(spec, why: str, labelled):
     """The report's tolerance table of the first pick ``(label, design)``; None when the model
     refuses the design as a whole (as the pick maps leave such a design out)."""
-    from optim.morning import robustness
 
     label, design = labelled
     try:
@@ -279,7 +287,6 @@ def _write_trials_csv(path: Path, df) -> Path:
 def _write_plots(plot_dir: Path, spec, objectives: dict, df, front, designs) -> list[Path]:
     """The study's plots: front pairs and progress, parameter coupling, and pull against gap and
     the section of the picked designs."""
-    from optim.morning import plots
 
     images: list[Path] = []
     pairs = list(objectives.items())  # [(name, direction)] in the study's order
@@ -294,8 +301,8 @@ def _write_plots(plot_dir: Path, spec, objectives: dict, df, front, designs) -> 
         )
     if designs:
         isothermal = bool(spec.run.get("isothermal", False))
-        images += plots.plot_pull_vs_gap(designs, plot_dir, isothermal=isothermal)
-        images += plots.plot_section(designs[0][1], plot_dir, designs[0][0])
+        images += design_plots.plot_pull_vs_gap(designs, plot_dir, isothermal=isothermal)
+        images += design_plots.plot_section(designs[0][1], plot_dir, designs[0][0])
     return images
 
 
@@ -305,8 +312,6 @@ def _write_study_report(
     """report.html: the picks, their pick maps, the first pick's tolerance table, the summary
     (with what the constraints rejected), the front, the plots with their captions and the
     model's notes."""
-    from optim.morning import plots
-    from optim.morning.report import binding_counts, write_report
 
     pairs = list(dict(spec_json["objectives"]).items())
     pngs = [(p, plots.caption_for(p, pairs)) for p in images if Path(p).suffix == ".png"]
@@ -325,11 +330,8 @@ def _write_study_report(
     )
     nearest = summary.pop("nearest", None) or []
     if nearest:  # nothing feasible: the nearest trials, what they break, bounds worth moving
-        from optim.morning.nearest import nearest_lines
-
         summary["nearest to feasible"] = "; ".join(x.strip() for x in nearest_lines(nearest)[1:])
     notes = _notes(spec, df, front, designs[0][1] if designs else None)
-    from optim.morning.cards import CardStates
 
     states = CardStates(
         gaps_mm=tuple(spec.gaps_mm),
@@ -366,12 +368,9 @@ def _budget_text(run: dict) -> str:
 def pick_trial(study, spec_json: dict, trial: int | None, best: str | None, nearest=False):
     """The stored trial to export: by number, the front's best in one objective, or (``nearest``)
     the completed trial of least total violation (optim.morning.nearest)."""
-    from optim.study.columns import StudyReadout
 
     readout = study if isinstance(study, StudyReadout) else StudyReadout(study, spec_json, "")
     if nearest:
-        from optim.morning.nearest import nearest_trials
-
         found = nearest_trials(trials_table(readout, spec_json, dimensions=False), spec_json, 1)
         if not found:
             raise DesignError("--nearest: the study has no completed trial yet")
@@ -382,7 +381,7 @@ def pick_trial(study, spec_json: dict, trial: int | None, best: str | None, near
             raise DesignError(f"--trial {trial}: must be a trial number from 0 to {n - 1}")
         t = readout.trial(trial)
         if t.state.name != "COMPLETE":
-            reason = t.user_attrs.get("eddypull", {}).get("reason", "")
+            reason = StoredRecord.of(t.user_attrs).reason
             raise DesignError(
                 f"--trial {trial}: state {t.state.name} ({reason or 'no result'}); pick a "
                 "completed trial, e.g. one of the front"
@@ -396,8 +395,6 @@ def pick_trial(study, spec_json: dict, trial: int | None, best: str | None, near
     df = trials_table(readout, spec_json)
     front = df[df["on_front"]] if not df.empty else df
     if front.empty:
-        from optim.morning.front import constraint_lines, status_summary
-
         why = [x.strip() for x in constraint_lines(status_summary(readout, spec_json, df))]
         raise DesignError(
             f"--best {best}: the study has no feasible design yet"
@@ -441,19 +438,15 @@ def export_trial(
     ``tolerance`` adds the rounded design's tolerance table and pick map
     (`optim.morning.robustness.write_robustness`).
     """
-    from models.evaluate import evaluate
-    from optim.morning.handoff import write_handoff
-    from optim.morning.rounding import DEFAULT_RESOLUTION_MM, rounded_for_handoff
-    from optim.study.engine import record_of
 
     spec = _spec(spec_json)
     t = pick_trial(study, spec_json, trial, best, nearest)
     design = design_of(spec, t.params)
     isothermal = bool(spec.run.get("isothermal", False))
     result = evaluate(design, isothermal=isothermal)
-    record = record_of(t)
-    names = study.user_attrs.get("eddypull_result_names", [])
-    stored = dict(zip(names, record.get("results", []), strict=False))
+    record = StoredRecord.of(t.user_attrs)
+    names = study.user_attrs.get(RESULT_NAMES_ATTR, [])
+    stored = dict(zip(names, record.results, strict=False))
     target = handoff_folder(folder, t.number, out)
     objective_values = dict(zip(spec_json["objectives"], t.values, strict=True))
     now = result.to_dict()
@@ -473,7 +466,7 @@ def export_trial(
         "parameters": dict(t.params),
         "objectives": objective_values,
         "constraint_margins": rounding["constraint_margins"],
-        "constraint_margins_unrounded": record.get("margins", {}),
+        "constraint_margins_unrounded": record.margins,
         "feasible": rounding["constraints_met"] and not rounding["broken"],
         "broken_constraints": rounding["broken"],
         "feasible_unrounded": all(v <= 0 for v in t.constraints.values()),
@@ -484,13 +477,9 @@ def export_trial(
     }
     checked = None
     if verify:
-        from optim.morning.verify import run_verify
-
         checked = run_verify(design)
     paths = write_handoff(design, result, target, meta, verify=checked)
     if tolerance:
-        from optim.morning.robustness import write_robustness
-
         paths.update(
             write_robustness(
                 design,

@@ -35,6 +35,11 @@ import numpy as np
 from models.coils import COILS_KEYS
 from models.design import DESIGN_KEYS, edit, resolve_key
 from models.errors import DesignError
+from models.evaluate import evaluate, pole_model_key
+from optim.files import atomic_write_text, safe_child
+from optim.morning.handoff import DESCRIPTIONS, unit_of
+from optim.morning.pickmap_parts import draw_parts, part_points
+from optim.morning.plots import _save, words
 from optim.morning.sweep import DEFAULT_POINTS, outside_checked_range
 
 __all__ = [
@@ -182,7 +187,6 @@ def _evaluate_points(design, x: MapAxis, y: MapAxis, cells, isothermal: bool) ->
     """Evaluate grid cells ``[(j, i), ...]`` in order; returns ``[(j, i, pull, its uncertainty,
     lift, in range, refused reason)]``. A point the design rules refuse is recorded, not
     raised."""
-    from models.evaluate import evaluate
 
     out = []
     for j, i in cells:
@@ -199,7 +203,6 @@ def _evaluate_points(design, x: MapAxis, y: MapAxis, cells, isothermal: bool) ->
 def _ordered_cells(design, x: MapAxis, y: MapAxis) -> list:
     """Every grid cell (j, i), sorted by its design's pole-model key so that points sharing a
     pole geometry (and then a permeability) run one after another; refused points first."""
-    from models.evaluate import pole_model_key
 
     keyed = []
     for j in range(len(y.values)):
@@ -313,8 +316,6 @@ def crossings(lines, y_value: float) -> list[float]:
 
 def _axis_words(key: str) -> str:
     """Axis label: the hand-off's description of the key with its unit."""
-    from optim.morning.handoff import DESCRIPTIONS, unit_of
-    from optim.morning.plots import words
 
     if key in DESCRIPTIONS:
         unit = unit_of(key)
@@ -370,8 +371,6 @@ def plot_map(pmap: PickMap, out_dir, stem: str, parts=()) -> list[Path]:
     from matplotlib.lines import Line2D
     from matplotlib.patches import Patch
 
-    from optim.morning.plots import _save
-
     X, Y = np.meshgrid(pmap.x.values, pmap.y.values)
     lift = np.ma.masked_invalid(pmap.lift_ratio)
     norm, lo, hi = _norm(pmap.lift_ratio)
@@ -383,7 +382,6 @@ def plot_map(pmap: PickMap, out_dir, stem: str, parts=()) -> list[Path]:
     levels = np.unique(np.r_[levels, [v for v in (0.0, 1.0) if lo < v < hi]])  # edges at 0, 1
     filled = ax.contourf(X, Y, lift, levels=levels, cmap="RdBu", norm=norm, extend="both")
     fig.colorbar(filled, ax=ax, label="lift ratio: pull / part weight [-] (negative: push)")
-    from optim.morning.pickmap_parts import draw_parts, part_points
 
     own_gap = pmap.design_point[1] if pmap.design_point is not None else None
     handles = []
@@ -472,7 +470,6 @@ def map_csv(pmap: PickMap) -> str:
 def write_map(pmap: PickMap, out_dir, stem: str | None = None, parts=()) -> dict[str, Path]:
     """Write the map's PNG, SVG and CSV into ``out_dir``; returns ``{"png", "svg", "csv"}``.
     ``parts`` are marked on the figures only (``plot_map``); the CSV is the grid's."""
-    from optim.files import atomic_write_text, safe_child
 
     stem = stem or map_stem(pmap)
     png, svg = plot_map(pmap, out_dir, stem, parts)

@@ -19,13 +19,17 @@ import datetime as _dt
 import html
 import math
 import numbers
+from importlib.metadata import PackageNotFoundError, version
 from pathlib import Path
 
 import pandas as pd
 
 from models.errors import DesignError
+from models.evaluate import MODEL_VERSION
 from optim.files import atomic_write_text, safe_child
+from optim.morning.cards import pick_cards
 from optim.morning.handoff import unit_of
+from optim.morning.report_tolerance import tolerance_section
 
 __all__ = ["write_report", "render_report", "binding_counts", "CAUTIONS", "BOOKKEEPING"]
 
@@ -294,7 +298,6 @@ def binding_counts(front: pd.DataFrame, column: str = "binding_limit") -> dict[s
 def _picks_section(front: pd.DataFrame, picks, states=None) -> list[str]:
     """The page's opening: the picked designs as cards (nothing when none is picked), every
     number labelled with its gap and state (`optim.morning.cards`)."""
-    from optim.morning.cards import pick_cards
 
     cards = pick_cards(front, picks, states)
     if not cards:
@@ -325,7 +328,6 @@ def _tolerance_section(tolerance) -> list[str]:
     """The first pick's tolerance table (`optim.morning.report_tolerance`), after the maps."""
     if tolerance is None:
         return []
-    from optim.morning.report_tolerance import tolerance_section
 
     return tolerance_section(tolerance)
 
@@ -345,9 +347,6 @@ def render_report(
     states=None,
 ) -> str:
     """The report page as a string (see `write_report`)."""
-    from importlib.metadata import PackageNotFoundError, version
-
-    from models.evaluate import MODEL_VERSION
 
     try:
         tool = version("eddypull")

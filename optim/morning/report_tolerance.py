@@ -12,6 +12,7 @@ from __future__ import annotations
 import html
 import math
 
+from optim.morning.robustness import CONSTRAINT_PREFIX
 from optim.morning.tolerance import OUTPUTS
 
 __all__ = ["TOP_ROWS", "tolerance_section"]
@@ -92,7 +93,6 @@ def _limits_table(study, prefix: str) -> str:
 def tolerance_section(table) -> list[str]:
     """The report's tolerance section of ``table`` (``optim.morning.robustness.
     ReportTolerance``), as HTML pieces."""
-    from optim.morning.robustness import CONSTRAINT_PREFIX
 
     study = table.study
     state = "isothermal: every part at 20 degC" if study.isothermal else "thermally coupled"

@@ -22,6 +22,7 @@ from types import SimpleNamespace
 
 from models.errors import DesignError
 from optim.morning.pickmap import DEFAULT_POINTS, pick_map_around
+from optim.morning.pickmap_parts import parts_caption
 from optim.morning.tolerance import (
     DEFAULT_SAMPLES,
     DEFAULT_SEED,
@@ -29,8 +30,9 @@ from optim.morning.tolerance import (
     ToleranceStudy,
     run_tolerance,
     tolerances_for,
-    write_tolerance,
 )
+from optim.morning.tolerance_out import write_tolerance
+from optim.study.objectives import results_of
 
 __all__ = [
     "HANDOFF_POINTS",
@@ -123,7 +125,6 @@ def pick_map_figures(
     gap axis taking in the study's pick gaps ``gaps_mm`` [mm] and the parts';
     returns ``(png, caption)`` per design for the report. A design the model refuses as a whole
     (a solid pole) gets no map."""
-    from optim.morning.pickmap_parts import parts_caption
 
     points = REPORT_POINTS if points is None else points
     out = []
@@ -169,7 +170,6 @@ def study_evaluator(spec):
     limits (``Result.margins``) and, named ``CONSTRAINT_PREFIX`` + ``constraint_words``, the
     margin of each of the study's constraints (positive: it holds; a non-finite result counts
     as broken)."""
-    from optim.study.objectives import results_of
 
     def evaluator(design, isothermal: bool):
         flat, _, _ = results_of(design, spec.gaps_mm, isothermal=isothermal, parts=spec.parts)

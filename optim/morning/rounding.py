@@ -16,6 +16,9 @@ import math
 
 from models.design import design_from_dict
 from models.errors import DesignError
+from models.evaluate import evaluate
+from optim.morning.nearest import broken_constraints
+from optim.study.objectives import results_of
 
 __all__ = ["DEFAULT_RESOLUTION_MM", "DRIVE_RESOLUTION", "round_design", "rounded_for_handoff"]
 
@@ -97,15 +100,12 @@ def rounded_for_handoff(spec, design, resolution_mm: float, isothermal: bool):
         ``constraints_met`` and ``broken_constraints`` (names; empty when rounding broke none)
         and the words to print.
     """
-    from models.evaluate import evaluate
-    from optim.study.objectives import results_of
 
     rounded, changed = round_design(design, resolution_mm)
     result = evaluate(rounded, isothermal=isothermal)
     flat, _, _ = results_of(rounded, spec.gaps_mm, isothermal=isothermal, parts=spec.parts)
     margins = {c.name: c.margin(flat[c.name]) for c in spec.constraints if c.name in flat}
     broken = [name for name, m in margins.items() if not m >= 0]
-    from optim.morning.nearest import broken_constraints
 
     detail = broken_constraints(
         flat,

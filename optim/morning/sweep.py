@@ -4,9 +4,11 @@ from __future__ import annotations
 
 import numpy as np
 
+from models.checks import VALIDATED_RANGE
 from models.design import with_value
 from models.errors import DesignError
 from models.evaluate import evaluate
+from optim.morning.plots import words
 
 __all__ = ["parse_sweep", "run_sweep", "format_sweep", "plot_sweep"]
 
@@ -100,7 +102,6 @@ def format_sweep(key: str, rows) -> str:
 def outside_checked_range(result) -> bool:
     """Whether the model flagged this result's design as outside the range it was checked on
     against the FEM (``models.checks.VALIDATED_RANGE``; the result's range warnings)."""
-    from models.checks import VALIDATED_RANGE
 
     return any(
         w.startswith(f"{key} = ") and "outside the range checked" in w
@@ -130,8 +131,6 @@ def plot_sweep(key: str, rows, path, title: str = "") -> None:
 
     matplotlib.use("Agg")
     import matplotlib.pyplot as plt
-
-    from optim.morning.plots import words
 
     x = [v for v, _ in rows]
     fig, ax = plt.subplots(figsize=(7, 4.5))

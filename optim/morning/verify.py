@@ -16,6 +16,11 @@ currents and voltage, the impedance as [re, im] or a complex number, split here 
 from __future__ import annotations
 
 import math
+import time
+
+from models.errors import DesignError
+from models.evaluate import evaluate
+from optim.words import CAUTION
 
 __all__ = ["QUANTITIES", "compare", "format_table", "to_json", "run_verify"]
 
@@ -272,10 +277,7 @@ def run_verify(design, refine: float = 1.0, far_factor: float = 1.0) -> dict:
         (`models.fem.reference.ReferenceResult`). When the fast model refuses the design (a solid pole) the
         table is FEM-only and ``json["fast_error"]`` gives its reason.
     """
-    import time
 
-    from models.errors import DesignError
-    from models.evaluate import evaluate
     from models.fem.reference import reference
 
     fast, fast_error, fast_time = None, None, math.nan
@@ -287,7 +289,6 @@ def run_verify(design, refine: float = 1.0, far_factor: float = 1.0) -> dict:
         fast_error = str(err)
     ref = reference(design, refine=refine, far_factor=far_factor)
     rows = compare(fast, ref.result, ref.uncertainty, ref.uncertainty_abs)
-    from optim.cli.summary import CAUTION
 
     text = (
         f"design {design.name}: both models at 20 degC (every resistivity at 20 degC, no thermal "

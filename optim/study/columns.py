@@ -18,10 +18,18 @@ import math
 import os
 import time
 from dataclasses import dataclass, field
+from datetime import datetime
+from pathlib import Path
 
 import numpy as np
+from joblib import Parallel, delayed
 
-from optim.study.ledger import JournalLedger, _Distributions, params_of
+from models.errors import DesignError
+from optim.study.journal import decode_trial, is_trial_of, segments
+from optim.study.ledger import JournalIndex, JournalLedger, LedgerUnfit, _Distributions, params_of
+from optim.study.records import RESULT_NAMES_ATTR, StoredRecord, constraints_of
+from optim.study.space import parse_search
+from optim.study.storage import JOURNAL, SPEC_ATTR, is_url, journal_damage_note, load_existing
 
 __all__ = ["TrialColumns", "StudyReadout", "open_readout"]
 
@@ -74,26 +82,24 @@ class _Filler:
             column = self.params.get(name)
             if column is not None:
                 column[i] = self._text(v) if column.dtype == object else v
-        rec = user_attrs.get("eddypull")
-        rec = rec if isinstance(rec, dict) else {}
-        self.eval_s[i] = rec.get("eval_s", math.nan)
-        self.copy_of[i] = rec.get("copy_of", math.nan)
-        self.reason[i] = self._text(rec.get("reason", ""))
-        self.binding[i] = self._text(rec.get("binding_limit", ""))
-        self.worker[i] = self._text(rec.get("worker", ""))
-        warnings = [str(w) for w in rec.get("warnings") or []]
+        rec = StoredRecord.of(user_attrs)
+        self.eval_s[i] = rec.eval_s
+        self.copy_of[i] = math.nan if rec.copy_of is None else rec.copy_of
+        self.reason[i] = self._text(rec.reason)
+        self.binding[i] = self._text(rec.binding_limit)
+        self.worker[i] = self._text(rec.worker)
+        warnings = [str(w) for w in rec.warnings]
         self.warning_count[i] = len(warnings)
         self.warnings[i] = self._text(" | ".join(warnings))
-        results = rec.get("results") or []
+        results = rec.results
         m = min(len(results), len(self.names))
         if m:
             self.results[i, :m] = [math.nan if r is None else r for r in results[:m]]
-        margins = rec.get("margins") or {}
         for j, c in enumerate(self.constraints):
-            v = margins.get(c)
+            v = rec.margins.get(c)
             if v is not None:
                 self.margins[i, j] = v
-        violations = [v for k_, v in system_attrs.items() if k_.startswith("constraints:")]
+        violations = constraints_of(system_attrs).values()
         self.feasible[i] = state == 1 and all(v <= 0 for v in violations)
 
     def columns(self) -> TrialColumns:
@@ -123,7 +129,6 @@ class _Filler:
 def _epoch(text) -> float:
     if text is None:
         return math.nan
-    from datetime import datetime
 
     return datetime.fromisoformat(text).timestamp()
 
@@ -168,8 +173,6 @@ class StudyReadout:
         return self._trials()
 
     def columns(self) -> TrialColumns:
-        from optim.study.engine import RESULT_NAMES_ATTR
-
         spec = self.spec_json
         shape = (
             list(self.user_attrs.get(RESULT_NAMES_ATTR, [])),
@@ -196,7 +199,6 @@ class StudyReadout:
 
 
 def _filler(n: int, shape) -> _Filler:
-    from optim.study.space import parse_search
 
     names, search, constraints, k = shape
     return _Filler(n, names, parse_search(search, []), constraints, k)
@@ -221,8 +223,6 @@ def _journal_columns(ledger, shape) -> TrialColumns:
     if len(ranges) <= 1:
         parts = [_decode_range(*r) for r in ranges]
     else:
-        from joblib import Parallel, delayed
-
         parts = Parallel(n_jobs=len(ranges))(delayed(_decode_range)(*r) for r in ranges)
     if not parts:
         return _filler(0, shape).columns()
@@ -232,7 +232,6 @@ def _journal_columns(ledger, shape) -> TrialColumns:
 
 def _decode_range(path, study_id: int, offset: int, first: int, end: int, shape) -> TrialColumns:
     """Decode the study's trial records ``first`` to ``end`` - 1, the first at byte ``offset``."""
-    from optim.study.journal import decode_trial, is_trial_of, segments
 
     filler = _filler(end - first, shape)
     dists = _Distributions()
@@ -285,17 +284,6 @@ def tail_note(path, index, settle_s: float = 0.3) -> str | None:
 def open_readout(location, name: str | None = None) -> StudyReadout:
     """The study at ``location`` (folder or URL; ``name`` picks one of several) for reading: a
     journal through the ledger's index when it can follow it, else optuna's storage."""
-    from pathlib import Path
-
-    from models.errors import DesignError
-    from optim.study.ledger import JournalIndex, JournalLedger, LedgerUnfit
-    from optim.study.storage import (
-        JOURNAL,
-        SPEC_ATTR,
-        is_url,
-        journal_damage_note,
-        load_existing,
-    )
 
     if not is_url(str(location)):
         path = Path(location) / JOURNAL

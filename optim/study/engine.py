@@ -32,29 +32,39 @@ finished since it started (its own and others'), the most recent `known_limit` o
 
 from __future__ import annotations
 
+import importlib
 import math
 import os
 import socket
 import time
 import uuid
-from datetime import UTC
+from collections import OrderedDict
+from datetime import UTC, datetime
+
+import optuna
+from optuna.trial import TrialState
 
 from models.errors import DesignError
+from optim.study.ledger import open_ledger
+from optim.study.objectives import design_rule_violations, objective_values, results_of
+from optim.study.records import (
+    RECORD_ATTR,
+    RESULT_NAMES_ATTR,
+    Outcome,
+    OutcomeState,
+    StoredRecord,
+    TrialMessage,
+    WorkerConfig,
+    WorkerSummary,
+    constraint_attrs,
+    constraints_of,
+)
 from optim.study.sampler import choose, derive_seed, make_sampler
+from optim.study.space import build_design
+from optim.study.spec import spec_from_json
 from optim.study.window import SamplerWindow, window_limit
 
-__all__ = [
-    "run_worker",
-    "make_sampler",
-    "record_of",
-    "RESULT_NAMES_ATTR",
-    "RECORD_ATTR",
-    "evaluate_trial",
-]
-
-RESULT_NAMES_ATTR = "eddypull_result_names"
-#: The one user attribute of a trial that holds eddypull's record (one write per trial).
-RECORD_ATTR = "eddypull"
+__all__ = ["run_worker", "evaluate_trial", "sync_period"]
 
 
 def sync_period(n_trials: int) -> float:
@@ -63,24 +73,14 @@ def sync_period(n_trials: int) -> float:
     return float(min(60.0, max(2.0, n_trials / 2000.0)))
 
 
-def record_of(trial) -> dict:
-    """eddypull's record of a stored trial (empty for a trial written by something else)."""
-    rec = trial.user_attrs.get(RECORD_ATTR)
-    return rec if isinstance(rec, dict) else {}
-
-
-def evaluate_trial(spec, values: dict):
-    """Evaluate one set of parameter values. Returns a dict with state ("COMPLETE" or "FAIL"),
-    objective values, constraint violations, margins, flat results, warnings and the reason."""
-    from optim.study.objectives import design_rule_violations, objective_values, results_of
-    from optim.study.space import build_design
-
-    out = {"state": "FAIL", "values": None, "violations": {}, "margins": {}, "flat": {}}
-    out["warnings"], out["reason"] = [], ""
+def evaluate_trial(spec, values: dict) -> Outcome:
+    """Evaluate one set of parameter values: the trial's outcome (objective values, constraint
+    values and margins, flat results, warnings and the reason it failed or is infeasible)."""
+    out = Outcome()
     try:
         design = build_design(spec.base, spec.params, values, spec.name)
     except DesignError as err:
-        out["reason"] = "geometry: " + "; ".join(err.problems)
+        out.reason = "geometry: " + "; ".join(err.problems)
         return out
     isothermal = bool(spec.run.get("isothermal", False))
     try:
@@ -88,90 +88,77 @@ def evaluate_trial(spec, values: dict):
             design, spec.gaps_mm, isothermal=isothermal, parts=spec.parts
         )
     except DesignError as err:
-        out["reason"] = "model refused: " + "; ".join(err.problems)
+        out.reason = "model refused: " + "; ".join(err.problems)
         return out
     except Exception as err:  # a model failure is one failed trial, never a dead study
-        out["reason"] = f"model error: {type(err).__name__}: {err}"[:500]
+        out.reason = f"model error: {type(err).__name__}: {err}"[:500]
         return out
-    out["flat"], out["warnings"], out["binding"] = flat, warnings[:8], binding
+    out.flat, out.warnings, out.binding = flat, warnings[:8], binding
     try:
         vals = objective_values(flat, spec.objectives)
     except KeyError as err:
-        out["reason"] = f"model error: result {err} missing"
+        out.reason = f"model error: result {err} missing"
         return out
     bad = [o.name for o, v in zip(spec.objectives, vals, strict=True) if not math.isfinite(v)]
     if bad:
-        out["reason"] = "non-finite result: " + ", ".join(bad)
+        out.reason = "non-finite result: " + ", ".join(bad)
         return out
     for c in spec.constraints:
         value = flat.get(c.name, math.nan)
         if math.isnan(value):
-            out["reason"] = f"non-finite result: {c.name}"
+            out.reason = f"non-finite result: {c.name}"
             return out
-        out["violations"][c.name] = c.violation(value)
-        out["margins"][c.name] = c.margin(value)
-    out["violations"] |= design_rule_violations(flat, spec.run)
-    broken = [k for k, v in out["violations"].items() if v > 0]
+        out.violations[c.name] = c.violation(value)
+        out.margins[c.name] = c.margin(value)
+    out.violations |= design_rule_violations(flat, spec.run)
+    broken = [k for k, v in out.violations.items() if v > 0]
     if broken:
-        out["reason"] = "infeasible: " + ", ".join(broken)
-    out["state"], out["values"] = "COMPLETE", vals
+        out.reason = "infeasible: " + ", ".join(broken)
+    out.state, out.values = OutcomeState.COMPLETE, vals
     return out
 
 
-def _record(spec, params, dists, outcome, worker_id, t0, t1, result_names):
-    from datetime import datetime
-
-    import optuna
-    from optuna.study._constrained_optimization import _CONSTRAINTS_KEY
-    from optuna.trial import TrialState
-
-    flat = outcome["flat"]
+def _frozen_trial(params, dists, outcome: Outcome, worker_id, t0, t1, result_names):
+    """The stored trial of ``outcome``: one complete record, started at ``t0`` and finished at
+    ``t1`` [s since the epoch]."""
+    flat = outcome.flat
     results = [flat.get(n, math.nan) for n in result_names] if flat else []
-    attrs = {
-        "results": outcome.get("results", results),
-        "margins": outcome["margins"],
-        "reason": outcome["reason"],
-        "binding_limit": outcome.get("binding", ""),
-        "warnings": outcome["warnings"],
-        "worker": worker_id,
-        "id": uuid.uuid4().hex[:16],
-        "eval_s": round(t1 - t0, 6),
-    }
-    if outcome.get("copy_of") is not None:
-        attrs["copy_of"] = int(outcome["copy_of"])
-    system = {f"{_CONSTRAINTS_KEY}:{k}": v for k, v in outcome["violations"].items()}
-    state = TrialState.COMPLETE if outcome["state"] == "COMPLETE" else TrialState.FAIL
-    return optuna.trial.create_trial(
+    record = StoredRecord(
+        results=outcome.results if outcome.results is not None else results,
+        margins=outcome.margins,
+        reason=outcome.reason,
+        binding_limit=outcome.binding,
+        warnings=outcome.warnings,
+        worker=worker_id,
+        id=uuid.uuid4().hex[:16],
+        eval_s=round(t1 - t0, 6),
+        copy_of=outcome.copy_of,
+    )
+    state = TrialState.COMPLETE if outcome.complete else TrialState.FAIL
+    frozen = optuna.trial.create_trial(
         state=state,
         params=params,
         distributions=dists,
-        values=outcome["values"] if state == TrialState.COMPLETE else None,
-        user_attrs={RECORD_ATTR: attrs},
-        system_attrs=system,
-    ), (
-        datetime.fromtimestamp(t0, tz=UTC),
-        datetime.fromtimestamp(t1, tz=UTC),
+        values=outcome.values if outcome.complete else None,
+        user_attrs={RECORD_ATTR: record.to_attrs()},
+        system_attrs=constraint_attrs(outcome.violations),
     )
+    frozen.datetime_start = datetime.fromtimestamp(t0, tz=UTC)
+    frozen.datetime_complete = datetime.fromtimestamp(t1, tz=UTC)
+    return frozen
 
 
-def run_worker(cfg: dict, queue=None, stop=None, counter=None) -> int:
-    """Run one worker until its budget ends. Returns the number of trials it recorded.
-
-    cfg: ``spec`` (StudySpec.to_json()), ``location`` (folder path or URL), ``index``, ``seed``,
-    ``deadline`` (time.time() or None), ``trials`` (this machine's trial budget or None),
-    ``sync_s``, ``parent_pid``. ``counter`` is this worker slot's count of trials started, ``stop`` an
-    event, ``queue`` receives one message per recorded trial.
-    """
-    import optuna
-
+def run_worker(config: WorkerConfig, queue=None, stop=None, counter=None) -> WorkerSummary:
+    """Run one worker until its budget ends. ``counter`` is this worker slot's count of trials
+    started, ``stop`` an event, ``queue`` receives one `TrialMessage` per recorded trial."""
     optuna.logging.set_verbosity(optuna.logging.WARNING)
-    worker = _Worker(cfg)
+    worker = _Worker(config)
     worker.sync(first=True)
     last_sync = time.monotonic()
     recorded = 0
     try:
         while worker.may_start(stop, counter):
-            sync_s = cfg.get("sync_s") or sync_period(worker.seen + 1)
+            sync_s = config.sync_s or sync_period(worker.seen + 1)
             if time.monotonic() - last_sync > sync_s:
                 worker.sync()
                 last_sync = time.monotonic()
@@ -180,62 +167,55 @@ def run_worker(cfg: dict, queue=None, stop=None, counter=None) -> int:
             worker.learn(trial, outcome)
             if queue is not None:
                 queue.put(
-                    (
-                        "trial",
-                        outcome["state"],
-                        outcome["state"] == "COMPLETE" and not outcome["reason"],
-                        outcome["values"],
+                    TrialMessage(
+                        outcome.state,
+                        outcome.feasible,
+                        outcome.values,
                         eval_s,
-                        outcome.get("copy_of") is not None,
+                        outcome.copy_of is not None,
                     )
                 )
     except KeyboardInterrupt:
         pass
-    if queue is None:
-        window = worker.window
-        cfg["_window"] = {"rollovers": window.rollovers, "size": len(window.study.trials)}
-    return recorded
+    window = worker.window
+    return WorkerSummary(recorded, window.rollovers, len(window.study.trials))
 
 
 class _Worker:
     """One worker's view of the study: the shared study it writes to, its private sampler window
     and the number of the newest shared trial it has seen."""
 
-    def __init__(self, cfg: dict):
-        from optim.study.ledger import open_ledger
-        from optim.study.spec import spec_from_json
-
-        self.cfg = cfg
-        spec = self.spec = spec_from_json(cfg["spec"])
+    def __init__(self, config: WorkerConfig):
+        self.config = config
+        spec = self.spec = spec_from_json(config.spec)
         # never the whole study in memory: whole records written, only new ones read
-        self.ledger = open_ledger(cfg["location"], spec.name)
+        self.ledger = open_ledger(config.location, spec.name)
         self.result_names = self.ledger.user_attrs[RESULT_NAMES_ATTR]
         self.dists = {p.name: p.distribution() for p in spec.params}
         self.worker_id = f"{socket.gethostname()}:{os.getpid()}:{uuid.uuid4().hex[:8]}"
-        seed = cfg.get("seed")
+        seed = config.seed
         self.window = SamplerWindow(
             spec.directions,
             self.dists,
             lambda k: make_sampler(spec, _rollover_seed(seed, k), k),
-            int(cfg.get("window_limit") or window_limit(choose(spec)[1])),
+            int(config.window_limit or window_limit(choose(spec)[1])),
         )
         self.seen = -1
-        self.evaluator = _evaluator(cfg)
+        self.evaluator = _evaluator(config.evaluator)
         self.known = KnownTrials(known_limit(self.window.limit))
         self.deferred: list = []  # read while a trial was asked: join the window at the next sync
 
     def sync(self, first: bool = False) -> None:
         """Copy the trials other workers have finished since the last sync into the window (at
         the first, the most recent window of a resumed study)."""
-        from optuna.trial import TrialState
-
         ledger = self.ledger
         trials = ledger.recent(self.window.limit) if first else ledger.fresh()
         trials, self.deferred = self.deferred + self._remember(trials), []
         fresh = [
             t
             for t in trials
-            if t.state == TrialState.COMPLETE and record_of(t).get("worker") != self.worker_id
+            if t.state == TrialState.COMPLETE
+            and StoredRecord.of(t.user_attrs).worker != self.worker_id
         ]
         self.window.add(fresh)
 
@@ -259,18 +239,18 @@ class _Worker:
     def may_start(self, stop, counter) -> bool:
         """Whether to start one more trial: not stopped, before the deadline, within this slot's
         trial budget (counting the trial as started) and the run that started us still there."""
-        cfg = self.cfg
+        config = self.config
         if stop is not None and stop.is_set():
             return False
-        if cfg.get("deadline") is not None and time.time() >= cfg["deadline"]:
+        if config.deadline is not None and time.time() >= config.deadline:
             return False
         if counter is not None:
             with counter.get_lock():
-                if cfg.get("trials") is not None and counter.value >= cfg["trials"]:
+                if config.trials is not None and counter.value >= config.trials:
                     return False
                 counter.value += 1
         # the run that started this worker is gone: stop with it
-        return os.getppid() == cfg.get("parent_pid", os.getppid())
+        return config.parent_pid is None or os.getppid() == config.parent_pid
 
     def evaluate_and_store(self):
         """Ask the window for a trial, evaluate it and write it to the shared study as one
@@ -286,10 +266,9 @@ class _Worker:
         else:
             outcome = copied_outcome(*source)
             t1 = t0  # no evaluation
-        frozen, (start, end) = _record(
-            self.spec, params, self.dists, outcome, self.worker_id, t0, t1, self.result_names
+        frozen = _frozen_trial(
+            params, self.dists, outcome, self.worker_id, t0, t1, self.result_names
         )
-        frozen.datetime_start, frozen.datetime_complete = start, end
         try:
             self.ledger.add(frozen, self.worker_id)
         except OSError as err:  # disk full, quota, lost mount: stop, say so, keep the rest
@@ -301,12 +280,10 @@ class _Worker:
 
     def learn(self, trial, outcome) -> None:
         """Tell the private study the trial's outcome; roll the window over when it is full."""
-        from optuna.trial import TrialState
-
-        for k, v in outcome["violations"].items():
+        for k, v in outcome.violations.items():
             trial.set_constraint(k, v)
-        if outcome["state"] == "COMPLETE":
-            self.window.study.tell(trial, outcome["values"])
+        if outcome.complete:
+            self.window.study.tell(trial, outcome.values)
         else:
             self.window.study.tell(trial, state=TrialState.FAIL)
         self.window.maybe_roll()
@@ -319,14 +296,12 @@ def _rollover_seed(seed: int | None, k: int) -> int | None:
     return derive_seed(seed, k)
 
 
-def _evaluator(cfg: dict):
-    """The function that evaluates a trial: the model, or the stand-in benchmarks name in
-    ``cfg["evaluator"]`` ("module:function")."""
-    if not cfg.get("evaluator"):
+def _evaluator(name: str | None):
+    """The function that evaluates a trial: the model, or the stand-in tests and benchmarks
+    name ("module:function", returning an `Outcome`)."""
+    if not name:
         return evaluate_trial
-    import importlib
-
-    module, _, func = cfg["evaluator"].partition(":")
+    module, _, func = name.partition(":")
     return getattr(importlib.import_module(module), func)
 
 
@@ -348,29 +323,30 @@ class KnownTrials:
     has just written and not yet read back with its number (``pending``)."""
 
     def __init__(self, limit: int):
-        from collections import OrderedDict
-
         self.limit = limit
         self.trials: OrderedDict = OrderedDict()
         self.waiting: set = set()
 
     def remember(self, trial) -> None:
-        from optuna.trial import TrialState
-
-        rec = record_of(trial)
-        if trial.state != TrialState.COMPLETE or not rec or trial.values is None:
+        if (
+            trial.state != TrialState.COMPLETE
+            or not isinstance(trial.user_attrs.get(RECORD_ATTR), dict)
+            or not trial.user_attrs[RECORD_ATTR]
+            or trial.values is None
+        ):
             return
         key = params_key(trial.params)
         self.waiting.discard(key)
         if key in self.trials:
             self.trials.move_to_end(key)
             return
-        self.trials[key] = (int(rec.get("copy_of", trial.number)), trial)
+        copy_of = StoredRecord.of(trial.user_attrs).copy_of
+        self.trials[key] = (int(trial.number if copy_of is None else copy_of), trial)
         if len(self.trials) > self.limit:
             self.trials.popitem(last=False)
 
-    def stored(self, params: dict, outcome: dict) -> None:
-        if outcome["state"] == "COMPLETE":
+    def stored(self, params: dict, outcome: Outcome) -> None:
+        if outcome.complete:
             self.waiting.add(params_key(params))
 
     def pending(self, key) -> bool:
@@ -381,25 +357,18 @@ class KnownTrials:
         return self.trials.get(key)
 
 
-def copied_outcome(number: int, trial) -> dict:
+def copied_outcome(number: int, trial) -> Outcome:
     """The outcome of a repeat of stored trial ``trial`` (evaluated as trial ``number``): its
     values, constraints, margins, results, warnings and reason, and ``copy_of``."""
-    from optuna.study._constrained_optimization import _CONSTRAINTS_KEY
-
-    rec = record_of(trial)
-    prefix = f"{_CONSTRAINTS_KEY}:"
-    violations = {
-        k[len(prefix) :]: v for k, v in trial.system_attrs.items() if k.startswith(prefix)
-    }
-    return {
-        "state": "COMPLETE",
-        "values": list(trial.values),
-        "violations": violations,
-        "margins": dict(rec.get("margins") or {}),
-        "flat": {},
-        "results": list(rec.get("results") or []),
-        "warnings": list(rec.get("warnings") or []),
-        "reason": rec.get("reason", ""),
-        "binding": rec.get("binding_limit", ""),
-        "copy_of": number,
-    }
+    rec = StoredRecord.of(trial.user_attrs)
+    return Outcome(
+        state=OutcomeState.COMPLETE,
+        values=list(trial.values),
+        violations=constraints_of(trial.system_attrs),
+        margins=rec.margins,
+        results=rec.results,
+        warnings=rec.warnings,
+        reason=rec.reason,
+        binding=rec.binding_limit,
+        copy_of=number,
+    )

@@ -39,9 +39,10 @@ from models.checks import gap_warnings
 from models.design import Design, edit
 from models.evaluate import evaluate_pick_gaps
 from models.family import part_pulls_under_magnet
+from optim.study.flat import flat_result
 from optim.study.parts import Part, part_source
 
-__all__ = ["family_results", "part_design", "pulls_under_magnet", "FAMILY_RESULTS"]
+__all__ = ["family_results", "part_design", "FAMILY_RESULTS"]
 
 #: The results over a family (beside the per-part ``parts.<name>.*``).
 FAMILY_RESULTS = ("worst_pull_N", "worst_lift_ratio", "best_leave_lift_ratio", "selectivity_margin")
@@ -80,8 +81,6 @@ def family_results(design: Design, parts, isothermal: bool = False):
         Flat results (the first lift part's model result flattened, and the results of the
         module docstring), that evaluation's warnings and binding limit.
     """
-    from optim.study.objectives import flat_result
-
     own_part = next(p for p in parts if p.role == "lift")
     own = part_design(design, own_part)
     result, pulls = evaluate_pick_gaps(own, _gaps(own, own_part), isothermal=isothermal)
@@ -133,12 +132,3 @@ def _worst_and_best(states) -> tuple[float, float]:
     if not finite:
         return -math.inf, math.inf
     return min(finite), max(finite)
-
-
-def pulls_under_magnet(own, design: Design, gaps_mm, isothermal: bool = False):
-    """A part's pulls [N] under the magnet of another evaluation: (the pull at arrival at each
-    gap of ``gaps_mm`` [mm], the pull at the end of the hold), with ``own`` (the first lift
-    part's ``Result``) giving the magnet's coil and ring temperatures and ``design`` the same
-    magnet with the part in the place of the target. The model's
-    ``models.family.part_pulls_under_magnet`` at the default fineness."""
-    return part_pulls_under_magnet(design, own, gaps_mm, isothermal)

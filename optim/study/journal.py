@@ -19,15 +19,21 @@ record set aside before a run (``repair_journal``), the one line on what a reade
 from __future__ import annotations
 
 import json
+import logging
 import os
 import re
+import shutil
 import socket
 import time
 import uuid
 from pathlib import Path
 
+from optuna.storages.journal import JournalFileBackend
+
 from models.errors import DesignError
 from optim.files import atomic_write_bytes
+from optim.study.location import JOURNAL
+from optim.study.records import RECORD_ATTR
 
 __all__ = [
     "JournalLock",
@@ -105,7 +111,7 @@ def placeholder_log(study_id: int, offset: int, length: int) -> dict:
         "datetime_start": None,
         "distributions": {},
         "params": {},
-        "user_attrs": {"eddypull": {"reason": reason}},
+        "user_attrs": {RECORD_ATTR: {"reason": reason}},
         "system_attrs": {},
         "intermediate_values": {},
     }
@@ -222,13 +228,11 @@ def _alive(pid: int) -> bool:
 
 
 def _warn(text: str) -> None:
-    import logging
 
     logging.getLogger("eddypull").warning(text)
 
 
 def _journal_file_class():
-    from optuna.storages.journal import JournalFileBackend
 
     class _JournalFile(JournalFileBackend):
         """optuna's journal file backend, made safe against torn records.
@@ -394,9 +398,6 @@ def rewrite_journal(folder) -> str:
     records and a torn last record are dropped. Done under the journal's lock; runs on the
     study must be stopped first (their workers hold byte offsets into the file). Returns one
     line."""
-    import shutil
-
-    from optim.study.storage import JOURNAL
 
     path = Path(folder) / JOURNAL
     if not path.exists():

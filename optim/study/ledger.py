@@ -33,6 +33,10 @@ from array import array
 from datetime import UTC, datetime
 from pathlib import Path
 
+import optuna
+from optuna.distributions import distribution_to_json, json_to_distribution
+from optuna.trial import FrozenTrial, TrialState
+
 from optim.study.journal import (
     _STUDY_ID,
     _TRIAL_PREFIX,
@@ -48,6 +52,7 @@ from optim.study.journal import (
     segments,
     split_line,
 )
+from optim.study.storage import JOURNAL, is_url, open_storage
 
 __all__ = [
     "DatabaseLedger",
@@ -80,7 +85,6 @@ def trial_log(study_id: int, trial, worker_id: str) -> dict:
     }
     if trial.datetime_complete is not None:
         log["datetime_complete"] = _iso(trial.datetime_complete)
-    from optuna.distributions import distribution_to_json
 
     dists = trial.distributions
     log["distributions"] = {k: distribution_to_json(d) for k, d in dists.items()}
@@ -115,8 +119,6 @@ class _Distributions:
     def __call__(self, text):
         d = self.cache.get(text)
         if d is None:
-            from optuna.distributions import json_to_distribution
-
             d = self.cache[text] = json_to_distribution(text)
         return d
 
@@ -131,7 +133,6 @@ def params_of(log: dict, dists: _Distributions) -> tuple[dict, dict]:
 def trial_from_log(log: dict, number: int, dists=None):
     """The FrozenTrial optuna's journal replay makes of a CREATE_TRIAL record (trial id = the
     study's trial number: a ledger holds one study)."""
-    from optuna.trial import FrozenTrial, TrialState
 
     distributions, params = params_of(log, dists or _Distributions())
     return FrozenTrial(
@@ -350,9 +351,6 @@ class OptunaLedger:
     ``JournalLedger`` cannot follow."""
 
     def __init__(self, location, name: str):
-        import optuna
-
-        from optim.study.storage import open_storage
 
         storage, _ = open_storage(location, repair=False, notes=[])  # the run's parent says it
         self.study = optuna.load_study(study_name=name, storage=storage)
@@ -388,7 +386,6 @@ def open_ledger(location, name: str):
     """The ledger of study ``name`` at ``location`` (a study folder or a database URL): a
     ``DatabaseLedger``, a ``JournalLedger``, or an ``OptunaLedger`` when the journal holds what a
     journal ledger cannot follow."""
-    from optim.study.storage import JOURNAL, is_url, open_storage
 
     if is_url(str(location)):
         storage, _ = open_storage(str(location), repair=False, create=False)

@@ -28,6 +28,8 @@ import numpy as np
 
 from models.design import Design
 from models.evaluate import evaluate_pick_gaps
+from optim.study.family import family_results
+from optim.study.flat import flat_result, flatten
 
 __all__ = [
     "OUT_OF_DEPTH_RULE",
@@ -85,31 +87,6 @@ class Constraint:
         return out
 
 
-def flatten(d: dict) -> dict[str, float]:
-    """Numeric fields of a result dict as one level of ``name`` / ``name.key`` -> float."""
-    out = {}
-    for key, value in d.items():
-        if isinstance(value, bool):
-            out[key] = float(value)
-        elif isinstance(value, (int, float)):
-            out[key] = float(value)
-        elif isinstance(value, dict):
-            for k, v in value.items():
-                if isinstance(v, (int, float)) and not isinstance(v, bool):
-                    out[f"{key}.{k}"] = float(v)
-    return out
-
-
-def flat_result(result) -> dict[str, float]:
-    """A model result as a study's flat numbers (``flatten``), without its run time, with
-    ``out_of_depth``: how many reasons the linear model gives for being out of its depth
-    (models.checks.out_of_depth; 0: none), which the study's design rule reads."""
-    flat = flatten(result.to_dict())
-    flat.pop("run_time_s", None)
-    flat["out_of_depth"] = float(len(result.out_of_depth))
-    return flat
-
-
 def results_of(design: Design, gaps_mm=(), isothermal: bool = False, parts=()):
     """Evaluate ``design`` and return (flat results, warnings, binding limit name or "").
 
@@ -120,8 +97,6 @@ def results_of(design: Design, gaps_mm=(), isothermal: bool = False, parts=()):
     in turn and ``gaps_mm`` is not used: ``optim.study.family.family_results``.
     """
     if parts:
-        from optim.study.family import family_results
-
         return family_results(design, parts, isothermal=isothermal)
     result, pulls = evaluate_pick_gaps(design, gaps_mm, isothermal=isothermal)
     flat = flat_result(result)

@@ -24,15 +24,24 @@ import numpy as np
 
 from models.errors import DesignError
 from optim.files import redact_text, redact_url
-from optim.study.engine import RESULT_NAMES_ATTR, run_worker
+from optim.study.engine import run_worker
+from optim.study.ledger import JournalLedger, LedgerUnfit, open_ledger
 from optim.study.pareto import minimisation_signs, with_row
+from optim.study.records import RESULT_NAMES_ATTR, ErrorMessage, TrialMessage, WorkerConfig
 from optim.study.sampler import derive_seed
 from optim.study.storage import (
     FINGERPRINT_ATTR,
+    JOURNAL,
+    SPEC_ATTR,
+    check_stored,
     create_or_load,
+    is_storage_error,
     is_url,
+    journal_damage_note,
     open_storage,
     release,
+    repair_journal,
+    storage_fault,
 )
 
 __all__ = ["study_folder", "run_study", "Progress", "prepare"]
@@ -146,14 +155,6 @@ def prepare(spec, location, note=None):
     is stored): ``optim.study.ledger``'s line to the study, which does not read its trials (a
     journal's existing study is read by one pass over its records' heads). ``note`` (a function
     of one line; default: a warning on stderr) hears what was set aside or skipped."""
-    from optim.study.ledger import JournalLedger, LedgerUnfit, open_ledger
-    from optim.study.storage import (
-        JOURNAL,
-        SPEC_ATTR,
-        check_stored,
-        journal_damage_note,
-        repair_journal,
-    )
 
     note = note or logging.getLogger("eddypull").warning
     if not is_url(str(location)):
@@ -244,15 +245,15 @@ def run_study(
     echo(msg)
     log.info(msg)
     base_seed = seed if seed is not None else spec.run.get("seed")
-    cfg = {
-        "spec": spec.to_json(),
-        "location": str(location),
-        "deadline": deadline,
-        "sync_s": sync_s,
-        "evaluator": evaluator,
-        "parent_pid": os.getpid(),
-    }
-    pool = _WorkerPool(cfg, _split(trials, workers), progress, log, echo)
+    config = WorkerConfig(
+        spec=spec.to_json(),
+        location=str(location),
+        deadline=deadline,
+        sync_s=sync_s,
+        evaluator=evaluator,
+        parent_pid=os.getpid(),
+    )
+    pool = _WorkerPool(config, _split(trials, workers), progress, log, echo)
     pool.seed_parts = _seed_parts(base_seed, salt, run_number)
     signum = pool.run(tty) if trials != 0 else None
     if tty:
@@ -312,8 +313,8 @@ class _WorkerPool:
     error or a non-zero exit stops every worker.
     """
 
-    def __init__(self, cfg: dict, quotas: list, progress: Progress, log, echo):
-        self.cfg = cfg
+    def __init__(self, config: WorkerConfig, quotas: list, progress: Progress, log, echo):
+        self.config = config
         self.quotas = quotas
         self.progress = progress
         self.log = log
@@ -333,8 +334,11 @@ class _WorkerPool:
 
     def start(self, index: int, generation: int) -> None:
         """Start the worker of slot ``index`` (``generation``: how many restarts so far)."""
-        c = dict(self.cfg, index=index, trials=self.quotas[index])
-        c["seed"] = derive_seed(*self.seed_parts, index, generation)
+        c = self.config.but(
+            index=index,
+            trials=self.quotas[index],
+            seed=derive_seed(*self.seed_parts, index, generation),
+        )
         counter = self.ctx.Value("q", self.done[index])  # this slot's trials so far
         self.counters[index] = counter  # kept alive until the child has attached to it
         reader, writer = self.ctx.Pipe(duplex=False)  # one pipe per worker: a kill blocks no other
@@ -353,14 +357,14 @@ class _WorkerPool:
         try:
             while reader.poll():
                 msg = reader.recv()
-                if msg[0] == "trial":
+                if isinstance(msg, TrialMessage):
                     self.done[index] += 1
-                    self.progress.add(msg[1], msg[2], msg[3], copied=len(msg) > 5 and msg[5])
-                elif msg[0] == "error":
+                    self.progress.add(msg.state, msg.feasible, msg.values, copied=msg.copied)
+                elif isinstance(msg, ErrorMessage):
                     self.reported_error[index] = True
-                    if msg[1] not in self.errors:
-                        self.errors.append(msg[1])
-                        self.log.error(msg[1])
+                    if msg.text not in self.errors:
+                        self.errors.append(msg.text)
+                        self.log.error(msg.text)
                     self.stop.set()
         except (EOFError, OSError):
             self.readers.pop(reader, None)
@@ -423,7 +427,7 @@ class _WorkerPool:
 
     def _budget_left(self, index: int) -> bool:
         """True while the run's time and slot ``index``'s share of the trials are not spent."""
-        deadline = self.cfg["deadline"]
+        deadline = self.config.deadline
         quota = self.quotas[index]
         return (deadline is None or time.time() < deadline) and (
             quota is None or self.done[index] < quota
@@ -494,24 +498,22 @@ class _Sender:
         self.conn.send(msg)
 
 
-def _worker_entry(cfg, conn, stop, counter):
+def _worker_entry(config: WorkerConfig, conn, stop, counter):
     """Process target: run the worker; report an unexpected error as one line, not a traceback.
     The message is written to the pipe before the process ends (a pipe write is synchronous)."""
     sender = _Sender(conn)
     code = 0
     try:
-        run_worker(cfg, sender, stop, counter)
+        run_worker(config, sender, stop, counter)
     except DesignError as err:
-        sender.put(("error", redact_text("; ".join(err.problems), cfg["location"])))
+        sender.put(ErrorMessage(redact_text("; ".join(err.problems), config.location)))
         code = 3
     except Exception as err:  # reported once by the parent; the study itself is intact
-        from optim.study.storage import is_storage_error, storage_fault
-
         if is_storage_error(err):
-            text = str(storage_fault(err, cfg["location"], "a worker stopped"))
+            text = str(storage_fault(err, config.location, "a worker stopped"))
         else:
-            text = redact_text(f"{type(err).__name__}: {err}", cfg["location"])[:500]
-        sender.put(("error", text))
+            text = redact_text(f"{type(err).__name__}: {err}", config.location)[:500]
+        sender.put(ErrorMessage(text))
         code = 3
     finally:
         conn.close()

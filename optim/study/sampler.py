@@ -11,6 +11,7 @@
 from __future__ import annotations
 
 import numpy as np
+import optuna
 
 __all__ = [
     "derive_seed",
@@ -56,7 +57,6 @@ def make_sampler(spec, seed: int | None, rollover: int = 0):
     """The optuna sampler ``choose`` names for window ``rollover``, seeded ``seed`` (None:
     optuna's own randomness). Constraints reach every sampler through the trials
     (``Trial.set_constraint``)."""
-    import optuna
 
     kind, population = choose(spec, rollover)
     if kind == "random":

@@ -57,6 +57,8 @@ from __future__ import annotations
 import math
 from dataclasses import dataclass
 
+import optuna.distributions as od
+
 from models.coils import COILS_KEYS, coil_table_key
 from models.design import (
     DESIGN_KEYS,
@@ -149,7 +151,6 @@ class Parameter:
 
     def distribution(self):
         """The optuna distribution of the parameter: categorical, integer or float."""
-        import optuna.distributions as od
 
         if self.choices:
             return od.CategoricalDistribution(self.choices)

@@ -51,10 +51,11 @@ import numpy as np
 
 from models.design import DESIGN_KEYS, PLAUSIBLE_LIMITS, design_from_dict, read_toml
 from models.errors import DesignError, nearest
+from models.result import FLAT_FIELDS, MODEL_VERSION
 from optim.files import safe_name
 from optim.study.objectives import Constraint, Objective, results_of
 from optim.study.parts import GAP_KEYS, Part, parse_parts, part_source
-from optim.study.space import Parameter, parse_search
+from optim.study.space import Parameter, design_source, parse_search
 
 __all__ = [
     "StudySpec",
@@ -150,7 +151,6 @@ class StudySpec:
         """Hash of what defines the study's trials (base design, search, objectives, robust
         range, constraints, parts, isothermal, the fast model's version): a resumed study must
         match it. A study without ``[[parts]]`` hashes as it did before parts existed."""
-        from models.result import MODEL_VERSION
 
         d = self.to_json()
         key = {k: d[k] for k in ("base", "search", "objectives", "robust", "constraints")}
@@ -469,7 +469,6 @@ def _model_results(
     result of the model. Returns the sorted names of the model's flat results; raises
     DesignError otherwise."""
     # The base design must itself be a valid design, and every trial is built from it.
-    from optim.study.space import design_source
 
     problems: list[str] = []
     mid = {p.name: _mid(p) for p in params}
@@ -490,7 +489,6 @@ def _model_results(
     isothermal = bool(run.get("isothermal", False))
     flat, _, _ = results_of(base_design, gaps, isothermal=isothermal, parts=parts)
     known = sorted(flat)
-    from models.result import FLAT_FIELDS
 
     fields = {name for _, name in FLAT_FIELDS}
     for what, items in (("objectives", objectives), ("constraints", constraints)):
@@ -526,7 +524,6 @@ def _model_results(
 def _check_parts_at_middle(base, params, mid, parts, study_name) -> None:
     """Every part of a family must give a design at the middle of the search space; raises
     DesignError with one line per part that does not."""
-    from optim.study.space import design_source
 
     problems = []
     for i, part in enumerate(parts):
@@ -545,7 +542,6 @@ def _check_choices(base, params, mid, study_name) -> None:
     """Every choice of a text parameter must give a design at the middle of the search space
     (with the others at their middle); raises DesignError with one line per choice that does
     not."""
-    from optim.study.space import design_source
 
     problems = []
     for p in params:

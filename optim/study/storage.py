@@ -19,10 +19,19 @@ import re
 import time
 from pathlib import Path
 
+import optuna
+from optuna.storages.journal import JournalStorage
+
 from models.errors import DesignError
 from models.result import MODEL_VERSION
 from optim.files import redact_text, redact_url, safe_child
-from optim.study.journal import journal_damage_note, repair_journal, rewrite_journal
+from optim.study.journal import (
+    journal_backend,
+    journal_damage_note,
+    repair_journal,
+    rewrite_journal,
+)
+from optim.study.location import JOURNAL, database_url, is_url
 from optim.study.storage_errors import (
     StorageFault,
     _dispose_half_made,
@@ -51,7 +60,6 @@ __all__ = [
     "storage_fault",
 ]
 
-JOURNAL = "journal.log"
 SPEC_ATTR = "eddypull_spec"
 FINGERPRINT_ATTR = "eddypull_fingerprint"
 #: The fast model's version a study was recorded with (models.result.MODEL_VERSION); a study
@@ -63,33 +71,15 @@ FIRST_MODEL_VERSION = "multiloop-1"
 logging.getLogger("optuna").setLevel(logging.WARNING)
 
 
-def is_url(text) -> bool:
-    return isinstance(text, str) and "://" in text
-
-
-def _database_url(url: str) -> str:
-    """``postgres://`` (which the database layer no longer reads) and, when the psycopg2 driver
-    is missing, ``postgresql://`` become ``postgresql+psycopg://`` (the driver eddypull installs)."""
-    if url.startswith("postgres://"):
-        return "postgresql+psycopg://" + url.split("://", 1)[1]
-    if url.startswith("postgresql://"):
-        try:
-            import psycopg2  # noqa: F401
-        except ImportError:
-            return "postgresql+psycopg://" + url.split("://", 1)[1]
-    return url
-
-
 def _rdb_storage(location: str, create: bool):
     """optuna's database storage. Two machines starting on a new database at once race to create
     its tables (the loser sees a unique-key violation): a failed first attempt is retried once the
     other has finished, a few times with growing pauses."""
-    import optuna
 
     for attempt in range(5):
         try:
             return optuna.storages.RDBStorage(
-                _database_url(location),
+                database_url(location),
                 engine_kwargs={"pool_pre_ping": True},
                 skip_table_creation=not create,
             )
@@ -140,9 +130,6 @@ def open_storage(location, repair: bool = True, create: bool = True, notes=None)
     folder.mkdir(parents=True, exist_ok=True)
     path = safe_child(folder, JOURNAL)
     note = repair_journal(path) if repair else None
-    from optuna.storages.journal import JournalStorage
-
-    from optim.study.journal import journal_backend
 
     backend = journal_backend(path)
     storage = JournalStorage(backend)
@@ -157,7 +144,6 @@ def open_storage(location, repair: bool = True, create: bool = True, notes=None)
 def create_or_load(storage, spec):
     """The optuna study of ``spec`` in ``storage``: created with its definition, or loaded and
     checked against it (a changed search, objectives or constraints is refused)."""
-    import optuna
 
     optuna.logging.set_verbosity(optuna.logging.WARNING)
     study = optuna.create_study(
@@ -251,7 +237,6 @@ def load_existing(location, name: str | None = None):
 
     A folder holds one study; a URL may hold several, chosen by ``name``.
     """
-    import optuna
 
     if not is_url(location):
         folder = Path(location)

@@ -10,7 +10,10 @@ from __future__ import annotations
 
 import re
 
+from sqlalchemy.engine import make_url
+
 from optim.files import redact_text, redact_url
+from optim.study.location import database_url, is_url
 
 __all__ = ["StorageFault", "is_storage_error", "storage_fault"]
 
@@ -87,12 +90,9 @@ def _server_words(err: BaseException) -> str:
 
 def _server_of(location: str) -> str:
     """host:port and database of a URL, for a message (no user, no password)."""
-    from optim.study.storage import _database_url
 
     try:
-        from sqlalchemy.engine import make_url
-
-        u = make_url(_database_url(location))
+        u = make_url(database_url(location))
     except Exception:
         return "?"
     if u.host is None:
@@ -104,7 +104,6 @@ def _server_of(location: str) -> str:
 def storage_fault(err: BaseException, location, doing: str = "failed") -> StorageFault:
     """One line for a database error: the URL (password hidden), host and port, database, the
     server's own words and what to do."""
-    from optim.study.storage import is_url
 
     words = redact_text(_server_words(err), location)
     hint = next((h for pattern, h in _HINTS if re.search(pattern, words, re.I)), None)

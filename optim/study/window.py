@@ -17,7 +17,10 @@ private in-memory study that holds a window of the search, not all of it:
 
 from __future__ import annotations
 
-from optuna.study._constrained_optimization import _CONSTRAINTS_KEY
+import optuna
+from optuna.trial import TrialState
+
+from optim.study.records import constraint_attrs, constraints_of
 
 __all__ = ["SamplerWindow", "window_limit"]
 
@@ -40,7 +43,6 @@ class SamplerWindow:
         self.study = self._new()
 
     def _new(self):
-        import optuna
 
         sampler = self.make_sampler(self.rollovers)
         key = getattr(sampler, "_get_generation_key", None)
@@ -49,7 +51,6 @@ class SamplerWindow:
         return optuna.create_study(directions=self.directions, sampler=sampler)
 
     def _complete(self):
-        from optuna.trial import TrialState
 
         return self.study.get_trials(deepcopy=False, states=(TrialState.COMPLETE,))
 
@@ -63,11 +64,8 @@ class SamplerWindow:
     def _copy(self, trial, generation):
         """A trial for the private study: parameters, values, constraints, and the generation
         it joins (the sampler's other marks stay with the study they were made in)."""
-        import optuna
 
-        system = {
-            k: v for k, v in trial.system_attrs.items() if k.startswith(f"{_CONSTRAINTS_KEY}:")
-        }
+        system = constraint_attrs(constraints_of(trial.system_attrs))
         if self.generation_key is not None:
             system[self.generation_key] = generation
         return optuna.trial.create_trial(

@@ -39,8 +39,8 @@ if str(ROOT) not in sys.path:
     sys.path.insert(0, str(ROOT))
 
 from optim.demo import DEMO_STUDY  # noqa: E402
-from optim.study.engine import RECORD_ATTR  # noqa: E402
 from optim.study.ledger import JournalLedger, trial_log  # noqa: E402
+from optim.study.records import RECORD_ATTR  # noqa: E402
 from optim.study.run import prepare, run_study  # noqa: E402
 from optim.study.spec import load_study_spec  # noqa: E402
 from optim.study.storage import JOURNAL  # noqa: E402

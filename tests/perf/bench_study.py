@@ -24,6 +24,7 @@ ROOT = Path(__file__).resolve().parents[2]
 sys.path.insert(0, str(ROOT))
 
 from optim.demo import DEMO_STUDY  # noqa: E402
+from optim.study.records import Outcome, OutcomeState  # noqa: E402
 from optim.study.run import run_study  # noqa: E402
 from optim.study.spec import load_study_spec  # noqa: E402
 
@@ -38,15 +39,13 @@ def stand_in(spec, values):
         flat[c.name] = math.cos(s)
     violations = {c.name: c.violation(flat[c.name]) for c in spec.constraints}
     margins = {c.name: c.margin(flat[c.name]) for c in spec.constraints}
-    return {
-        "state": "COMPLETE",
-        "values": [flat[o.name] for o in spec.objectives],
-        "violations": violations,
-        "margins": margins,
-        "flat": flat,
-        "warnings": [],
-        "reason": "",
-    }
+    return Outcome(
+        state=OutcomeState.COMPLETE,
+        values=[flat[o.name] for o in spec.objectives],
+        violations=violations,
+        margins=margins,
+        flat=flat,
+    )
 
 
 def one(spec, storage, workers, trials, model, folder):

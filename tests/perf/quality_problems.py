@@ -111,7 +111,7 @@ def evaluate_point(values: dict) -> dict:
     out = evaluate_trial(_SPEC[0], values)
     row = dict(values)
     for r in RESULTS:
-        row[r] = out["flat"].get(r, float("nan")) if out["state"] == "COMPLETE" else float("nan")
+        row[r] = out.flat.get(r, float("nan")) if out.complete else float("nan")
     return row
 
 
