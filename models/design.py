@@ -183,6 +183,7 @@ class Target:
     density: float
     inner_radius: float = 0.0
     material: str | None = None
+    offset: float = 0.0  # the part's centre along +x from the pole's axis [m] (models.fast.offset)
 
     @property
     def volume(self) -> float:
@@ -322,6 +323,7 @@ DESIGN_KEYS: dict[str, dict[str, tuple[str, bool]]] = {
         "conductivity_S_per_m": ("pos", False),
         "temperature_coefficient_per_K": ("nonneg", False),
         "density_kg_per_m3": ("pos", False),
+        "offset_mm": ("num", False),
     },
     "thermal": {
         "ambient_C": ("num", False),
@@ -406,6 +408,8 @@ def _is_finite(value) -> bool:
 def _plausible(where: str, value, kind: str, problems: list[str]):
     """``value`` if inside PLAUSIBLE_LIMITS for its key (or 0 where allowed), else None."""
     limits = [v for k, v in PLAUSIBLE_LIMITS.items() if where.endswith(k)]
+    if where.endswith("offset_mm"):  # signed; its bound is the part's and the pole's radii
+        limits = []
     if not limits or (kind == "nonneg" and value == 0) or limits[0][0] <= value <= limits[0][1]:
         return value
     lo, hi = limits[0]
@@ -866,6 +870,13 @@ def _check_geometry(vals: dict[str, _Values], problems: list[str]) -> None:
                 f"target.inner_radius_mm = {tri!r}: must be < target.radius_mm "
                 f"(= {g['radius_mm']!r})"
             )
+    if p.has("radius_mm") and g.has("radius_mm") and g.usable("offset_mm"):
+        off, reach = g.get("offset_mm", 0.0), p["radius_mm"] + g["radius_mm"]
+        if abs(off) >= reach:
+            problems.append(
+                f"target.offset_mm = {off!r}: must lie within +-(target.radius_mm + "
+                f"pole.radius_mm) = +-{reach:g} mm (beyond it the part is clear of the pole)"
+            )
 
 
 def _check_coil_fits(p: _Values, c: _Values, problems: list[str]) -> None:
@@ -974,6 +985,7 @@ def _build(data: dict, name: str, vals: dict[str, _Values], parsed: dict[str, di
         thickness=g["thickness_mm"] * MM,
         gap=g["gap_mm"] * MM,
         inner_radius=g.get("inner_radius_mm", 0.0) * MM,
+        offset=g.get("offset_mm", 0.0) * MM,
         **parsed["target"],
     )
     return Design(

@@ -30,6 +30,7 @@ from models.fast.circuit import RING, TARGET, CircuitSolution, assemble_circuit,
 from models.fast.core import radial_flux_fraction
 from models.fast.discretize import Fineness
 from models.fast.flux import core_peak_flux_density, pole_flux_density
+from models.fast.offset import centring_stiffness, offset_forces
 from models.fast.pull import pull_by_source
 from models.fast.ripple import pull_ripple
 from models.fast.uncertainty import COARSE_FACTOR, pull_uncertainty
@@ -220,6 +221,7 @@ def evaluate(
     fineness: Fineness | None = None,
     pole_model=None,
     lift_points: int = LIFT_POINTS,
+    lateral: bool | None = None,
 ) -> Result:
     """Evaluate one design with the fast multi-loop model and its thermal network.
 
@@ -242,6 +244,11 @@ def evaluate(
         Pulls on the curve of the lift in time (``pick_time_ms``; ``_with_lift``): 2 (default)
         the pick gap's and the holding gap's, which cost nothing more; each one above 2 one
         circuit assembly and solve at a gap between them (Chebyshev-Lobatto points).
+    lateral : bool or None
+        The part off the axis (models.fast.offset, ``_with_lateral``): True, the centring
+        stiffness and (at ``target.offset_mm``) the pull, lateral force and tilt torque there;
+        None (default), these only where the part is offset (the stiffness then too); False,
+        none (an offset part is then refused). It costs about one more evaluation.
 
     Returns
     -------
@@ -268,7 +275,9 @@ def evaluate(
     >>> print(f"{result.input_power_W:.0f} W")
     48 W
     """
-    return evaluate_pick_gaps(design, (), isothermal, fineness, pole_model, lift_points)[0]
+    return evaluate_pick_gaps(
+        design, (), isothermal, fineness, pole_model, lift_points, lateral=lateral
+    )[0]
 
 
 def evaluate_pick_gaps(
@@ -278,12 +287,16 @@ def evaluate_pick_gaps(
     fineness: Fineness | None = None,
     pole_model=None,
     lift_points: int = LIFT_POINTS,
+    lateral: bool | None = None,
+    offsets_mm=(),
 ) -> tuple[Result, list]:
     """``evaluate(design)`` and the pull at arrival [N] at each gap of ``gaps_mm`` [mm].
 
     A part is picked at any gap of a range while the magnet's fixed parts sit at one steady
     state (that of ``design``, with its part held at the holding gap): each extra gap costs one
     circuit assembly and solve, no thermal solve. A gap equal to the design's reuses its pull.
+    With ``offsets_mm`` [mm] each gap's pull is the worst (smallest) over the part at those
+    offsets from the axis (models.fast.offset; the sheet model once a gap, no error bar).
     """
     t_start = time.perf_counter()
     fineness = fineness or DEFAULT_FINENESS
@@ -315,6 +328,7 @@ def evaluate_pick_gaps(
     pull_at = _ArrivalPulls(design, fineness, part.arrival, {held_design.target.gap: arrival_held})
     pull_at[design.target.gap] = electrical.pull_N
     electrical, lift = _with_lift(electrical, design, held_design, pull_at, lift_points)
+    electrical = _with_lateral(electrical, design, pick_system, arrival, lateral)
     thermal = _thermal(design, state, part, electrical)
     flat = _flat_for_checks(electrical, thermal)
     warnings = [f"design: {note}" for note in design.notes]
@@ -329,7 +343,37 @@ def evaluate_pick_gaps(
         n_panels=0 if arrival.panels is None else int(arrival.panels.n),
         run_time_s=time.perf_counter() - t_start,
     )
+    if len(offsets_mm):
+        worst = _OffsetPulls(design, fineness, part.arrival, offsets_mm)
+        return result, [worst[g * 1e-3] for g in gaps_mm]
     return result, [pull_at[g * 1e-3] for g in gaps_mm]
+
+
+class _OffsetPulls(dict):
+    """The smallest pull at arrival [N] over the part at ``offsets_mm`` [mm] from the axis, by
+    gap [m], the magnet at one steady state: each gap one circuit assembly and solve and one
+    sheet model (models.fast.offset.offset_forces, no error bar)."""
+
+    def __init__(self, design, fineness, temperatures, offsets_mm):
+        super().__init__()
+        self._design, self._fineness, self._temps = design, fineness, temperatures
+        self._offsets = [float(d) * 1e-3 for d in offsets_mm]
+
+    def __missing__(self, gap):
+        at_gap = with_gap(self._design, gap * 1e3)
+        system = assemble_circuit(
+            at_gap, self._fineness, pole_model_for(at_gap, self._fineness), pull_only=True
+        )
+        sol = solve_system(system, self._temps)
+        split = pull_by_source(sol)
+        pull = float(sum(split.values()))
+        terms = sum(abs(v) for v in split.values())
+        pulls = [pull]
+        if any(d != 0.0 for d in self._offsets):
+            moved = [d for d in self._offsets if d != 0.0]
+            pulls += [o.pull for o in offset_forces(system, sol, moved, pull, terms, error=False)]
+        self[gap] = min(pulls)
+        return self[gap]
 
 
 class _ArrivalPulls(dict):
@@ -566,6 +610,42 @@ def _with_ripple(electrical: Electrical, design: Design, arrival, arrival_held, 
         electrical,
         pull_ripple_N=pull_ripple(arrival),
         hold_chatter_margin_N=min(margins) if hold is not None else math.nan,
+    )
+
+
+def _with_lateral(electrical: Electrical, design: Design, system, sol, lateral) -> Electrical:
+    """``electrical`` with the part off the axis (models.fast.offset) where asked (``evaluate``'s
+    ``lateral``): the centring stiffness, and at ``target.offset_mm`` the pull (``pull_N``,
+    ``lift_ratio``; the centred one kept as ``pull_centred_N``, error bars in quadrature),
+    lateral force and tilt torque; a centred part has no lateral force or torque (symmetry)."""
+    offset = design.target.offset
+    out = dataclasses.replace(electrical, pull_centred_N=electrical.pull_N)
+    if lateral is False:
+        if offset != 0.0:
+            raise ValueError("lateral = False with an offset part: its pull needs the sheet model")
+        return out
+    if lateral is None and offset == 0.0:
+        return out
+    pull = electrical.pull_N
+    terms = sum(abs(v) for v in electrical.pull_by_source_N.values())
+    k, uk = centring_stiffness(system, sol, pull, terms)
+    out = dataclasses.replace(
+        out, centring_stiffness_N_per_m=k, centring_stiffness_uncertainty_N_per_m=uk
+    )
+    if offset == 0.0:
+        return out
+    (at,) = offset_forces(system, sol, [offset], pull, terms)
+    u = math.hypot(electrical.pull_uncertainty_N, at.pull_uncertainty)
+    return dataclasses.replace(
+        out,
+        pull_N=at.pull,
+        lift_ratio=at.pull / electrical.target_weight_N,
+        pull_uncertainty_N=u,
+        pull_uncertainty_relative=u / abs(at.pull) if at.pull != 0 else math.inf,
+        lateral_force_N=at.lateral,
+        lateral_force_uncertainty_N=at.lateral_uncertainty,
+        tilt_torque_N_m=at.tilt,
+        tilt_torque_uncertainty_N_m=at.tilt_uncertainty,
     )
 
 

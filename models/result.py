@@ -130,6 +130,14 @@ class Electrical:
     hold_chatter_margin_N: float
     pick_time_ms: float
     contact_speed_m_per_s: float
+    # The part off the axis (models.fast.offset; FLAT_LATERAL at the end of this module).
+    pull_centred_N: float = math.nan
+    lateral_force_N: float = 0.0
+    lateral_force_uncertainty_N: float = 0.0
+    tilt_torque_N_m: float = 0.0
+    tilt_torque_uncertainty_N_m: float = 0.0
+    centring_stiffness_N_per_m: float = math.nan
+    centring_stiffness_uncertainty_N_per_m: float = math.nan
 
 
 @dataclass(frozen=True)
@@ -303,3 +311,24 @@ class Result:
                 value = list(value)
             d[name] = value
         return d
+
+
+#: The part off the axis (``[target] offset_mm``, models.fast.offset), flat after the rest.
+#: pull_N and lift_ratio are at the offset; ``pull_centred_N`` the pull of the centred part
+#: (pull_by_source_N splits that one); lateral_force_N the force along +x (the offset's
+#: direction; negative at a positive offset draws the part back to the axis), tilt_torque_N_m
+#: about the line through the part's centre across the offset in the face plane (positive turns
+#: its +x edge toward the face), each with its error estimate; centring_stiffness_N_per_m is
+#: -dF_x/dx at the axis (positive draws the part in; nan where not asked for: evaluate's
+#: ``lateral``). Losses, temperatures, ripple, chatter and the lift are the centred part's.
+FLAT_LATERAL = (
+    "pull_centred_N",
+    "lateral_force_N",
+    "lateral_force_uncertainty_N",
+    "tilt_torque_N_m",
+    "tilt_torque_uncertainty_N_m",
+    "centring_stiffness_N_per_m",
+    "centring_stiffness_uncertainty_N_per_m",
+)
+FLAT_FIELDS = FLAT_FIELDS + tuple(("electrical", name) for name in FLAT_LATERAL)
+_GROUP_OF.update({name: "electrical" for name in FLAT_LATERAL})

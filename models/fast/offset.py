@@ -47,12 +47,13 @@ model adds the change with the offset: pull(d) = pull_circuit + pull_sheet(d) - 
 
 from __future__ import annotations
 
+import functools
 import math
 from dataclasses import dataclass
 
 import numpy as np
 from scipy.constants import mu_0
-from scipy.special import jv
+from scipy.special import j0, j1, jv
 
 from models.fast.circuit import TARGET, CircuitSolution, CircuitSystem
 from models.fast.kernels import loop_field_flat
@@ -188,14 +189,14 @@ def _basis(inner: float, outer: float, m: int, fine: SheetFineness) -> _Basis:
     for lo, hi in zip(nodes[:-1], nodes[1:], strict=True):
         # Enough Gauss points to follow J_m(k rho) up to k_max across the element.
         n = max(fine.gauss, math.ceil(0.6 * k_max * (hi - lo)) + 2)
-        x, wx = np.polynomial.legendre.leggauss(n)
+        x, wx = _gauss(n)
         r = 0.5 * (lo + hi) + 0.5 * (hi - lo) * x
         rho.append(r)
         w.append(0.5 * (hi - lo) * wx * r)
     rho, w = np.concatenate(rho), np.concatenate(w)
     conductor = np.ones(rho.size, bool)
     if inner > 0.0 and m == 0:  # the hole, where psi is constant: its flux links the circulation
-        xh, wh = np.polynomial.legendre.leggauss(max(2 * fine.gauss, math.ceil(0.6 * k_max * inner) + 2))
+        xh, wh = _gauss(max(2 * fine.gauss, math.ceil(0.6 * k_max * inner) + 2))
         rh = 0.5 * inner * (1.0 + xh)
         rho = np.concatenate([rh, rho])
         w = np.concatenate([0.5 * inner * wh * rh, w])
@@ -221,13 +222,38 @@ def _basis(inner: float, outer: float, m: int, fine: SheetFineness) -> _Basis:
     return _Basis(rho, w, np.array(funcs), np.array(derivs), conductor)
 
 
-def _k_grid(design, fine: SheetFineness):
-    t = design.target
-    u, wu = np.polynomial.legendre.leggauss(fine.k_points)
-    lo = math.log(1e-3 / t.radius)
-    hi = math.log(_k_max(t.inner_radius, t.radius, fine))
+@functools.lru_cache(maxsize=256)
+def _gauss(n: int):
+    return np.polynomial.legendre.leggauss(n)
+
+
+def _k_grid(inner: float, outer: float, fine: SheetFineness):
+    u, wu = _gauss(fine.k_points)
+    lo = math.log(1e-3 / outer)
+    hi = math.log(_k_max(inner, outer, fine))
     k = np.exp(0.5 * (lo + hi) + 0.5 * (hi - lo) * u)
     return k, 0.5 * (hi - lo) * wu * k  # dk = k du
+
+
+def _bessel(m: int, x):
+    if m == 0:
+        return j0(x)
+    if m == 1:
+        return j1(x)
+    return jv(m, x)
+
+
+@functools.lru_cache(maxsize=64)
+def _hankel(inner: float, outer: float, m: int, fine: SheetFineness):
+    """The basis of harmonic m, the k-grid (k, weights) and the basis's Hankel transforms
+    F (n_b, n_k) of a part's radii [m]: they depend on its radii only, so gaps, offsets and
+    drives reuse them (kept for the last 64; read-only)."""
+    basis = _basis(inner, outer, m, fine)
+    k, wk = _k_grid(inner, outer, fine)
+    F = (basis.f * basis.w) @ _bessel(m, np.outer(basis.rho, k))
+    for a in (basis.rho, basis.w, basis.f, basis.df, basis.conductor, k, wk, F):
+        a.setflags(write=False)
+    return basis, k, wk, F
 
 
 @dataclass(frozen=True)
@@ -243,9 +269,7 @@ class _Harmonic:
 def sheet_model(design, m: int, z_layers, t_layer: float, fine: SheetFineness, lam):
     """Loop equations of harmonic ``m`` of the part (module docstring)."""
     t = design.target
-    basis = _basis(t.inner_radius, t.radius, m, fine)
-    k, wk = _k_grid(design, fine)
-    F = (basis.f * basis.w) @ jv(m, np.outer(basis.rho, k))  # (n_b, n_k)
+    basis, k, wk, F = _hankel(float(t.inner_radius), float(t.radius), m, fine)
     cm = 2.0 * np.pi if m == 0 else np.pi
     n_l, n_b = len(z_layers), basis.f.shape[0]
     kt = k * t_layer
@@ -410,6 +434,7 @@ def offset_forces(
     circuit_pull: float,
     pull_terms: float,
     fineness: SheetFineness = DEFAULT_SHEET,
+    error: bool = True,
 ) -> list[OffsetResult]:
     """The part at each offset of ``offsets`` [m] (module docstring), from a solved circuit with
     the part centred (``system``, ``sol``) and its pull ``circuit_pull`` [N] (``pull_terms``: the
@@ -417,19 +442,22 @@ def offset_forces(
 
     The error bars: the change from a second, coarser sheet model (``SheetFineness.coarse``)
     and the model's own error, the relative distance of its centred pull from the circuit's
-    (``_model_error``) times each result's size, in quadrature.
+    (``_model_error``) times each result's size, in quadrature; ``error`` False: no second
+    level (the bars then carry the model's error alone).
     """
     design = system.design
     offsets = [float(d) for d in offsets]
     r_max = design.target.radius + max([abs(d) for d in offsets] + [0.0]) + 1e-6
     out = []
-    parts = [_sheet_part(system, sol, design, f, r_max) for f in (fineness, fineness.coarse())]
+    levels = (fineness, fineness.coarse()) if error else (fineness,)
+    parts = [_sheet_part(system, sol, design, f, r_max) for f in levels]
     centred = [p.forces(0.0, harmonics=0) for p in parts]
     e = _model_error(centred[0].pull, circuit_pull, pull_terms)
     for d in offsets:
-        fine_f, coarse_f = (p.forces(d) for p in parts)
+        forces = [p.forces(d) for p in parts]
+        fine_f, coarse_f = forces[0], forces[-1]
         dp = fine_f.pull - centred[0].pull
-        dp_c = coarse_f.pull - centred[1].pull
+        dp_c = coarse_f.pull - centred[-1].pull
         out.append(
             OffsetResult(
                 offset=d,
@@ -437,7 +465,9 @@ def offset_forces(
                 lateral=fine_f.lateral,
                 tilt=fine_f.tilt,
                 pull_uncertainty=math.hypot(dp - dp_c, e * dp),
-                lateral_uncertainty=math.hypot(fine_f.lateral - coarse_f.lateral, e * fine_f.lateral),
+                lateral_uncertainty=math.hypot(
+                    fine_f.lateral - coarse_f.lateral, e * fine_f.lateral
+                ),
                 tilt_uncertainty=math.hypot(fine_f.tilt - coarse_f.tilt, e * fine_f.tilt),
                 sheet_pull_centred=centred[0].pull,
             )
