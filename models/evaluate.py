@@ -17,6 +17,7 @@ import numpy as np
 from scipy.constants import g as standard_gravity
 
 from models.checks import (
+    lateral_warnings,
     lift_warnings,
     limits_and_margins,
     range_warnings,
@@ -335,6 +336,7 @@ def evaluate_pick_gaps(
     warnings += range_warnings(design, arrival, fineness, electrical)
     warnings += thermal_warnings(design, state, flat, part.hold_time_constant_s)
     warnings += lift_warnings(design, electrical, lift)
+    warnings += lateral_warnings(design, electrical)
     result = Result(
         electrical=electrical,
         thermal=thermal,

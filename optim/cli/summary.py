@@ -76,6 +76,31 @@ def _pick_dynamics_lines(design, r) -> list:
     ]
 
 
+def _lateral_lines(design, r) -> list:
+    """The part off the axis: the centring stiffness, and at an offset its pull, lateral force
+    and tilt torque (models.fast.offset)."""
+    import math
+
+    out = []
+    k = r.centring_stiffness_N_per_m
+    if math.isfinite(k):
+        words = "drawn back to the axis" if k > 0 else "thrown off the axis"
+        out.append(
+            f"  centring stiffness {k:+.4g} N/m (+-{r.centring_stiffness_uncertainty_N_per_m:.2g}):"
+            f" {words}"
+        )
+    d = design.target.offset
+    if d != 0.0:
+        f = r.lateral_force_N
+        toward = "toward the axis" if f * d < 0 else "away from the axis"
+        out.append(
+            f"  off the axis       {d * 1e3:+g} mm: lateral force {f * 1e3:+.4g} mN "
+            f"(+-{r.lateral_force_uncertainty_N * 1e3:.2g}, {toward}), tilt torque "
+            f"{r.tilt_torque_N_m:+.3g} N m; centred pull {r.pull_centred_N * 1e3:+.4g} mN"
+        )
+    return out
+
+
 def limits_used_text(a: dict) -> list:
     """Each part's temperature limit and where it comes from, in words."""
     out = []
@@ -130,6 +155,7 @@ def format_result(design, result) -> str:
         f"{r.lift_ratio_hold:+.3g} (part at {r.target_hold_temperature_C:.4g} degC, "
         f"gap {a['hold_gap_mm']:g} mm)",
         *_pick_dynamics_lines(design, r),
+        *_lateral_lines(design, r),
         f"  losses             target {_w(r.target_loss_W)} W, ring {_w(r.ring_loss_W)} W, "
         f"coil {_w(r.coil_loss_W)} W, core {_w(r.core_loss_W)} W (input {_w(r.input_power_W)} W)",
         f"  core loss          sheets' eddy currents {_w(r.core_eddy_loss_W)} W, hysteresis "

@@ -164,7 +164,9 @@ def study_evaluator(spec):
     from optim.study.objectives import results_of
 
     def evaluator(design, isothermal: bool):
-        flat, _, _ = results_of(design, spec.gaps_mm, isothermal=isothermal, parts=spec.parts)
+        flat, _, _ = results_of(
+            design, spec.gaps_mm, isothermal=isothermal, **spec.results_kwargs()
+        )
         margins = {k[len("margins.") :]: v for k, v in flat.items() if k.startswith("margins.")}
         for c in spec.constraints:
             value = flat.get(c.name, math.nan)

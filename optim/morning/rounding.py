@@ -88,7 +88,7 @@ def rounded_for_handoff(spec, design, resolution_mm: float, isothermal: bool):
 
     rounded, changed = round_design(design, resolution_mm)
     result = evaluate(rounded, isothermal=isothermal)
-    flat, _, _ = results_of(rounded, spec.gaps_mm, isothermal=isothermal, parts=spec.parts)
+    flat, _, _ = results_of(rounded, spec.gaps_mm, isothermal=isothermal, **spec.results_kwargs())
     margins = {c.name: c.margin(flat[c.name]) for c in spec.constraints if c.name in flat}
     broken = [name for name, m in margins.items() if not m >= 0]
     if broken:

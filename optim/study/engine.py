@@ -79,7 +79,7 @@ def evaluate_trial(spec, values: dict):
     isothermal = bool(spec.run.get("isothermal", False))
     try:
         flat, warnings, binding = results_of(
-            design, spec.gaps_mm, isothermal=isothermal, parts=spec.parts
+            design, spec.gaps_mm, isothermal=isothermal, **spec.results_kwargs()
         )
     except DesignError as err:
         out["reason"] = "model refused: " + "; ".join(err.problems)
