@@ -436,7 +436,7 @@ class OffsetResult:
 #: that moves over it), the pull's change by CHANGE_ERROR of itself, the tilt torque by
 #: TILT_ERROR of itself (the image's share of the torque is left out).
 IMAGE_ERROR = 0.5
-CHANGE_ERROR = 0.02
+CHANGE_ERROR = 0.1
 TILT_ERROR = 0.15
 
 

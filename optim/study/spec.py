@@ -387,10 +387,11 @@ def spec_from_dict(data: dict, folder: Path | None = None, name: str = "study") 
 
     names = {o.name for o in objectives} | {c.name for c in constraints}
     offsets = _robust_offsets(robust, problems)
+    asked_offsets = any(k in robust for k in OFFSET_KEYS)
     robust = {k: v for k, v in robust.items() if k not in OFFSET_KEYS}
     parts: list[Part] = []
     if "parts" in data:
-        if offsets:
+        if asked_offsets:
             problems.append(
                 "robust.offset_max_mm: not with [[parts]] (a family's parts are taken centred)"
             )
@@ -399,7 +400,7 @@ def spec_from_dict(data: dict, folder: Path | None = None, name: str = "study") 
         if not problems:
             base = part_source(base, next(p for p in parts if p.role == "lift"))
     else:
-        wanted = robust or (names & set(_WORST) and not offsets)
+        wanted = robust or (names & set(_WORST) and not asked_offsets)
         gaps = _robust_gaps(robust, problems) if wanted else ()
     if problems:
         raise DesignError(problems)
