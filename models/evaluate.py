@@ -577,6 +577,13 @@ def _electrical(
         hold_chatter_margin_N=math.nan,
         pick_time_ms=math.nan,
         contact_speed_m_per_s=math.nan,
+        pull_centred_N=pull,  # a centred part; _with_lateral moves it
+        lateral_force_N=0.0,
+        lateral_force_uncertainty_N=0.0,
+        tilt_torque_N_m=0.0,
+        tilt_torque_uncertainty_N_m=0.0,
+        centring_stiffness_N_per_m=math.nan,
+        centring_stiffness_uncertainty_N_per_m=math.nan,
     )
 
 
@@ -621,7 +628,7 @@ def _with_lateral(electrical: Electrical, design: Design, system, sol, lateral) 
     ``lift_ratio``; the centred one kept as ``pull_centred_N``, error bars in quadrature),
     lateral force and tilt torque; a centred part has no lateral force or torque (symmetry)."""
     offset = design.target.offset
-    out = dataclasses.replace(electrical, pull_centred_N=electrical.pull_N)
+    out = electrical
     if lateral is False:
         if offset != 0.0:
             raise ValueError("lateral = False with an offset part: its pull needs the sheet model")

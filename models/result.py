@@ -131,13 +131,13 @@ class Electrical:
     pick_time_ms: float
     contact_speed_m_per_s: float
     # The part off the axis (models.fast.offset; FLAT_LATERAL at the end of this module).
-    pull_centred_N: float = math.nan
-    lateral_force_N: float = 0.0
-    lateral_force_uncertainty_N: float = 0.0
-    tilt_torque_N_m: float = 0.0
-    tilt_torque_uncertainty_N_m: float = 0.0
-    centring_stiffness_N_per_m: float = math.nan
-    centring_stiffness_uncertainty_N_per_m: float = math.nan
+    pull_centred_N: float
+    lateral_force_N: float
+    lateral_force_uncertainty_N: float
+    tilt_torque_N_m: float
+    tilt_torque_uncertainty_N_m: float
+    centring_stiffness_N_per_m: float
+    centring_stiffness_uncertainty_N_per_m: float
 
 
 @dataclass(frozen=True)

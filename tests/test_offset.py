@@ -148,7 +148,7 @@ def _study(tmp_path, robust: str, extra: str = "") -> str:
 
 
 def test_study_robust_offsets(tmp_path):
-    from optim.study.objectives import results_of
+    from optim.study.objectives import results_of, study_kwargs
     from optim.study.spec import load_study_spec, spec_from_json
 
     path = _study(
@@ -160,7 +160,7 @@ def test_study_robust_offsets(tmp_path):
     assert spec.offsets_mm == (0.0, 1.0, 2.0) and spec.lateral is True
     assert spec_from_json(spec.to_json()).offsets_mm == spec.offsets_mm
     design = design_from_dict(spec.base)
-    flat, _, _ = results_of(design, spec.gaps_mm, isothermal=True, **spec.results_kwargs())
+    flat, _, _ = results_of(design, spec.gaps_mm, isothermal=True, **study_kwargs(spec))
     centred, _, _ = results_of(design, spec.gaps_mm, isothermal=True)
     # The worst over offsets is below the centred worst (the demo cap loses pull off the axis)
     # and is the pull at 2 mm off the axis at the 3 mm gap (regression of this model).

@@ -43,6 +43,7 @@ centred values (they change at second order in d, and no harmonic m >= 1 links a
 currents through the thickness (thin sheets: layers carry in-plane currents only); the
 image's share of the tilt torque. The centred part's own pull is the axisymmetric circuit's; this
 model adds the change with the offset: pull(d) = pull_circuit + pull_sheet(d) - pull_sheet(0).
+Error bars: ``offset_forces``. Cost: DEVELOPERS.md, "The part off the axis".
 """
 
 from __future__ import annotations
@@ -109,8 +110,8 @@ class SourceField:
     bz: np.ndarray
 
     def at(self, layer: int, r):
-        """(B_r, B_z) [T] at radii ``r`` [m] of layer ``layer`` (cubic-free linear interpolation
-        on a grid a fraction of the gap fine)."""
+        """(B_r, B_z) [T] at radii ``r`` [m] of layer ``layer``, linear between the grid's
+        radii (a quarter gap apart at most)."""
         out = []
         for b in (self.br[layer], self.bz[layer]):
             out.append(np.interp(r, self.r, b.real) + 1j * np.interp(r, self.r, b.imag))
@@ -433,10 +434,13 @@ class OffsetResult:
 #: (tests/validation/offset_reference.csv; as the pull's TERM_ERROR was on the edge set, not
 #: derived): the change of the image's pull with the offset is uncertain by IMAGE_ERROR of
 #: itself (the face is unbounded in this model; a real pole's edge takes the image from a part
-#: that moves over it), the pull's change by CHANGE_ERROR of itself, the tilt torque by
-#: TILT_ERROR of itself (the image's share of the torque is left out).
+#: that moves over it), the pull's change by CHANGE_ERROR of itself, the lateral force by
+#: LATERAL_ERROR of itself (the rest of the two models' difference where the part stays over the
+#: face: up to 0.6 %), the tilt torque by TILT_ERROR of itself (the image's share of the torque
+#: is left out).
 IMAGE_ERROR = 0.5
 CHANGE_ERROR = 0.1
+LATERAL_ERROR = 0.01
 TILT_ERROR = 0.15
 
 
@@ -464,8 +468,8 @@ def offset_forces(
     and the model's own error, the relative distance of its centred pull from the circuit's
     (``_model_error``) times each result's size, in quadrature; the pull's bar adds
     IMAGE_ERROR of the image pull's change with the offset and CHANGE_ERROR of the pull's
-    change, the torque's TILT_ERROR of itself. ``error`` False: no second level (the bars then
-    carry the model's terms alone).
+    change, the lateral force's LATERAL_ERROR and the torque's TILT_ERROR of themselves.
+    ``error`` False: no second level (the bars then carry the model's terms alone).
     """
     design = system.design
     offsets = [float(d) for d in offsets]
@@ -493,7 +497,9 @@ def offset_forces(
                     IMAGE_ERROR * (fine_f.pull_image - centred[0].pull_image),
                 ),
                 lateral_uncertainty=math.hypot(
-                    fine_f.lateral - coarse_f.lateral, e * fine_f.lateral
+                    fine_f.lateral - coarse_f.lateral,
+                    e * fine_f.lateral,
+                    LATERAL_ERROR * fine_f.lateral,
                 ),
                 tilt_uncertainty=math.hypot(
                     fine_f.tilt - coarse_f.tilt, e * fine_f.tilt, TILT_ERROR * fine_f.tilt

@@ -161,12 +161,10 @@ def study_evaluator(spec):
     limits (``Result.margins``) and, named ``CONSTRAINT_PREFIX`` + ``constraint_words``, the
     margin of each of the study's constraints (positive: it holds; a non-finite result counts
     as broken)."""
-    from optim.study.objectives import results_of
+    from optim.study.objectives import results_of, study_kwargs
 
     def evaluator(design, isothermal: bool):
-        flat, _, _ = results_of(
-            design, spec.gaps_mm, isothermal=isothermal, **spec.results_kwargs()
-        )
+        flat, _, _ = results_of(design, spec.gaps_mm, isothermal=isothermal, **study_kwargs(spec))
         margins = {k[len("margins.") :]: v for k, v in flat.items() if k.startswith("margins.")}
         for c in spec.constraints:
             value = flat.get(c.name, math.nan)

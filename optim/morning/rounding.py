@@ -84,11 +84,11 @@ def rounded_for_handoff(spec, design, resolution_mm: float, isothermal: bool):
         and the words to print.
     """
     from models.evaluate import evaluate
-    from optim.study.objectives import results_of
+    from optim.study.objectives import results_of, study_kwargs
 
     rounded, changed = round_design(design, resolution_mm)
     result = evaluate(rounded, isothermal=isothermal)
-    flat, _, _ = results_of(rounded, spec.gaps_mm, isothermal=isothermal, **spec.results_kwargs())
+    flat, _, _ = results_of(rounded, spec.gaps_mm, isothermal=isothermal, **study_kwargs(spec))
     margins = {c.name: c.margin(flat[c.name]) for c in spec.constraints if c.name in flat}
     broken = [name for name, m in margins.items() if not m >= 0]
     if broken:

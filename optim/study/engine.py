@@ -66,7 +66,7 @@ def record_of(trial) -> dict:
 def evaluate_trial(spec, values: dict):
     """Evaluate one set of parameter values. Returns a dict with state ("COMPLETE" or "FAIL"),
     objective values, constraint violations, margins, flat results, warnings and the reason."""
-    from optim.study.objectives import objective_values, results_of
+    from optim.study.objectives import objective_values, results_of, study_kwargs
     from optim.study.space import build_design
 
     out = {"state": "FAIL", "values": None, "violations": {}, "margins": {}, "flat": {}}
@@ -79,7 +79,7 @@ def evaluate_trial(spec, values: dict):
     isothermal = bool(spec.run.get("isothermal", False))
     try:
         flat, warnings, binding = results_of(
-            design, spec.gaps_mm, isothermal=isothermal, **spec.results_kwargs()
+            design, spec.gaps_mm, isothermal=isothermal, **study_kwargs(spec)
         )
     except DesignError as err:
         out["reason"] = "model refused: " + "; ".join(err.problems)

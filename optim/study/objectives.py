@@ -124,6 +124,17 @@ def results_of(
     return flat, list(result.warnings), str(getattr(result, "binding_limit", "") or "")
 
 
+def study_kwargs(spec) -> dict:
+    """What ``results_of`` takes from a study besides its gaps: its family (``parts``), its
+    offsets (``[robust] offset_max_mm``) and ``lateral`` (True where an objective or constraint
+    is the centring stiffness); a spec-like object without the last two has none."""
+    return {
+        "parts": spec.parts,
+        "offsets_mm": getattr(spec, "offsets_mm", ()),
+        "lateral": getattr(spec, "lateral", None),
+    }
+
+
 def objective_values(flat: dict, objectives) -> list[float]:
     return [flat[o.name] for o in objectives]
 

@@ -132,11 +132,6 @@ class StudySpec:
         names = {o.name for o in self.objectives} | {c.name for c in self.constraints}
         return True if names & set(LATERAL_RESULTS) else None
 
-    def results_kwargs(self) -> dict:
-        """What ``results_of`` takes from the study besides the gaps: the family, the offsets
-        and ``lateral``."""
-        return {"parts": self.parts, "offsets_mm": self.offsets_mm, "lateral": self.lateral}
-
     def to_json(self) -> dict:
         """Everything needed to rebuild the spec without its file (kept in the storage)."""
         return {
