@@ -75,7 +75,7 @@ def solve_fem(system, sol, offset: float, h: float):
     sig = np.where(inside, t.conductivity, sigma_air)
     basis = Basis(mesh, ElementTetN0())
     # Source potential at the quadrature points (magnet frame: x + offset).
-    X = basis.global_coordinates().value  # (3, n_elem, n_qp)
+    X = np.asarray(basis.global_coordinates())  # (3, n_elem, n_qp)
     xm, ym, zm = X[0] + offset, X[1], X[2]
     rm = np.hypot(xm, ym)
     src = _Source(system, sol)
@@ -118,7 +118,7 @@ def solve_fem(system, sol, offset: float, h: float):
     # Fields at the quadrature points of the part's elements.
     ar = basis.interpolate(a.real)
     ai = basis.interpolate(a.imag)
-    Ar = ar.value + 1j * ai.value
+    Ar = np.asarray(ar) + 1j * np.asarray(ai)
     Br = curl(ar) + 1j * curl(ai)
     J = -1j * omega * sig_q * (As + Ar)
     B = Bs + Br

@@ -125,3 +125,23 @@ def test_coarse_fem_against_the_circuit_and_the_fast_model(row):
         lat = row["fem_lateral_N"]
         assert abs(lat - row["fem_lateral_coarse_N"]) <= 0.10 * abs(lat)
         assert row["fast_lateral_N"] == pytest.approx(lat, rel=0.10)
+
+
+@pytest.mark.slow
+def test_coarse_fem_rerun_matches_its_table():
+    # The edge-element check reproduces its table on its coarse mesh (regression: the stored
+    # 6 digits; about 25 s and 1.5 GB).
+    from models.evaluate import DEFAULT_FINENESS, pole_model_for
+    from models.fast.circuit import assemble_circuit, solve_system
+    from tests.validation.offset_fem import CASES as FEM_CASES
+    from tests.validation.offset_fem import MESHES, solve_fem
+
+    name, edits, _ = FEM_CASES[0]
+    design = case_design(edits)
+    system = assemble_circuit(design, DEFAULT_FINENESS, pole_model_for(design, DEFAULT_FINENESS))
+    pull, lateral, _ = solve_fem(
+        system, solve_system(system), 2e-3, MESHES[0] * design.target.radius
+    )
+    row = next(r for r in FEM_ROWS if r["case"] == name and r["offset_mm"] == 2.0)
+    assert pull == pytest.approx(row["fem_pull_coarse_N"], rel=2e-5)
+    assert lateral == pytest.approx(row["fem_lateral_coarse_N"], rel=2e-5)
