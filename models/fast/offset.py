@@ -61,7 +61,9 @@ from models.fast.kernels import loop_field_flat
 from models.fast.panel_kernels import panel_field
 
 __all__ = [
+    "DEFAULT_SHEET",
     "OffsetForces",
+    "OffsetResult",
     "SheetFineness",
     "SourceField",
     "centring_stiffness",
