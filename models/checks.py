@@ -491,3 +491,25 @@ def lift_warnings(design: Design, electrical, lift) -> list[str]:
             "transient may jolt the part)"
         )
     return out
+
+
+def lateral_warnings(design: Design, electrical) -> list[str]:
+    """Where the part off the axis (models.fast.offset) is less sure: its part overhangs the
+    pole's edge at its offset (the sheet model takes the face as unbounded for the part's own
+    currents: within 8 % of the 3-D reference there, tests/validation/offset_reference.csv), or
+    its lateral force's error bar exceeds a quarter of the force."""
+    out = []
+    t = design.target
+    if t.offset != 0.0 and abs(t.offset) + t.radius > design.pole.radius:
+        out.append(
+            f"lateral: the part overhangs the pole's edge at its offset ({abs(t.offset) * 1e3:g} "
+            f"+ {t.radius * 1e3:g} mm > {design.pole.radius * 1e3:g} mm): lateral force and pull "
+            "there within about 10 % (the face taken unbounded for the part's own currents)"
+        )
+    f, u = electrical.lateral_force_N, electrical.lateral_force_uncertainty_N
+    if t.offset != 0.0 and math.isfinite(u) and u > 0.25 * abs(f):
+        out.append(
+            f"lateral: lateral_force_N = {f:.3g} N +- {u:.2g} N: the error bar exceeds a quarter "
+            "of the force; its sign is not sure"
+        )
+    return out

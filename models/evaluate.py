@@ -16,6 +16,7 @@ import numpy as np
 from models.capacitor import capacitor_rating, capacitor_rating_of, tune_capacitor
 from models.checks import (
     gap_warnings,
+    lateral_warnings,
     lift_warnings,
     limits_and_margins,
     out_of_depth,
@@ -31,6 +32,7 @@ from models.fast.circuit import RING, CircuitSolution, assemble_circuit, solve_s
 from models.fast.core import radial_flux_fraction
 from models.fast.discretize import Fineness
 from models.fast.flux import core_peak_flux_density, pole_flux_density
+from models.fast.offset import centring_stiffness, offset_forces
 from models.fast.pull import net_pull, pull_by_source
 from models.fast.ripple import pull_ripple
 from models.fast.uncertainty import COARSE_FACTOR, pull_uncertainty
@@ -101,6 +103,7 @@ def evaluate(
     fineness: Fineness | None = None,
     pole_model=None,
     lift_points: int = LIFT_POINTS,
+    lateral: bool | None = None,
 ) -> Result:
     """Evaluate one design with the fast multi-loop model and its thermal network.
 
@@ -123,6 +126,11 @@ def evaluate(
         Pulls on the curve of the lift in time (``pick_time_ms``; ``_with_lift``): 2 (default)
         the pick gap's and the holding gap's, which cost nothing more; each one above 2 one
         circuit assembly and solve at a gap between them (Chebyshev-Lobatto points).
+    lateral : bool or None
+        The part off the axis (models.fast.offset, ``_with_lateral``): True, the centring
+        stiffness and (at ``target.offset_mm``) the pull, lateral force and tilt torque there;
+        None (default), these only where the part is offset (the stiffness then too); False,
+        none (an offset part is then refused). It costs about one more evaluation.
 
     Returns
     -------
@@ -149,7 +157,9 @@ def evaluate(
     >>> print(f"{result.input_power_W:.0f} W")
     48 W
     """
-    return evaluate_pick_gaps(design, (), isothermal, fineness, pole_model, lift_points)[0]
+    return evaluate_pick_gaps(
+        design, (), isothermal, fineness, pole_model, lift_points, lateral=lateral
+    )[0]
 
 
 def evaluate_pick_gaps(
@@ -159,12 +169,16 @@ def evaluate_pick_gaps(
     fineness: Fineness | None = None,
     pole_model=None,
     lift_points: int = LIFT_POINTS,
+    lateral: bool | None = None,
+    offsets_mm=(),
 ) -> tuple[Result, list]:
     """``evaluate(design)`` and the pull at arrival [N] at each gap of ``gaps_mm`` [mm].
 
     A part is picked at any gap of a range while the magnet's fixed parts sit at one steady
     state (that of ``design``, with its part held at the holding gap): each extra gap costs one
     circuit assembly and solve, no thermal solve. A gap equal to the design's reuses its pull.
+    With ``offsets_mm`` [mm] each gap's pull is the worst (smallest) over the part at those
+    offsets from the axis (models.fast.offset; the sheet model once a gap, no error bar).
     """
     t_start = time.perf_counter()
     fineness = fineness or DEFAULT_FINENESS
@@ -205,6 +219,7 @@ def evaluate_pick_gaps(
         if p is not None:
             pull_at[g * 1e-3] = p
     electrical, lift = _with_lift(electrical, design, held_design, pull_at, lift_points)
+    electrical = _with_lateral(electrical, design, pick_system, arrival, lateral)
     thermal = _thermal(design, state, part, electrical)
     result = Result(
         electrical=electrical,
@@ -218,6 +233,9 @@ def evaluate_pick_gaps(
         run_time_s=time.perf_counter() - t_start,
         envelope=envelope(design, electrical.pole_mass_kg),
     )
+    if len(offsets_mm):
+        worst = _OffsetPulls(design, fineness, part.arrival, offsets_mm)
+        return result, [worst[g * 1e-3] for g in gaps_mm]
     return result, [pull_at[g * 1e-3] for g in gaps_mm]
 
 
@@ -262,7 +280,35 @@ def _warnings(design, gaps_mm, fineness, state, part, arrival, parts, lift) -> l
     warnings += gap_warnings(design, gaps_mm, "pick gap")
     warnings += thermal_warnings(design, state, flat, part.hold_time_constant_s)
     warnings += lift_warnings(design, electrical, lift)
+    warnings += lateral_warnings(design, electrical)
     return warnings
+
+
+class _OffsetPulls(dict):
+    """The smallest pull at arrival [N] over the part at ``offsets_mm`` [mm] from the axis, by
+    gap [m], the magnet at one steady state: each gap one circuit assembly and solve and one
+    sheet model (models.fast.offset.offset_forces, no error bar)."""
+
+    def __init__(self, design, fineness, temperatures, offsets_mm):
+        super().__init__()
+        self._design, self._fineness, self._temps = design, fineness, temperatures
+        self._offsets = [float(d) * 1e-3 for d in offsets_mm]
+
+    def __missing__(self, gap):
+        at_gap = with_gap(self._design, gap * 1e3)
+        system = assemble_circuit(
+            at_gap, self._fineness, pole_model_for(at_gap, self._fineness), pull_only=True
+        )
+        sol = solve_system(system, self._temps)
+        split = pull_by_source(sol)
+        pull = float(sum(split.values()))
+        terms = sum(abs(v) for v in split.values())
+        pulls = [pull]
+        if any(d != 0.0 for d in self._offsets):
+            moved = [d for d in self._offsets if d != 0.0]
+            pulls += [o.pull for o in offset_forces(system, sol, moved, pull, terms, error=False)]
+        self[gap] = min(pulls)
+        return self[gap]
 
 
 class _ArrivalPulls(dict):
@@ -377,6 +423,13 @@ def _electrical(
         capacitor_current_A=abs(supply.capacitor_current),
         capacitor_rating_V=float(rating_V),
         capacitor_reactive_VA=float(rating_var),
+        pull_centred_N=pull,  # a centred part; _with_lateral moves it
+        lateral_force_N=0.0,
+        lateral_force_uncertainty_N=0.0,
+        tilt_torque_N_m=0.0,
+        tilt_torque_uncertainty_N_m=0.0,
+        centring_stiffness_N_per_m=math.nan,
+        centring_stiffness_uncertainty_N_per_m=math.nan,
     )
     if design.pole is None:  # an air core: what needs the steel stays nan (JSON null)
         return electrical
@@ -494,6 +547,42 @@ def _with_ripple(electrical: Electrical, design: Design, arrival, arrival_held, 
         electrical,
         pull_ripple_N=pull_ripple(arrival),
         hold_chatter_margin_N=min(margins) if hold is not None else math.nan,
+    )
+
+
+def _with_lateral(electrical: Electrical, design: Design, system, sol, lateral) -> Electrical:
+    """``electrical`` with the part off the axis (models.fast.offset) where asked (``evaluate``'s
+    ``lateral``): the centring stiffness, and at ``target.offset_mm`` the pull (``pull_N``,
+    ``lift_ratio``; the centred one kept as ``pull_centred_N``, error bars in quadrature),
+    lateral force and tilt torque; a centred part has no lateral force or torque (symmetry)."""
+    offset = design.target.offset
+    out = electrical
+    if lateral is False:
+        if offset != 0.0:
+            raise ValueError("lateral = False with an offset part: its pull needs the sheet model")
+        return out
+    if lateral is None and offset == 0.0:
+        return out
+    pull = electrical.pull_N
+    terms = sum(abs(v) for v in electrical.pull_by_source_N.values())
+    k, uk = centring_stiffness(system, sol, pull, terms)
+    out = dataclasses.replace(
+        out, centring_stiffness_N_per_m=k, centring_stiffness_uncertainty_N_per_m=uk
+    )
+    if offset == 0.0:
+        return out
+    (at,) = offset_forces(system, sol, [offset], pull, terms)
+    u = math.hypot(electrical.pull_uncertainty_N, at.pull_uncertainty)
+    return dataclasses.replace(
+        out,
+        pull_N=at.pull,
+        lift_ratio=at.pull / electrical.target_weight_N,
+        pull_uncertainty_N=u,
+        pull_uncertainty_relative=u / abs(at.pull) if at.pull != 0 else math.inf,
+        lateral_force_N=at.lateral,
+        lateral_force_uncertainty_N=at.lateral_uncertainty,
+        tilt_torque_N_m=at.tilt,
+        tilt_torque_uncertainty_N_m=at.tilt_uncertainty,
     )
 
 

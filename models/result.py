@@ -183,6 +183,14 @@ class Electrical:
     ring_closing_voltage_V: float
     ring_capacitor_var: float
     ring_closing_loss_W: float
+    # The part off the axis (models.fast.offset: their rows in FIELDS).
+    pull_centred_N: float
+    lateral_force_N: float
+    lateral_force_uncertainty_N: float
+    tilt_torque_N_m: float
+    tilt_torque_uncertainty_N_m: float
+    centring_stiffness_N_per_m: float
+    centring_stiffness_uncertainty_N_per_m: float
 
 
 @dataclass(frozen=True)
@@ -318,6 +326,15 @@ _STEEL = (("nan", _AIR_CORE),)
 #: The public result fields in their JSON order: the one table the flat view (``FLAT_FIELDS``,
 #: ``Result.to_dict``), the checks' view (``flat_for_checks``), units, labels and the reasons
 #: for a null derive from. A new result field is one row here plus its formula.
+#: Why the centring stiffness is null: it costs about one more evaluation and is asked for.
+_NOT_ASKED = (
+    (
+        "nan",
+        "not asked for: evaluate(..., lateral=True), `eddypull evaluate`, an offset part or a "
+        "study that names it",
+    ),
+)
+
 FIELDS: tuple[ResultField, ...] = (
     _f("pull_N", _E, "N", "pull at pick"),
     _f("pull_by_source_N", _E, "N", "pull by source", "dict"),
@@ -465,6 +482,27 @@ FIELDS: tuple[ResultField, ...] = (
         null=(("nan", "no capacitor closes the ring"),),
     ),
     _f("ring_closing_loss_W", _E, "W", "ring closing resistor loss"),
+    #: The part off the axis (``[target] offset_mm``, models.fast.offset), its rows:
+    #: pull_N and lift_ratio are at the offset; ``pull_centred_N`` the pull of the centred part
+    #: (pull_by_source_N splits that one); lateral_force_N the force along +x (the offset's
+    #: direction; negative at a positive offset draws the part back to the axis), tilt_torque_N_m
+    #: about the line through the part's centre across the offset in the face plane (positive turns
+    #: its +x edge toward the face), each with its error estimate; centring_stiffness_N_per_m is
+    #: -dF_x/dx at the axis (positive draws the part in; nan where not asked for: evaluate's
+    #: ``lateral``). Losses, temperatures, ripple, chatter and the lift are the centred part's.
+    _f("pull_centred_N", _E, "N", "pull of the part centred"),
+    _f("lateral_force_N", _E, "N", "lateral force (along the offset)"),
+    _f("lateral_force_uncertainty_N", _E, "N", "lateral force error estimate"),
+    _f("tilt_torque_N_m", _E, "N m", "tilt torque"),
+    _f("tilt_torque_uncertainty_N_m", _E, "N m", "tilt torque error estimate"),
+    _f("centring_stiffness_N_per_m", _E, "N/m", "centring stiffness", null=_NOT_ASKED),
+    _f(
+        "centring_stiffness_uncertainty_N_per_m",
+        _E,
+        "N/m",
+        "centring stiffness error estimate",
+        null=_NOT_ASKED,
+    ),
 )
 _BY_NAME = {f.name: f for f in FIELDS}
 

@@ -39,6 +39,11 @@ _WHY = {
     ("ring_closing_voltage_V", "nan"): "no shading winding: a solid ring (or none) has no "
     "closing part",
     ("ring_capacitor_var", "nan"): "no capacitor closes the ring",
+    **{
+        (name, "nan"): "not asked for: evaluate(..., lateral=True), `eddypull evaluate`, an offset "
+        "part or a study that names it"
+        for name in ("centring_stiffness_N_per_m", "centring_stiffness_uncertainty_N_per_m")
+    },
 }
 
 

@@ -72,6 +72,7 @@ def _build(data: dict, name: str, vals: dict[str, _Values], parsed: dict[str, di
         thickness=g["thickness_mm"] * MM,
         gap=g["gap_mm"] * MM,
         inner_radius=g.get("inner_radius_mm", 0.0) * MM,
+        offset=g.get("offset_mm", 0.0) * MM,
         **parsed["target"],
     )
     return Design(

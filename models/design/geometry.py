@@ -45,6 +45,13 @@ def _check_geometry(vals: dict[str, _Values], problems: list[str]) -> None:
                 f"target.inner_radius_mm = {tri!r}: must be < target.radius_mm "
                 f"(= {g['radius_mm']!r})"
             )
+    if p.has("radius_mm") and g.has("radius_mm") and g.usable("offset_mm"):
+        off, reach = g.get("offset_mm", 0.0), p["radius_mm"] + g["radius_mm"]
+        if abs(off) >= reach:
+            problems.append(
+                f"target.offset_mm = {off!r}: must lie within +-(target.radius_mm + "
+                f"pole.radius_mm) = +-{reach:g} mm (beyond it the part is clear of the pole)"
+            )
 
 
 def _check_coil_fits(p: _Values, c: _Values, problems: list[str]) -> None:

@@ -218,6 +218,7 @@ class Target:
     density: float
     inner_radius: float = 0.0
     material: str | None = None
+    offset: float = 0.0  # the part's centre along +x from the pole's axis [m] (models.fast.offset)
 
     @property
     def volume(self) -> float:

@@ -65,6 +65,7 @@ DESIGN_KEYS: dict[str, dict[str, tuple[str, bool]]] = {
         "conductivity_S_per_m": ("pos", False),
         "temperature_coefficient_per_K": ("nonneg", False),
         "density_kg_per_m3": ("pos", False),
+        "offset_mm": ("num", False),
     },
     "thermal": {
         "ambient_C": ("num", False),
@@ -154,6 +155,8 @@ def _is_finite(value) -> bool:
 def _plausible(where: str, value, kind: str, problems: list[str]):
     """``value`` if inside PLAUSIBLE_LIMITS for its key (or 0 where allowed), else None."""
     limits = [v for k, v in PLAUSIBLE_LIMITS.items() if where.endswith(k)]
+    if where.endswith("offset_mm"):  # signed; its bound is the part's and the pole's radii
+        limits = []
     if not limits or (kind == "nonneg" and value == 0) or limits[0][0] <= value <= limits[0][1]:
         return value
     lo, hi = limits[0]

@@ -69,7 +69,7 @@ def _cmd_evaluate(args) -> int:
         raise UsageError("--plot: needs --sweep KEY=START..STOP")
     if args.points is not None:
         raise UsageError(f"--points {args.points}: needs --sweep KEY=START..STOP")
-    result = evaluate(design, isothermal=args.isothermal)
+    result = evaluate(design, isothermal=args.isothermal, lateral=True)
     if args.json:
         print(strict_json(result.to_dict()))
     else:

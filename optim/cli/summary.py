@@ -76,6 +76,29 @@ def _pick_dynamics_lines(design, r) -> list:
     ]
 
 
+def _lateral_lines(design, r) -> list:
+    """The part off the axis: the centring stiffness, and at an offset its pull, lateral force
+    and tilt torque (models.fast.offset)."""
+    out = []
+    k = r.centring_stiffness_N_per_m
+    if math.isfinite(k):
+        words = "drawn back to the axis" if k > 0 else "thrown off the axis"
+        out.append(
+            f"  centring stiffness {k:+.4g} N/m (+-{r.centring_stiffness_uncertainty_N_per_m:.2g}):"
+            f" {words}"
+        )
+    d = design.target.offset
+    if d != 0.0:
+        f = r.lateral_force_N
+        toward = "toward the axis" if f * d < 0 else "away from the axis"
+        out.append(
+            f"  off the axis       {d * 1e3:+g} mm: lateral force {f * 1e3:+.4g} mN "
+            f"(+-{r.lateral_force_uncertainty_N * 1e3:.2g}, {toward}), tilt torque "
+            f"{r.tilt_torque_N_m:+.3g} N m; centred pull {r.pull_centred_N * 1e3:+.4g} mN"
+        )
+    return out
+
+
 def _after_hold(r) -> str:
     """The pull at the end of the hold, or why there is none (a thermal runaway)."""
     a = r.thermal_assumptions
@@ -209,6 +232,7 @@ def format_result(design, result) -> str:
         f"  part state         {_pick_state(r)}",
         f"  after the hold     {_after_hold(r)}",
         *_pick_dynamics_lines(design, r),
+        *_lateral_lines(design, r),
         f"  losses             target {_w(r.target_loss_W)} W, ring {_w(r.ring_loss_W)} W, "
         f"coil {_w(r.coil_loss_W)} W, core {_w(r.core_loss_W)} W (input {_w(r.input_power_W)} W)",
         f"  core loss          sheets' eddy currents {_w(r.core_eddy_loss_W)} W, hysteresis "

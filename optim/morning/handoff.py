@@ -105,6 +105,7 @@ DESCRIPTIONS = {
     "target.thickness_mm": "thickness of the target part",
     "target.gap_mm": "air gap from the pole face to the target",
     "target.inner_radius_mm": "inner radius of the target (0 = solid disc)",
+    "target.offset_mm": "the target's centre off the pole's axis (along +x)",
     "target.material": "target conductor",
     "target.conductivity_S_per_m": "conductivity of the target at 20 degC",
     "target.density_kg_per_m3": "density of the target",

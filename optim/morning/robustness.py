@@ -32,7 +32,7 @@ from optim.morning.tolerance import (
     tolerances_for,
 )
 from optim.morning.tolerance_out import write_tolerance
-from optim.study.objectives import results_of
+from optim.study.objectives import results_of, study_kwargs
 
 __all__ = [
     "HANDOFF_POINTS",
@@ -172,7 +172,7 @@ def study_evaluator(spec):
     as broken)."""
 
     def evaluator(design, isothermal: bool):
-        flat, _, _ = results_of(design, spec.gaps_mm, isothermal=isothermal, parts=spec.parts)
+        flat, _, _ = results_of(design, spec.gaps_mm, isothermal=isothermal, **study_kwargs(spec))
         margins = {k[len("margins.") :]: v for k, v in flat.items() if k.startswith("margins.")}
         for c in spec.constraints:
             value = flat.get(c.name, math.nan)

@@ -18,7 +18,7 @@ from models.design import design_from_dict
 from models.errors import DesignError
 from models.evaluate import evaluate
 from optim.morning.nearest import broken_constraints
-from optim.study.objectives import results_of
+from optim.study.objectives import results_of, study_kwargs
 
 __all__ = ["DEFAULT_RESOLUTION_MM", "DRIVE_RESOLUTION", "round_design", "rounded_for_handoff"]
 
@@ -103,7 +103,7 @@ def rounded_for_handoff(spec, design, resolution_mm: float, isothermal: bool):
 
     rounded, changed = round_design(design, resolution_mm)
     result = evaluate(rounded, isothermal=isothermal)
-    flat, _, _ = results_of(rounded, spec.gaps_mm, isothermal=isothermal, parts=spec.parts)
+    flat, _, _ = results_of(rounded, spec.gaps_mm, isothermal=isothermal, **study_kwargs(spec))
     margins = {c.name: c.margin(flat[c.name]) for c in spec.constraints if c.name in flat}
     broken = [name for name, m in margins.items() if not m >= 0]
 

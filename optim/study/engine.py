@@ -46,7 +46,12 @@ from optuna.trial import TrialState
 
 from models.errors import DesignError
 from optim.study.ledger import open_ledger
-from optim.study.objectives import design_rule_violations, objective_values, results_of
+from optim.study.objectives import (
+    design_rule_violations,
+    objective_values,
+    results_of,
+    study_kwargs,
+)
 from optim.study.records import (
     RECORD_ATTR,
     RESULT_NAMES_ATTR,
@@ -85,7 +90,7 @@ def evaluate_trial(spec, values: dict) -> Outcome:
     isothermal = bool(spec.run.get("isothermal", False))
     try:
         flat, warnings, binding = results_of(
-            design, spec.gaps_mm, isothermal=isothermal, parts=spec.parts
+            design, spec.gaps_mm, isothermal=isothermal, **study_kwargs(spec)
         )
     except DesignError as err:
         out.reason = "model refused: " + "; ".join(err.problems)

@@ -87,18 +87,32 @@ class Constraint:
         return out
 
 
-def results_of(design: Design, gaps_mm=(), isothermal: bool = False, parts=()):
+def results_of(
+    design: Design,
+    gaps_mm=(),
+    isothermal: bool = False,
+    parts=(),
+    offsets_mm=(),
+    lateral: bool | None = None,
+):
     """Evaluate ``design`` and return (flat results, warnings, binding limit name or "").
 
     With ``gaps_mm`` [mm] the part's pull at arrival is also taken at each gap for
     ``worst_pull_N``, with the magnet's parts at the design's own steady state (each extra gap
     costs a circuit assembly and solve, no thermal solve; the pole model is cached). With
-    ``parts`` (a family, optim.study.parts.Part) the design's target is replaced by each part
-    in turn and ``gaps_mm`` is not used: ``optim.study.family.family_results``.
+    ``offsets_mm`` [mm] (``[robust] offset_max_mm``) each gap's pull is the worst over the part
+    at those offsets from the axis (models.fast.offset), at the design's own gap where no gap
+    range is given. ``lateral`` as ``models.evaluate.evaluate``'s (True: the centring stiffness
+    too). With ``parts`` (a family, optim.study.parts.Part) the design's target is replaced by
+    each part in turn and ``gaps_mm`` is not used: ``optim.study.family.family_results``.
     """
     if parts:
         return family_results(design, parts, isothermal=isothermal)
-    result, pulls = evaluate_pick_gaps(design, gaps_mm, isothermal=isothermal)
+    if len(offsets_mm) and not len(gaps_mm):
+        gaps_mm = (design.target.gap * 1e3,)
+    result, pulls = evaluate_pick_gaps(
+        design, gaps_mm, isothermal=isothermal, lateral=lateral, offsets_mm=offsets_mm
+    )
     flat = flat_result(result)
     if len(gaps_mm):
         states = [*pulls, result.pull_hold_N]
@@ -116,6 +130,17 @@ def design_rule_violations(flat: dict, run: dict) -> dict[str, float]:
     if run.get("allow_out_of_depth", False) or not flat.get("out_of_depth", 0.0) > 0:
         return {}
     return {OUT_OF_DEPTH_RULE: 1.0}
+
+
+def study_kwargs(spec) -> dict:
+    """What ``results_of`` takes from a study besides its gaps: its family (``parts``), its
+    offsets (``[robust] offset_max_mm``) and ``lateral`` (True where an objective or constraint
+    is the centring stiffness); a spec-like object without the last two has none."""
+    return {
+        "parts": spec.parts,
+        "offsets_mm": getattr(spec, "offsets_mm", ()),
+        "lateral": getattr(spec, "lateral", None),
+    }
 
 
 def objective_values(flat: dict, objectives) -> list[float]:

@@ -18,6 +18,7 @@ A study file::
     gap_min_mm = 2.0
     gap_max_mm = 4.0
     points = 3
+    offset_max_mm = 2.0               # and the part off the axis by 0..2 mm (offset_points, 3)
     [[parts]]                         # or a family of parts instead of [target] overrides:
     name = "cap10"                    #   optim.study.parts (each part's size, metal, gap range
     radius_mm = 5.0                   #   and role, "lift" or "leave"); results by part and
@@ -102,6 +103,10 @@ RUN_MAX = {
     "seed": 2**31 - 1,
 }
 _WORST = ("worst_pull_N", "worst_lift_ratio")
+#: [robust] keys of the part off the axis: the largest offset and how many from 0 to it.
+OFFSET_KEYS = ("offset_max_mm", "offset_points")
+#: Results that need the sheet model at the axis (models.fast.offset): evaluate(lateral=True).
+LATERAL_RESULTS = ("centring_stiffness_N_per_m", "centring_stiffness_uncertainty_N_per_m")
 #: Results of a family with a leave part (optim.study.family).
 _LEAVE_RESULTS = ("best_leave_lift_ratio", "selectivity_margin")
 #: Results of the lift in time, 0 where the holding gap is not below the pick gap (no lift).
@@ -124,6 +129,14 @@ class StudySpec:
     folder: Path | None = None
     result_names: tuple = ()
     parts: tuple[Part, ...] = ()
+    offsets_mm: tuple = ()
+
+    @property
+    def lateral(self) -> bool | None:
+        """``evaluate``'s ``lateral`` for this study's trials: True where an objective or a
+        constraint is the centring stiffness, else None (an offset part's own)."""
+        names = {o.name for o in self.objectives} | {c.name for c in self.constraints}
+        return True if names & set(LATERAL_RESULTS) else None
 
     def to_json(self) -> dict:
         """Everything needed to rebuild the spec without its file (kept in the storage)."""
@@ -142,10 +155,14 @@ class StudySpec:
         } | ({"parts": [p.to_json() for p in self.parts]} if self.parts else {})
 
     def _robust_json(self):
-        if not self.gaps_mm:
-            return {}
-        g = self.gaps_mm
-        return {"gap_min_mm": g[0], "gap_max_mm": g[-1], "points": len(g)}
+        out = {}
+        if self.gaps_mm:
+            g = self.gaps_mm
+            out = {"gap_min_mm": g[0], "gap_max_mm": g[-1], "points": len(g)}
+        if self.offsets_mm:
+            o = self.offsets_mm
+            out |= {"offset_max_mm": o[-1], "offset_points": len(o)}
+        return out
 
     def fingerprint(self) -> str:
         """Hash of what defines the study's trials (base design, search, objectives, robust
@@ -349,6 +366,27 @@ def _robust_gaps(robust: dict, problems, where: str = "robust") -> tuple:
     return tuple(float(x) for x in np.linspace(lo, hi, n if hi > lo else 1))
 
 
+def _robust_offsets(robust: dict, problems) -> tuple:
+    """The offsets [mm] of ``[robust] offset_max_mm`` (and ``offset_points``, default 3): evenly
+    from 0 to the largest (the pull is even in the offset); () without them."""
+    top, n = robust.get("offset_max_mm"), robust.get("offset_points", 3)
+    if top is None:
+        if "offset_points" in robust:
+            problems.append(
+                f"robust.offset_points = {robust['offset_points']!r}: needs robust.offset_max_mm "
+                "(the largest offset of the part from the pole's axis)"
+            )
+        return ()
+    if _check("robust.offset_max_mm", top, "pos", problems) is None:
+        return ()
+    if _check("robust.offset_points", n, "int", problems) is None:
+        return ()
+    if not 2 <= n <= 50:
+        problems.append(f"robust.offset_points = {n}: must be between 2 and 50")
+        return ()
+    return tuple(float(x) for x in np.linspace(0.0, top, n))
+
+
 def spec_from_dict(data: dict, folder: Path | None = None, name: str = "study") -> StudySpec:
     """Validate a study dict (file units); raises DesignError with one line per problem."""
     problems: list[str] = []
@@ -369,18 +407,36 @@ def spec_from_dict(data: dict, folder: Path | None = None, name: str = "study") 
         raise DesignError(problems)
 
     names = {o.name for o in objectives} | {c.name for c in constraints}
+    offsets = _robust_offsets(robust, problems)
+    asked_offsets = any(k in robust for k in OFFSET_KEYS)
+    robust = {k: v for k, v in robust.items() if k not in OFFSET_KEYS}
     parts: list[Part] = []
     if "parts" in data:
+        if asked_offsets:
+            problems.append(
+                "robust.offset_max_mm: not with [[parts]] (a family's parts are taken centred)"
+            )
         gaps = _robust_gaps(robust, problems) if robust else ()
         parts = _family(data, base, params, robust, gaps, problems)
         if not problems:
             base = part_source(base, next(p for p in parts if p.role == "lift"))
     else:
-        gaps = _robust_gaps(robust, problems) if (names & set(_WORST) or robust) else ()
+        wanted = robust or (names & set(_WORST) and not asked_offsets)
+        gaps = _robust_gaps(robust, problems) if wanted else ()
     if problems:
         raise DesignError(problems)
+    lateral = True if names & set(LATERAL_RESULTS) else None
     known = _model_results(
-        base, params, objectives, constraints, gaps, run, str(study_name), tuple(parts)
+        base,
+        params,
+        objectives,
+        constraints,
+        gaps,
+        run,
+        str(study_name),
+        tuple(parts),
+        offsets=offsets,
+        lateral=lateral,
     )
     return StudySpec(
         name=str(study_name),
@@ -394,6 +450,7 @@ def spec_from_dict(data: dict, folder: Path | None = None, name: str = "study") 
         folder=folder,
         result_names=tuple(known),
         parts=tuple(parts),
+        offsets_mm=offsets,
     )
 
 
@@ -462,7 +519,7 @@ def _run_table(data: dict, problems: list[str]) -> dict:
 
 
 def _model_results(
-    base, params, objectives, constraints, gaps, run, study_name, parts=()
+    base, params, objectives, constraints, gaps, run, study_name, parts=(), offsets=(), lateral=None
 ) -> list[str]:
     """Check the study against the model: the base design and the middle of the search space
     must be buildable (with every part of a family), every objective and constraint must be a
@@ -487,7 +544,16 @@ def _model_results(
         ) from None
     _check_parts_at_middle(base, params, mid, parts, study_name)
     isothermal = bool(run.get("isothermal", False))
-    flat, _, _ = results_of(base_design, gaps, isothermal=isothermal, parts=parts)
+    if offsets and offsets[-1] >= (base_design.target.radius + base_design.pole.radius) * 1e3:
+        reach = (base_design.target.radius + base_design.pole.radius) * 1e3
+        raise DesignError(
+            f"robust.offset_max_mm = {offsets[-1]:g}: must be < target.radius_mm + "
+            f"pole.radius_mm = {reach:g} mm of the base design (beyond it the part is clear of "
+            "the pole)"
+        )
+    flat, _, _ = results_of(
+        base_design, gaps, isothermal=isothermal, parts=parts, offsets_mm=offsets, lateral=lateral
+    )
     known = sorted(flat)
 
     fields = {name for _, name in FLAT_FIELDS}
