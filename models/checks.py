@@ -33,7 +33,7 @@ __all__ = [
     "used_limits",
 ]
 
-#: The range the fast model has been held to the FEM reference on (tests/cross_model.py and
+#: The range the fast model has been held to the FEM reference on (tests/tools/cross_model.py and
 #: tests/data/cross_model.csv). Outside it a result carries a warning. The gaps reach from a part
 #: held at contact through a wear plate (0.05 mm, cases g01 and g05) to picks from far below
 #: (6 mm, case g04), on the cases' 10 mm pole: 0.005 to 0.6 pole radii.

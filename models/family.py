@@ -64,7 +64,7 @@ def part_pulls_under_magnet(
     per gap and one for the hold. The pull of each solution is
     -sum Re(I_i conj(I_j)) dM_ij/dz_i over the part's cells i and every other loop j
     (``models.fast.pull``). For the design's own part it gives ``evaluate_pick_gaps``'s pulls
-    and ``pull_hold_N`` to rounding (tests/test_family.py).
+    and ``pull_hold_N`` to rounding (tests/models/test_family.py).
     """
     fineness = fineness or DEFAULT_FINENESS
     if design.drive.compensation != "none" and design.drive.capacitance is None:

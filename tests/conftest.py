@@ -66,7 +66,7 @@ def demo():
 def _reports_without_pick_maps(monkeypatch):
     """Study reports leave out the picks' pick maps (about 12 s each) and the first pick's
     tolerance table (about 10 s to a minute) unless a test turns them on
-    (tests/test_robustness.py and tests/test_report_tolerance.py do): the tests of fronts and
+    (tests/optim/morning/test_robustness.py and tests/optim/morning/test_report_tolerance.py do): the tests of fronts and
     reports stay within the default run's budget."""
     from optim.morning import robustness
 

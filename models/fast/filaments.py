@@ -184,7 +184,7 @@ def rect_log_mean(r1, z1, r2, z2):
     -----
     Exact: the fourfold integral of ln rho over the two rectangles is a double difference of an
     antiderivative F with F_uuvv = ln sqrt(u^2 + v^2) (derived for this module and checked against
-    Maxwell's GMD of a rectangle, ``gmd_rectangle``, in tests/test_filaments.py)::
+    Maxwell's GMD of a rectangle, ``gmd_rectangle``, in tests/models/fast/test_filaments.py)::
 
         F = (u^2 v^2 / 8 - (u^4 + v^4) / 48) ln(u^2 + v^2)
             + (u^3 v atan(v/u) + u v^3 atan(u/v)) / 6 - 25 u^2 v^2 / 48
@@ -218,7 +218,7 @@ def self_inductance_rect(rc, dr, dz, subdivisions=4, _depth=2):
     n x n parts: L = (1/n^4)(sum of their selves + sum of their mutual inductances), the mutuals from
     Maxwell's formula between part centres (the GMD of two adjacent squares equals their centre
     distance within 0.6 %, Grover 1946 table 3), applied recursively to two levels (the innermost
-    cell of a disc, on the axis, stays about 2.6 % low: tests/test_filaments.py).
+    cell of a disc, on the axis, stays about 2.6 % low: tests/models/fast/test_filaments.py).
     """
     rc, dr, dz = np.broadcast_arrays(*(np.asarray(x, dtype=float) for x in (rc, dr, dz)))
     out = np.array(_thin_ring_rect(rc, dr, dz), dtype=float).reshape(rc.shape)

@@ -10,7 +10,7 @@ import numpy as np
 from models.errors import DesignError
 from models.fast.quadrature import gauss01, read_only
 
-#: Panel size at the pole face [m] recommended for design searches (measured in tests/test_pole.py).
+#: Panel size at the pole face [m] recommended for design searches (measured in tests/models/fast/test_pole.py).
 DEFAULT_PANEL_SIZE = 0.25e-3
 #: Geometric growth of panel size away from corners and the face (ratio of neighbours) [-].
 DEFAULT_GROWTH = 1.25

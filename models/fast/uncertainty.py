@@ -11,13 +11,13 @@ Two parts, added in quadrature:
   part's edge facing the pole's corner more): ``TERM_ERROR`` times the sum of the terms'
   magnitudes, so that it grows with the cancellation between them.
 
-The constants were chosen on the edge set (tests/edge_model.py, 24 cases) and the cross-model
-set (tests/cross_model.py, 22 cases) so that |fast - FEM| <= estimate on at least 90 % of each:
+The constants were chosen on the edge set (tests/tools/edge_model.py, 24 cases) and the cross-model
+set (tests/tools/cross_model.py, 22 cases) so that |fast - FEM| <= estimate on at least 90 % of each:
 measured 23 of 24 and 22 of 22, with the median of estimate / |fast - FEM| 2.1 where the
 difference exceeds 1 % (7 cases; 1.9 when the second level also coarsened the panels, which it
 no longer does: same coverage, no second pole geometry). The terms' part dominates near a sign change; the second level
 is what covers the low-cancellation designs (without it, 18 of 22 on the cross-model set). On
-designs it was not fitted to, the random audit (``python -m tests.audit_random 11 30``): covers 27
+designs it was not fitted to, the random audit (``python -m tests.tools.audit_random 11 30``): covers 27
 of 30 (28 with coarser panels too), median estimate / |difference| 2.9 over the 4 differences
 above 1 %.
 """

@@ -128,7 +128,7 @@ def reference(
     Notes
     -----
     The uncertainty of a quantity q is |q_fine - q_coarse| / |q| + |q_far - q_fine| / |q|. With an
-    error shrinking like h^p (p about 2 to 4 for these biquadratic elements, see tests/test_fem.py)
+    error shrinking like h^p (p about 2 to 4 for these biquadratic elements, see tests/models/fem/test_fem.py)
     the mesh term is the error of the coarse mesh times (1 - refine_ratio^-p), larger than the error
     of the fine one: the estimate is conservative. Relative figures of quantities that are zero in
     every run are 0.

@@ -107,7 +107,7 @@ tr.units th { background: #fafafa; font-weight: normal; color: #666; top: 1.6em;
 # Sort the table by the clicked heading of the first header row: numbers numerically (data-v; a
 # date's data-v is its POSIX time in seconds), text alphabetically; cells without a number ("-")
 # after the numbers in both directions. Checked with node and a stub DOM (ascending, descending,
-# second column) and in headless Chromium (tests/test_report_browser.py).
+# second column) and in headless Chromium (tests/optim/morning/test_report_browser.py).
 _JS = """
 function eddypullNumber(x) { return x === null || x.trim() === "" ? NaN : Number(x); }
 document.querySelectorAll("table.sortable").forEach(function (t) {

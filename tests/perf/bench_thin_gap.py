@@ -1,12 +1,12 @@
 """Cost and error of the fast model at thin gaps, with and without the gap floor.
 
 ``python tests/perf/bench_thin_gap.py`` evaluates the thin-gap cross-model cases (g01, g02, g05
-of tests/cross_model.py, and g01's geometry at 0.1 and 0.2 mm) isothermally at the default
+of tests/tools/cross_model.py, and g01's geometry at 0.1 and 0.2 mm) isothermally at the default
 fineness, once as before the floor (``Fineness(gap_floor=0)``: cells and panels shrink with
 the gap without end) and once with the default ``gap_floor``, and prints cells, panels, the
 median time of three evaluations (repeated pole geometry after a first call) and the error of
 pull, part loss and ring loss against the FEM reference stored in tests/data/cross_model.csv
-(run ``python -m tests.cross_model`` first after a change; the 0.1 and 0.2 mm variants of g01
+(run ``python -m tests.tools.cross_model`` first after a change; the 0.1 and 0.2 mm variants of g01
 have no stored FEM row, their error column is left empty). Times are this machine's, under its
 load of the moment: compare the two columns of one run, not runs.
 """
@@ -22,7 +22,7 @@ from models import evaluate
 from models.design import with_value
 from models.evaluate import DEFAULT_FINENESS
 from models.fast.discretize import Fineness
-from tests.cross_model import CSV_PATH, case_design
+from tests.tools.cross_model import CSV_PATH, case_design
 
 CASES = (
     ("g01-400Hz-held-0.05mm", None),
