@@ -16,7 +16,12 @@ from dataclasses import dataclass
 
 import pandas as pd
 
+from models.result import field_names
+from models.result import unit_of as result_unit_of
 from optim.morning.handoff import unit_of
+
+#: The model's result fields: their units come from the field table (models.result.FIELDS).
+RESULT_NAMES = frozenset(field_names())
 
 __all__ = ["CardStates", "pick_card", "pick_cards", "card_items"]
 
@@ -49,12 +54,20 @@ def card_value(name: str, v) -> str:
     to read)."""
     if not _finite(v):
         return "-" if not isinstance(v, str) else v
-    unit = unit_of(name)
+    unit = result_unit_of(name) if name in RESULT_NAMES else unit_of(name)
+    unit = unit or "-"
     if unit == "mm":
         return f"{float(v):.2f} mm"
     if unit == "N" and abs(float(v)) < 1.0:  # a lifter's pull reads in millinewtons
         return f"{1e3 * float(v):.4g} mN"
     return f"{float(v):.4g}" + ("" if unit == "-" else f" {unit}")
+
+
+#: Rows a card shows only where the study gave them a value: the centring stiffness (asked for),
+#: the lateral force (a part off the axis), the capacitor (a compensated drive).
+_SHOWN_WHEN_GIVEN = frozenset(
+    {"centring_stiffness_N_per_m", "lateral_force_N", "capacitor_rating_V"}
+)
 
 
 def _g(x) -> str:
@@ -87,6 +100,9 @@ def card_items(row: pd.Series, states: CardStates | None = None) -> list[tuple[s
     hold = (f"after a {float(hold_s):g} s hold" if _finite(hold_s) else "after the hold") + (
         f" at {_g(hold_gap)} mm" if _finite(hold_gap) else ""
     )
+    hold_words = f"at {_g(hold_gap)} mm" if _finite(hold_gap) else "at the holding gap"
+    hold_words += ", the worse of arrival and the end of the hold"
+    to_hold = f"to {_g(hold_gap)} mm" if _finite(hold_gap) else "to the holding gap"
     items: list[tuple[str, str]] = []
     for c in row.index:
         name = str(c)
@@ -112,10 +128,22 @@ def card_items(row: pd.Series, states: CardStates | None = None) -> list[tuple[s
         ("input_power_W", f"input power while on, {at}"),
         ("core_loss_W", f"core loss while on, {at}"),
         ("pull_uncertainty_relative", f"pull error bar (relative) {at}"),
+        ("pull_ripple_N", f"pull's swing at twice the frequency {at}, {arriving}"),
+        ("hold_chatter_margin_N", f"chatter margin (pull - swing - weight) held {hold_words}"),
+        ("pick_time_ms", f"lift time from {_g(gap) if _finite(gap) else 'the gap'} mm {to_hold}"),
+        ("contact_speed_m_per_s", f"speed at contact {to_hold}"),
+        ("centring_stiffness_N_per_m", f"centring stiffness at the axis {at} (> 0: drawn in)"),
+        ("lateral_force_N", f"lateral force at the design's offset {at}, {arriving}"),
+        ("supply_voltage_V", "supply voltage (rms)"),
+        ("capacitor_rating_V", "capacitor rated for (rms, its worst state)"),
     )
     for name, label in rows:
-        if name in row.index:
-            items.append((label, card_value(name, row[name])))
+        if name not in row.index:
+            continue
+        value = row[name]
+        if name in _SHOWN_WHEN_GIVEN and (not _finite(value) or value == 0):
+            continue  # not asked for (nan), or nothing to say (no offset, no capacitor)
+        items.append((label, card_value(name, value)))
     items += _temperature_items(row, states, hold)
     limit = row.get("binding_limit", "")
     items.append(("binding limit", limit if isinstance(limit, str) and limit else "none"))

@@ -16,7 +16,7 @@ from models.evaluate import evaluate
 from optim.cli.main import main
 from optim.cli.summary import format_result
 from optim.demo import DEMO_DESIGN, DEMO_SORTING, DEMO_STUDY
-from optim.morning.cards import CardStates
+from optim.morning.cards import CardStates, card_items
 from optim.morning.front import DIMENSIONS
 from optim.morning.handoff import dumps_toml
 from optim.morning.outputs import design_of
@@ -406,3 +406,31 @@ def test_verify_and_its_hand_off_on_a_design_with_two_warnings(tmp_path):
     keys = {r["key"] for r in data["verify"]["rows"]}
     assert {"pull_N", "coil_impedance_ohm.re", "coil_impedance_ohm.im"} <= keys
     assert "FEM" in paths["verify.txt"].read_text(encoding="utf-8")
+
+
+def test_pick_cards_show_the_pick_in_time_with_its_units():
+    # issue 31: the cards carry the ripple, the chatter margin and the lift, each with its state
+    # and its unit from the result field table (models.result.FIELDS); the values are the
+    # trial's own row (no physics checked here)
+    row = pd.Series(
+        {
+            "trial": 3,
+            "gap_mm": 2.0,
+            "pull_N": 0.01,
+            "pull_ripple_N": 0.012,
+            "hold_chatter_margin_N": -0.004,
+            "pick_time_ms": 21.5,
+            "contact_speed_m_per_s": 0.26,
+            "centring_stiffness_N_per_m": float("nan"),
+            "lateral_force_N": 0.0,
+            "thermal_assumptions.hold_gap_mm": 0.1,
+            "thermal_assumptions.hold_time_s": 0.3,
+        }
+    )
+    items = dict(card_items(row, CardStates()))
+    assert items["pull's swing at twice the frequency at 2.00 mm, arriving"] == "12 mN"
+    key = "chatter margin (pull - swing - weight) held at 0.10 mm, the worse of arrival and the end"
+    assert items[key + " of the hold"] == "-4 mN"
+    assert items["lift time from 2.00 mm to 0.10 mm"] == "21.5 ms"
+    assert items["speed at contact to 0.10 mm"] == "0.26 m/s"
+    assert not any("centring" in k or "lateral" in k for k in items)  # not asked for, no offset
