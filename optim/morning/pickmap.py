@@ -563,6 +563,14 @@ def around_axes(design, points: int = DEFAULT_POINTS, gaps_mm=()) -> tuple[MapAx
     return x, y
 
 
+def offset_axes(design, points: int = DEFAULT_POINTS, gaps_mm=()) -> tuple[MapAxis, MapAxis]:
+    """The part's offset from the axis x gap for ``design``: the offset from 0 to the pole's
+    radius (the part's centre over the pole's edge), the gap axis of ``around_axes``."""
+    _, y = around_axes(design, points, gaps_mm)
+    reach = design.pole.radius if design.pole is not None else design.target.radius
+    return MapAxis("target.offset_mm", np.linspace(0.0, reach * 1e3, points)), y
+
+
 def pick_map_around(
     design,
     out_dir,
@@ -579,3 +587,13 @@ def pick_map_around(
     x, y = around_axes(design, points, judged)
     pmap = evaluate_map(design, x, y, isothermal=isothermal)
     return pmap, write_map(pmap, out_dir, stem, parts)
+
+
+def offset_map_around(
+    design, out_dir, points: int = DEFAULT_POINTS, isothermal: bool = False, stem=None, gaps_mm=()
+) -> tuple[PickMap, dict[str, Path]]:
+    """The part's offset x gap map of ``design`` (``offset_axes``) written to ``out_dir``: where
+    a part that arrives off the axis is still lifted. Returns the map and the paths."""
+    x, y = offset_axes(design, points, gaps_mm)
+    pmap = evaluate_map(design, x, y, isothermal=isothermal)
+    return pmap, write_map(pmap, out_dir, stem)

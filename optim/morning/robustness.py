@@ -21,7 +21,7 @@ from pathlib import Path
 from types import SimpleNamespace
 
 from models.errors import DesignError
-from optim.morning.pickmap import DEFAULT_POINTS, pick_map_around
+from optim.morning.pickmap import DEFAULT_POINTS, offset_map_around, pick_map_around
 from optim.morning.pickmap_parts import parts_caption
 from optim.morning.tolerance import (
     DEFAULT_SAMPLES,
@@ -150,7 +150,28 @@ def pick_map_figures(
             f"checked on; {points} x {points} points.{parts_caption(parts, design)}"
         )
         out.append((Path(files["png"]), caption))
+        if len(out) == 1 and not parts:  # the first pick: a part arriving off the axis too
+            out += _offset_figure(titled, label, out_dir, points, isothermal, gaps_mm)
     return out
+
+
+def _offset_figure(design, label, out_dir, points, isothermal, gaps_mm) -> list:
+    """The first pick's offset x gap map (``pickmap.offset_map_around``), ``points`` // 2 a side
+    (each point evaluates the part off the axis: about twice an evaluation), with its caption;
+    none for a design the model refuses there."""
+    n = max(4, points // 2)
+    try:
+        _, files = offset_map_around(
+            design, out_dir, n, isothermal, f"offsetmap_{_slug(label)}", gaps_mm
+        )
+    except DesignError:
+        return []
+    caption = (
+        f"Offset map of {label}: the lift ratio over the part's offset from the pole's axis (0 "
+        "to the pole's radius) and the gap, the part off the axis by the first azimuthal "
+        f"harmonics (models.fast.offset); dashed: lift ratio 1, solid: zero pull; {n} x {n} points."
+    )
+    return [(Path(files["png"]), caption)]
 
 
 def constraint_words(constraint) -> str:

@@ -149,3 +149,26 @@ def test_parse_axis_reads_bare_keys_as_sweeps_do():
     axis = parse_axis(design, "gap_mm=0.5..4")
     assert axis.key == "target.gap_mm" and len(axis.values) == 25  # the sweep's default
     assert axis.values[0] == 0.5 and axis.values[-1] == 4.0
+
+
+def test_offset_axes_run_from_the_axis_to_the_poles_edge():
+    # issue 31: the first pick's offset x gap map spans offsets from 0 to the pole's radius
+    # (the part's centre over the pole's edge) and the gaps of the radius x gap map
+    from optim.morning.pickmap import around_axes, offset_axes
+
+    design = load_design(DEMO)
+    x, y = offset_axes(design, 5, gaps_mm=(1.5, 3.0))
+    assert x.key == "target.offset_mm"
+    assert x.values[0] == 0.0 and x.values[-1] == pytest.approx(design.pole.radius * 1e3)
+    assert list(y.values) == list(around_axes(design, 5, (1.5, 3.0))[1].values)
+
+
+@pytest.mark.slow
+def test_the_first_pick_gets_an_offset_map(tmp_path):
+    from optim.morning.robustness import pick_map_figures
+
+    design = load_design(DEMO)
+    out = pick_map_figures([("a", design), ("b", design)], tmp_path, isothermal=True, points=4)
+    names = [p.name for p, _ in out]
+    assert names == ["pickmap_a.png", "offsetmap_a.png", "pickmap_b.png"]
+    assert "offset from the pole's axis" in out[1][1]
