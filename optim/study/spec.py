@@ -403,6 +403,7 @@ def spec_from_dict(data: dict, folder: Path | None = None, name: str = "study") 
         problems.append(f"robust = {data['robust']!r}: must be a table")
     constraints = _constraints(data.get("constraints"), problems)
     run = _run_table(data, problems)
+    _check_result_names(objectives, constraints, problems)
     if problems:
         raise DesignError(problems)
 
@@ -452,6 +453,25 @@ def spec_from_dict(data: dict, folder: Path | None = None, name: str = "study") 
         parts=tuple(parts),
         offsets_mm=offsets,
     )
+
+
+#: Results a study adds to the model's flat fields (optim.study.objectives, optim.study.family).
+_STUDY_RESULTS = (*_WORST, "best_leave_lift_ratio", "selectivity_margin", "out_of_depth")
+
+
+def _check_result_names(objectives, constraints, problems: list[str]) -> None:
+    """Names that no design could give, found in the first pass with the file's other problems
+    (the model's flat fields, models.result.FIELDS, and the study's own results); a name with a
+    dot (``margins.<limit>``, ``parts.<name>.<result>``) is checked against the base design's
+    results once the file reads."""
+    known = {name for _, name in FLAT_FIELDS} | set(_STUDY_RESULTS)
+    for what, items in (("objectives", objectives), ("constraints", constraints)):
+        for item in items:
+            if "." not in item.name and item.name not in known:
+                problems.append(
+                    f"{what}.{item.name}: not a result of the model"
+                    f"{nearest(item.name, sorted(known))}; 'eddypull study results' lists them"
+                )
 
 
 def _family(data: dict, base, params, robust: dict, gaps: tuple, problems) -> list[Part]:

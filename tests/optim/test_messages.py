@@ -183,3 +183,25 @@ def test_a_run_without_a_feasible_design_says_why(tmp_path, capsys):
     out = capsys.readouterr().out
     assert "no feasible design yet:" in out
     assert "constraint coil_voltage_V: rejected 2 done trials; best margin -" in out
+
+
+def test_a_study_file_is_reported_in_one_pass_result_names_included(tmp_path, capsys):
+    # issue 26: a misspelt objective and constraint are reported with the bounds' and the run
+    # table's problems, not after they are fixed; exit 2, one line each
+    (tmp_path / "demo_design.toml").write_text(DEMO.read_text())
+    (tmp_path / "bad.toml").write_text(
+        'name = "bad"\ndesign = "demo_design.toml"\n'
+        "[search]\nring_depth_mm = { low = 5.0, high = 1.0 }\n"
+        '[objectives]\npul_N = "maximize"\n'
+        "[constraints]\nring_temperatur_C = { max = 100 }\n"
+        "[run]\ntrials = -3\n"
+    )
+    assert main(["study", "run", str(tmp_path / "bad.toml")]) == 2
+    lines = capsys.readouterr().err.strip().splitlines()
+    assert len(lines) == 4
+    assert lines[0].startswith("eddypull: error: search.ring_depth_mm: low = 5 must be < high")
+    assert any(
+        "objectives.pul_N: not a result of the model (did you mean 'pull_N'?)" in x for x in lines
+    )
+    assert any("constraints.ring_temperatur_C: not a result" in x for x in lines)
+    assert any("run.trials = -3" in x for x in lines)
