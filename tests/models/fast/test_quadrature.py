@@ -67,7 +67,9 @@ def test_graded01_intervals_shrink_by_grade_toward_zero():
     _, w = graded01(levels, n)
     widths = w.reshape(levels + 1, n).sum(axis=1)  # weights of one interval sum to its width
     # The edges are GRADE^j (module docstring): widths GRADE^(j) (1 - GRADE), the innermost GRADE^6
-    expected = np.concatenate([[GRADE**levels], GRADE ** np.arange(levels - 1, -1, -1) * (1 - GRADE)])
+    expected = np.concatenate(
+        [[GRADE**levels], GRADE ** np.arange(levels - 1, -1, -1) * (1 - GRADE)]
+    )
     assert np.allclose(widths, expected, rtol=1e-12)
 
 
@@ -78,7 +80,7 @@ def _log_error(x, w):
 @pytest.mark.parametrize(("levels", "n"), [(6, 3), (10, 5)])
 def test_graded01_integrates_a_log_singularity_better_than_plain_gauss(levels, n):
     # Against a plain Gauss rule with as many points, which ignores the singularity: measured
-    # 1.4e-3 vs 1.8e-4 (21 points) and 2.2e-4 vs 7.5e-7 (55 points).
+    # 1.4e-3 vs 1.8e-4 (21 points) and 2.0e-4 vs 7.5e-7 (55 points).
     graded = _log_error(*graded01(levels, n))
     plain = _log_error(*gauss01((levels + 1) * n))
     assert graded < plain / 5.0
@@ -112,9 +114,7 @@ def test_read_only_freezes_each_array_and_returns_them():
 
 @pytest.mark.parametrize(("mid_r", "length", "tr"), [(0.01, 0.004, 1.0), (0.002, 0.004, 0.6)])
 def test_moment_radius_is_the_rms_radius_of_the_panel(mid_r, length, tr):
-    panel = SimpleNamespace(
-        mid_r=np.array([mid_r]), length=np.array([length]), tr=np.array([tr])
-    )
+    panel = SimpleNamespace(mid_r=np.array([mid_r]), length=np.array([length]), tr=np.array([tr]))
     # <r^2> over the panel, r(s) = mid_r + s length tr, s uniform on [-1/2, 1/2] (scipy quad)
     mean_r2, _ = quad(lambda s: (mid_r + s * length * tr) ** 2, -0.5, 0.5)
     assert moment_radius(panel)[0] == pytest.approx(math.sqrt(mean_r2), rel=1e-12)
