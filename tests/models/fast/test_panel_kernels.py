@@ -1,8 +1,8 @@
 """Panel integrals of models.fast.panel_kernels against direct integration outside the project.
 
 References: the mutual inductance of two coaxial loops (Maxwell's formula, Smythe 1950 sec. 7.10,
-Jackson 1999 eq. 5.37 for the field of a loop) written here afresh with scipy's complete elliptic
-integrals (scipy.special.ellipk/ellipe take m = k^2) and integrated along one panel by
+Jackson 1999 eq. 5.37 for the field of a loop) written afresh with scipy's complete elliptic
+integrals (tests/models/fast/loops.py) and integrated along one panel by
 scipy.integrate.quad (a general-purpose library); dM/dz by a central difference (calculus); on a
 sheet the field jumps by mu_0 K across it and the kernels return the mean of the two sides
 (principal value; Jackson 1999 eq. 5.86).
@@ -16,7 +16,6 @@ import numpy as np
 import pytest
 from scipy.constants import mu_0
 from scipy.integrate import quad
-from scipy.special import ellipe, ellipk
 
 from models.errors import DesignError
 from models.fast.panel_kernels import (
@@ -27,6 +26,7 @@ from models.fast.panel_kernels import (
 )
 from models.fast.panels import PanelSet
 from models.fast.quadrature import gauss01
+from tests.models.fast.loops import loop_field, maxwell_mutual
 
 
 def _panel(r0, z0, r1, z1, q=4):
@@ -46,24 +46,6 @@ def _panel(r0, z0, r1, z1, q=4):
     )
 
 
-def _maxwell(a, z0, r, z):
-    """Mutual inductance [H] of coaxial loops of radii a, r at heights z0, z (Maxwell)."""
-    m = 4 * a * r / ((a + r) ** 2 + (z - z0) ** 2)
-    k = math.sqrt(m)
-    return mu_0 * math.sqrt(a * r) * ((2 / k - k) * ellipk(m) - 2 / k * ellipe(m))
-
-
-def _loop_field(a, z0, r, z):
-    """(B_r, B_z) [T/A] at (r, z) of a loop of radius a at z0 carrying 1 A (Jackson 5.37 form)."""
-    dz = z - z0
-    m = 4 * a * r / ((a + r) ** 2 + dz**2)
-    big, q2 = math.sqrt((a + r) ** 2 + dz**2), (a - r) ** 2 + dz**2
-    kk, ee = ellipk(m), ellipe(m)
-    bz = mu_0 / (2 * math.pi * big) * (kk + (a * a - r * r - dz * dz) / q2 * ee)
-    br = mu_0 * dz / (2 * math.pi * r * big) * (-kk + (a * a + r * r + dz * dz) / q2 * ee)
-    return br, bz
-
-
 def _along(panel, f):
     """Mean of f(r, z) over the panel's length (scipy quad, uniform current along it)."""
     r0, z0 = panel.start[0][0], panel.start[1][0]
@@ -80,7 +62,7 @@ POINTS = [(4.9e-3, -1.5e-3), (6.5e-3, -1.0e-3), (4.5e-3, 5.0e-3), (30e-3, 60e-3)
 @pytest.mark.parametrize("point", POINTS)
 def test_panel_mutual_is_maxwell_averaged_over_the_panel(point):
     r, z = point
-    expected = _along(SLANTED, lambda a, z0: _maxwell(a, z0, r, z))
+    expected = _along(SLANTED, lambda a, z0: maxwell_mutual(a, z0, r, z))
     # measured 4e-9 or less near, 4.6e-7 with the far one-point rule at the moment radius
     assert panel_mutual(SLANTED, [r], [z])[0, 0] == pytest.approx(expected, rel=2e-6)
 
@@ -89,8 +71,8 @@ def test_panel_mutual_is_maxwell_averaged_over_the_panel(point):
 def test_panel_mutual_dz_is_the_derivative_of_panel_mutual(point):
     r, z = point
     h = 1e-7
-    up = _along(SLANTED, lambda a, z0: _maxwell(a, z0, r, z + h))
-    down = _along(SLANTED, lambda a, z0: _maxwell(a, z0, r, z - h))
+    up = _along(SLANTED, lambda a, z0: maxwell_mutual(a, z0, r, z + h))
+    down = _along(SLANTED, lambda a, z0: maxwell_mutual(a, z0, r, z - h))
     # central difference: error ~ h^2 M''' (calculus), far below the tolerance at h = 0.1 um
     assert panel_mutual_dz(SLANTED, [r], [z])[0, 0] == pytest.approx(
         (up - down) / (2 * h), rel=1e-4
@@ -101,8 +83,8 @@ def test_panel_mutual_dz_is_the_derivative_of_panel_mutual(point):
 def test_panel_field_is_the_loop_field_averaged_over_the_panel(point):
     r, z = point
     br, bz = panel_field(SLANTED, [r], [z])
-    exp_r = _along(SLANTED, lambda a, z0: _loop_field(a, z0, r, z)[0])
-    exp_z = _along(SLANTED, lambda a, z0: _loop_field(a, z0, r, z)[1])
+    exp_r = _along(SLANTED, lambda a, z0: loop_field(a, z0, r, z)[0])
+    exp_z = _along(SLANTED, lambda a, z0: loop_field(a, z0, r, z)[1])
     scale = math.hypot(exp_r, exp_z)
     # measured 2e-8 of |B| or less
     assert abs(br[0, 0] - exp_r) < 1e-6 * scale and abs(bz[0, 0] - exp_z) < 1e-6 * scale
@@ -128,7 +110,7 @@ def test_source_tangential_field_is_the_filament_field_along_the_panel(point):
     t_r, t_z = SLANTED.tr[0], SLANTED.tz[0]
 
     def tangential(rp, zp):
-        br, bz = _loop_field(r, z, rp, zp)
+        br, bz = loop_field(r, z, rp, zp)
         return br * t_r + bz * t_z
 
     expected = _along(SLANTED, tangential)
