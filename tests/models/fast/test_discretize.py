@@ -7,7 +7,7 @@ import pytest
 
 from models.design import load_design
 from models.fast.circuit import RING, TARGET, build_cells
-from models.fast.discretize import Fineness, graded_edges
+from models.fast.discretize import Fineness, coil_filaments, graded_edges
 from models.materials import skin_depth
 from tests.conftest import DEMO
 
@@ -62,3 +62,20 @@ def test_cells_tile_ring_and_target_exactly():
     r0, r1, dz = cells.r0[sel], cells.r1[sel], cells.dz[sel]
     expected = 2 * np.pi / (58.0e6 * dz * np.log(r1 / r0))
     assert cells.resistance()[sel] == pytest.approx(expected, rel=1e-12)
+
+
+def test_coil_filaments_tile_the_coil_window():
+    # geometry: the sub-cells cover the window (r_i..r_o) x (z_back..z_front) exactly, coil_r x
+    # coil_z of them, each inside it
+    coil = load_design(DEMO).windings[0]
+    fineness = Fineness()
+    rc, zc, dr, dz = coil_filaments(coil, fineness)
+    assert rc.size == fineness.coil_r * fineness.coil_z
+    window = (coil.outer_radius - coil.inner_radius) * coil.length
+    assert float(dr @ dz) == pytest.approx(window, rel=1e-12)
+    assert np.all(rc - dr / 2 >= coil.inner_radius - 1e-15)
+    assert np.all(rc + dr / 2 <= coil.outer_radius + 1e-15)
+    assert np.all(zc - dz / 2 >= coil.z_back - 1e-15) and np.all(
+        zc + dz / 2 <= coil.z_front + 1e-15
+    )
+    assert len(set(zip(rc.round(12), zc.round(12), strict=True))) == rc.size  # no two alike

@@ -20,6 +20,8 @@ from models import evaluate, load_design
 from models.fast import kernels as K
 from models.fast.filaments import loop_field, mutual, mutual_dz
 from optim.demo import DEMO_DESIGN
+from tests.models.fast.loops import loop_field as textbook_field
+from tests.models.fast.loops import maxwell_mutual
 
 
 def test_elliptic_integrals_match_scipy():
@@ -199,3 +201,67 @@ def test_each_kernel_compiled_once():
         f = getattr(K, name)
         if isinstance(f, numba.core.registry.CPUDispatcher):
             assert len(f.signatures) <= 1, (name, f.signatures)
+
+
+# ------------------------------------------------------------------------------------------------
+# The flat kernels on their own, against the loop formulas written afresh
+# (tests/models/fast/loops.py: Maxwell's M, Smythe 1950 sec. 7.10; the loop field, Jackson 1999
+# eq. 5.37) and against a product Gauss-Legendre rule (numpy, a general-purpose library).
+
+_RNG_POINTS = np.random.default_rng(7).uniform(
+    [1e-3, -5e-3, 1e-3, -5e-3], [20e-3, 5e-3, 20e-3, 5e-3], (40, 4)
+)
+
+
+def test_coaxial_pair_is_maxwells_mutual_and_its_derivative():
+    r1, z1, r2, z2 = (np.ascontiguousarray(c) for c in _RNG_POINTS.T)
+    m, dmdz = K.coaxial_pair(r1, z1, r2, z2)
+    np.testing.assert_allclose(m, maxwell_mutual(r2, z2, r1, z1), rtol=1e-10)
+    h = 1e-8  # central difference in z1 (calculus), error ~ h^2 M''' far below 1e-5
+    fd = (maxwell_mutual(r2, z2, r1, z1 + h) - maxwell_mutual(r2, z2, r1, z1 - h)) / (2 * h)
+    np.testing.assert_allclose(dmdz, fd, rtol=1e-5, atol=1e-12 * np.abs(fd).max())
+
+
+def test_loop_field_flat_is_the_loop_field():
+    a, z0, r, z = (np.ascontiguousarray(c) for c in _RNG_POINTS.T)
+    br, bz = K.loop_field_flat(a, z0, r, z)
+    er, ez = textbook_field(a, z0, r, z)
+    scale = np.hypot(er, ez)
+    assert np.all(np.abs(br - er) < 1e-10 * scale) and np.all(np.abs(bz - ez) < 1e-10 * scale)
+
+
+def _log_mean_by_gauss(rect1, rect2, n=10):
+    """Mean of ln|p - q| over two rectangles ((r0, r1), (z0, z1)) by a 4-D Gauss product rule."""
+    x, w = np.polynomial.legendre.leggauss(n)
+    x, w = 0.5 * (x + 1.0), 0.5 * w
+
+    def nodes(lo, hi):
+        return lo + (hi - lo) * x
+
+    (a1, b1), (c1, d1) = rect1
+    (a2, b2), (c2, d2) = rect2
+    pr, pz, qr, qz = np.meshgrid(
+        nodes(a1, b1), nodes(c1, d1), nodes(a2, b2), nodes(c2, d2), indexing="ij"
+    )
+    ww = np.einsum("i,j,k,l->ijkl", w, w, w, w)
+    return float((ww * 0.5 * np.log((pr - qr) ** 2 + (pz - qz) ** 2)).sum())
+
+
+@pytest.mark.parametrize(
+    ("rect1", "rect2"),
+    [
+        (((1e-3, 2e-3), (0.0, 0.5e-3)), ((4e-3, 5e-3), (1e-3, 2e-3))),
+        (((1e-3, 1.5e-3), (0.0, 3e-3)), ((1e-3, 1.5e-3), (5e-3, 6e-3))),
+    ],
+)
+def test_rect_log_mean_flat_is_the_mean_log_distance(rect1, rect2):
+    # Separated rectangles: ln rho is smooth on them, and a 10^4-point Gauss product rule is
+    # exact to far below the tolerance; the derivative by a central difference in z1.
+    args = [np.array([v]) for v in (*rect1[0], *rect1[1], *rect2[0], *rect2[1])]
+    ln_g, d_ln_g = K.rect_log_mean_flat(*args)
+    assert ln_g[0] == pytest.approx(_log_mean_by_gauss(rect1, rect2), abs=1e-9)
+    h = 1e-7
+    up = ((rect1[0]), (rect1[1][0] + h, rect1[1][1] + h))
+    down = ((rect1[0]), (rect1[1][0] - h, rect1[1][1] - h))
+    fd = (_log_mean_by_gauss(up, rect2) - _log_mean_by_gauss(down, rect2)) / (2 * h)
+    assert d_ln_g[0] == pytest.approx(fd, rel=1e-5)

@@ -25,11 +25,13 @@ from models.design import design_from_dict, edit
 from models.errors import DesignError
 from models.evaluate import DEFAULT_FINENESS, evaluate, pole_model_for
 from models.fast import offset
-from models.fast.circuit import assemble_circuit, solve_system
+from models.fast.circuit import TARGET, assemble_circuit, solve_system
 from models.fast.filaments import mutual
+from models.fast.panel_kernels import panel_field
 from models.fast.pull import pull_by_source
 from optim.cli import main
 from tests.conftest import DEMO, demo_dict
+from tests.models.fast.loops import loop_field as textbook_field
 
 
 def _design(**target):
@@ -206,3 +208,42 @@ def test_map_over_the_offset():
     pmap = evaluate_map(design, x, y, isothermal=True)
     assert np.all(np.isfinite(pmap.pull_N))
     assert np.all(pmap.pull_N[:, 1] < pmap.pull_N[:, 0])  # 3 mm off loses pull at both gaps
+
+
+def test_source_field_is_the_field_of_every_current_but_the_parts():
+    # Coil and ring cells by the loop formulas written afresh (tests/models/fast/loops.py,
+    # Jackson 1999 eq. 5.37; on the axis mu_0 I a^2 / (2 (a^2 + zeta^2)^(3/2)), Griffiths 2017
+    # ex. 5.6, and B_r = 0 by symmetry), plus the pole's sheets driven by those currents alone.
+    design = _design()
+    system, sol, _, _ = _solved(design)
+    layers = np.array([design.target.gap + 0.25e-3, design.target.gap + 0.75e-3])
+    field = offset.source_field(system, sol, layers, 1.5 * design.target.radius)
+    cells = sol.cells
+    other = cells.part != TARGET
+    a, z0, i_src = cells.rc[other], cells.zc[other], sol.cell_current[other]
+    i_pan = system.P[:, other] @ i_src
+    for layer, z in enumerate(layers):
+        r = field.r[1:]
+        br, bz = textbook_field(a[None, :], z0[None, :], r[:, None], np.full((r.size, 1), z))
+        pbr, pbz = panel_field(system.panels, r, np.full(r.size, z))
+        exp_r, exp_z = br @ i_src + pbr @ i_pan, bz @ i_src + pbz @ i_pan
+        scale = np.abs(exp_z).max()
+        assert np.abs(field.br[layer, 1:] - exp_r).max() < 1e-9 * scale
+        assert np.abs(field.bz[layer, 1:] - exp_z).max() < 1e-9 * scale
+        axis = mu_0 * a**2 / (2 * (a**2 + (z - z0) ** 2) ** 1.5) @ i_src
+        _, pbz0 = panel_field(system.panels, [0.0], [z])
+        assert field.bz[layer, 0] == pytest.approx(axis + (pbz0 @ i_pan)[0], rel=1e-9)
+        assert abs(field.br[layer, 0]) < 1e-9 * scale
+        # at the grid's radii, SourceField.at returns the grid's values (linear interpolation)
+        at_r, at_z = field.at(layer, field.r[5:8])
+        assert np.allclose(at_r, field.br[layer, 5:8], rtol=0, atol=1e-15 * scale)
+        assert np.allclose(at_z, field.bz[layer, 5:8], rtol=0, atol=1e-15 * scale)
+
+
+def test_sheet_fineness_coarse_is_coarser_within_its_floors():
+    fine = offset.SheetFineness()
+    coarse = fine.coarse()
+    assert coarse.elements < fine.elements and coarse.k_points < fine.k_points
+    assert coarse.layers < fine.layers and coarse.harmonics < fine.harmonics
+    floor = offset.SheetFineness(elements=8, layers=2, harmonics=2, k_points=3).coarse()
+    assert (floor.elements, floor.layers, floor.harmonics) == (8, 2, 2)

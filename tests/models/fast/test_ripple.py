@@ -13,6 +13,7 @@ from __future__ import annotations
 
 import copy
 import math
+from types import SimpleNamespace
 
 import numpy as np
 import pytest
@@ -20,10 +21,15 @@ from scipy.constants import g as standard_gravity
 
 from models.design import design_from_dict
 from models.evaluate import DEFAULT_FINENESS, evaluate, pole_model_for
-from models.fast.circuit import assemble_circuit, solve_system
+from models.fast.circuit import COIL, TARGET, assemble_circuit, solve_system
 from models.fast.filaments import mutual_pair, self_inductance_round
 from models.fast.pull import net_pull
-from models.fast.ripple import pair_force_phasors, pull_ripple, pull_waveform
+from models.fast.ripple import (
+    pair_force_phasors,
+    pull_ripple,
+    pull_twice_frequency,
+    pull_waveform,
+)
 from tests.conftest import demo_dict
 
 
@@ -144,3 +150,20 @@ def test_result_fields_against_the_waveform():
     line = np.fft.rfft(force) / force.size
     assert line[0].real == pytest.approx(r.pull_N, rel=1e-10)
     assert 2.0 * abs(line[2]) == pytest.approx(r.pull_ripple_N, rel=1e-10)
+
+
+def test_pull_twice_frequency_of_two_loops_is_the_product_to_sum_identity():
+    # i_k(t) = sqrt 2 Re(I_k e^{jwt}): i_1 i_2 = Re(I_1 conj(I_2)) + Re(I_1 I_2 e^{2jwt})
+    # (product-to-sum, trigonometry), so the force -i_1 i_2 dM/dz has the 2f phasor
+    # -I_1 I_2 dM/dz; its size is the ripple.
+    i_t, i_c, dmdz = 0.8 - 2.0j, 150.0 + 60.0j, -3.0e-6
+    sol = SimpleNamespace(
+        cells=SimpleNamespace(part=np.array([TARGET, COIL])),
+        cell_current=np.array([i_t, i_c]),
+        dMdz=np.array([[0.0, dmdz], [0.0, 0.0]]),
+        panel_dMdz=None,
+        panel_current=np.zeros(0),
+    )
+    p2 = pull_twice_frequency(sol)
+    assert p2 == pytest.approx(-i_t * i_c * dmdz, rel=1e-12)
+    assert pull_ripple(sol) == pytest.approx(abs(i_t * i_c * dmdz), rel=1e-12)
