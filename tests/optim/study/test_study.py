@@ -516,7 +516,7 @@ def test_default_sampler_reaches_the_grid_front_with_a_sixth_of_its_evaluations(
     for r in rows[:: max(len(rows) // 6, 1)][:6]:
         out = evaluate_trial(spec, {k: r[k] for k in q.SPACE})
         for name in q.RESULTS:  # the cache keeps repr(): exact unless the model changed
-            assert out["flat"][name] == pytest.approx(r[name], rel=1e-9), (name, r)
+            assert out.flat[name] == pytest.approx(r[name], rel=1e-9), (name, r)
     run_study(
         spec,
         tmp_path / "quality",
