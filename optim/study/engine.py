@@ -87,6 +87,10 @@ def evaluate_trial(spec, values: dict):
         flat, warnings, binding = results_of(
             design, spec.gaps_mm, isothermal=isothermal, parts=spec.parts
         )
+        if getattr(spec, "built", None) is not None:  # issue 30: judged as built
+            from optim.study.built import judge_built
+
+            flat = {**flat, **judge_built(design, spec, flat)}
     except DesignError as err:
         out["reason"] = "model refused: " + "; ".join(err.problems)
         return out
@@ -94,8 +98,13 @@ def evaluate_trial(spec, values: dict):
         out["reason"] = f"model error: {type(err).__name__}: {err}"[:500]
         return out
     out["flat"], out["warnings"], out["binding"] = flat, warnings[:8], binding
+    seen_o = seen_c = flat
+    if getattr(spec, "built", None) is not None:  # issue 30: judged as built
+        from optim.study.built import judged
+
+        seen_o, seen_c = judged(flat, spec)
     try:
-        vals = objective_values(flat, spec.objectives)
+        vals = objective_values(seen_o, spec.objectives)
     except KeyError as err:
         out["reason"] = f"model error: result {err} missing"
         return out
@@ -104,7 +113,7 @@ def evaluate_trial(spec, values: dict):
         out["reason"] = "non-finite result: " + ", ".join(bad)
         return out
     for c in spec.constraints:
-        value = flat.get(c.name, math.nan)
+        value = seen_c.get(c.name, math.nan)
         if math.isnan(value):
             out["reason"] = f"non-finite result: {c.name}"
             return out

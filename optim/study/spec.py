@@ -76,6 +76,7 @@ _TOP = {
     "constraints",
     "run",
     "parts",
+    "tolerances",  # issue 30: a study judged as built (optim.study.built)
 }
 _RUN_KEYS = {
     "trials": "int",
@@ -123,6 +124,7 @@ class StudySpec:
     folder: Path | None = None
     result_names: tuple = ()
     parts: tuple[Part, ...] = ()
+    built: object = None  # issue 30: optim.study.built.BuiltSpec, None: a nominal study
 
     def to_json(self) -> dict:
         """Everything needed to rebuild the spec without its file (kept in the storage)."""
@@ -138,13 +140,18 @@ class StudySpec:
                 for c in self.constraints
             },
             "run": {k: v for k, v in self.run.items() if k != "storage"},
-        } | ({"parts": [p.to_json() for p in self.parts]} if self.parts else {})
+        } | ({"parts": [p.to_json() for p in self.parts]} if self.parts else {}) | (
+            {"tolerances": self.built.table}  # issue 30
+            if self.built is not None and self.built.table is not None
+            else {}
+        )
 
     def _robust_json(self):
+        built = {} if self.built is None else self.built.robust_json()  # issue 30
         if not self.gaps_mm:
-            return {}
+            return built
         g = self.gaps_mm
-        return {"gap_min_mm": g[0], "gap_max_mm": g[-1], "points": len(g)}
+        return {"gap_min_mm": g[0], "gap_max_mm": g[-1], "points": len(g)} | built
 
     def fingerprint(self) -> str:
         """Hash of what defines the study's trials (base design, search, objectives, robust
@@ -367,6 +374,11 @@ def spec_from_dict(data: dict, folder: Path | None = None, name: str = "study") 
     run = _run_table(data, problems)
     if problems:
         raise DesignError(problems)
+    from optim.study.built import built_names, parse_built  # issue 30: judged as built
+
+    built = parse_built(robust, data.get("tolerances"), base, problems)
+    if problems:
+        raise DesignError(problems)
 
     names = {o.name for o in objectives} | {c.name for c in constraints}
     parts: list[Part] = []
@@ -392,8 +404,10 @@ def spec_from_dict(data: dict, folder: Path | None = None, name: str = "study") 
         run=dict(run),
         description=str(data.get("description", "")),
         folder=folder,
-        result_names=tuple(known),
+        result_names=tuple(known)
+        + (tuple(built_names(objectives, constraints)) if built is not None else ()),
         parts=tuple(parts),
+        built=built,  # issue 30
     )
 
 
@@ -596,4 +610,6 @@ def spec_from_json(d: dict) -> StudySpec:
         data["robust"] = d["robust"]
     if d.get("parts"):
         data["parts"] = d["parts"]
+    if d.get("tolerances") is not None:  # issue 30
+        data["tolerances"] = d["tolerances"]
     return spec_from_dict(data, name=d["name"])
