@@ -430,6 +430,7 @@ def export_trial(
     echo=None,
     resolution_mm: float | None = None,
     tolerance: bool = False,
+    samples: int | None = None,
 ) -> dict:
     """Write the hand-off of one trial; returns file name -> path.
 
@@ -499,6 +500,8 @@ def export_trial(
                 echo=echo,
                 parts=spec.parts,
                 gaps_mm=spec.gaps_mm,
+                spec=spec,  # issue 30: samples as the study evaluates a trial
+                samples=samples,
             )
         )
     if echo is not None and not meta["feasible_unrounded"]:

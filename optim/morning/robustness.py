@@ -71,22 +71,40 @@ CONSTRAINT_PREFIX = "study constraint: "
 
 
 def write_robustness(
-    design, out_dir, isothermal: bool = False, echo=None, parts=(), gaps_mm=()
+    design,
+    out_dir,
+    isothermal: bool = False,
+    echo=None,
+    parts=(),
+    gaps_mm=(),
+    spec=None,
+    samples: int | None = None,
 ) -> dict[str, Path]:
     """Write the tolerance table (tolerance.txt, tolerance.json, CSVs; default tolerances,
     HANDOFF_SAMPLES samples, the default seed) and the part radius x gap pick map (PNG, SVG,
     CSV; HANDOFF_POINTS per axis; a study's family ``parts`` marked; its gap axis takes in the
     study's pick gaps ``gaps_mm`` [mm] and the parts') of ``design`` into
-    ``out_dir``. Returns file name -> path; ``echo`` gets one line per piece with its time."""
+    ``out_dir``. Returns file name -> path; ``echo`` gets one line per piece with its time.
+
+    With the study's ``spec`` (issue 30) each sample is evaluated as the study evaluates a trial
+    (``study_evaluator``), the tolerances are the study's where it is judged as built
+    (``optim.study.built.study_tolerances``), and tolerance.json gains ``constraints_held``:
+    study constraint -> share of the samples that keep it (``built_check.constraints_held``).
+    ``samples``: the Monte Carlo count (default HANDOFF_SAMPLES)."""
+    from optim.morning.built_check import check_tolerances, constraints_held
+
     t0 = time.perf_counter()
+    n = HANDOFF_SAMPLES if samples is None else samples
     study = run_tolerance(
         design,
-        tolerances_for(design),
-        samples=HANDOFF_SAMPLES,
+        check_tolerances(spec, design),
+        samples=n,
         seed=DEFAULT_SEED,
         isothermal=isothermal,
+        evaluator=None if spec is None else study_evaluator(spec),
     )
-    paths = write_tolerance(study, out_dir)
+    extra = {} if spec is None else {"constraints_held": constraints_held(spec, study)}
+    paths = write_tolerance(study, out_dir, extra=extra)
     if echo is not None:
         echo(f"tolerance table: {study.n_samples} samples in {time.perf_counter() - t0:.0f} s")
         for note in study.notes:

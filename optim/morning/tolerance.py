@@ -725,9 +725,9 @@ def tolerance_csvs(study: ToleranceStudy) -> dict[str, str]:
     }
 
 
-def write_tolerance(study: ToleranceStudy, out_dir) -> dict[str, Path]:
+def write_tolerance(study: ToleranceStudy, out_dir, extra: dict | None = None) -> dict[str, Path]:
     """Write tolerance.txt, tolerance.json and the CSV tables into ``out_dir`` (atomically);
-    returns file name -> path."""
+    returns file name -> path. ``extra``: more keys of tolerance.json (``constraints_held``)."""
     from optim.files import atomic_write_text, safe_child
     from optim.jsonout import strict_json
 
@@ -741,5 +741,7 @@ def write_tolerance(study: ToleranceStudy, out_dir) -> dict[str, Path]:
     paths["tolerance.txt"] = safe_child(out_dir, "tolerance.txt")
     paths["tolerance.json"] = safe_child(out_dir, "tolerance.json")
     atomic_write_text(paths["tolerance.txt"], format_tolerance(study) + "\n")
-    atomic_write_text(paths["tolerance.json"], strict_json(tolerance_json(study, paths)) + "\n")
+    atomic_write_text(
+        paths["tolerance.json"], strict_json(tolerance_json(study, paths) | (extra or {})) + "\n"
+    )
     return paths

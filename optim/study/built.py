@@ -114,7 +114,9 @@ def parse_built(robust: dict, table, base: dict, problems: list[str]) -> BuiltSp
         for k in given:
             problems.append(f"robust.{k}: needs robust.built_probability")
         if table is not None:
-            problems.append("[tolerances]: needs robust.built_probability (a study judged as built)")
+            problems.append(
+                "[tolerances]: needs robust.built_probability (a study judged as built)"
+            )
         return None
     p = given["built_probability"]
     ok = isinstance(p, (int, float)) and not isinstance(p, bool) and 0.5 < p < 1

@@ -128,7 +128,7 @@ class StudySpec:
 
     def to_json(self) -> dict:
         """Everything needed to rebuild the spec without its file (kept in the storage)."""
-        return {
+        out = {
             "name": self.name,
             "description": self.description,
             "base": self.base,
@@ -140,11 +140,10 @@ class StudySpec:
                 for c in self.constraints
             },
             "run": {k: v for k, v in self.run.items() if k != "storage"},
-        } | ({"parts": [p.to_json() for p in self.parts]} if self.parts else {}) | (
-            {"tolerances": self.built.table}  # issue 30
-            if self.built is not None and self.built.table is not None
-            else {}
-        )
+        } | ({"parts": [p.to_json() for p in self.parts]} if self.parts else {})
+        if self.built is not None and self.built.table is not None:  # issue 30
+            out["tolerances"] = self.built.table
+        return out
 
     def _robust_json(self):
         built = {} if self.built is None else self.built.robust_json()  # issue 30

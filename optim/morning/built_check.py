@@ -1,0 +1,96 @@
+"""The front checked as built (issue 30): a Monte Carlo of a few designs, each sample evaluated
+as the study evaluates a trial (``optim.morning.robustness.study_evaluator``).
+
+Used by ``study export --tolerance [--samples N]`` (tolerance.json's ``constraints_held``) and by
+``study front``'s report (each pick's count of built magnets keeping each constraint and all of
+them; ``CHECK_SAMPLES`` samples per pick). The tolerances are the study's own where it is judged
+as built (``optim.study.built.study_tolerances``), else the default tolerances of
+``optim.morning.tolerance`` (the same as ``eddypull tolerance``); every key uniform within its
+half-width.
+"""
+
+from __future__ import annotations
+
+import math
+from dataclasses import dataclass
+
+import numpy as np
+
+from optim.morning.tolerance import DEFAULT_SEED, run_tolerance, tolerances_for
+
+__all__ = ["CHECK_SAMPLES", "BuiltCheck", "check_tolerances", "constraints_held", "check_pick"]
+
+#: Monte Carlo samples per pick in the report's check (each a study evaluation: ~0.1-0.3 s for
+#: the lifter demo on one core of this 2-core machine, so ~10-30 s per pick).
+CHECK_SAMPLES = 100
+
+
+def check_tolerances(spec, design) -> list:
+    """The tolerances a check uses: the study's where it is judged as built, else the
+    defaults."""
+    if spec is not None and getattr(spec, "built", None) is not None:
+        from optim.study.built import _as_built, study_tolerances
+
+        return study_tolerances(_as_built(design, {}), spec.built, spec.gaps_mm)
+    return tolerances_for(design)
+
+
+def constraints_held(spec, study) -> dict[str, float]:
+    """Study constraint name -> share of the evaluated samples of ``study`` (a ToleranceStudy
+    run with ``study_evaluator(spec)``) that keep it; ``"all"``: all of them at once."""
+    from optim.morning.robustness import CONSTRAINT_PREFIX, constraint_words
+
+    rows = [r for r in study.samples if "refused" not in r]
+    n = len(study.samples)
+    out = {}
+    keys = [CONSTRAINT_PREFIX + constraint_words(c) for c in spec.constraints]
+    for c, key in zip(spec.constraints, keys, strict=True):
+        out[c.name] = (
+            sum(r["margins"].get(key, -math.inf) >= 0 for r in rows) / n if n else math.nan
+        )
+    if keys:
+        every = [all(r["margins"].get(k, -math.inf) >= 0 for k in keys) for r in rows]
+        out["all"] = float(np.sum(every)) / n if n else math.nan
+    return out
+
+
+@dataclass(frozen=True)
+class BuiltCheck:
+    """How many of ``samples`` built magnets of one pick keep each constraint (``kept``:
+    name -> count) and all of them (``kept_all``); a refused sample keeps none."""
+
+    samples: int
+    kept: dict
+    kept_all: int
+
+    @property
+    def holds(self) -> bool:
+        """True where at least 95 % of the built magnets keep every constraint (or the study's
+        own built_probability, where it has one)."""
+        return self.kept_all >= 0.95 * self.samples
+
+    def words(self) -> str:
+        parts = [f"{c}: {k} of {self.samples}" for c, k in self.kept.items()]
+        return (
+            f"built magnets keeping the constraints ({self.samples} Monte Carlo samples): "
+            + "; ".join(parts)
+            + f"; all at once: {self.kept_all} of {self.samples}"
+        )
+
+
+def check_pick(spec, design, samples: int = CHECK_SAMPLES, seed: int = DEFAULT_SEED) -> BuiltCheck:
+    """Monte Carlo check of one design as built (``samples`` samples, seeded)."""
+    from optim.morning.robustness import study_evaluator
+
+    study = run_tolerance(
+        design,
+        check_tolerances(spec, design),
+        samples=samples,
+        seed=seed,
+        isothermal=bool(spec.run.get("isothermal", False)),
+        evaluator=study_evaluator(spec),
+    )
+    shares = constraints_held(spec, study)
+    kept = {c.name: int(round(shares[c.name] * samples)) for c in spec.constraints}
+    kept_all = int(round(shares.get("all", 1.0) * samples))
+    return BuiltCheck(samples, kept, kept_all)
