@@ -195,13 +195,19 @@ def write_front(
         front = front.sort_values(first, ascending=direction == "minimize")
     paths = _write_tables(folder, df, front)
     picks = _picks(front, objectives)
+    from optim.morning import robustness
+
+    check_lines = []  # issue 30: the picks checked as built, those that hold first
+    if picks and (robustness.REPORT_TOLERANCE if tolerance is None else tolerance):
+        from optim.morning.built_check import check_picks
+
+        picks, check_lines = check_picks(spec, front, picks, design_of)
     picked = [t for _, t in picks][:3]  # the first three get a pull-against-gap curve
     designs = []
     for t in picked:
         row = front[front["trial"] == t].iloc[0]
         designs.append((f"trial {t}", design_of(spec, {p.name: row[p.name] for p in spec.params})))
     images = _write_plots(folder / "plots", spec, objectives, df, front, designs)
-    from optim.morning import robustness
 
     maps = []
     if designs and (robustness.REPORT_PICK_MAPS if pick_maps is None else pick_maps):
@@ -222,6 +228,7 @@ def write_front(
         f"all trials    {paths['trials.csv']}",
         f"plots         {folder / 'plots'} ({len(images)} files)",
         f"report        {paths['report.html']}",
+        *check_lines,  # issue 30
     ]
     if table is not None:
         t = table.study
