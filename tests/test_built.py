@@ -231,3 +231,91 @@ def test_columns_names_are_listed_for_every_constraint():
         [Objective("a", "maximize")], [Constraint("b", high=1.0), Constraint("a", low=0.0)]
     )
     assert names == ["b_built", "a_built", "built_share.b", "built_share.a", "built_share_all"]
+
+
+# ----------------------------------------------------------------------------- the study's outputs
+@pytest.fixture(scope="module")
+def built_study(tmp_path_factory):
+    """A three-trial study of the demo design over frequency, judged as built (isothermal)."""
+    from tests.conftest import DEMO
+
+    root = tmp_path_factory.mktemp("built")
+    spec = root / "small.toml"
+    spec.write_text(
+        f'name = "small"\ndesign = "{DEMO.as_posix()}"\n'
+        "[search]\nfrequency_Hz = { low = 200.0, high = 600.0 }\n"
+        '[objectives]\npull_N = "maximize"\n'
+        "[constraints]\ninput_power_W = { max = 1e6 }\n"
+        "[robust]\nbuilt_probability = 0.9\n"
+        '[tolerances]\n"ring.depth_mm" = 0.05\n"drive.frequency_Hz" = "2 %"\n'
+        '[run]\ntrials = 3\nisothermal = true\nsampler = "random"\nseed = 2\n',
+        encoding="utf-8",
+    )
+    out = root / "out"
+    assert main(["study", "run", str(spec), "--out", str(out)]) == 0
+    return out
+
+
+def test_a_built_study_runs_and_its_tables_carry_the_built_columns(built_study, capsys):
+    import pandas as pd
+
+    assert main(["study", "front", str(built_study)]) == 0
+    capsys.readouterr()
+    trials = pd.read_csv(built_study / "trials.csv")
+    for name in (
+        "pull_N_built",
+        "input_power_W_built",
+        "built_share.input_power_W",
+        "built_share_all",
+    ):
+        assert name in trials.columns, name
+    done = trials[trials["state"] == "done"]
+    assert len(done) and (done["built_share_all"] == 1.0).all()  # a limit of 1 MW always holds
+    assert (done["pull_N_built"] <= done["pull_N"] + 1e-12).all()  # maximised: the low quantile
+    front = pd.read_csv(built_study / "front.csv")
+    assert "pull_N_built" in front.columns and "built_share_all" in front.columns
+
+
+def test_front_checks_its_picks_as_built(built_study, monkeypatch, tmp_path, capsys):
+    from optim.morning import built_check, robustness
+
+    monkeypatch.setattr(robustness, "REPORT_TOLERANCE", True)
+    monkeypatch.setattr(robustness, "REPORT_SAMPLES", 10)
+    monkeypatch.setattr(built_check, "CHECK_SAMPLES", 10)
+    monkeypatch.setattr(built_check.check_picks, "__defaults__", (10,))
+    out = tmp_path / "front"
+    assert main(["study", "front", str(built_study), "--out", str(out)]) == 0
+    printed = capsys.readouterr().out
+    assert "holds as built" in printed
+    assert "input_power_W: 10 of 10; all at once: 10 of 10" in printed
+    html = (out / "report.html").read_text(encoding="utf-8")
+    assert "all at once: 10 of 10" in html
+
+
+def test_export_tolerance_samples_writes_constraints_held(built_study, monkeypatch, capsys):
+    from optim.morning import robustness
+
+    monkeypatch.setattr(robustness, "HANDOFF_POINTS", 3)
+    argv = ["study", "export", str(built_study), "--best", "pull_N", "--out", "tol"]
+    assert main([*argv, "--tolerance", "--samples", "10"]) == 0
+    capsys.readouterr()
+    import json
+
+    doc = json.loads((built_study / "tol" / "tolerance.json").read_text(encoding="utf-8"))
+    assert doc["samples"] == 10
+    assert doc["constraints_held"] == {"input_power_W": 1.0, "all": 1.0}
+    assert {t["key"] for t in doc["tolerances"]} == {"ring.depth_mm", "drive.frequency_Hz"}
+
+
+@pytest.mark.parametrize(
+    "flags, message",
+    [
+        (["--samples", "10"], "--samples: needs --tolerance"),
+        (["--tolerance", "--samples", "5"], "--samples = 5: must be between 10 and 100000"),
+    ],
+)
+def test_bad_export_samples_exit_2(built_study, flags, message, capsys):
+    argv = ["study", "export", str(built_study), "--best", "pull_N", "--out", "bad", *flags]
+    assert main(argv) == 2
+    err = capsys.readouterr().err.strip().splitlines()
+    assert len(err) == 1 and message in err[0], err
