@@ -18,6 +18,9 @@ A study file::
     gap_min_mm = 2.0
     gap_max_mm = 4.0
     points = 3
+    built_probability = 0.95          # judged as built (optim.study.built): absent, nominal
+    [tolerances]                      # with it, optional: as `eddypull tolerance --spec` reads
+    "ring.depth_mm" = 0.05
     [[parts]]                         # or a family of parts instead of [target] overrides:
     name = "cap10"                    #   optim.study.parts (each part's size, metal, gap range
     radius_mm = 5.0                   #   and role, "lift" or "leave"); results by part and
