@@ -40,8 +40,10 @@ BASE_VALUES = {  # a feasible-looking middle of the demo's search (series capaci
 
 
 def _study(**robust) -> dict:
+    """The demo study with the [robust] keys ``robust`` in place of its built_* keys."""
     data = tomllib.loads(DEMO_STUDY.read_text())
-    data["robust"] = {**data["robust"], **robust}
+    gaps = {k: v for k, v in data["robust"].items() if not k.startswith("built_")}
+    data["robust"] = {**gaps, **robust}
     return data
 
 
@@ -319,3 +321,20 @@ def test_bad_export_samples_exit_2(built_study, flags, message, capsys):
     assert main(argv) == 2
     err = capsys.readouterr().err.strip().splitlines()
     assert len(err) == 1 and message in err[0], err
+
+
+def test_a_check_fixes_a_tuned_capacitor_and_tolerances_it():
+    """A built magnet's capacitor does not retune to its coil: the check's design carries the
+    nominal design's tuned capacitance, and the study's tolerances then include it (+-5 %)."""
+    from optim.morning.built_check import check_tolerances
+    from optim.morning.robustness import study_evaluator
+    from optim.morning.tolerance import _capacitor_as_built
+    from optim.study.space import build_design
+
+    spec = _spec(_study(built_probability=0.95))
+    design = build_design(spec.base, spec.params, BASE_VALUES, "x")
+    assert design.drive.capacitance is None
+    fixed = _capacitor_as_built(design, False, study_evaluator(spec))
+    assert fixed.drive.capacitance is not None and fixed.drive.capacitance > 0
+    keys = {t.key for t in check_tolerances(spec, fixed)}
+    assert "drive.capacitance_uF" in keys and "target.gap_mm" not in keys

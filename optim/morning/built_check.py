@@ -38,11 +38,11 @@ HOLD_SHARE = 0.95
 
 def check_tolerances(spec, design) -> list:
     """The tolerances a check uses: the study's where it is judged as built, else the
-    defaults."""
+    defaults (``design`` with its capacitor already fixed, so that it has a capacitance)."""
     if spec is not None and getattr(spec, "built", None) is not None:
-        from optim.study.built import _as_built, study_tolerances
+        from optim.study.built import study_tolerances
 
-        return study_tolerances(_as_built(design, {}), spec.built, spec.gaps_mm)
+        return study_tolerances(design, spec.built, spec.gaps_mm)
     return tolerances_for(design)
 
 
@@ -92,13 +92,16 @@ class BuiltCheck:
 def check_pick(spec, design, samples: int = CHECK_SAMPLES, seed: int = DEFAULT_SEED) -> BuiltCheck:
     """Monte Carlo check of one design as built (``samples`` samples, seeded)."""
     from optim.morning.robustness import study_evaluator
+    from optim.morning.tolerance import _capacitor_as_built
 
+    isothermal = bool(spec.run.get("isothermal", False))
+    design = _capacitor_as_built(design, isothermal, study_evaluator(spec))  # fixed as built
     study = run_tolerance(
         design,
         check_tolerances(spec, design),
         samples=samples,
         seed=seed,
-        isothermal=bool(spec.run.get("isothermal", False)),
+        isothermal=isothermal,
         evaluator=study_evaluator(spec),
     )
     shares = constraints_held(spec, study)

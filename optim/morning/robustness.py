@@ -95,6 +95,10 @@ def write_robustness(
 
     t0 = time.perf_counter()
     n = HANDOFF_SAMPLES if samples is None else samples
+    if spec is not None:  # issue 30: a tuned capacitor fixed as built, then its tolerance
+        from optim.morning.tolerance import _capacitor_as_built
+
+        design = _capacitor_as_built(design, isothermal, study_evaluator(spec))
     study = run_tolerance(
         design,
         check_tolerances(spec, design),
@@ -197,6 +201,8 @@ def study_evaluator(spec):
             margin = c.margin(value) if math.isfinite(value) else -math.inf
             margins[CONSTRAINT_PREFIX + constraint_words(c)] = margin
         values = {name: flat.get(name, math.nan) for name, *_ in OUTPUTS}
+        # issue 30: the tuned capacitor's value, so that run_tolerance fixes it as built
+        values["capacitor_uF"] = flat.get("capacitor_uF", 0.0)
         return SimpleNamespace(**values, margins=margins)
 
     return evaluator
