@@ -338,3 +338,13 @@ def test_a_check_fixes_a_tuned_capacitor_and_tolerances_it():
     assert fixed.drive.capacitance is not None and fixed.drive.capacitance > 0
     keys = {t.key for t in check_tolerances(spec, fixed)}
     assert "drive.capacitance_uF" in keys and "target.gap_mm" not in keys
+
+
+def test_the_tolerance_table_is_part_of_the_study_definition():
+    """A resumed study must match its definition: another [tolerances] table is another
+    study."""
+    one = _study(built_probability=0.95)
+    two = copy.deepcopy(one)
+    one["tolerances"] = {"ring.depth_mm": 0.05}
+    two["tolerances"] = {"ring.depth_mm": 0.1}
+    assert _spec(one).fingerprint() != _spec(two).fingerprint()

@@ -165,6 +165,8 @@ class StudySpec:
         key = {k: d[k] for k in ("base", "search", "objectives", "robust", "constraints")}
         if self.parts:
             key["parts"] = d["parts"]
+        if "tolerances" in d:  # issue 30: a study judged as built with its own tolerances
+            key["tolerances"] = d["tolerances"]
         key["isothermal"] = bool(self.run.get("isothermal", False))
         if self.run.get("allow_out_of_depth", False):  # a study without it hashes as before
             key["allow_out_of_depth"] = True
