@@ -348,3 +348,20 @@ def test_the_tolerance_table_is_part_of_the_study_definition():
     one["tolerances"] = {"ring.depth_mm": 0.05}
     two["tolerances"] = {"ring.depth_mm": 0.1}
     assert _spec(one).fingerprint() != _spec(two).fingerprint()
+
+
+def test_a_trial_infeasible_at_its_nominal_values_is_not_judged():
+    """It is infeasible as built too; its built quantiles are its nominal values, its shares
+    not estimated (nan), and no tolerance evaluation is made (the stand-in would fail)."""
+    spec = _spec(_study(built_probability=0.95))
+    flat = {c.name: 0.0 for c in spec.constraints} | {o.name: 1.0 for o in spec.objectives}
+    flat["supply_voltage_V"] = 231.0  # past its 230 V limit
+    flat["margins.coil_temperature_C"] = 1.0
+    flat["worst_lift_ratio"] = 2.0
+
+    def refuse(design):
+        raise AssertionError("a tolerance evaluation was made")
+
+    out = judge_built(None, spec, flat, evaluate_flat=refuse)
+    assert out["supply_voltage_V_built"] == 231.0 and out["worst_lift_ratio_built"] == 2.0
+    assert math.isnan(out["built_share_all"]) and math.isnan(out["built_share.supply_voltage_V"])

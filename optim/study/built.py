@@ -33,6 +33,11 @@ the p quantile). The trial's added results:
 * ``built_share.<constraint>``: the estimated share of built magnets keeping it;
 * ``built_share_all``: the share keeping all of them at once (reported, not constrained).
 
+A trial that breaks a constraint or a design rule at its nominal values is not judged: it is
+infeasible as built too (``nominally_infeasible``); its ``<result>_built`` are its nominal values
+and its shares nan (``not_judged``). Most of a search's trials are of this kind, so this is where
+most of the cost of a built study is saved.
+
 Two methods:
 
 * ``"linear"`` (default): one-sided sensitivities, f(x + h_i) - f(x) for each of the k toleranced
@@ -64,6 +69,8 @@ __all__ = [
     "built_names",
     "judge_built",
     "judged",
+    "nominally_infeasible",
+    "not_judged",
     "parse_built",
     "quantiles_of",
     "sobol_unit",
@@ -274,6 +281,8 @@ def judge_built(design, spec, flat: dict, evaluate_flat=None) -> dict[str, float
     ``spec.built`` says how. ``evaluate_flat(design) -> flat`` stands in for the study's
     evaluation (tests). Objectives are returned as ``objective_built.<name>`` too."""
     built: BuiltSpec = spec.built
+    if nominally_infeasible(flat, spec):
+        return not_judged(flat, spec)
     isothermal = bool(spec.run.get("isothermal", False))
     f = evaluate_flat or _flat_of(spec, isothermal)
     design = _as_built(design, flat)
@@ -288,6 +297,33 @@ def judge_built(design, spec, flat: dict, evaluate_flat=None) -> dict[str, float
         values = _linear(design, tols, names, nominal, f)
     by_name = {n: values[i] for i, n in enumerate(names)}
     return quantiles_of(by_name, built.probability, spec.objectives, spec.constraints)
+
+
+def nominally_infeasible(flat: dict, spec) -> bool:
+    """True where the trial breaks a constraint (or a design rule) at its nominal values: it is
+    infeasible as built too (the linear estimate's distribution is symmetric about the nominal
+    value, so its quantile beyond 0.5 is at least as far past the limit), and is not judged."""
+    from optim.study.objectives import design_rule_violations
+
+    for c in spec.constraints:
+        value = flat.get(c.name, math.nan)
+        if not math.isfinite(value) or c.margin(value) < 0:
+            return True
+    return bool(design_rule_violations(flat, spec.run))
+
+
+def not_judged(flat: dict, spec) -> dict[str, float]:
+    """The built columns of a trial not judged (``nominally_infeasible``): each quantile the
+    nominal value, each share nan (not estimated)."""
+    out = {f"built_share.{c.name}": math.nan for c in spec.constraints}
+    out["built_share_all"] = math.nan
+    for o in spec.objectives:
+        out[f"objective_built.{o.name}"] = flat.get(o.name, math.nan)
+    for name in dict.fromkeys(
+        [*(c.name for c in spec.constraints), *(o.name for o in spec.objectives)]
+    ):
+        out[f"{name}_built"] = flat.get(name, math.nan)
+    return out
 
 
 def _try(f, design, deltas: dict, names):
