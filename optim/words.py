@@ -3,7 +3,7 @@ printed with every result and the thermal assumptions and limits in one line eac
 
 from __future__ import annotations
 
-__all__ = ["CAUTION", "assumptions_text", "limits_used_text"]
+__all__ = ["CAUTION", "assumptions_text", "limits_used_text", "unit_of"]
 
 CAUTION = (
     "Caution: model results only. Rings, parts and coils get hot; coils run at mains voltage; the "
@@ -41,3 +41,37 @@ def assumptions_text(a: dict) -> str:
     defaults = set(a["defaults"])
     text = ", ".join(words + (" (default)" if key in defaults else "") for key, words in items)
     return text
+
+
+#: File and result name suffixes and their units (longest first).
+_SUFFIX_UNITS = sorted(
+    {
+        "_mm": "mm",
+        "_Hz": "Hz",
+        "_A": "A",
+        "_V": "V",
+        "_VA": "VA",
+        "_W": "W",
+        "_T": "T",
+        "_C": "degC",
+        "_K": "K",
+        "_s": "s",
+        "_N": "N",
+        "_kg": "kg",
+        "_S_per_m": "S/m",
+        "_kg_per_m3": "kg/m^3",
+        "_W_per_m2K": "W/(m^2 K)",
+        "_W_per_mK": "W/(m K)",
+        "_per_K": "1/K",
+    }.items(),
+    key=lambda kv: -len(kv[0]),
+)
+
+
+def unit_of(key: str, value=None) -> str:
+    """Unit of a design-file key from its suffix (``gap_mm`` -> ``mm``); ``-`` for a plain number,
+    ``""`` for text."""
+    for suffix, unit in _SUFFIX_UNITS:
+        if key.endswith(suffix):
+            return unit
+    return "" if isinstance(value, str) else "-"

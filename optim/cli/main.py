@@ -29,7 +29,13 @@ from optim.jsonout import strict_json
 from optim.morning.outputs import export_trial, write_front
 from optim.morning.pickmap import evaluate_map, format_map, map_json, parse_axis, write_map
 from optim.morning.sweep import format_sweep, parse_sweep, plot_sweep, run_sweep
-from optim.morning.tolerance import (
+from optim.morning.tolerance_out import format_tolerance, tolerance_json, write_tolerance
+from optim.morning.verify import run_verify
+from optim.study.columns import open_readout
+from optim.study.run import run_study
+from optim.study.spec import load_study_spec
+from optim.study.storage import StorageFault, is_storage_error, storage_fault
+from optim.study.tolerance import (
     DEFAULT_SAMPLES,
     DEFAULT_SEED,
     SAMPLES_RANGE,
@@ -37,12 +43,6 @@ from optim.morning.tolerance import (
     run_tolerance,
     tolerances_for,
 )
-from optim.morning.tolerance_out import format_tolerance, tolerance_json, write_tolerance
-from optim.morning.verify import run_verify
-from optim.study.columns import open_readout
-from optim.study.run import run_study
-from optim.study.spec import load_study_spec
-from optim.study.storage import StorageFault, is_storage_error, storage_fault
 from optim.words import CAUTION
 
 __all__ = ["main"]

@@ -18,6 +18,7 @@ from optim.study.run import budget_minutes, run_study, study_folder
 from optim.study.space import coupling_rules
 from optim.study.spec import RUN_MAX, load_study_spec
 from optim.study.storage import is_url, release, rewrite_journal
+from optim.study.tolerance import SAMPLES_RANGE
 
 __all__ = ["add_study_parser"]
 
@@ -193,10 +194,16 @@ def _cmd_front(args) -> int:
 
 
 def _cmd_export(args) -> int:
-
     if (args.trial is not None) + (args.best is not None) + bool(args.nearest) != 1:
         raise UsageError("export: give exactly one of --trial N, --best OBJECTIVE and --nearest")
-
+    if args.samples is not None:  # issue 30
+        if not args.tolerance:
+            raise UsageError("--samples: needs --tolerance (the samples of its table)")
+        if not SAMPLES_RANGE[0] <= args.samples <= SAMPLES_RANGE[1]:
+            raise UsageError(
+                f"--samples = {args.samples}: must be between {SAMPLES_RANGE[0]} and "
+                f"{SAMPLES_RANGE[1]}"
+            )
     study, spec_json, where = _open(args)
     folder = _folder_for(args.location, spec_json, None)
     try:
@@ -213,6 +220,7 @@ def _cmd_export(args) -> int:
             echo=print,
             resolution_mm=args.resolution_mm,
             tolerance=args.tolerance,
+            samples=args.samples,  # issue 30
         )
     finally:
         release(study)
@@ -315,6 +323,11 @@ def add_study_parser(sub) -> None:
                 "--tolerance",
                 action="store_true",
                 help="add the tolerance table and a part radius x gap pick map (~2-3 min)",
+            )
+            p.add_argument(  # issue 30
+                "--samples",
+                type=int,
+                help="Monte Carlo samples of --tolerance's table (default 200; 10 to 100000)",
             )
             p.add_argument(
                 "--resolution-mm",

@@ -46,6 +46,7 @@ from optim.morning.dxfnotes import sheets_words
 from optim.morning.section import section_mm
 from optim.morning.winding import winding_dict
 from optim.tomlwrite import dumps_toml
+from optim.words import unit_of
 
 __all__ = ["write_handoff", "dumps_toml", "parameter_rows", "unit_of", "to_jsonable"]
 
@@ -53,28 +54,6 @@ HANDOFF_SCHEMA = "eddypull-handoff-1"
 
 # Unit of a file key from its suffix (longest first); keys without one are dimensionless ("-") or
 # text ("").
-_SUFFIX_UNITS = sorted(
-    {
-        "_mm": "mm",
-        "_Hz": "Hz",
-        "_A": "A",
-        "_V": "V",
-        "_VA": "VA",
-        "_W": "W",
-        "_T": "T",
-        "_C": "degC",
-        "_K": "K",
-        "_s": "s",
-        "_N": "N",
-        "_kg": "kg",
-        "_S_per_m": "S/m",
-        "_kg_per_m3": "kg/m^3",
-        "_W_per_m2K": "W/(m^2 K)",
-        "_W_per_mK": "W/(m K)",
-        "_per_K": "1/K",
-    }.items(),
-    key=lambda kv: -len(kv[0]),
-)
 
 #: Words for the design file's keys (table.key); other keys get a generic description.
 DESCRIPTIONS = {
@@ -122,15 +101,6 @@ DESCRIPTIONS = {
     "supply.max_current_A": "largest supply current available (rms)",
     "supply.max_VA": "largest apparent power the supply gives",
 }
-
-
-def unit_of(key: str, value=None) -> str:
-    """Unit of a design-file key from its suffix (``gap_mm`` -> ``mm``); ``-`` for a plain number,
-    ``""`` for text."""
-    for suffix, unit in _SUFFIX_UNITS:
-        if key.endswith(suffix):
-            return unit
-    return "" if isinstance(value, str) else "-"
 
 
 # ------------------------------------------------------------------------------- tables and JSON

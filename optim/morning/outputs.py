@@ -19,6 +19,7 @@ from models.errors import DesignError
 from models.evaluate import evaluate
 from optim.files import atomic_path, atomic_write_text
 from optim.morning import design_plots, plots, robustness
+from optim.morning.built_check import check_picks
 from optim.morning.cards import CardStates
 from optim.morning.front import constraint_lines, for_people, status_summary, trials_table
 from optim.morning.handoff import write_handoff
@@ -205,6 +206,9 @@ def write_front(
         front = front.sort_values(first, ascending=direction == "minimize")
     paths = _write_tables(folder, df, front)
     picks = _picks(front, objectives)
+    check_lines = []  # issue 30: the picks checked as built, those that hold first
+    if picks and (robustness.REPORT_TOLERANCE if tolerance is None else tolerance):
+        picks, check_lines = check_picks(spec, front, picks, design_of)
     picked = [t for _, t in picks][:3]  # the first three get a pull-against-gap curve
     designs = []
     for t in picked:
@@ -231,6 +235,7 @@ def write_front(
         f"all trials    {paths['trials.csv']}",
         f"plots         {folder / 'plots'} ({len(images)} files)",
         f"report        {paths['report.html']}",
+        *check_lines,  # issue 30
     ]
     if table is not None:
         t = table.study
@@ -427,6 +432,7 @@ def export_trial(
     echo=None,
     resolution_mm: float | None = None,
     tolerance: bool = False,
+    samples: int | None = None,
 ) -> dict:
     """Write the hand-off of one trial; returns file name -> path.
 
@@ -488,6 +494,8 @@ def export_trial(
                 echo=echo,
                 parts=spec.parts,
                 gaps_mm=spec.gaps_mm,
+                spec=spec,  # issue 30: samples as the study evaluates a trial
+                samples=samples,
             )
         )
     if echo is not None and not meta["feasible_unrounded"]:

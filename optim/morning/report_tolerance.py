@@ -2,7 +2,7 @@
 
 Three small tables from one ``optim.morning.robustness.ReportTolerance``: the tolerances with
 the largest effect on the lift ratio (``TOP_ROWS`` of them) and their effect on every output of
-``optim.morning.tolerance.OUTPUTS``; the Monte Carlo 5th, 50th and 95th percentiles of those
+``optim.study.tolerance.OUTPUTS``; the Monte Carlo 5th, 50th and 95th percentiles of those
 outputs; the share of the samples that keep each of the study's constraints and each of the
 design's own limits. Every piece of text is escaped with ``html.escape``.
 """
@@ -13,7 +13,7 @@ import html
 import math
 
 from optim.morning.robustness import CONSTRAINT_PREFIX
-from optim.morning.tolerance import OUTPUTS
+from optim.study.tolerance import OUTPUTS
 
 __all__ = ["TOP_ROWS", "tolerance_section"]
 

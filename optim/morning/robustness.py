@@ -3,7 +3,7 @@
 of each picked design (``--no-pick-maps`` leaves them out) and a compact tolerance table of the
 first pick (``--no-tolerance`` leaves it out).
 
-They wrap ``optim.morning.tolerance`` and ``optim.morning.pickmap``; the maps are the part's
+They wrap ``optim.study.tolerance`` and ``optim.morning.pickmap``; the maps are the part's
 radius against the gap around the design's own values (``pickmap.around_axes``). The report's
 tolerance table evaluates each sample as the study evaluates a trial (``study_evaluator``: its
 gap range, its family of parts), so that it can say how often each of the study's constraints
@@ -23,16 +23,18 @@ from types import SimpleNamespace
 from models.errors import DesignError
 from optim.morning.pickmap import DEFAULT_POINTS, offset_map_around, pick_map_around
 from optim.morning.pickmap_parts import parts_caption
-from optim.morning.tolerance import (
+from optim.morning.tolerance_out import write_tolerance
+from optim.study.built import study_tolerances
+from optim.study.objectives import results_of, study_kwargs
+from optim.study.tolerance import (
     DEFAULT_SAMPLES,
     DEFAULT_SEED,
     OUTPUTS,
     ToleranceStudy,
+    _capacitor_as_built,
     run_tolerance,
     tolerances_for,
 )
-from optim.morning.tolerance_out import write_tolerance
-from optim.study.objectives import results_of, study_kwargs
 
 __all__ = [
     "HANDOFF_POINTS",
@@ -73,22 +75,40 @@ CONSTRAINT_PREFIX = "study constraint: "
 
 
 def write_robustness(
-    design, out_dir, isothermal: bool = False, echo=None, parts=(), gaps_mm=()
+    design,
+    out_dir,
+    isothermal: bool = False,
+    echo=None,
+    parts=(),
+    gaps_mm=(),
+    spec=None,
+    samples: int | None = None,
 ) -> dict[str, Path]:
     """Write the tolerance table (tolerance.txt, tolerance.json, CSVs; default tolerances,
     HANDOFF_SAMPLES samples, the default seed) and the part radius x gap pick map (PNG, SVG,
     CSV; HANDOFF_POINTS per axis; a study's family ``parts`` marked; its gap axis takes in the
     study's pick gaps ``gaps_mm`` [mm] and the parts') of ``design`` into
-    ``out_dir``. Returns file name -> path; ``echo`` gets one line per piece with its time."""
+    ``out_dir``. Returns file name -> path; ``echo`` gets one line per piece with its time.
+
+    With the study's ``spec`` (issue 30) each sample is evaluated as the study evaluates a trial
+    (``study_evaluator``), the tolerances are the study's where it is judged as built
+    (``optim.study.built.study_tolerances``), and tolerance.json gains ``constraints_held``:
+    study constraint -> share of the samples that keep it (``built_check.constraints_held``).
+    ``samples``: the Monte Carlo count (default HANDOFF_SAMPLES)."""
     t0 = time.perf_counter()
+    n = HANDOFF_SAMPLES if samples is None else samples
+    if spec is not None:  # issue 30: a tuned capacitor fixed as built, then its tolerance
+        design = _capacitor_as_built(design, isothermal, study_evaluator(spec))
     study = run_tolerance(
         design,
-        tolerances_for(design),
-        samples=HANDOFF_SAMPLES,
+        check_tolerances(spec, design),
+        samples=n,
         seed=DEFAULT_SEED,
         isothermal=isothermal,
+        evaluator=None if spec is None else study_evaluator(spec),
     )
-    paths = write_tolerance(study, out_dir)
+    extra = {} if spec is None else {"constraints_held": constraints_held(spec, study)}
+    paths = write_tolerance(study, out_dir, extra=extra)
     if echo is not None:
         echo(f"tolerance table: {study.n_samples} samples in {time.perf_counter() - t0:.0f} s")
         for note in study.notes:
@@ -184,7 +204,7 @@ def constraint_words(constraint) -> str:
 
 
 def study_evaluator(spec):
-    """An ``evaluator(design, isothermal)`` for ``optim.morning.tolerance.run_tolerance`` that
+    """An ``evaluator(design, isothermal)`` for ``optim.study.tolerance.run_tolerance`` that
     evaluates a design as the study evaluates a trial (``optim.study.objectives.results_of``
     with its gaps and parts): the table's outputs are the flat results of that name (the first
     lift part's at the design's gap, as ``evaluate`` gives them), its margins the design's own
@@ -200,6 +220,8 @@ def study_evaluator(spec):
             margin = c.margin(value) if math.isfinite(value) else -math.inf
             margins[CONSTRAINT_PREFIX + constraint_words(c)] = margin
         values = {name: flat.get(name, math.nan) for name, *_ in OUTPUTS}
+        # issue 30: the tuned capacitor's value, so that run_tolerance fixes it as built
+        values["capacitor_uF"] = flat.get("capacitor_uF", 0.0)
         return SimpleNamespace(**values, margins=margins)
 
     return evaluator
@@ -239,3 +261,28 @@ def report_tolerance(
         evaluator=study_evaluator(spec),
     )
     return ReportTolerance(label, why, study, HANDOFF_SAMPLES, family=bool(spec.parts))
+
+
+def check_tolerances(spec, design) -> list:
+    """The tolerances a check uses: the study's where it is judged as built, else the
+    defaults (``design`` with its capacitor already fixed, so that it has a capacitance)."""
+    if spec is not None and getattr(spec, "built", None) is not None:
+        return study_tolerances(design, spec.built, spec.gaps_mm)
+    return tolerances_for(design)
+
+
+def constraints_held(spec, study) -> dict[str, float]:
+    """Study constraint name -> share of the evaluated samples of ``study`` (a ToleranceStudy
+    run with ``study_evaluator(spec)``) that keep it; ``"all"``: all of them at once."""
+    rows = [r for r in study.samples if "refused" not in r]
+    n = len(study.samples)
+    out = {}
+    keys = [CONSTRAINT_PREFIX + constraint_words(c) for c in spec.constraints]
+    for c, key in zip(spec.constraints, keys, strict=True):
+        out[c.name] = (
+            sum(r["margins"].get(key, -math.inf) >= 0 for r in rows) / n if n else math.nan
+        )
+    if keys:
+        every = [all(r["margins"].get(k, -math.inf) >= 0 for k in keys) for r in rows]
+        out["all"] = float(sum(every)) / n if n else math.nan
+    return out

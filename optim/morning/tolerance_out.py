@@ -1,5 +1,5 @@
 """A tolerance study's outputs: the table ``eddypull tolerance`` prints, its JSON and its CSV
-files (the study itself is optim.morning.tolerance)."""
+files (the study itself is optim.study.tolerance)."""
 
 from __future__ import annotations
 
@@ -11,7 +11,7 @@ from pathlib import Path
 from models.errors import DesignError
 from optim.files import atomic_write_text, safe_child
 from optim.jsonout import strict_json
-from optim.morning.tolerance import OUTPUTS, ToleranceStudy
+from optim.study.tolerance import OUTPUTS, ToleranceStudy
 
 __all__ = ["format_tolerance", "tolerance_json", "tolerance_csvs", "write_tolerance"]
 
@@ -171,9 +171,9 @@ def tolerance_csvs(study: ToleranceStudy) -> dict[str, str]:
     }
 
 
-def write_tolerance(study: ToleranceStudy, out_dir) -> dict[str, Path]:
+def write_tolerance(study: ToleranceStudy, out_dir, extra: dict | None = None) -> dict[str, Path]:
     """Write tolerance.txt, tolerance.json and the CSV tables into ``out_dir`` (atomically);
-    returns file name -> path."""
+    returns file name -> path. ``extra``: more keys of tolerance.json (``constraints_held``)."""
 
     out_dir = Path(out_dir)
     if out_dir.exists() and not out_dir.is_dir():
@@ -185,5 +185,7 @@ def write_tolerance(study: ToleranceStudy, out_dir) -> dict[str, Path]:
     paths["tolerance.txt"] = safe_child(out_dir, "tolerance.txt")
     paths["tolerance.json"] = safe_child(out_dir, "tolerance.json")
     atomic_write_text(paths["tolerance.txt"], format_tolerance(study) + "\n")
-    atomic_write_text(paths["tolerance.json"], strict_json(tolerance_json(study, paths)) + "\n")
+    atomic_write_text(
+        paths["tolerance.json"], strict_json(tolerance_json(study, paths) | (extra or {})) + "\n"
+    )
     return paths

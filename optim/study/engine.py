@@ -45,6 +45,7 @@ import optuna
 from optuna.trial import TrialState
 
 from models.errors import DesignError
+from optim.study.built import judge_built, judged
 from optim.study.ledger import open_ledger
 from optim.study.objectives import (
     design_rule_violations,
@@ -92,6 +93,8 @@ def evaluate_trial(spec, values: dict) -> Outcome:
         flat, warnings, binding = results_of(
             design, spec.gaps_mm, isothermal=isothermal, **study_kwargs(spec)
         )
+        if getattr(spec, "built", None) is not None:  # issue 30: judged as built
+            flat = {**flat, **judge_built(design, spec, flat)}
     except DesignError as err:
         out.reason = "model refused: " + "; ".join(err.problems)
         return out
@@ -99,8 +102,11 @@ def evaluate_trial(spec, values: dict) -> Outcome:
         out.reason = f"model error: {type(err).__name__}: {err}"[:500]
         return out
     out.flat, out.warnings, out.binding = flat, warnings[:8], binding
+    seen_o = seen_c = flat
+    if getattr(spec, "built", None) is not None:  # issue 30: judged as built
+        seen_o, seen_c = judged(flat, spec)
     try:
-        vals = objective_values(flat, spec.objectives)
+        vals = objective_values(seen_o, spec.objectives)
     except KeyError as err:
         out.reason = f"model error: result {err} missing"
         return out
@@ -109,7 +115,7 @@ def evaluate_trial(spec, values: dict) -> Outcome:
         out.reason = "non-finite result: " + ", ".join(bad)
         return out
     for c in spec.constraints:
-        value = flat.get(c.name, math.nan)
+        value = seen_c.get(c.name, math.nan)
         if math.isnan(value):
             out.reason = f"non-finite result: {c.name}"
             return out

@@ -54,7 +54,7 @@ def part_design(design: Design, part: Part) -> Design:
     """``design`` with ``part`` in the place of its target (the design's gap kept); ``design``
     itself when its target is already that part. The magnet's pole and ring are ``design``'s own
     validated ones, so that a property varied on them (a tolerance table's ring conductivity or
-    pole permeability, ``optim.morning.tolerance.MATERIAL_KEYS``) reaches every part."""
+    pole permeability, ``optim.study.tolerance.MATERIAL_KEYS``) reaches every part."""
     target = part_source(design.source, part)["target"]
     if target == design.source.get("target"):
         return design

@@ -19,6 +19,9 @@ A study file::
     gap_max_mm = 4.0
     points = 3
     offset_max_mm = 2.0               # and the part off the axis by 0..2 mm (offset_points, 3)
+    built_probability = 0.95          # judged as built (optim.study.built): absent, nominal
+    [tolerances]                      # with it, optional: as `eddypull tolerance --spec` reads
+    "ring.depth_mm" = 0.05
     [[parts]]                         # or a family of parts instead of [target] overrides:
     name = "cap10"                    #   optim.study.parts (each part's size, metal, gap range
     radius_mm = 5.0                   #   and role, "lift" or "leave"); results by part and
@@ -54,6 +57,7 @@ from models.design import DESIGN_KEYS, PLAUSIBLE_LIMITS, design_from_dict, read_
 from models.errors import DesignError, nearest
 from models.result import FLAT_FIELDS, MODEL_VERSION
 from optim.files import safe_name
+from optim.study.built import built_names, parse_built
 from optim.study.objectives import Constraint, Objective, results_of
 from optim.study.parts import GAP_KEYS, Part, parse_parts, part_source
 from optim.study.space import Parameter, design_source, parse_search
@@ -78,6 +82,7 @@ _TOP = {
     "constraints",
     "run",
     "parts",
+    "tolerances",  # issue 30: a study judged as built (optim.study.built)
 }
 _RUN_KEYS = {
     "trials": "int",
@@ -130,6 +135,7 @@ class StudySpec:
     result_names: tuple = ()
     parts: tuple[Part, ...] = ()
     offsets_mm: tuple = ()
+    built: object = None  # issue 30: optim.study.built.BuiltSpec, None: a nominal study
 
     @property
     def lateral(self) -> bool | None:
@@ -140,7 +146,7 @@ class StudySpec:
 
     def to_json(self) -> dict:
         """Everything needed to rebuild the spec without its file (kept in the storage)."""
-        return {
+        out = {
             "name": self.name,
             "description": self.description,
             "base": self.base,
@@ -153,6 +159,9 @@ class StudySpec:
             },
             "run": {k: v for k, v in self.run.items() if k != "storage"},
         } | ({"parts": [p.to_json() for p in self.parts]} if self.parts else {})
+        if self.built is not None and self.built.table is not None:  # issue 30
+            out["tolerances"] = self.built.table
+        return out
 
     def _robust_json(self):
         out = {}
@@ -162,7 +171,7 @@ class StudySpec:
         if self.offsets_mm:
             o = self.offsets_mm
             out |= {"offset_max_mm": o[-1], "offset_points": len(o)}
-        return out
+        return out | ({} if self.built is None else self.built.robust_json())  # issue 30
 
     def fingerprint(self) -> str:
         """Hash of what defines the study's trials (base design, search, objectives, robust
@@ -173,6 +182,8 @@ class StudySpec:
         key = {k: d[k] for k in ("base", "search", "objectives", "robust", "constraints")}
         if self.parts:
             key["parts"] = d["parts"]
+        if "tolerances" in d:  # issue 30: a study judged as built with its own tolerances
+            key["tolerances"] = d["tolerances"]
         key["isothermal"] = bool(self.run.get("isothermal", False))
         if self.run.get("allow_out_of_depth", False):  # a study without it hashes as before
             key["allow_out_of_depth"] = True
@@ -406,6 +417,9 @@ def spec_from_dict(data: dict, folder: Path | None = None, name: str = "study") 
     _check_result_names(objectives, constraints, problems)
     if problems:
         raise DesignError(problems)
+    built = parse_built(robust, data.get("tolerances"), base, problems)
+    if problems:
+        raise DesignError(problems)
 
     names = {o.name for o in objectives} | {c.name for c in constraints}
     offsets = _robust_offsets(robust, problems)
@@ -449,9 +463,11 @@ def spec_from_dict(data: dict, folder: Path | None = None, name: str = "study") 
         run=dict(run),
         description=str(data.get("description", "")),
         folder=folder,
-        result_names=tuple(known),
+        result_names=tuple(known)
+        + (tuple(built_names(objectives, constraints)) if built is not None else ()),
         parts=tuple(parts),
         offsets_mm=offsets,
+        built=built,  # issue 30
     )
 
 
@@ -678,4 +694,6 @@ def spec_from_json(d: dict) -> StudySpec:
         data["robust"] = d["robust"]
     if d.get("parts"):
         data["parts"] = d["parts"]
+    if d.get("tolerances") is not None:  # issue 30
+        data["tolerances"] = d["tolerances"]
     return spec_from_dict(data, name=d["name"])

@@ -264,7 +264,7 @@ def test_the_handoff_names_the_capacitor_and_its_rating(tmp_path):
 def test_a_tolerance_sample_keeps_the_capacitor_as_built():
     # a built magnet's capacitor does not retune to each sample's coil: the samples of a
     # tolerance table carry the nominal design's tuned capacitance (file value included)
-    from optim.morning.tolerance import _capacitor_as_built, varied_design
+    from optim.study.tolerance import _capacitor_as_built, varied_design
 
     design = design_from_dict(_demo(current_A=None, voltage_V=10.0, compensation="series"))
     r = evaluate(design)

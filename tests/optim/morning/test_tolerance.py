@@ -1,4 +1,4 @@
-"""Tolerance tables (optim/morning/tolerance.py, ``eddypull tolerance``): the linear estimate
+"""Tolerance tables (optim/study/tolerance.py, ``eddypull tolerance``): the linear estimate
 against the Monte Carlo spread, the central differences, the material keys, the tolerance file's
 errors and the files written."""
 
@@ -15,7 +15,7 @@ import pytest
 from models.design import load_design, with_value
 from models.evaluate import evaluate
 from optim.cli import main
-from optim.morning.tolerance import (
+from optim.study.tolerance import (
     DEFAULTS,
     OUTPUTS,
     parse_tolerance_table,

@@ -57,7 +57,7 @@ import numpy as np
 from models.design import DESIGN_KEYS, edit, read_toml, resolve_key, with_fixed_capacitor
 from models.errors import DesignError, nearest
 from models.evaluate import evaluate
-from optim.morning.handoff import unit_of
+from optim.words import unit_of
 
 __all__ = [
     "DEFAULT_SAMPLES",
