@@ -8,7 +8,7 @@ be fetched here, and a search of the stored pages for "TEAM problem 28 levitatio
 of it, so no number below is confirmed against the document.
 
 * plate: aluminium disc, outer radius 65 mm, thickness 3 mm, conductivity 3.4e7 S/m, mass
-  0.107 kg. Transcriptions disagree on a small central hole: we use a solid disc (no hole), whose
+  0.107 kg. Published copies of the definition disagree on a small central hole: we use a solid disc (no hole), whose
   volume at 2700 kg/m^3 gives 0.1075 kg, the stated mass; its density is set from that mass;
 * inner coil 960 turns, 27-55 mm radially, 52 mm high; outer coil 576 turns, 80-95 mm, 52 mm
   high; both tops in one plane, the plate's height measured from it to the plate's lower face;
